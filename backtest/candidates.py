@@ -1,0 +1,73 @@
+"""Candidate models: parsing the JSON spec, its canonical form and its stable id.
+
+A candidate is a JSON object with a ``family`` field and that family's options (see
+DEVELOPERS.md, "Candidate specs"). Its canonical form fills every default and sorts keys;
+its id is ``"c"`` followed by the first 16 hex digits of the SHA-256 of that text, so the
+same spec written in any key order, with or without defaults, gets the same id.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+
+from backtest.errors import CandidateError
+from backtest.models import FAMILIES, ModelSpec
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A parsed candidate: its spec, canonical JSON text and stable id."""
+
+    spec: ModelSpec
+
+    @property
+    def canonical(self) -> dict:
+        """The canonical spec, ``family`` included."""
+        return {"family": self.spec.family, **self.spec.body()}
+
+    @property
+    def canonical_json(self) -> str:
+        return json.dumps(self.canonical, sort_keys=True, separators=(",", ":"))
+
+    @property
+    def id(self) -> str:
+        return "c" + hashlib.sha256(self.canonical_json.encode()).hexdigest()[:16]
+
+    def label(self, season_length: int) -> str:
+        return self.spec.label(season_length)
+
+
+def parse_candidate(body: object) -> Candidate:
+    """Parse one candidate spec; raise :class:`CandidateError` saying what is wrong."""
+    if not isinstance(body, Mapping):
+        raise CandidateError(f"a candidate must be a JSON object, got {type(body).__name__}")
+    family = body.get("family")
+    if family not in FAMILIES:
+        raise CandidateError(f"candidate family {family!r} is unknown; "
+                             f"use one of {', '.join(sorted(FAMILIES))}")
+    return Candidate(FAMILIES[family](body))
+
+
+def parse_candidates(bodies: Iterable[object]) -> tuple[Candidate, ...]:
+    """Parse a list of specs; the message names the (1-based) position of a bad one.
+
+    Duplicates (same canonical spec) are rejected, since they would be ranked twice.
+    """
+    if isinstance(bodies, Mapping | str) or not isinstance(bodies, Iterable):
+        raise CandidateError("candidates must be a JSON list of candidate objects")
+    out: list[Candidate] = []
+    for position, body in enumerate(bodies, start=1):
+        try:
+            candidate = parse_candidate(body)
+        except CandidateError as exc:
+            raise CandidateError(f"candidate {position}: {exc}") from None
+        if any(c.id == candidate.id for c in out):
+            raise CandidateError(f"candidate {position} repeats an earlier candidate "
+                                 f"({candidate.canonical_json})")
+        out.append(candidate)
+    if not out:
+        raise CandidateError("the candidate list is empty")
+    return tuple(out)

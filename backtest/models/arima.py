@@ -1,0 +1,131 @@
+"""ARIMA and seasonal ARIMA with an optional constant or drift (statsmodels state space).
+
+Estimation is exact Gaussian maximum likelihood with a diffuse initialisation of the
+nonstationary part (statsmodels ``ARIMA(...).fit()`` defaults: stationarity and
+invertibility enforced). Forecasts with given parameters come from the Kalman filter over
+the training window, so a kept parameter set still conditions on every observation up to
+the origin.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import ClassVar, Literal
+
+import numpy as np
+from statsmodels.tsa.arima.model import ARIMA
+
+from backtest.errors import CandidateError
+from backtest.models.base import (
+    Fit,
+    Forecast,
+    ModelSpec,
+    Params,
+    choice,
+    normal_bounds,
+    optional_period,
+    small_int,
+    take_fields,
+)
+from backtest.transforms import Transform, parse_transform
+
+Deterministic = Literal["none", "constant", "drift"]
+_TREND = {"none": "n", "constant": "c", "drift": "t"}
+_RENAME = {"const": "constant", "x1": "drift"}
+
+
+@dataclass(frozen=True)
+class ArimaSpec(ModelSpec):
+    """ARIMA(p,d,q)(P,D,Q)[period] with a deterministic term and a transform."""
+
+    family: ClassVar[str] = "arima"
+    order: tuple[int, int, int] = (0, 1, 1)
+    seasonal: tuple[int, int, int] | None = None
+    period: int | None = None
+    deterministic: Deterministic = "none"
+    transform: Transform = Transform()
+
+    def body(self) -> dict:
+        seasonal = None if self.seasonal is None else {
+            "order": list(self.seasonal), "period": self.period}
+        return {"order": list(self.order), "seasonal": seasonal,
+                "deterministic": self.deterministic, "transform": self.transform.canonical()}
+
+    def label(self, season_length: int) -> str:
+        text = "ARIMA({},{},{})".format(*self.order)
+        if self.seasonal is not None:
+            text += "({},{},{})[{}]".format(*self.seasonal, self.season_period(season_length))
+        if self.deterministic != "none":
+            text += f" {self.deterministic}"
+        return text + self.transform.suffix()
+
+    def season_period(self, season_length: int) -> int:
+        """The seasonal period in use: the spec's own, else the series' season length."""
+        return self.period or season_length
+
+    def check(self, season_length: int) -> None:
+        if self.seasonal is not None and self.season_period(season_length) < 2:
+            raise CandidateError(f"{self.label(season_length)}: a seasonal part needs a period "
+                                 "of at least 2, and the series has season length 1")
+
+    def min_train(self, season_length: int) -> int:
+        p, d, q = self.order
+        big_p, big_d, big_q = self.seasonal or (0, 0, 0)
+        s = self.season_period(season_length) if self.seasonal else 0
+        n_params = p + q + big_p + big_q + (self.deterministic != "none") + 1
+        return d + big_d * s + max(p + big_p * s, q + big_q * s) + n_params + 2
+
+    def model(self, y: np.ndarray, season_length: int) -> ARIMA:
+        """The statsmodels model for training window ``y``."""
+        seasonal = (0, 0, 0, 0)
+        if self.seasonal is not None:
+            seasonal = (*self.seasonal, self.season_period(season_length))
+        return ARIMA(y, order=self.order, seasonal_order=seasonal,
+                     trend=_TREND[self.deterministic])
+
+    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+        model = self.model(y, season_length)
+        fitted = model.fit()
+        names = [_RENAME.get(n, n) for n in model.param_names]
+        return Fit(dict(zip(names, map(float, fitted.params))), fitted)
+
+    def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
+                 levels: tuple[int, ...], seed: int) -> Forecast:
+        model = self.model(y, season_length)
+        vector = np.array([params[_RENAME.get(n, n)] for n in model.param_names])
+        prediction = model.filter(vector).get_forecast(horizon)
+        mean = np.asarray(prediction.predicted_mean, dtype=float)
+        sd = np.sqrt(np.asarray(prediction.var_pred_mean, dtype=float))
+        return normal_bounds(mean, sd, levels)
+
+
+def parse(body: Mapping) -> ArimaSpec:
+    """Read an ``arima`` candidate body; reject impossible deterministic terms."""
+    fields = take_fields(body, "arima", {"order", "seasonal", "deterministic", "transform"})
+    order = _order(fields.get("order"), "arima order", (5, 2, 5))
+    seasonal, period = None, None
+    if fields.get("seasonal") is not None:
+        part = fields["seasonal"]
+        if not isinstance(part, Mapping) or not set(part) <= {"order", "period"}:
+            raise CandidateError('arima seasonal must be {"order": [P, D, Q], "period": m}')
+        seasonal = _order(part.get("order"), "arima seasonal order", (2, 1, 2))
+        period = optional_period(part.get("period"), "arima seasonal period")
+    det = choice(fields.get("deterministic", "none"), tuple(_TREND), "arima deterministic")
+    integration = order[1] + (seasonal[1] if seasonal else 0)
+    if det == "constant" and integration != 0:
+        raise CandidateError(f"arima: a constant needs d + D = 0 (here {integration}); with "
+                             "d + D = 1 use \"drift\", with more differencing use \"none\"")
+    if det == "drift" and integration != 1:
+        raise CandidateError(f"arima: drift needs d + D = 1 (here {integration}); with "
+                             "d + D = 0 use \"constant\", with more differencing use \"none\"")
+    transform = parse_transform(fields.get("transform"))
+    return ArimaSpec(order, seasonal, period, det, transform)  # type: ignore[arg-type]
+
+
+def _order(value: object, what: str, highs: tuple[int, int, int]) -> tuple[int, int, int]:
+    if not isinstance(value, list | tuple) or len(value) != 3:
+        raise CandidateError(f"{what} must be a list of three integers, got {value!r}")
+    names = ("first", "second", "third")
+    return tuple(small_int(v, f"{what} {names[i]} entry", highs[i])  # type: ignore[return-value]
+                 for i, v in enumerate(value))

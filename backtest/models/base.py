@@ -1,0 +1,131 @@
+"""What every model family provides: a frozen spec that can estimate and forecast.
+
+A family is one module in this package holding a frozen dataclass that subclasses
+:class:`ModelSpec`, plus its ``parse`` function registered in ``backtest.models``.
+The engine only ever calls the methods below, always on data up to the forecast origin
+(already transformed by the spec's transform).
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+from scipy import stats
+
+from backtest.errors import CandidateError
+from backtest.transforms import Transform
+
+Params = dict[str, float]
+
+
+@dataclass(frozen=True, eq=False)
+class Fit:
+    """Estimated parameters, plus the library's fitted-results object where there is one.
+
+    ``raw`` (e.g. statsmodels' ARIMA results) lets the assessment code compute standard
+    errors and residual tests; it stays inside the worker process and is never returned.
+    """
+
+    params: Params
+    raw: Any = None
+
+
+@dataclass(frozen=True, eq=False)
+class Forecast:
+    """Point forecasts for h = 1..H and central interval bounds per level (in %)."""
+
+    mean: np.ndarray
+    lower: dict[int, np.ndarray]
+    upper: dict[int, np.ndarray]
+
+
+class ModelSpec(ABC):
+    """A candidate model definition; subclasses are frozen dataclasses."""
+
+    family: ClassVar[str]
+    #: Closed-form families are re-estimated at every origin whatever the refit cadence.
+    closed_form: ClassVar[bool] = False
+    transform: Transform
+
+    @abstractmethod
+    def body(self) -> dict:
+        """Canonical JSON body of the spec, every default filled in (without ``family``)."""
+
+    @abstractmethod
+    def label(self, season_length: int) -> str:
+        """Short human-readable name, e.g. ``ARIMA(0,1,1)(0,1,1)[12] log``."""
+
+    @abstractmethod
+    def min_train(self, season_length: int) -> int:
+        """Fewest training observations this spec can be estimated on."""
+
+    @abstractmethod
+    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+        """Estimate parameters on the training window ``y``."""
+
+    @abstractmethod
+    def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
+                 levels: tuple[int, ...], seed: int) -> Forecast:
+        """Forecast h = 1..horizon from the end of ``y`` with the given parameters."""
+
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+                     levels: tuple[int, ...], seed: int) -> tuple[Fit, Forecast]:
+        """Estimate on ``y`` and forecast from its end; families may do both in one pass."""
+        fit = self.fit(y, season_length)
+        return fit, self.forecast(y, season_length, fit.params, horizon, levels, seed)
+
+    def check(self, season_length: int) -> None:  # noqa: B027 - optional hook
+        """Raise :class:`CandidateError` if the spec is impossible for this season length."""
+
+    @property
+    def needs_positive(self) -> bool:
+        """Whether the data must be strictly positive."""
+        return self.transform.needs_positive
+
+
+def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> Forecast:
+    """Gaussian central intervals ``mean +/- z * sd`` for each level."""
+    lower, upper = {}, {}
+    for level in levels:
+        z = stats.norm.ppf(0.5 + level / 200.0)
+        lower[level], upper[level] = mean - z * sd, mean + z * sd
+    return Forecast(mean, lower, upper)
+
+
+def take_fields(body: Mapping, family: str, allowed: set[str]) -> dict:
+    """Return ``body`` without ``family``; reject keys outside ``allowed``."""
+    if not isinstance(body, Mapping):
+        raise CandidateError(f"{family} candidate must be a JSON object, got {type(body).__name__}")
+    unknown = sorted(set(body) - allowed - {"family"})
+    if unknown:
+        raise CandidateError(f"{family} candidate: unknown field(s) {', '.join(unknown)}; "
+                             f"allowed: {', '.join(sorted(allowed))}")
+    return {k: v for k, v in body.items() if k != "family"}
+
+
+def choice(value: object, options: tuple[str, ...], what: str) -> str:
+    """Check that ``value`` is one of ``options``."""
+    if value not in options:
+        raise CandidateError(f"{what} must be one of {', '.join(options)}; got {value!r}")
+    return str(value)
+
+
+def small_int(value: object, what: str, high: int) -> int:
+    """Check that ``value`` is an integer in 0..high."""
+    if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= high:
+        raise CandidateError(f"{what} must be an integer from 0 to {high}; got {value!r}")
+    return value
+
+
+def optional_period(value: object, what: str) -> int | None:
+    """A seasonal period of at least 2, or ``None`` for the series' own season length."""
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int) or value < 2:
+        raise CandidateError(f"{what} must be an integer of at least 2 (or omitted to use the "
+                             f"series' season length); got {value!r}")
+    return value

@@ -1,0 +1,100 @@
+"""Benchmark forecasts with closed-form point forecasts and Gaussian prediction intervals.
+
+Formulas (Hyndman & Athanasopoulos, *Forecasting: Principles and Practice*, 3rd ed.,
+2021, section 5.5, table of h-step standard deviations; recalled, checked against the
+written-out examples in the tests): with residual standard deviation ``s`` estimated as
+``sqrt(sum(e^2) / (T - K - M))`` (K parameters, M residuals lost at the start),
+
+- mean:            forecast mean(y);             sd_h = s * sqrt(1 + 1/T)
+- naive:           forecast y_T;                 sd_h = s * sqrt(h)
+- seasonal naive:  forecast y_{T+h-m(k+1)};      sd_h = s * sqrt(k + 1), k = floor((h-1)/m)
+- drift:           forecast y_T + h*b, b = (y_T - y_1)/(T - 1);  sd_h = s * sqrt(h (1 + h/T))
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import ClassVar, Literal
+
+import numpy as np
+
+from backtest.models.base import (
+    Fit,
+    Forecast,
+    ModelSpec,
+    Params,
+    choice,
+    normal_bounds,
+    take_fields,
+)
+from backtest.transforms import Transform
+
+Method = Literal["naive", "seasonal_naive", "drift", "mean"]
+_LABEL = {"naive": "Naive", "seasonal_naive": "Seasonal naive", "drift": "Drift",
+          "mean": "Mean"}
+
+
+@dataclass(frozen=True)
+class BenchmarkSpec(ModelSpec):
+    """One of the four standard benchmark methods."""
+
+    family: ClassVar[str] = "benchmark"
+    closed_form: ClassVar[bool] = True
+    method: Method = "seasonal_naive"
+    transform: Transform = Transform()
+
+    def body(self) -> dict:
+        return {"method": self.method}
+
+    def label(self, season_length: int) -> str:
+        if self.method == "seasonal_naive":
+            return f"{_LABEL[self.method]}[{season_length}]"
+        return _LABEL[self.method]
+
+    def min_train(self, season_length: int) -> int:
+        return {"naive": 2, "mean": 2, "drift": 3, "seasonal_naive": season_length + 1}[
+            self.method]
+
+    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+        return self.fit_forecast(y, season_length, 1, (), 0)[0]
+
+    def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
+                 levels: tuple[int, ...], seed: int) -> Forecast:
+        return self.fit_forecast(y, season_length, horizon, levels, seed)[1]
+
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+                     levels: tuple[int, ...], seed: int) -> tuple[Fit, Forecast]:
+        y = np.asarray(y, dtype=float)
+        n, h = len(y), np.arange(1, horizon + 1)
+        m = season_length
+        if self.method == "mean":
+            mean = np.full(horizon, y.mean())
+            s = np.sqrt(np.sum((y - y.mean()) ** 2) / (n - 1))
+            sd = s * np.sqrt(1 + 1 / n) * np.ones(horizon)
+            params = {"mean": float(y.mean()), "sigma": float(s)}
+        elif self.method == "naive":
+            mean = np.full(horizon, y[-1])
+            s = np.sqrt(np.mean(np.diff(y) ** 2))
+            sd = s * np.sqrt(h)
+            params = {"sigma": float(s)}
+        elif self.method == "drift":
+            slope = (y[-1] - y[0]) / (n - 1)
+            mean = y[-1] + h * slope
+            s = np.sqrt(np.sum((np.diff(y) - slope) ** 2) / (n - 2))
+            sd = s * np.sqrt(h * (1 + h / n))
+            params = {"drift": float(slope), "sigma": float(s)}
+        else:
+            k = (h - 1) // m
+            mean = y[n + h - 1 - m * (k + 1)]
+            s = np.sqrt(np.mean((y[m:] - y[:-m]) ** 2))
+            sd = s * np.sqrt(k + 1)
+            params = {"sigma": float(s)}
+        return Fit(params), normal_bounds(mean, sd, levels)
+
+
+def parse(body: Mapping) -> BenchmarkSpec:
+    """Read a ``benchmark`` candidate body."""
+    fields = take_fields(body, "benchmark", {"method"})
+    method = choice(fields.get("method"), tuple(_LABEL), "benchmark method")
+    return BenchmarkSpec(method)  # type: ignore[arg-type]

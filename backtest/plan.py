@@ -1,0 +1,139 @@
+"""The backtest plan: where the forecast origins fall, how windows move, when to re-estimate.
+
+JSON form (every field optional except ``horizon``)::
+
+    {"horizon": 12,
+     "first_origin": {"train_size": 60} | {"period": "2019-12"},
+     "step": 1, "max_origins": 24,
+     "window": "expanding" | {"kind": "sliding", "length": 60},
+     "refit": 1 | 6 | "once",
+     "levels": [80, 95], "seed": 0,
+     "benchmark": "seasonal_naive", "rank_by": "mase", "rank_horizon": null}
+
+Origin ``t`` means the model sees observations ``0..t-1`` (or the last ``length`` of them)
+and forecasts ``t..t+H-1``. Origins run from the first one in steps of ``step`` while a full
+horizon of actuals exists; if there are more than ``max_origins``, the latest are kept.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Literal
+
+from backtest.errors import PlanError
+
+RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
+BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
+_FIELDS = {"horizon", "first_origin", "step", "max_origins", "window", "refit", "levels",
+           "seed", "benchmark", "rank_by", "rank_horizon"}
+
+
+@dataclass(frozen=True)
+class Plan:
+    """A validated plan; see the module docstring for the meaning of each field."""
+
+    horizon: int
+    first_train_size: int | None = None
+    first_period: str | None = None
+    step: int = 1
+    max_origins: int | None = None
+    window: Literal["expanding", "sliding"] = "expanding"
+    window_length: int | None = None
+    refit: int | Literal["once"] = 1
+    levels: tuple[int, ...] = (80, 95)
+    seed: int = 0
+    benchmark: str = "seasonal_naive"
+    rank_by: str = "mase"
+    rank_horizon: int | None = None
+
+    def reestimates_at(self, origin_number: int) -> bool:
+        """Whether parameters are re-estimated at the ``origin_number``-th origin (0-based)."""
+        if self.refit == "once":
+            return origin_number == 0
+        return origin_number % self.refit == 0
+
+    def canonical(self) -> dict:
+        """Canonical JSON body (every default filled in)."""
+        first = ({"period": self.first_period} if self.first_period is not None
+                 else {"train_size": self.first_train_size})
+        window = ("expanding" if self.window == "expanding"
+                  else {"kind": "sliding", "length": self.window_length})
+        return {"horizon": self.horizon, "first_origin": first, "step": self.step,
+                "max_origins": self.max_origins, "window": window, "refit": self.refit,
+                "levels": list(self.levels), "seed": self.seed, "benchmark": self.benchmark,
+                "rank_by": self.rank_by, "rank_horizon": self.rank_horizon}
+
+
+def parse_plan(body: object) -> Plan:
+    """Validate a plan body; raise :class:`PlanError` naming the field at fault."""
+    if not isinstance(body, Mapping):
+        raise PlanError("the plan must be a JSON object")
+    unknown = sorted(set(body) - _FIELDS)
+    if unknown:
+        raise PlanError(f"plan: unknown field(s) {', '.join(unknown)}")
+    horizon = _positive(body.get("horizon"), "horizon", required=True)
+    first_size, first_period = _first_origin(body.get("first_origin"))
+    window, length = _window(body.get("window", "expanding"))
+    refit = body.get("refit", 1)
+    if refit != "once":
+        refit = _positive(refit, "refit")
+    levels = _levels(body.get("levels", [80, 95]))
+    seed = body.get("seed", 0)
+    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**32:
+        raise PlanError(f"plan seed must be an integer from 0 to 2**32-1, got {seed!r}")
+    benchmark = body.get("benchmark", "seasonal_naive")
+    if benchmark not in BENCHMARKS:
+        raise PlanError(f"plan benchmark must be one of {', '.join(BENCHMARKS)}, got {benchmark!r}")
+    rank_by = body.get("rank_by", "mase")
+    if rank_by not in RANK_SCORES:
+        raise PlanError(f"plan rank_by must be one of {', '.join(RANK_SCORES)}, got {rank_by!r}")
+    rank_horizon = body.get("rank_horizon")
+    if rank_horizon is not None:
+        rank_horizon = _positive(rank_horizon, "rank_horizon")
+        if rank_horizon > horizon:
+            raise PlanError(f"plan rank_horizon {rank_horizon} exceeds the horizon {horizon}")
+    return Plan(horizon, first_size, first_period, _positive(body.get("step", 1), "step"),
+                _positive(body.get("max_origins"), "max_origins", optional=True),
+                window, length, refit, levels, seed, benchmark, rank_by, rank_horizon)
+
+
+def _positive(value: object, name: str, *, required: bool = False,
+              optional: bool = False) -> int | None:
+    if value is None and optional:
+        return None
+    if value is None and required:
+        raise PlanError(f"plan {name} is required")
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise PlanError(f"plan {name} must be a positive integer, got {value!r}")
+    return value
+
+
+def _first_origin(body: object) -> tuple[int | None, str | None]:
+    if body is None:
+        return None, None
+    if isinstance(body, Mapping) and set(body) == {"train_size"}:
+        return _positive(body["train_size"], "first_origin.train_size"), None
+    if isinstance(body, Mapping) and set(body) == {"period"} and isinstance(body["period"], str):
+        return None, body["period"]
+    raise PlanError('plan first_origin must be {"train_size": n} or {"period": "<label>"}')
+
+
+def _window(body: object) -> tuple[Literal["expanding", "sliding"], int | None]:
+    if body == "expanding" or body == {"kind": "expanding"}:
+        return "expanding", None
+    if isinstance(body, Mapping) and body.get("kind") == "sliding" and set(body) == {"kind",
+                                                                                     "length"}:
+        return "sliding", _positive(body["length"], "window.length")
+    raise PlanError('plan window must be "expanding" or {"kind": "sliding", "length": n}')
+
+
+def _levels(body: object) -> tuple[int, ...]:
+    if not isinstance(body, list) or not body:
+        raise PlanError("plan levels must be a non-empty list of percentages, e.g. [80, 95]")
+    for level in body:
+        if isinstance(level, bool) or not isinstance(level, int) or not 1 <= level <= 99:
+            raise PlanError(f"plan levels must be whole percentages from 1 to 99, got {level!r}")
+    if len(set(body)) != len(body):
+        raise PlanError("plan levels repeat a value")
+    return tuple(sorted(body))

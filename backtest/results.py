@@ -1,0 +1,124 @@
+"""Frozen, JSON-ready result objects returned by the engine.
+
+Every float that is undefined (NaN or infinite) becomes ``None`` in :func:`to_jsonable`;
+scores carry a ``note`` saying why a value is missing.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+from typing import Any, Literal
+
+
+@dataclass(frozen=True)
+class FoldResult:
+    """One candidate at one forecast origin of one series.
+
+    ``origin`` is the label of the last training period; ``periods`` are the target periods
+    of h = 1..H. ``lower``/``upper`` map a level (in %) to bounds per horizon. ``scale`` is
+    the in-sample mean absolute seasonal-naive error of the training window (MASE
+    denominator), ``scale_sq`` the mean squared one-step naive error (RMSSE denominator).
+    """
+
+    series_key: str
+    candidate_id: str
+    fold: int
+    origin: str
+    train_start: str
+    train_size: int
+    reestimated: bool
+    status: Literal["ok", "failed"]
+    reason: str | None
+    params: dict[str, float] | None
+    warnings: tuple[str, ...]
+    periods: tuple[str, ...]
+    actuals: tuple[float, ...]
+    point: tuple[float, ...] | None
+    lower: dict[int, tuple[float, ...]]
+    upper: dict[int, tuple[float, ...]]
+    scale: float | None
+    scale_sq: float | None
+
+
+@dataclass(frozen=True)
+class Score:
+    """One score of one candidate: at a horizon (1..H) or pooled over horizons (``None``)."""
+
+    candidate_id: str
+    horizon: int | None
+    metric: str
+    level: int | None
+    value: float | None
+    count: int
+    note: str | None = None
+
+
+@dataclass(frozen=True)
+class RankRow:
+    """A candidate's place in a series' ranking by the plan's score and horizon."""
+
+    rank: int | None
+    candidate_id: str
+    label: str
+    score: float | None
+    skill: float | None
+    is_benchmark: bool
+    folds_ok: int
+    folds_failed: int
+    in_confidence_set: bool | None = None
+    beats_benchmark: bool | None = None
+    calibration_zone: str | None = None
+
+
+@dataclass(frozen=True)
+class CandidateInfo:
+    """A candidate as used on one series: id, label and canonical spec."""
+
+    candidate_id: str
+    label: str
+    spec: dict[str, Any]
+    added_as_benchmark: bool = False
+
+
+@dataclass(frozen=True)
+class SeriesResult:
+    """Everything computed for one series.
+
+    ``evidence`` holds the model-assessment results (diagnostics, calibration tests,
+    forecast comparisons, model confidence set) as JSON-ready dictionaries.
+    """
+
+    series: dict[str, Any]
+    candidates: tuple[CandidateInfo, ...]
+    benchmark_id: str
+    folds: tuple[FoldResult, ...]
+    scores: tuple[Score, ...]
+    ranking: tuple[RankRow, ...]
+    evidence: dict[str, Any] = dataclasses.field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class BacktestResult:
+    """The outcome of one backtest: plan, software versions and per-series results."""
+
+    plan: dict[str, Any]
+    software: dict[str, str]
+    series: tuple[SeriesResult, ...]
+    timing: dict[str, float]
+
+    def to_dict(self) -> dict[str, Any]:
+        """A JSON-ready dictionary (non-finite floats become ``None``)."""
+        return to_jsonable(dataclasses.asdict(self))
+
+
+def to_jsonable(value: Any) -> Any:
+    """Recursively turn tuples into lists, int dict keys into strings, NaN/inf into None."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {str(k): to_jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [to_jsonable(v) for v in value]
+    return value

@@ -1,0 +1,168 @@
+"""A validated, regularly spaced time series: the engine's only kind of data input."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+
+from backtest.errors import SeriesError
+from backtest.frequency import Frequency, parse_frequency
+
+FillPolicy = Literal["reject", "linear"]
+
+
+@dataclass(frozen=True, eq=False)
+class Series:
+    """A series on a regular grid; ``values[i]`` belongs to grid position ``start + i * step``."""
+
+    key: str
+    frequency: Frequency
+    season_length: int
+    start: int
+    values: np.ndarray = field(repr=False)
+    filled: tuple[str, ...] = ()
+    fill_policy: FillPolicy = "reject"
+
+    def __len__(self) -> int:
+        return len(self.values)
+
+    def label(self, index: int) -> str:
+        """Canonical label of the observation at ``index`` (may lie beyond the data)."""
+        return self.frequency.label(self.start + index * self.frequency.step)
+
+    def labels(self) -> list[str]:
+        """Canonical labels of all observations."""
+        return [self.label(i) for i in range(len(self))]
+
+    def index_of(self, label: str) -> int:
+        """Observation index of a period label (may be outside the data)."""
+        offset = self.frequency.position(label) - self.start
+        if offset % self.frequency.step:
+            raise SeriesError(f"period {label!r} is off the {self.frequency.duration} grid "
+                              f"of series {self.key!r}")
+        return offset // self.frequency.step
+
+    def fingerprint(self) -> str:
+        """SHA-256 of the canonical serialisation (see :func:`canonical_json`)."""
+        return hashlib.sha256(canonical_json(self).encode()).hexdigest()
+
+    def summary(self) -> dict:
+        """JSON-ready description of the series, without its values."""
+        return {
+            "key": self.key,
+            "frequency": self.frequency.duration,
+            "season_length": self.season_length,
+            "n_obs": len(self),
+            "first_period": self.label(0),
+            "last_period": self.label(len(self) - 1),
+            "fingerprint": self.fingerprint(),
+            "fill_policy": self.fill_policy,
+            "filled_periods": list(self.filled),
+        }
+
+
+def canonical_json(series: Series) -> str:
+    """Canonical text of a series: sorted keys, no spaces, shortest round-trip floats.
+
+    The observations are ``[label, value]`` pairs with canonical labels; periods filled by
+    a fill policy are listed too, so a filled series never matches one with real values.
+    """
+    body = {
+        "key": series.key,
+        "frequency": series.frequency.duration,
+        "season_length": series.season_length,
+        "observations": [[lab, float(v)] for lab, v in zip(series.labels(), series.values)],
+        "filled": list(series.filled),
+    }
+    return json.dumps(body, sort_keys=True, separators=(",", ":"), allow_nan=False)
+
+
+def make_series(
+    key: str,
+    frequency: str,
+    observations: Iterable[tuple[str, float]],
+    *,
+    season_length: int | None = None,
+    fill: FillPolicy = "reject",
+) -> Series:
+    """Validate observations and build a :class:`Series`.
+
+    Raises :class:`SeriesError` naming the series, the period and the row (1-based) for
+    duplicate, unsorted or off-grid periods, non-finite values and, unless ``fill`` is
+    ``"linear"``, missing periods.
+    """
+    key = str(key).strip()
+    if not key:
+        raise SeriesError("series key is empty")
+    freq = parse_frequency(frequency)
+    m = freq.default_season_length if season_length is None else season_length
+    if not isinstance(m, int) or isinstance(m, bool) or m < 1:
+        raise SeriesError(f"series {key!r}: season length must be a positive integer, got {m!r}")
+    if fill not in ("reject", "linear"):
+        raise SeriesError(f"series {key!r}: fill policy {fill!r} is unknown; "
+                          "use 'reject' or 'linear'")
+    rows = list(observations)
+    if not rows:
+        raise SeriesError(f"series {key!r} has no observations")
+    positions = _positions(key, freq, rows)
+    values = _values(key, rows)
+    return _regularise(key, freq, m, positions, values, fill)
+
+
+def _positions(key: str, freq: Frequency, rows: Sequence[tuple[str, float]]) -> list[int]:
+    positions: list[int] = []
+    for row, (label, _) in enumerate(rows, start=1):
+        try:
+            pos = freq.position(label)
+        except SeriesError as exc:
+            raise SeriesError(f"series {key!r}, row {row}: {exc}") from None
+        if positions:
+            prev = positions[-1]
+            if pos == prev:
+                raise SeriesError(f"series {key!r}: period {label!r} appears twice "
+                                  f"(rows {row - 1} and {row})")
+            if pos < prev:
+                raise SeriesError(f"series {key!r}: period {label!r} (row {row}) comes after "
+                                  f"{freq.label(prev)!r} (row {row - 1}); sort by period")
+            if (pos - positions[0]) % freq.step:
+                start = freq.label(positions[0])
+                raise SeriesError(f"series {key!r}: period {label!r} (row {row}) is off the "
+                                  f"{freq.duration} grid that starts at {start!r}")
+        positions.append(pos)
+    return positions
+
+
+def _values(key: str, rows: Sequence[tuple[str, float]]) -> np.ndarray:
+    out = np.empty(len(rows))
+    for row, (label, value) in enumerate(rows, start=1):
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            raise SeriesError(f"series {key!r}: value {value!r} at period {label!r} "
+                              f"(row {row}) is not a number") from None
+        if not math.isfinite(number):
+            raise SeriesError(f"series {key!r}: value at period {label!r} (row {row}) "
+                              f"is not finite ({number})")
+        out[row - 1] = number
+    return out
+
+
+def _regularise(key: str, freq: Frequency, m: int, positions: list[int],
+                values: np.ndarray, fill: FillPolicy) -> Series:
+    steps = (np.asarray(positions) - positions[0]) // freq.step
+    full = np.arange(steps[-1] + 1)
+    missing = np.setdiff1d(full, steps)
+    labels = [freq.label(positions[0] + int(i) * freq.step) for i in missing]
+    if len(missing) and fill == "reject":
+        shown = ", ".join(labels[:5]) + (" ..." if len(labels) > 5 else "")
+        raise SeriesError(f"series {key!r}: {len(missing)} period(s) missing: {shown} "
+                          "(fill them, or choose the 'linear' fill policy)")
+    filled = np.interp(full, steps, values) if len(missing) else values.copy()
+    filled.setflags(write=False)
+    return Series(key, freq, m, positions[0], filled, tuple(labels), fill)

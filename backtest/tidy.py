@@ -1,0 +1,143 @@
+"""Tidy CSV in and out: series files in, fold and score tables out.
+
+Series CSV: a header row, then one row per observation. Required columns ``series_key``,
+``period``, ``value``; optional ``frequency`` (ISO 8601 duration) and ``season_length``,
+constant within a series. Several series may share a file: rows are grouped by key in
+order of first appearance, and each series' rows keep their file order.
+
+Output columns are listed in :data:`FOLD_COLUMNS` and :data:`SCORE_COLUMNS`; they are a
+stable, documented interface (DEVELOPERS.md, "Output tables").
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from collections.abc import Iterable, Iterator
+
+from backtest.errors import SeriesError
+from backtest.results import BacktestResult
+from backtest.series import FillPolicy, Series, make_series
+
+REQUIRED = ("series_key", "period", "value")
+OPTIONAL = ("frequency", "season_length")
+FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "train_start",
+                "train_size", "reestimated", "status", "horizon", "period", "actual", "point")
+SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric", "level",
+                 "value", "count", "note")
+RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
+                   "is_benchmark", "folds_ok", "folds_failed", "in_confidence_set",
+                   "beats_benchmark", "calibration_zone")
+
+
+def read_series_csv(text: str, *, frequency: str | None = None,
+                    season_length: int | None = None,
+                    fill: FillPolicy = "reject") -> list[Series]:
+    """Parse a tidy series CSV; errors name the file line (header = line 1)."""
+    reader = csv.DictReader(io.StringIO(text))
+    header = reader.fieldnames or []
+    missing = [c for c in REQUIRED if c not in header]
+    if missing:
+        raise SeriesError(f"line 1: missing column(s) {', '.join(missing)}; "
+                          f"the header must include {', '.join(REQUIRED)}")
+    unknown = [c for c in header if c not in REQUIRED + OPTIONAL]
+    if unknown:
+        raise SeriesError(f"line 1: unknown column(s) {', '.join(unknown)}")
+    groups: dict[str, dict] = {}
+    for line, row in enumerate(reader, start=2):
+        if None in row or any(row.get(c) is None for c in REQUIRED):
+            raise SeriesError(f"line {line}: expected {len(header)} fields")
+        key = row["series_key"].strip()
+        if not key:
+            raise SeriesError(f"line {line}: series_key is empty")
+        group = groups.setdefault(key, {"rows": [], "line": line,
+                                        **{c: row.get(c) or None for c in OPTIONAL}})
+        _check_constant(group, row, line, key)
+        group["rows"].append((row["period"], _number(row["value"], line)))
+    if not groups:
+        raise SeriesError("the file has no observations")
+    return [_build(key, g, frequency, season_length, fill) for key, g in groups.items()]
+
+
+def _check_constant(group: dict, row: dict, line: int, key: str) -> None:
+    for column in OPTIONAL:
+        value, first = row.get(column) or None, group[column]
+        if value is not None and first is not None and str(value) != str(first):
+            raise SeriesError(f"line {line}: {column} {value!r} differs from {first!r} "
+                              f"given earlier for series {key!r}")
+
+
+def _number(text: str, line: int) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        raise SeriesError(f"line {line}: value {text!r} is not a number") from None
+
+
+def _build(key: str, group: dict, frequency: str | None, season_length: int | None,
+           fill: FillPolicy) -> Series:
+    frequency = group["frequency"] or frequency
+    if not frequency:
+        raise SeriesError(f"series {key!r} (from line {group['line']}): no frequency; add a "
+                          "frequency column or give one for the whole file")
+    m = season_length
+    if group["season_length"] is not None:
+        try:
+            m = int(group["season_length"])
+        except ValueError:
+            raise SeriesError(f"series {key!r}: season_length {group['season_length']!r} "
+                              "is not an integer") from None
+    return make_series(key, frequency, group["rows"], season_length=m, fill=fill)
+
+
+def fold_rows(result: BacktestResult) -> Iterator[dict]:
+    """One row per fold x horizon, with ``lower_<level>`` / ``upper_<level>`` columns."""
+    levels = result.plan["levels"]
+    for sr in result.series:
+        labels = {c.candidate_id: c.label for c in sr.candidates}
+        for f in sr.folds:
+            for h, period in enumerate(f.periods, start=1):
+                row = {"series_key": f.series_key, "candidate_id": f.candidate_id,
+                       "candidate": labels[f.candidate_id], "fold": f.fold, "origin": f.origin,
+                       "train_start": f.train_start, "train_size": f.train_size,
+                       "reestimated": f.reestimated, "status": f.status, "horizon": h,
+                       "period": period, "actual": f.actuals[h - 1],
+                       "point": f.point[h - 1] if f.point else None}
+                for level in levels:
+                    row[f"lower_{level}"] = f.lower[level][h - 1] if f.lower else None
+                    row[f"upper_{level}"] = f.upper[level][h - 1] if f.upper else None
+                yield row
+
+
+def score_rows(result: BacktestResult) -> Iterator[dict]:
+    """One row per candidate x horizon x metric (x level); ``horizon`` is empty when pooled."""
+    for sr in result.series:
+        labels = {c.candidate_id: c.label for c in sr.candidates}
+        for s in sr.scores:
+            yield {"series_key": sr.series["key"], "candidate_id": s.candidate_id,
+                   "candidate": labels[s.candidate_id], "horizon": s.horizon,
+                   "metric": s.metric, "level": s.level, "value": s.value, "count": s.count,
+                   "note": s.note}
+
+
+def ranking_rows(result: BacktestResult) -> Iterator[dict]:
+    """One row per series x candidate, in rank order."""
+    for sr in result.series:
+        for r in sr.ranking:
+            yield {"series_key": sr.series["key"], "rank": r.rank,
+                   "candidate_id": r.candidate_id, "candidate": r.label, "score": r.score,
+                   "skill": r.skill, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
+                   "folds_failed": r.folds_failed, "in_confidence_set": r.in_confidence_set,
+                   "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone}
+
+
+def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:
+    """Write dict rows as CSV; ``None`` becomes an empty field; extra keys keep their order."""
+    rows = iter(rows)
+    first = next(rows, None)
+    fieldnames = list(columns) if first is None else list(first)
+    writer = csv.DictWriter(out, fieldnames=fieldnames, lineterminator="\n")
+    writer.writeheader()
+    for row in ([] if first is None else [first]):
+        writer.writerow(row)
+    writer.writerows(rows)

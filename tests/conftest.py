@@ -1,0 +1,26 @@
+"""Shared fixtures: the reference data that lives beside the repository in ``shared/``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+SHARED_DATA = Path(__file__).resolve().parents[1].parent / "shared" / "data"
+
+
+@pytest.fixture(scope="session")
+def series_g() -> pd.DataFrame:
+    """Series G (Box & Jenkins 1976): monthly airline passengers, thousands, 1949-1960."""
+    path = SHARED_DATA / "series_g.csv"
+    assert path.exists(), f"reference data missing: {path} (shared/ must sit beside the repo)"
+    frame = pd.read_csv(path)
+    assert len(frame) == 144 and frame.iloc[:, 1].sum() == 40363  # REFERENCES §6 checksum
+    return frame
+
+
+@pytest.fixture(scope="session")
+def log_air(series_g: pd.DataFrame) -> np.ndarray:
+    return np.log(series_g.iloc[:, 1].to_numpy(float))
