@@ -20,6 +20,8 @@ class FoldResult:
     of h = 1..H. ``lower``/``upper`` map a level (in %) to bounds per horizon. ``scale`` is
     the in-sample mean absolute seasonal-naive error of the training window (MASE
     denominator), ``scale_sq`` the mean squared one-step naive error (RMSSE denominator).
+    ``fit_summary`` (re-estimated folds of families with standard errors) holds coefficient
+    standard errors and p-values, convergence and a Ljung-Box p-value.
     """
 
     series_key: str
@@ -40,6 +42,7 @@ class FoldResult:
     upper: dict[int, tuple[float, ...]]
     scale: float | None
     scale_sq: float | None
+    fit_summary: dict[str, Any] | None = None
 
 
 @dataclass(frozen=True)

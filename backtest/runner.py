@@ -6,7 +6,8 @@ observations that arrived since the last estimation: the forecast conditions on 
 from the start of the last estimation window up to the origin (Tashman 2000's
 "rolling-origin-update"). Closed-form families re-estimate at every origin. Nothing after
 an origin is ever passed to the model. A fold that raises becomes a failed fold with its
-reason; warnings are captured per fold.
+reason; warnings are captured per fold (those raised while forecasting a stretch of kept
+parameters in one pass are recorded on each fold of the stretch).
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.metrics import mase_scale, rmsse_scale
@@ -35,34 +37,120 @@ def fold_seed(plan_seed: int, series_key: str, candidate_id: str, fold: int) -> 
 def run_candidate(series: Series, candidate: Candidate, plan: Plan,
                   origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """Forecast every origin of ``series`` with ``candidate``."""
-    spec, m = candidate.spec, series.season_length
-    z = spec.transform.forward(np.asarray(series.values, dtype=float))
+    z = candidate.spec.transform.forward(np.asarray(series.values, dtype=float))
+    if candidate.spec.closed_form:
+        return _closed_form_folds(series, candidate, plan, z, origins)
+    out: list[FoldResult] = []
     fit: Fit | None = None
-    fit_start = 0
-    out = []
-    for origin in origins:
-        reestimate = origin.reestimate or spec.closed_form or fit is None
-        start = origin.start if reestimate else fit_start
-        seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            try:
-                if reestimate:
-                    fit, forecast = spec.fit_forecast(z[start:origin.end], m, plan.horizon,
-                                                      plan.levels, seed)
-                    fit_start = start
-                else:
-                    forecast = spec.forecast(z[start:origin.end], m, fit.params, plan.horizon,
-                                             plan.levels, seed)
-                forecast = _back_transform(spec.transform, forecast)
-                error = None
-            except Exception as exc:  # a fold's failure must never crash the run
-                if reestimate:
-                    fit = None
-                forecast, error = None, f"{type(exc).__name__}: {exc}"
-        out.append(_fold(series, candidate, plan, origin, start, reestimate,
-                         fit, forecast, error, _messages(caught)))
+    fit_start, i = 0, 0
+    while i < len(origins):
+        origin = origins[i]
+        if origin.reestimate or fit is None:
+            fold, fit = _estimated_fold(series, candidate, plan, z, origin)
+            fit_start = origin.start
+            out.append(fold)
+            i += 1
+            continue
+        j = i
+        while j < len(origins) and not origins[j].reestimate:
+            j += 1
+        out.extend(_kept_folds(series, candidate, plan, z, origins[i:j], fit, fit_start))
+        i = j
     return tuple(out)
+
+
+def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
+                    origin: Origin) -> tuple[FoldResult, Fit | None]:
+    spec, m = candidate.spec, series.season_length
+    seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
+    window = z[origin.start:origin.end]
+    fit, forecast, error, summary = None, None, None, None
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels, seed)
+            forecast = _back_transform(spec.transform, forecast)
+        except Exception as exc:  # a fold's failure must never crash the run
+            fit, forecast, error = None, None, _reason(exc)
+    if fit is not None and not spec.closed_form:
+        summary = fold_fit_summary(spec, fit, window, m)
+    fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
+                 _messages(caught), summary)
+    return fold, fit
+
+
+def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
+                       origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
+    """Closed-form families: every origin re-estimated, all windows in one call."""
+    spec = candidate.spec
+    seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in origins]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            pairs = spec.fit_forecast_windows(z, series.season_length,
+                                              [(o.start, o.end) for o in origins],
+                                              plan.horizon, plan.levels, seeds)
+        except Exception:  # isolate the failing origins one by one below
+            pairs = None
+    if pairs is None:
+        return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
+    shared = _messages(caught)
+    folds = []
+    for origin, (fit, forecast) in zip(origins, pairs):
+        try:
+            forecast, error = _back_transform(spec.transform, forecast), None
+        except Exception as exc:
+            forecast, error = None, _reason(exc)
+        folds.append(_fold(series, candidate, plan, origin, origin.start, True, fit, forecast,
+                           error, shared))
+    return tuple(folds)
+
+
+def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
+                stretch: Sequence[Origin], fit: Fit, fit_start: int) -> list[FoldResult]:
+    """Folds that keep ``fit``'s parameters, forecast in one pass where the family can."""
+    spec, m = candidate.spec, series.season_length
+    seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in stretch]
+    ends = [o.end - fit_start for o in stretch]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            raw = spec.forecast_stretch(z[fit_start:stretch[-1].end], m, fit.params, ends,
+                                        plan.horizon, plan.levels, seeds)
+        except Exception:  # isolate the failing origins one by one below
+            raw = None
+    if raw is None:
+        return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start, seed)
+                for o, seed in zip(stretch, seeds)]
+    shared = _messages(caught)
+    folds = []
+    for origin, forecast in zip(stretch, raw):
+        try:
+            forecast, error = _back_transform(spec.transform, forecast), None
+        except Exception as exc:
+            forecast, error = None, _reason(exc)
+        folds.append(_fold(series, candidate, plan, origin, fit_start, False, fit, forecast,
+                           error, shared))
+    return folds
+
+
+def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
+                      origin: Origin, fit: Fit, fit_start: int, seed: int) -> FoldResult:
+    spec = candidate.spec
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            forecast = spec.forecast(z[fit_start:origin.end], series.season_length, fit.params,
+                                     plan.horizon, plan.levels, seed)
+            forecast, error = _back_transform(spec.transform, forecast), None
+        except Exception as exc:  # a fold's failure must never crash the run
+            forecast, error = None, _reason(exc)
+    return _fold(series, candidate, plan, origin, fit_start, False, fit, forecast, error,
+                 _messages(caught))
+
+
+def _reason(exc: Exception) -> str:
+    return f"{type(exc).__name__}: {exc}"
 
 
 def _back_transform(transform, forecast: Forecast) -> Forecast:
@@ -86,7 +174,7 @@ def _messages(caught: list[warnings.WarningMessage]) -> tuple[str, ...]:
 
 def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, start: int,
           reestimated: bool, fit: Fit | None, forecast: Forecast | None, error: str | None,
-          caught: tuple[str, ...]) -> FoldResult:
+          caught: tuple[str, ...], summary: dict | None = None) -> FoldResult:
     train = np.asarray(series.values[start:origin.end], dtype=float)
     target = range(origin.end, origin.end + plan.horizon)
     ok = forecast is not None
@@ -108,4 +196,5 @@ def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, star
         upper={lv: values(b) for lv, b in forecast.upper.items()} if ok else {},
         scale=scale if np.isfinite(scale) else None,
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
+        fit_summary=summary,
     )

@@ -7,8 +7,17 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from threadpoolctl import threadpool_limits
 
 SHARED_DATA = Path(__file__).resolve().parents[1].parent / "shared" / "data"
+
+
+@pytest.fixture(scope="session", autouse=True)
+def one_blas_thread():
+    """Tests that call model code directly get the engine's one-BLAS-thread setting; on two
+    cores a multi-threaded BLAS under load makes statsmodels fits many times slower."""
+    with threadpool_limits(limits=1):
+        yield
 
 
 @pytest.fixture(scope="session")

@@ -9,7 +9,7 @@ The engine only ever calls the methods below, always on data up to the forecast 
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
@@ -77,6 +77,26 @@ class ModelSpec(ABC):
         """Estimate on ``y`` and forecast from its end; families may do both in one pass."""
         fit = self.fit(y, season_length)
         return fit, self.forecast(y, season_length, fit.params, horizon, levels, seed)
+
+    def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
+                         ends: Sequence[int], horizon: int, levels: tuple[int, ...],
+                         seeds: Sequence[int]) -> list[Forecast]:
+        """Forecasts from several origins with the same parameters.
+
+        ``ends[i]`` is the origin as a length of ``y``: the i-th forecast must equal
+        ``forecast(y[:ends[i]], ...)``. Families override this with a one-pass method.
+        """
+        return [self.forecast(y[:end], season_length, params, horizon, levels, seed)
+                for end, seed in zip(ends, seeds)]
+
+    def fit_forecast_windows(self, y: np.ndarray, season_length: int,
+                             windows: Sequence[tuple[int, int]], horizon: int,
+                             levels: tuple[int, ...], seeds: Sequence[int]
+                             ) -> list[tuple[Fit, Forecast]]:
+        """``fit_forecast`` on each window ``y[start:end]``; closed-form families override
+        this with a vectorised method (the engine calls it for them)."""
+        return [self.fit_forecast(y[start:end], season_length, horizon, levels, seed)
+                for (start, end), seed in zip(windows, seeds)]
 
     def check(self, season_length: int) -> None:  # noqa: B027 - optional hook
         """Raise :class:`CandidateError` if the spec is impossible for this season length."""
