@@ -2,11 +2,12 @@
 
 from collections.abc import Callable, Mapping
 
-from backtest.models import arima, benchmarks, ets, theta
+from backtest.models import arima, arima_search, benchmarks, ets, theta
 from backtest.models.base import Fit, Forecast, ModelSpec, Params
 
 FAMILIES: dict[str, Callable[[Mapping], ModelSpec]] = {
     "arima": arima.parse,
+    "arima_search": arima_search.parse,
     "ets": ets.parse,
     "theta": theta.parse,
     "benchmark": benchmarks.parse,
