@@ -4,16 +4,18 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable, Sequence
+from dataclasses import replace
 
 from backtest.candidates import Candidate
+from backtest.diagnosis import CandidateOutcome, evaluate_candidate
 from backtest.errors import CandidateError
+from backtest.evidence import series_evidence
 from backtest.folds import Origin, plan_origins
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.parallel import run_tasks
 from backtest.plan import Plan
 from backtest.ranking import rank_candidates
-from backtest.results import BacktestResult, CandidateInfo, FoldResult, SeriesResult
-from backtest.runner import run_candidate
+from backtest.results import BacktestResult, CandidateInfo, SeriesResult, to_jsonable
 from backtest.scoring import score_candidate
 from backtest.series import Series
 from backtest.software import software_versions
@@ -38,17 +40,17 @@ def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan
     total = sum(len(t[3]) for t in tasks)
     done = 0
 
-    def on_done(index: int, folds: tuple[FoldResult, ...]) -> None:
+    def on_done(index: int, outcome: CandidateOutcome) -> None:
         nonlocal done
-        done += len(folds)
+        done += len(outcome.folds)
         if progress is not None:
             progress(done, total)
 
     if progress is not None:
         progress(0, total)
-    fold_sets = run_tasks(run_candidate, tasks, n_jobs=n_jobs, on_done=on_done)
+    outcomes = run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done)
     results = tuple(
-        _series_result(s, pool, benchmark, plan, fold_sets[i * len(pool):(i + 1) * len(pool)],
+        _series_result(s, pool, benchmark, plan, outcomes[i * len(pool):(i + 1) * len(pool)],
                        added=benchmark not in candidates)
         for i, s in enumerate(series))
     elapsed = time.perf_counter() - started
@@ -78,13 +80,23 @@ def _schedule(series: Series, pool: Sequence[Candidate], plan: Plan) -> tuple[Or
 
 
 def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candidate, plan: Plan,
-                   fold_sets: Sequence[tuple[FoldResult, ...]], added: bool) -> SeriesResult:
+                   outcomes: Sequence[CandidateOutcome], added: bool) -> SeriesResult:
     m = series.season_length
     infos = tuple(CandidateInfo(c.id, c.label(m), c.canonical,
                                 added and c.id == benchmark.id) for c in pool)
-    folds = tuple(f for fs in fold_sets for f in fs)
-    scores = tuple(s for c, fs in zip(pool, fold_sets)
-                   for s in score_candidate(c.id, fs, plan.horizon, plan.levels))
-    ranking = rank_candidates(infos, scores, folds, benchmark.id, plan.rank_by,
-                              plan.rank_horizon)
-    return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking)
+    folds = tuple(f for o in outcomes for f in o.folds)
+    scores = tuple(s for c, o in zip(pool, outcomes)
+                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels))
+    evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
+                                      benchmark.id, plan)
+    evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
+    evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
+    ranking = tuple(
+        replace(row, in_confidence_set=notes[row.candidate_id].in_confidence_set,
+                beats_benchmark=None if row.is_benchmark
+                else notes[row.candidate_id].beats_benchmark,
+                calibration_zone=notes[row.candidate_id].calibration_zone)
+        for row in rank_candidates(infos, scores, folds, benchmark.id, plan.rank_by,
+                                   plan.rank_horizon))
+    return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
+                        to_jsonable(evidence))

@@ -73,7 +73,7 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
         except Exception as exc:  # a fold's failure must never crash the run
             fit, forecast, error = None, None, _reason(exc)
     if fit is not None and not spec.closed_form:
-        summary = fold_fit_summary(spec, fit, window, m)
+        summary = fold_fit_summary(*spec.assessed(fit), window, m)
     fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
                  _messages(caught), summary)
     return fold, fit

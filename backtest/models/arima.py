@@ -32,7 +32,7 @@ from backtest.transforms import Transform, parse_transform
 
 Deterministic = Literal["none", "constant", "drift"]
 _TREND = {"none": "n", "constant": "c", "drift": "t"}
-_RENAME = {"const": "constant", "x1": "drift"}
+RENAMED_PARAMETERS = {"const": "constant", "x1": "drift"}
 
 
 @dataclass(frozen=True)
@@ -87,13 +87,13 @@ class ArimaSpec(ModelSpec):
     def fit(self, y: np.ndarray, season_length: int) -> Fit:
         model = self.model(y, season_length)
         fitted = model.fit()
-        names = [_RENAME.get(n, n) for n in model.param_names]
+        names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
         return Fit(dict(zip(names, map(float, fitted.params))), fitted)
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
         model = self.model(y, season_length)
-        vector = np.array([params[_RENAME.get(n, n)] for n in model.param_names])
+        vector = np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names])
         prediction = model.filter(vector).get_forecast(horizon)
         mean = np.asarray(prediction.predicted_mean, dtype=float)
         sd = np.sqrt(np.asarray(prediction.var_pred_mean, dtype=float))

@@ -55,7 +55,7 @@ import numpy as np
 from backtest.errors import CandidateError
 
 # The arima family's parameter names, so that its forecast reads the chosen estimates.
-from backtest.models.arima import _RENAME, ArimaSpec, Deterministic
+from backtest.models.arima import RENAMED_PARAMETERS, ArimaSpec, Deterministic
 from backtest.models.arima_trial import Criterion, Trial, run_trial
 from backtest.models.base import (
     Fit,
@@ -172,6 +172,10 @@ class ArimaSearchSpec(ModelSpec):
         spec, estimates = self.chosen(params)
         return spec.forecast_stretch(y, season_length, estimates, ends, horizon, levels, seeds)
 
+    def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
+        spec, estimates = self.chosen(fit.params)
+        return spec, Fit(estimates, fit.raw)
+
     def chosen(self, params: Params) -> tuple[ArimaSpec, Params]:
         """The ARIMA model a fit chose (with this transform) and its estimates alone.
 
@@ -244,7 +248,7 @@ def arima_spec(orders: ArmaOrders, d: int, seasonal_d: int, period: int) -> Arim
 
 
 def _estimates(results) -> Params:
-    names = (_RENAME.get(n, n) for n in results.model.param_names)
+    names = (RENAMED_PARAMETERS.get(n, n) for n in results.model.param_names)
     return {name: float(value) for name, value in zip(names, results.params)}
 
 

@@ -98,6 +98,10 @@ class ModelSpec(ABC):
         return [self.fit_forecast(y[start:end], season_length, horizon, levels, seed)
                 for (start, end), seed in zip(windows, seeds)]
 
+    def assessed(self, fit: Fit) -> tuple[ModelSpec, Fit]:
+        """The spec and fit that diagnostics should examine (a search names its choice)."""
+        return self, fit
+
     def check(self, season_length: int) -> None:  # noqa: B027 - optional hook
         """Raise :class:`CandidateError` if the spec is impossible for this season length."""
 

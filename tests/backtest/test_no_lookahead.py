@@ -28,6 +28,7 @@ SPECS = [
     {"family": "benchmark", "method": "seasonal_naive"},
     {"family": "benchmark", "method": "drift"},
     {"family": "benchmark", "method": "mean"},
+    {"family": "arima_search", "max_order": {"p": 1, "q": 1, "P": 1, "Q": 1}},
 ]
 N, M = 36, 4
 BASE = 50 + 0.8 * np.arange(N) + 6 * np.sin(np.arange(N) * np.pi / 2)

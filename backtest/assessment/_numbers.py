@@ -1,0 +1,43 @@
+"""Small helpers that turn numerical results into JSON-ready values."""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections.abc import Iterable
+
+import numpy as np
+from scipy import stats
+
+
+def number(value: object) -> float | None:
+    """A Python float, or ``None`` when the value is missing, NaN or infinite."""
+    if value is None:
+        return None
+    out = float(value)  # type: ignore[arg-type]
+    return out if math.isfinite(out) else None
+
+
+def chi2_sf(statistic: float | None, df: int) -> float | None:
+    """Upper-tail chi-squared probability, ``None`` for an undefined statistic."""
+    if statistic is None or df <= 0:
+        return None
+    return number(stats.chi2.sf(statistic, df))
+
+
+def vector(values: object, what: str) -> np.ndarray:
+    """A one-dimensional float array of finite values; the message names the argument."""
+    array = np.asarray(values, dtype=float)
+    if array.ndim != 1:
+        raise ValueError(f"{what} must be one-dimensional, got shape {array.shape}")
+    if not np.all(np.isfinite(array)):
+        raise ValueError(f"{what} must contain only finite values")
+    return array
+
+
+def describe_warnings(caught: Iterable[warnings.WarningMessage]) -> list[str]:
+    """``Category: message`` for each recorded warning, duplicates removed in order."""
+    seen: dict[str, None] = {}
+    for item in caught:
+        seen[f"{item.category.__name__}: {item.message}"] = None
+    return list(seen)

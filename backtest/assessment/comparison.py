@@ -1,0 +1,245 @@
+"""Forecast comparison: Diebold-Mariano with the HLN correction, and the model confidence set.
+
+Errors are actual minus forecast, folds x horizons per model, folds in origin order, NaN
+where a fold failed. Each comparison uses the folds where both models have an error.
+
+References
+----------
+.. [1] Diebold, F. X. & Mariano, R. S. (1995). Comparing predictive accuracy. *Journal of
+   Business & Economic Statistics* 13(3), 253-263.
+.. [2] Harvey, D., Leybourne, S. & Newbold, P. (1997). Testing the equality of prediction
+   mean squared errors. *International Journal of Forecasting* 13(2), 281-291.
+.. [3] Hansen, P. R., Lunde, A. & Nason, J. M. (2011). The model confidence set.
+   *Econometrica* 79(2), 453-497.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from itertools import combinations
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+from arch.bootstrap import MCS
+from scipy import stats
+
+from backtest.assessment._numbers import number, vector
+
+Loss = Literal["squared", "absolute"]
+LOSSES: tuple[Loss, ...] = ("squared", "absolute")
+_LOSS_FUNCTIONS = {"squared": np.square, "absolute": np.abs}
+#: Long-run variances at most this fraction of mean(d^2) count as zero (constant d).
+_DEGENERATE = 1e-12
+
+
+def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared") -> dict:
+    """Diebold-Mariano test of equal accuracy with the Harvey-Leybourne-Newbold correction.
+
+    d_t = g(e1_t) - g(e2_t); the long-run variance of d is gamma_0 + 2 sum_{k=1..h-1}
+    gamma_k (autocovariances with divisor T, rectangular kernel, h - 1 lags [1]_);
+    DM = mean(d) / sqrt(V / T) ~ N(0, 1). HLN [2]_: DM* = DM sqrt((T + 1 - 2h +
+    h(h-1)/T) / T), referred to Student's t with T - 1 degrees of freedom; ``p_value`` is
+    its two-sided p-value and ``p_value_first_better`` the one-sided p-value against
+    "the first model is more accurate" (mean d < 0).
+
+    Rule when V <= 0 (possible for h > 1): the variance is recomputed with Bartlett
+    weights 1 - k/h on the same h - 1 lags (Newey-West), which is never negative, and
+    ``kernel`` says ``"bartlett"``; the HLN factor is still applied. If that variance is
+    zero too (d constant) the statistic is ``None`` with a reason.
+
+    Parameters
+    ----------
+    e1, e2 : forecast errors of the two models at the same origins, in origin order.
+    horizon : forecast horizon h >= 1 (in units of the spacing between origins).
+    loss : ``"squared"`` or ``"absolute"``.
+    """
+    a, b = vector(e1, "e1"), vector(e2, "e2")
+    if a.shape != b.shape:
+        raise ValueError(f"e1 and e2 must have the same length ({len(a)} != {len(b)})")
+    h = int(horizon)
+    if h < 1:
+        raise ValueError(f"horizon must be a positive integer, got {horizon!r}")
+    if loss not in _LOSS_FUNCTIONS:
+        raise ValueError(f"loss must be one of {', '.join(LOSSES)}, got {loss!r}")
+    d = _LOSS_FUNCTIONS[loss](a) - _LOSS_FUNCTIONS[loss](b)
+    out = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
+           "variance": None, "kernel": None, "dm": None, "p_value_normal": None,
+           "hln": None, "df": len(d) - 1, "p_value": None, "p_value_first_better": None,
+           "reason": None}
+    if len(d) <= h:
+        out["reason"] = f"needs more than h = {h} paired errors, got {len(d)}"
+        return out
+    out["mean_difference"] = number(d.mean())
+    out.update(_statistics(d, h))
+    return out
+
+
+def _autocovariances(d: np.ndarray, lags: int) -> np.ndarray:
+    centred = d - d.mean()
+    n = len(d)
+    return np.array([centred[k:] @ centred[: n - k] / n for k in range(lags + 1)])
+
+
+def _statistics(d: np.ndarray, h: int) -> dict:
+    n = len(d)
+    gamma = _autocovariances(d, h - 1)
+    variance, kernel = gamma[0] + 2.0 * gamma[1:].sum(), "rectangular"
+    floor = _DEGENERATE * float(np.mean(d**2))
+    if variance <= floor:
+        weights = 1.0 - np.arange(1, h) / h
+        variance, kernel = gamma[0] + 2.0 * (weights @ gamma[1:]), "bartlett"
+    if variance <= floor:
+        return {"variance": number(variance), "kernel": kernel,
+                "reason": "the loss differential is constant: no variance"}
+    dm = d.mean() / math.sqrt(variance / n)
+    out = {"variance": number(variance), "kernel": kernel, "dm": number(dm),
+           "p_value_normal": number(2.0 * stats.norm.sf(abs(dm)))}
+    factor = (n + 1 - 2 * h + h * (h - 1) / n) / n
+    if factor <= 0:
+        out["reason"] = f"HLN correction undefined for T = {n}, h = {h}"
+        return out
+    hln = dm * math.sqrt(factor)
+    out.update(hln=number(hln), p_value=number(2.0 * stats.t.sf(abs(hln), n - 1)),
+               p_value_first_better=number(stats.t.cdf(hln, n - 1)))
+    return out
+
+
+def compare_to_benchmark(errors: Mapping[str, np.ndarray], benchmark: str, *,
+                         losses: Sequence[Loss] = LOSSES, alpha: float = 0.05,
+                         origin_step: int = 1) -> dict:
+    """DM/HLN tests of every model against ``benchmark``, per horizon and loss.
+
+    A row's ``verdict`` is ``"better"`` or ``"worse"`` when the two-sided HLN p-value is
+    below ``alpha`` (the sign of the mean loss difference deciding which), else
+    ``"no_difference"``; ``None`` when the test is undefined. Horizon h uses
+    ceil(h / origin_step) as the DM horizon: the number of origin spacings the
+    overlapping forecasts span. ``summary`` lists per model and loss the horizons where
+    it is better or worse.
+    """
+    matrices = _matrices(errors)
+    if benchmark not in matrices:
+        raise ValueError(f"benchmark {benchmark!r} is not among the errors' models")
+    rows = []
+    for name in matrices:
+        if name != benchmark:
+            for row in _pair_rows(matrices[name], matrices[benchmark], losses, alpha,
+                                  origin_step):
+                rows.append({"model": name, **row,
+                             "verdict": _verdict(row["test"], alpha, "better", "worse")})
+    return {"benchmark": benchmark, "alpha": alpha, "origin_step": origin_step, "rows": rows,
+            "summary": _summary(rows, [n for n in matrices if n != benchmark], losses)}
+
+
+def pairwise(errors: Mapping[str, np.ndarray], *, losses: Sequence[Loss] = LOSSES,
+             alpha: float = 0.05, origin_step: int = 1) -> dict:
+    """DM/HLN tests for every pair of models, per horizon and loss.
+
+    ``verdict`` is ``"first_better"``, ``"second_better"`` or ``"no_difference"`` by the
+    same two-sided rule as :func:`compare_to_benchmark`. No multiplicity correction: for a
+    joint statement about many models use :func:`model_confidence_set`.
+    """
+    matrices = _matrices(errors)
+    rows = []
+    for first, second in combinations(matrices, 2):
+        for row in _pair_rows(matrices[first], matrices[second], losses, alpha, origin_step):
+            verdict = _verdict(row["test"], alpha, "first_better", "second_better")
+            rows.append({"first": first, "second": second, **row, "verdict": verdict})
+    return {"alpha": alpha, "origin_step": origin_step, "rows": rows}
+
+
+def _matrices(errors: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+    matrices = {str(name): np.asarray(values, dtype=float) for name, values in errors.items()}
+    shapes = {m.shape for m in matrices.values()}
+    if len(matrices) < 2 or len(shapes) != 1 or len(next(iter(shapes))) != 2:
+        raise ValueError("errors must map at least two models to folds x horizons arrays "
+                         f"of one shape, got shapes {sorted(shapes)}")
+    return matrices
+
+
+def _pair_rows(first: np.ndarray, second: np.ndarray, losses: Sequence[Loss], alpha: float,
+               origin_step: int) -> list[dict]:
+    if int(origin_step) < 1:
+        raise ValueError(f"origin_step must be a positive integer, got {origin_step!r}")
+    rows = []
+    for h in range(1, first.shape[1] + 1):
+        both = np.isfinite(first[:, h - 1]) & np.isfinite(second[:, h - 1])
+        dm_horizon = math.ceil(h / int(origin_step))
+        for loss in losses:
+            test = diebold_mariano(first[both, h - 1], second[both, h - 1], dm_horizon, loss)
+            rows.append({"horizon": h, "loss": loss, "test": test})
+    return rows
+
+
+def _verdict(test: dict, alpha: float, better: str, worse: str) -> str | None:
+    if test["p_value"] is None:
+        return None
+    if test["p_value"] >= alpha:
+        return "no_difference"
+    return better if test["mean_difference"] < 0 else worse
+
+
+def _summary(rows: list[dict], names: list[str], losses: Sequence[Loss]) -> dict:
+    summary = {name: {loss: {"better_at": [], "worse_at": []} for loss in losses}
+               for name in names}
+    for row in rows:
+        if row["verdict"] in ("better", "worse"):
+            summary[row["model"]][row["loss"]][f"{row['verdict']}_at"].append(row["horizon"])
+    return summary
+
+
+def model_confidence_set(losses: np.ndarray, names: Sequence[str], *, size: float = 0.10,
+                         reps: int = 1000, block_size: int | None = None,
+                         seed: int | np.random.Generator | None = None,
+                         method: Literal["R", "max"] = "R") -> dict:
+    """Hansen-Lunde-Nason model confidence set [3]_ via ``arch.bootstrap.MCS``.
+
+    Parameters
+    ----------
+    losses : T x k array of per-origin losses (rows with any NaN are dropped).
+    names : the k model names, in column order.
+    size : test size; the set has confidence 1 - size.
+    reps : bootstrap replications.
+    block_size : mean block length of the stationary bootstrap; default int(sqrt(T)),
+        arch's own default, resolved here so it is recorded.
+    seed : an int, a Generator, or ``None`` (a fresh int seed is drawn and recorded, so
+        the run can be repeated).
+    method : ``"R"`` (range statistic, default) or ``"max"``.
+
+    Returns
+    -------
+    dict
+        ``included`` and ``excluded`` names (excluded in elimination order), ``p_values``
+        (name -> MCS p-value), and the settings used: size, method, bootstrap, reps,
+        block_size, seed (``None`` for a caller's Generator), n, rows_dropped.
+    """
+    matrix, labels = _validate_mcs(losses, names)
+    kept = matrix[np.all(np.isfinite(matrix), axis=1)]
+    if len(kept) < 2:
+        raise ValueError("losses must have at least two rows without NaN")
+    block = int(block_size) if block_size is not None else int(np.sqrt(len(kept)))
+    if seed is None:
+        seed = int(np.random.SeedSequence().generate_state(1)[0])
+    recorded = None if isinstance(seed, np.random.Generator) else int(seed)
+    mcs = MCS(pd.DataFrame(kept, columns=labels), size=size, reps=int(reps),
+              block_size=block, method=method, bootstrap="stationary", seed=seed)
+    mcs.compute()
+    p_values = mcs.pvalues.iloc[:, 0]
+    return {"included": [str(n) for n in labels if n in set(mcs.included)],
+            "excluded": [str(n) for n in mcs.excluded],
+            "p_values": {str(n): number(p_values[n]) for n in labels},
+            "size": size, "method": method, "bootstrap": "stationary", "reps": int(reps),
+            "block_size": block,
+            "seed": recorded,
+            "n": len(kept), "rows_dropped": len(matrix) - len(kept)}
+
+
+def _validate_mcs(losses: np.ndarray, names: Sequence[str]) -> tuple[np.ndarray, list[str]]:
+    matrix = np.asarray(losses, dtype=float)
+    labels = [str(n) for n in names]
+    if matrix.ndim != 2 or matrix.shape[1] < 2:
+        raise ValueError(f"losses must be a T x k array with k >= 2, got shape {matrix.shape}")
+    if len(labels) != matrix.shape[1] or len(set(labels)) != len(labels):
+        raise ValueError(f"names must be {matrix.shape[1]} distinct names, got {labels}")
+    return matrix, labels

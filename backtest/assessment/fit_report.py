@@ -1,0 +1,329 @@
+"""Diagnostics of one fitted model: coefficients, information criteria, residuals, roots.
+
+:func:`fit_report` is the full report for the full-series fit; :func:`fold_fit_summary` is
+the compact version cheap enough for every re-estimating fold. Both take the spec, its
+:class:`~backtest.models.base.Fit`, the training data ``y`` exactly as passed to
+``spec.fit`` (on the transformed scale) and the series' season length, and return
+JSON-ready dictionaries. A section that a family cannot provide is ``None`` and
+``unavailable`` maps its name to the reason.
+
+Choices
+-------
+Covariance estimator (``covariance="approx"``, the default): the inverse of the numerical
+(complex-step) Hessian of the log-likelihood at the estimates, statsmodels'
+``cov_params_approx``. It is computed from the existing results without re-estimating
+(measured at 10-15 % of the fit time for seasonal ARIMA models), and it reproduces the
+widely reproduced exact-ML standard errors of the airline model [1]_ (0.0896 for theta,
+0.0731 for Theta; recalled, not checked against a primary source), whereas statsmodels'
+default outer product of gradients (``"opg"``) gives 0.0730 / 0.0963 there. ``"opg"``
+is available as the cheaper alternative (already computed during an ARIMA fit). ETS uses
+statsmodels' own covariance, which is the same numerical-Hessian estimator.
+
+Wald tests: z = estimate / s.e. and a two-sided normal p-value for every coefficient,
+including the constant and drift. The innovation variance gets its standard error but no
+z or p-value: sigma2 = 0 lies on the boundary of the parameter space, where the Wald test
+does not apply. ETS smoothing and damping estimates within 1e-3 of statsmodels' default
+range (smoothing 0..1, damping 0.8..0.98) keep their numbers but carry a note, for the
+same reason.
+
+Information criteria are statsmodels': K counts every estimated parameter including the
+innovation variance, N is the effective number of observations (n - d - D*m for ARIMA)
+and AICc = AIC + 2K(K+1)/(N-K-1). They are comparable only between models with the same
+differencing and transform.
+
+Residual tests use :func:`~backtest.assessment.insample.one_step_errors` (the Kalman
+residuals after the d + D*m burn-in for ARIMA), Ljung-Box at ``default_lags`` with
+model_df = p + q + P + Q, ARCH LM with as many lags as the first default lag, and the
+ACF/PACF up to the last default lag.
+
+Roots (ARIMA): the roots of each lag polynomial, regular in B and seasonal in B^m, with
+modulus. A root is "on or inside" the unit circle when its modulus in B is at most
+1 + 1e-6, and "near unit" when it is below 1.01 (a common-practice threshold for
+rejecting such fits in stepwise order searches [2]_; recalled, not checked against the
+source). For a seasonal root z in B^m the modulus in B is
+|z|^(1/m), so a seasonal coefficient of 0.9 (|z| = 1.11, 1.11^(1/12) = 1.0088) is near
+unit.
+
+References
+----------
+.. [1] Box, G. E. P. & Jenkins, G. M. (1976). *Time Series Analysis: Forecasting and
+   Control*, rev. ed., Holden-Day, ch. 9 (the airline model).
+.. [2] Hyndman, R. J. & Khandakar, Y. (2008). Automatic time series forecasting: the
+   forecast package for R. *Journal of Statistical Software* 27(3), 1-22.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Sequence
+from typing import Literal
+
+import numpy as np
+from numpy.polynomial import polynomial
+from scipy import stats
+
+from backtest.assessment._numbers import describe_warnings, number
+from backtest.assessment.insample import InSample, one_step_errors
+from backtest.assessment.residual_tests import (
+    acf_report,
+    arch_lm,
+    default_lags,
+    jarque_bera,
+    ljung_box,
+)
+from backtest.models.base import Fit, ModelSpec
+
+Covariance = Literal["approx", "opg"]
+NEAR_UNIT_MODULUS = 1.01
+UNIT_TOLERANCE = 1e-6
+_VARIANCE_NAMES = frozenset({"sigma2"})
+#: statsmodels' default ETS parameter box (smoothing in (0, 1), damping in [0.8, 0.98]).
+_ETS_BOX = {"smoothing_level": (0.0, 1.0), "smoothing_trend": (0.0, 1.0),
+            "smoothing_seasonal": (0.0, 1.0), "damping_trend": (0.8, 0.98)}
+_BOUND_DISTANCE = 1e-3
+_COVARIANCE_TEXT = {
+    "approx": "inverse numerical (complex-step) Hessian of the log-likelihood",
+    "opg": "outer product of the score vectors (gradients)",
+}
+
+
+def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
+               covariance: Covariance = "approx", fit_warnings: Sequence[str] = ()) -> dict:
+    """Full diagnostic report for a fitted model of any family.
+
+    Parameters
+    ----------
+    spec, fit : the model and its estimate on ``y``.
+    y : training data as passed to ``spec.fit`` (transformed scale).
+    season_length : the series' season length m.
+    covariance : ``"approx"`` (numerical Hessian, default) or ``"opg"``.
+    fit_warnings : warnings the caller captured while fitting; reported first, followed by
+        any raised while this report is computed.
+
+    Returns
+    -------
+    dict
+        ``family``, ``label``, ``estimation`` (method, convergence), ``covariance``,
+        ``coefficients`` (rows of name, estimate, std_error, z, p_value, note),
+        ``information_criteria``, ``innovation_variance``, ``residuals`` (tests),
+        ``roots`` (ARIMA), ``warnings`` and ``unavailable`` (section -> reason).
+    """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        report = _full_report(spec, fit, np.asarray(y, dtype=float), season_length, covariance)
+    report["warnings"] = [*fit_warnings, *describe_warnings(caught)]
+    return report
+
+
+def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
+                     covariance: Covariance = "approx") -> dict:
+    """Compact per-fold report: coefficient estimates, s.e. and p-values, convergence, and
+    the Ljung-Box p-value at the first default lag.
+
+    Returns
+    -------
+    dict
+        ``converged`` (bool or None), ``params`` (name -> estimate, std_error, p_value),
+        ``ljung_box`` (lag, p_value, reason) and ``warnings`` raised while computing it.
+    """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        rows, _, _ = coefficient_table(spec, fit, covariance)
+        lag = default_lags(season_length)[0]
+        errors = one_step_errors(spec, fit, y, season_length)
+        test = _first_ljung_box(errors, lag)
+        converged = _estimation(spec, fit)["converged"]
+    params = {row["name"]: {k: row[k] for k in ("estimate", "std_error", "p_value")}
+              for row in rows}
+    return {"converged": converged, "params": params, "ljung_box": test,
+            "warnings": describe_warnings(caught)}
+
+
+def _first_ljung_box(errors: InSample, lag: int) -> dict:
+    if errors.errors is None:
+        return {"lag": lag, "p_value": None, "reason": errors.note}
+    row = ljung_box(errors.errors, [lag], errors.model_df)[0]
+    return {"lag": lag, "p_value": row["p_value"], "reason": row["reason"]}
+
+
+def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
+                 covariance: Covariance) -> dict:
+    unavailable: dict[str, str] = {}
+    rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance)
+    if cov_reason:
+        unavailable["covariance"] = cov_reason
+    criteria = _criteria(spec, fit, unavailable)
+    errors = one_step_errors(spec, fit, y, season_length)
+    residuals = residual_section(errors, season_length)
+    if residuals is None:
+        unavailable["residuals"] = errors.note
+    roots = None
+    if spec.family != "arima" or fit.raw is None:
+        unavailable["roots"] = "lag-polynomial roots need a fitted ARIMA model"
+    elif not _finite_polynomials(fit.raw):
+        unavailable["roots"] = "lag polynomials have NaN or infinite coefficients"
+    else:
+        roots = arima_roots(fit.raw, spec.season_period(season_length))
+    return {"family": spec.family, "label": spec.label(season_length),
+            "estimation": _estimation(spec, fit), "covariance": cov_section,
+            "coefficients": rows, "information_criteria": criteria,
+            "innovation_variance": _innovation_variance(spec, fit, errors),
+            "residuals": residuals, "roots": roots, "unavailable": unavailable}
+
+
+def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance
+                      ) -> tuple[list[dict], dict | None, str | None]:
+    """Rows of name, estimate, std_error, z, p_value, note; the covariance used; and the
+    reason when there are no standard errors."""
+    names = list(fit.params)
+    estimates = np.array([fit.params[n] for n in names], dtype=float)
+    variances, reason = _coefficient_variances(spec, fit, covariance, len(names))
+    rows = [_coefficient_row(name, est, var, reason)
+            for name, est, var in zip(names, estimates, variances, strict=True)]
+    if spec.family == "ets":
+        for row in rows:
+            _mark_ets_bound(row)
+    section = None if reason else {"estimator": covariance,
+                                   "description": _COVARIANCE_TEXT[covariance]}
+    return rows, section, reason
+
+
+def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k: int
+                           ) -> tuple[np.ndarray, str | None]:
+    missing = np.full(k, np.nan)
+    if spec.family not in ("arima", "ets"):
+        return missing, f"the {spec.family} estimate comes without standard errors"
+    if fit.raw is None:
+        return missing, "the fitted-results object is not available"
+    try:
+        matrix = getattr(fit.raw, f"cov_params_{covariance}", None)
+    except (np.linalg.LinAlgError, ValueError) as exc:
+        return missing, f"covariance could not be computed: {exc}"
+    if matrix is None:
+        return missing, f"statsmodels offers no {covariance!r} covariance for {spec.family}"
+    diagonal = np.diag(np.asarray(matrix, dtype=float))
+    if len(diagonal) != k:
+        return missing, "covariance matrix does not match the parameters"
+    return diagonal, None
+
+
+def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None) -> dict:
+    row = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
+           "p_value": None, "note": reason}
+    if reason:
+        return row
+    if not (np.isfinite(variance) and variance > 0):
+        row["note"] = "covariance diagonal not positive: the estimate is probably at a bound"
+        return row
+    row["std_error"] = number(np.sqrt(variance))
+    if name in _VARIANCE_NAMES:
+        row["note"] = "variance: sigma2 = 0 is on the boundary, no Wald test"
+        return row
+    z = estimate / np.sqrt(variance)
+    row.update(z=number(z), p_value=number(2.0 * stats.norm.sf(abs(z))))
+    return row
+
+
+def _mark_ets_bound(row: dict) -> None:
+    low, high = _ETS_BOX.get(row["name"], (-np.inf, np.inf))
+    estimate = row["estimate"]
+    if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
+        row["note"] = ("at or near the bound of statsmodels' default parameter range "
+                       f"[{low}, {high}]: the Wald test is unreliable")
+
+
+def _estimation(spec: ModelSpec, fit: Fit) -> dict:
+    if spec.family in ("arima", "ets") and fit.raw is not None:
+        retvals = getattr(fit.raw, "mle_retvals", None) or {}
+        converged = retvals.get("converged")
+        return {"method": "maximum likelihood",
+                "converged": None if converged is None else bool(converged),
+                "iterations": _count(retvals.get("iterations")),
+                "function_calls": _count(retvals.get("fcalls")),
+                "warnflag": _count(retvals.get("warnflag")),
+                "reason": None if converged is not None else "optimizer reported no status"}
+    method = {"theta": "two-step (OLS trend, exponential smoothing)",
+              "benchmark": "closed form"}.get(spec.family, "unknown")
+    return {"method": method, "converged": None, "iterations": None, "function_calls": None,
+            "warnflag": None, "reason": "no iterative optimizer status for this estimate"}
+
+
+def _count(value: object) -> int | None:
+    return None if value is None else int(value)  # type: ignore[call-overload]
+
+
+def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict | None:
+    if spec.family not in ("arima", "ets"):
+        unavailable["information_criteria"] = f"no likelihood for the {spec.family} estimate"
+        return None
+    if fit.raw is None:
+        unavailable["information_criteria"] = "the fitted-results object is not available"
+        return None
+    raw = fit.raw
+    return {"loglik": number(raw.llf), "aic": number(raw.aic), "aicc": number(raw.aicc),
+            "bic": number(raw.bic), "n_parameters": int(raw.df_model),
+            "nobs_effective": int(raw.nobs_effective),
+            "convention": "statsmodels: K includes the innovation variance; "
+                          "AICc = AIC + 2K(K+1)/(N-K-1), N effective observations"}
+
+
+def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict:
+    if "sigma2" in fit.params:
+        value, source = fit.params["sigma2"], "estimated parameter sigma2"
+    elif "sigma" in fit.params:
+        value, source = fit.params["sigma"] ** 2, "square of the benchmark's residual s.d."
+    elif errors.errors is not None and len(errors.errors):
+        value, source = float(np.mean(errors.errors**2)), "mean squared one-step error"
+    else:
+        return {"value": None, "source": errors.note}
+    return {"value": number(value), "source": source}
+
+
+def residual_section(errors: InSample, season_length: int) -> dict | None:
+    """Ljung-Box, Jarque-Bera, ARCH LM and ACF/PACF on the one-step errors."""
+    if errors.errors is None:
+        return None
+    lags = default_lags(season_length)
+    e = errors.errors
+    return {"source": errors.note, "n": len(e), "model_df": errors.model_df,
+            "ljung_box": ljung_box(e, lags, errors.model_df), "jarque_bera": jarque_bera(e),
+            "arch_lm": arch_lm(e, lags[0]), "acf": acf_report(e, lags[-1])}
+
+
+def arima_roots(raw, period: int) -> dict:
+    """Roots of the regular (in B) and seasonal (in B^m) AR and MA polynomials.
+
+    ``raw`` is statsmodels' ARIMA results; its ``polynomial_*`` attributes hold
+    coefficients in increasing powers of B (MA with statsmodels' + sign).
+    """
+    out: dict = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
+    for part in ("ar", "ma"):
+        regular = _root_rows(getattr(raw, f"polynomial_{part}"), 1)
+        seasonal_coefs = np.asarray(getattr(raw, f"polynomial_seasonal_{part}"))
+        seasonal = _root_rows(seasonal_coefs[::period] if period > 1 else [1.0], period)
+        moduli = [row["modulus_in_b"] for row in regular + seasonal]
+        smallest = min(moduli) if moduli else None
+        out[part] = {"regular": regular, "seasonal": seasonal,
+                     "min_modulus_in_b": smallest,
+                     "on_or_inside_unit_circle": bool(smallest is not None
+                                                      and smallest <= 1.0 + UNIT_TOLERANCE),
+                     "near_unit": bool(smallest is not None and smallest < NEAR_UNIT_MODULUS)}
+    return out
+
+
+def _finite_polynomials(raw) -> bool:
+    return all(np.all(np.isfinite(np.asarray(getattr(raw, f"polynomial_{name}"), dtype=float)))
+               for name in ("ar", "ma", "seasonal_ar", "seasonal_ma"))
+
+
+def _root_rows(coefficients, power: int) -> list[dict]:
+    coefs = np.trim_zeros(np.asarray(coefficients, dtype=float), "b")
+    if len(coefs) < 2:
+        return []
+    roots = polynomial.polyroots(coefs)
+    rows = []
+    for root in sorted(roots, key=abs):
+        modulus = float(abs(root))
+        rows.append({"real": number(root.real), "imag": number(root.imag),
+                     "modulus": number(modulus), "modulus_in_b": number(modulus ** (1 / power))})
+    return rows

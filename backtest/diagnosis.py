@@ -1,0 +1,69 @@
+"""The worker's whole job for one (series, candidate): its folds, a diagnostic report of
+its fit to the full series, and a summary of the fits at the folds that re-estimated."""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from backtest.assessment import fit_report, summarise_folds
+from backtest.candidates import Candidate
+from backtest.folds import Origin
+from backtest.plan import Plan
+from backtest.results import FoldResult
+from backtest.runner import run_candidate
+from backtest.series import Series
+
+
+@dataclass(frozen=True)
+class CandidateOutcome:
+    """Folds plus JSON-ready full-series diagnostics and fold-stability summary."""
+
+    folds: tuple[FoldResult, ...]
+    diagnostics: dict[str, Any]
+    stability: dict[str, Any] | None
+
+
+def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
+                       origins: Sequence[Origin]) -> CandidateOutcome:
+    """Backtest one candidate on one series and diagnose its fits."""
+    folds = run_candidate(series, candidate, plan, origins)
+    stability = None
+    if not candidate.spec.closed_form:
+        refits = [f for f in folds if f.reestimated]
+        stability = summarise_folds([f.fit_summary for f in refits],
+                                    [_estimates(f) for f in refits])
+    return CandidateOutcome(folds, full_series_diagnostics(series, candidate), stability)
+
+
+def _estimates(fold: FoldResult) -> dict | None:
+    """The fold's coefficient estimates as the diagnostics name them."""
+    if fold.fit_summary and fold.fit_summary.get("params"):
+        return {k: v["estimate"] for k, v in fold.fit_summary["params"].items()}
+    return fold.params
+
+
+def full_series_diagnostics(series: Series, candidate: Candidate) -> dict[str, Any]:
+    """Fit the candidate to every observation and report coefficients and residual tests.
+
+    This describes the model as it would be used today; it is not a forecast evaluation,
+    so using all the data involves no look-ahead.
+    """
+    spec, m = candidate.spec, series.season_length
+    z = spec.transform.forward(np.asarray(series.values, dtype=float))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            fit = spec.fit(z, m)
+        except Exception as exc:  # a model that cannot be fitted is reported, not raised
+            return {"error": f"{type(exc).__name__}: {exc}"}
+    fit_warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
+    assessed_spec, assessed_fit = spec.assessed(fit)
+    report = fit_report(assessed_spec, assessed_fit, z, m, fit_warnings=fit_warnings)
+    if assessed_spec is not spec:
+        report["chosen"] = assessed_spec.label(m)
+    return report
