@@ -1,0 +1,1 @@
+"""Alembic revisions of the Foldline schema (Alembic skips this file)."""

@@ -1,0 +1,76 @@
+"""API keys as stored: created once by name, revoked by an added row, never changed."""
+
+from __future__ import annotations
+
+import pytest
+from sqlalchemy import select, text
+from sqlalchemy.exc import DBAPIError
+from sqlalchemy.orm import Session
+
+from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
+from storage.keys import create_key, find_credentials, list_keys, revoke_key
+from storage.schema import AuditEvent
+from storage.verify import verify_audit_log
+
+HASH = "ab" * 32
+
+
+def _create(session: Session, key_id: str, name: str, role: str = "reader"):
+    return create_key(session, key_id=key_id, name=name, role=role, secret_hash=HASH,
+                      actor="ops")
+
+
+def test_a_key_is_found_by_its_id_with_its_hash(session: Session):
+    _create(session, "k1", "bi-tool")
+
+    found = find_credentials(session, "k1")
+
+    assert found is not None and found.secret_hash == HASH
+    assert (found.key.name, found.key.role, found.key.active) == ("bi-tool", "reader", True)
+    assert find_credentials(session, "k2") is None
+
+
+def test_revoking_adds_a_revocation_and_is_idempotent(session: Session):
+    _create(session, "k1", "bi-tool")
+
+    first = revoke_key(session, "k1", actor="admin-1")
+    again = revoke_key(session, "k1", actor="admin-2")
+
+    assert first.revoked_by == again.revoked_by == "admin-1"
+    assert not find_credentials(session, "k1").key.active
+    assert [k.active for k in list_keys(session)] == [False]
+    with pytest.raises(NotFoundError):
+        revoke_key(session, "nope", actor="admin-1")
+
+
+def test_names_are_never_reused_and_roles_are_known(session: Session):
+    _create(session, "k1", "bi-tool")
+    revoke_key(session, "k1", actor="ops")
+
+    with pytest.raises(ConflictError, match="never reused"), session.begin_nested():
+        _create(session, "k2", "bi-tool")
+    with pytest.raises(ConflictError, match="role"), session.begin_nested():
+        _create(session, "k3", "other", role="owner")
+
+
+def test_key_writes_are_audited_and_the_chain_verifies(session: Session):
+    _create(session, "k1", "bi-tool")
+    revoke_key(session, "k1", actor="admin-1")
+
+    events = session.execute(select(AuditEvent.action, AuditEvent.actor, AuditEvent.subject)
+                             .order_by(AuditEvent.seq)).all()
+
+    assert [tuple(e) for e in events] == [("api_key.created", "ops", "api_key/k1"),
+                                          ("api_key.revoked", "admin-1", "api_key/k1")]
+    assert verify_audit_log(session).ok
+
+
+@pytest.mark.parametrize("statement", [
+    "UPDATE api_key SET role = 'admin'", "DELETE FROM api_key_revocation",
+    "UPDATE api_key SET secret_hash = 'x'", "DELETE FROM api_key"])
+def test_the_database_refuses_changing_keys(session: Session, statement: str):
+    _create(session, "k1", "bi-tool")
+    revoke_key(session, "k1", actor="ops")
+
+    with pytest.raises(DBAPIError, match=IMMUTABLE_MARKER), session.begin_nested():
+        session.execute(text(statement))
