@@ -12,7 +12,6 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from backtest.candidates import parse_candidates
-from backtest.demo import DEMO_CANDIDATES, DEMO_PLAN, demo_series
 from backtest.engine import run_backtest
 from backtest.errors import BacktestError
 from backtest.plan import parse_plan
@@ -27,6 +26,8 @@ from backtest.tidy import (
     score_rows,
     write_csv,
 )
+from service import cli_db, cli_keys, cli_report, cli_run, cli_serve
+from service.demo import run_demo
 from service.terminal import ProgressBar, ranking_report
 
 
@@ -83,18 +84,7 @@ def _cmd_backtest(args: argparse.Namespace) -> int:
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
-    series = demo_series()
-    candidates = parse_candidates(DEMO_CANDIDATES)
-    plan = parse_plan(DEMO_PLAN)
-    print("Tallow & Finch Provisioners (an invented wholesaler): "
-          f"{len(series)} monthly series, {len(candidates)} candidates, "
-          f"horizon {plan.horizon}, up to {plan.max_origins} origins each.")
-    result = run_backtest(series, candidates, plan, n_jobs=args.jobs, progress=ProgressBar())
-    paths = write_outputs(result, Path(args.out))
-    print(ranking_report(result))
-    print(f"\nbacktest took {result.timing['seconds']:.1f} s; results written to:")
-    print("\n".join(f"  {p}" for p in paths))
-    return 0
+    return run_demo(Path(args.out), args.jobs)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -116,10 +106,16 @@ def build_parser() -> argparse.ArgumentParser:
                     help="what to do with missing periods (default: reject)")
     bt.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
     bt.set_defaults(handler=_cmd_backtest)
-    demo = commands.add_parser("demo", help="backtest the invented demo scenario")
+    demo = commands.add_parser("demo", help="run the invented demo scenario through the "
+                               "service (server, worker, HTTP)")
     demo.add_argument("--out", default="foldline-out/demo", help="output directory")
     demo.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
     demo.set_defaults(handler=_cmd_demo)
+    cli_serve.register(commands)
+    cli_run.register(commands)
+    cli_db.register(commands)
+    cli_report.register(commands)
+    cli_keys.register(commands)
     return parser
 
 

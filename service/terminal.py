@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import sys
+from collections.abc import Mapping, Sequence
 from typing import TextIO
 
 from backtest.results import BacktestResult, SeriesResult
+from backtest.tidy import ranking_rows
 
 
 class ProgressBar:
@@ -34,32 +36,40 @@ def _flag(value: bool | None, yes: str, no: str) -> str:
     return "" if value is None else (yes if value else no)
 
 
-def _pooled(sr: SeriesResult, candidate_id: str, metric: str, level: int) -> float | None:
-    return next((s.value for s in sr.scores if s.candidate_id == candidate_id
-                 and s.metric == metric and s.level == level and s.horizon is None), None)
+def coverage_by_candidate(sr: SeriesResult) -> dict[str, dict[int, float | None]]:
+    """Pooled empirical coverage per candidate and level."""
+    out: dict[str, dict[int, float | None]] = {}
+    for s in sr.scores:
+        if s.metric == "coverage" and s.horizon is None:
+            out.setdefault(s.candidate_id, {})[s.level] = s.value
+    return out
 
 
-def ranking_table(sr: SeriesResult, plan: dict) -> str:
-    """The ranked candidates of one series as a fixed-width text table."""
-    score = plan["rank_by"].upper()
-    where = "all horizons" if plan["rank_horizon"] is None else f"h={plan['rank_horizon']}"
-    levels = plan["levels"]
-    head = ["#", "candidate", score, "vs bench", *[f"cover{lv}" for lv in levels],
+def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
+                  coverage: Mapping[str, Mapping[int, float | None]] | None = None) -> str:
+    """Ranked candidates of one series as a fixed-width table.
+
+    ``rows`` carry the ranking columns of DEVELOPERS.md ("Output tables"), as the CLI's
+    results and the API's run ranking both give them.
+    """
+    levels = sorted({lv for c in (coverage or {}).values() for lv in c})
+    head = ["#", "candidate", score_name, "vs bench", *[f"cover{lv}" for lv in levels],
             "signif.", "conf.set", "calibration", "failed"]
-    rows = []
-    for r in sr.ranking:
-        rows.append([
-            "-" if r.rank is None else str(r.rank),
-            r.label + (" (benchmark)" if r.is_benchmark else ""),
-            _number(r.score), _number(r.skill, 2),
-            *[_number(_pooled(sr, r.candidate_id, "coverage", lv), 2) for lv in levels],
-            _flag(r.beats_benchmark, "better", "no"), _flag(r.in_confidence_set, "in", "out"),
-            r.calibration_zone or "", str(r.folds_failed),
+    body = []
+    for r in rows:
+        cover = (coverage or {}).get(r["candidate_id"], {})
+        body.append([
+            "-" if r["rank"] is None else str(r["rank"]),
+            r["candidate"] + (" (benchmark)" if r["is_benchmark"] else ""),
+            _number(r["score"]), _number(r["skill"], 2),
+            *[_number(cover.get(lv), 2) for lv in levels],
+            _flag(r["beats_benchmark"], "better", "no"),
+            _flag(r["in_confidence_set"], "in", "out"),
+            r["calibration_zone"] or "", str(r["folds_failed"]),
         ])
-    widths = [max(len(x) for x in col) for col in zip(head, *rows)]
-    lines = [f"{sr.series['key']}  ({sr.series['n_obs']} obs, {sr.series['first_period']}.."
-             f"{sr.series['last_period']}; ranked by {score} over {where})"]
-    for row in [head, *rows]:
+    widths = [max(len(x) for x in col) for col in zip(head, *body)]
+    lines = [title]
+    for row in [head, *body]:
         lines.append("  " + "  ".join(c.ljust(w) if i == 1 else c.rjust(w)
                                       for i, (c, w) in enumerate(zip(row, widths))))
     return "\n".join(lines)
@@ -67,4 +77,19 @@ def ranking_table(sr: SeriesResult, plan: dict) -> str:
 
 def ranking_report(result: BacktestResult) -> str:
     """Ranked tables for every series of a result."""
-    return "\n\n".join(ranking_table(sr, result.plan) for sr in result.series)
+    plan = result.plan
+    where = "all horizons" if plan["rank_horizon"] is None else f"h={plan['rank_horizon']}"
+    tables = []
+    for sr, rows in zip(result.series, _rows_by_series(result)):
+        title = (f"{sr.series['key']}  ({sr.series['n_obs']} obs, {sr.series['first_period']}.."
+                 f"{sr.series['last_period']}; ranked by {plan['rank_by'].upper()} over {where})")
+        tables.append(ranking_table(title, rows, plan["rank_by"].upper(),
+                                    coverage_by_candidate(sr)))
+    return "\n\n".join(tables)
+
+
+def _rows_by_series(result: BacktestResult) -> list[list[dict]]:
+    grouped: dict[str, list[dict]] = {}
+    for row in ranking_rows(result):
+        grouped.setdefault(row["series_key"], []).append(row)
+    return [grouped[sr.series["key"]] for sr in result.series]

@@ -46,12 +46,19 @@ def event_hash(seq: int, occurred_at: datetime, actor: str, action: str, subject
     return sha256_text(canonical_json(fields))
 
 
+def lock_audit_log(session: Session) -> None:
+    """Serialise writers on the audit log until the transaction ends (PostgreSQL advisory
+    lock; SQLite's single writer lock already does this). Take it before checking whether
+    a shared record exists, so a concurrent writer sees the other's row, not a conflict."""
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(select(func.pg_advisory_xact_lock(_APPEND_LOCK)))
+
+
 @translates_errors
 def record_event(session: Session, *, actor: str, action: str, subject: str,
                  digest: str) -> AuditEntry:
     """Append an event after the latest one."""
-    if session.get_bind().dialect.name == "postgresql":
-        session.execute(select(func.pg_advisory_xact_lock(_APPEND_LOCK)))
+    lock_audit_log(session)
     last = session.execute(
         select(AuditEvent.seq, AuditEvent.hash).order_by(AuditEvent.seq.desc()).limit(1)
     ).first()

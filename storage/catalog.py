@@ -13,7 +13,7 @@ from typing import Any
 from sqlalchemy.orm import Session
 
 from backtest.plan import Plan
-from storage.audit import record_event
+from storage.audit import lock_audit_log, record_event
 from storage.contents import (
     as_row,
     candidate_digest,
@@ -47,6 +47,7 @@ def register_candidate(session: Session, candidate_id: str, spec: Mapping[str, A
     if candidate_id_of(spec) != candidate_id:
         raise ConflictError(f"candidate id {candidate_id} does not match its spec "
                             f"{canonical_json(spec)}")
+    lock_audit_log(session)
     if session.get(CandidateRecord, candidate_id) is not None:
         return False
     record = CandidateRecord(id=candidate_id, family=str(spec["family"]), spec=dict(spec),
@@ -62,6 +63,7 @@ def register_candidate(session: Session, candidate_id: str, spec: Mapping[str, A
 def register_plan(session: Session, plan: Plan, *, actor: str) -> str:
     """Store a plan unless present; return its id."""
     plan_id = plan_id_of(plan)
+    lock_audit_log(session)
     if session.get(PlanRecord, plan_id) is None:
         record = PlanRecord(id=plan_id, body=plan.canonical(), created_at=utc_now())
         session.add(record)

@@ -82,6 +82,7 @@ def _add_fold(rows: Rows, key: dict[str, Any], fold: FoldResult, position: int) 
         "train_size": int(fold.train_size), "reestimated": bool(fold.reestimated),
         "status": fold.status, "reason": fold.reason,
         "params": None if fold.params is None else to_jsonable(fold.params),
+        "fit_summary": None if fold.fit_summary is None else to_jsonable(fold.fit_summary),
         "has_point": fold.point is not None, "scale": _number(fold.scale),
         "scale_sq": _number(fold.scale_sq)})
     rows[WARNINGS].extend({**key, "position": i, "message": message}
@@ -133,7 +134,7 @@ def _folds(series_key: str, rows: Mapping[Table, Sequence[Row]]) -> tuple[FoldRe
             point=tuple(_float(s["point"]) for s in steps) if f["has_point"] else None,
             lower={lv: tuple(_float(b["lower"]) for b in bs) for lv, bs in sorted(levels.items())},
             upper={lv: tuple(_float(b["upper"]) for b in bs) for lv, bs in sorted(levels.items())},
-            scale=f["scale"], scale_sq=f["scale_sq"]))
+            scale=f["scale"], scale_sq=f["scale_sq"], fit_summary=f["fit_summary"]))
     return tuple(out)
 
 

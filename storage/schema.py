@@ -260,6 +260,7 @@ class FoldRecord(Base):
     status: Mapped[Label]
     reason: Mapped[str | None] = mapped_column(Text)
     params: Mapped[Json | None]
+    fit_summary: Mapped[Json | None]
     has_point: Mapped[bool]
     scale: Mapped[float | None]
     scale_sq: Mapped[float | None]

@@ -247,7 +247,7 @@ def _create_results() -> None:
         *_fold_key(), _int("position"), _str("origin", 32), _str("train_start", 32),
         _int("train_size"), sa.Column("reestimated", sa.Boolean(), nullable=False),
         _str("status", 32), sa.Column("reason", sa.Text(), nullable=True),
-        sa.Column("params", JSON, nullable=True),
+        sa.Column("params", JSON, nullable=True), sa.Column("fit_summary", JSON, nullable=True),
         sa.Column("has_point", sa.Boolean(), nullable=False), _float("scale"),
         _float("scale_sq"),
         sa.CheckConstraint("status IN ('ok', 'failed')", name=op.f("ck_fold_result_status")),

@@ -1,0 +1,29 @@
+"""What ``create_app`` puts on ``app.state`` for the handlers: the settings and the sessions.
+
+Handlers own their transactions (``with sessions.begin() as session:``), so a response is
+sent only after its writes are committed, and an error rolls back everything the request
+wrote.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import Depends, Request
+from sqlalchemy.orm import Session, sessionmaker
+
+from service.settings import Settings
+
+
+def get_sessions(request: Request) -> sessionmaker[Session]:
+    """The application's session factory."""
+    return request.app.state.sessions
+
+
+def get_settings_of_app(request: Request) -> Settings:
+    """The settings the application was created with."""
+    return request.app.state.settings
+
+
+Sessions = Annotated[sessionmaker[Session], Depends(get_sessions)]
+AppSettings = Annotated[Settings, Depends(get_settings_of_app)]

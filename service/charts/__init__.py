@@ -1,0 +1,23 @@
+"""Server-side charts of backtest results, drawn with matplotlib's object API.
+
+Every chart function returns a :class:`matplotlib.figure.Figure` (never pyplot state);
+:func:`render` turns it into SVG or PNG bytes. One module per chart kind; ``style`` holds
+the shared visual language (palette, line looks, fonts, axis wording).
+"""
+
+from service.charts.calibration import calibration_chart
+from service.charts.fan import ForecastBands, fan_chart
+from service.charts.overview import score_by_horizon_chart
+from service.charts.parameters import parameter_path_chart
+from service.charts.render import render
+from service.charts.residuals import residual_chart
+
+__all__ = [
+    "ForecastBands",
+    "calibration_chart",
+    "fan_chart",
+    "parameter_path_chart",
+    "render",
+    "residual_chart",
+    "score_by_horizon_chart",
+]

@@ -1,0 +1,26 @@
+"""Turning a chart into SVG or PNG bytes, with no pyplot and no GUI backend involved."""
+
+from __future__ import annotations
+
+import io
+from typing import Literal
+
+import matplotlib
+from matplotlib.figure import Figure
+
+from service.charts.style import RC
+
+Format = Literal["svg", "png"]
+PNG_DPI = 150
+# No creation date or software stamp: the same chart always renders to the same bytes.
+_METADATA = {"svg": {"Date": None, "Creator": None}, "png": {"Software": None}}
+
+
+def render(fig: Figure, fmt: Format) -> bytes:
+    """The figure as SVG (text kept as text) or PNG (150 dpi) bytes."""
+    if fmt not in _METADATA:
+        raise ValueError(f"chart format must be 'svg' or 'png', got {fmt!r}")
+    buffer = io.BytesIO()
+    with matplotlib.rc_context(RC):
+        fig.savefig(buffer, format=fmt, dpi=PNG_DPI, metadata=_METADATA[fmt])
+    return buffer.getvalue()

@@ -1,0 +1,61 @@
+"""``foldline serve``: the API server, with an embedded job worker by default.
+
+On the embedded default (a SQLite file) the store's migrations are applied at start, so
+one command gives a working service; on a shared PostgreSQL store they are applied once by
+``foldline db upgrade`` (deploy/LAYOUT.md), or here with ``--migrate``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+import uvicorn
+from pydantic import ValidationError
+
+from service.app import create_app
+from service.settings import Settings, get_settings
+from service.worker import start_embedded
+from storage.migrate import upgrade
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    """Add the ``serve`` command."""
+    serve = subparsers.add_parser(
+        "serve", help="run the HTTP API (and a job worker unless FOLDLINE_EMBEDDED_WORKER=false)",
+        description="Serve the API on FOLDLINE_HOST:FOLDLINE_PORT; settings come from the "
+                    "FOLDLINE_* environment variables (see deploy/SETTINGS.md).")
+    serve.add_argument("--host", help="override FOLDLINE_HOST")
+    serve.add_argument("--port", type=int, help="override FOLDLINE_PORT")
+    serve.add_argument("--migrate", action="store_true",
+                       help="apply the store's migrations first (always done for SQLite)")
+    serve.set_defaults(handler=run_server)
+
+
+def run_server(args: argparse.Namespace) -> int:
+    """Serve until interrupted; exit 2 on invalid settings."""
+    try:
+        settings = get_settings()
+    except ValidationError as exc:
+        fields = ", ".join(f"FOLDLINE_{'_'.join(map(str, e['loc'])).upper()}"
+                           for e in exc.errors())
+        print(f"foldline: error: invalid settings: {fields}", file=sys.stderr)
+        return 2
+    updates = {k: v for k, v in (("host", args.host), ("port", args.port)) if v is not None}
+    settings = settings.model_copy(update=updates)
+    if args.migrate or settings.database_url.startswith("sqlite"):
+        upgrade(settings.database_url)
+    return _serve(settings)
+
+
+def _serve(settings: Settings) -> int:
+    worker = start_embedded(settings) if settings.embedded_worker else None
+    try:
+        uvicorn.run(create_app(settings), host=settings.host, port=settings.port,
+                    log_level="warning")
+    finally:
+        if worker is not None:
+            thread, stop = worker
+            stop.set()
+            thread.join(timeout=30)
+    return 0

@@ -1,0 +1,77 @@
+"""The run report: one self-contained HTML page per run, charts inline, ready to print on A4."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from backtest.results import BacktestResult, SeriesResult
+from backtest.series import Series
+from service.report.calibration import calibration_section
+from service.report.cautions import cautions
+from service.report.diagnostics import diagnostics_section, has_residual_chart
+from service.report.embed import ChartEmbedder
+from service.report.html import Html, element, join
+from service.report.page import page
+from service.report.problems import problems_section
+from service.report.provenance import shown, what_was_run
+from service.report.ranking import ranking_section, score_name
+from service.report.residuals import FitResiduals, full_fit_residuals
+
+
+def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
+                      series_values: Mapping[str, Series] | None = None, *,
+                      refit_residuals: bool = True) -> str:
+    """The HTML report of one run.
+
+    ``run_meta`` describes the run as stored (every key optional): ``run_id``, ``status``,
+    ``requested_by``, ``queued_at``, ``started_at``, ``finished_at``, ``failure_reason``,
+    ``versions`` (dicts with ``fingerprint`` and ``number``) and ``units`` (series key to
+    unit). ``series_values`` maps a series version's fingerprint to its :class:`Series`;
+    with it the forecast chart shows the full recent history and, unless
+    ``refit_residuals`` is false, the residual charts get their time and QQ panels (each
+    candidate is refitted to the series once, which takes a moment for ARIMA models).
+    """
+    values = dict(series_values or {})
+    for fingerprint, series in values.items():
+        if series.fingerprint() != fingerprint:
+            raise ValueError(f"series {series.key!r} is keyed by fingerprint "
+                             f"{fingerprint[:12]}..., but its data has another fingerprint")
+    charts = ChartEmbedder()
+    run = shown(run_meta.get("run_id"))
+    keys = ", ".join(sr.series["key"] for sr in result.series) or "no series stored"
+    body = [element("h1", f"Foldline run report: run {run}"),
+            element("p", f"{len(result.series)} series ({keys}); horizon "
+                         f"{result.plan.get('horizon')}; ranked by {score_name(result.plan)}.",
+                    cls="lede"),
+            cautions(result), what_was_run(result, run_meta)]
+    units = run_meta.get("units", {})
+    for sr in result.series:
+        series = values.get(sr.series["fingerprint"])
+        residuals = _residuals(sr, series) if series is not None and refit_residuals else {}
+        body.append(_series_section(sr, result.plan, charts, units.get(sr.series["key"]),
+                                    series, residuals))
+    return page(f"Foldline run {run}", join(body))
+
+
+def _series_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbedder,
+                    unit: str | None, series: Series | None,
+                    residuals: Mapping[str, FitResiduals | None]) -> Html:
+    s = sr.series
+    heading = element("h2", f"Series {s['key']}")
+    about = element("p", f"{s['n_obs']} observations, {s['first_period']} to "
+                         f"{s['last_period']}, frequency {s['frequency']}, season length "
+                         f"{s['season_length']}; fingerprint ",
+                    element("span", s["fingerprint"], cls="mono"), ".")
+    return Html('<section class="series">\n' + join([
+        heading, about,
+        ranking_section(sr, plan, charts, unit=unit, series=series),
+        calibration_section(sr, charts),
+        diagnostics_section(sr, charts, residuals=residuals, unit=unit),
+        problems_section(sr),
+    ]) + "\n</section>")
+
+
+def _residuals(sr: SeriesResult, series: Series) -> dict[str, FitResiduals | None]:
+    return {c.candidate_id: full_fit_residuals(series, c.spec) for c in sr.candidates
+            if has_residual_chart(sr, c.candidate_id)}

@@ -1,0 +1,51 @@
+"""API keys, for admins: create (the token is shown once), list, revoke."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Depends, Path
+
+from service.access import Caller, require
+from service.app_state import Sessions
+from service.key_admin import issue_key
+from service.problems import problem_responses
+from service.schemas.keys import KeyCreatedOut, KeyIn, KeyList, KeyOut
+from service.transactions import write
+from storage.keys import KeyInfo, list_keys, revoke_key
+
+router = APIRouter(prefix="/v1/keys", tags=["keys"])
+Admin = Annotated[Caller, Depends(require("manage_keys"))]
+ERRORS = (401, 403, 422, 500, 503)
+
+
+@router.post("", status_code=201, response_model=KeyCreatedOut,
+             responses=problem_responses(*ERRORS, 409, 413))
+def create(body: KeyIn, caller: Admin, sessions: Sessions) -> KeyCreatedOut:
+    """Create a key; names are unique and never reused."""
+    key, token = write(sessions, lambda session: issue_key(session, name=body.name,
+                                                           role=body.role, actor=caller.name))
+    return KeyCreatedOut(key=key_out(key), token=token.text)
+
+
+@router.get("", response_model=KeyList, responses=problem_responses(*ERRORS))
+def list_all(caller: Admin, sessions: Sessions) -> KeyList:
+    """Every key, revoked ones included."""
+    with sessions.begin() as session:
+        return KeyList(items=[key_out(k) for k in list_keys(session)])
+
+
+@router.post("/{key_id}/revoke", response_model=KeyOut,
+             responses=problem_responses(*ERRORS, 404))
+def revoke(key_id: Annotated[str, Path(max_length=32)], caller: Admin,
+           sessions: Sessions) -> KeyOut:
+    """Revoke a key: requests with it are refused from now on."""
+    return key_out(write(sessions, lambda session: revoke_key(session, key_id,
+                                                              actor=caller.name)))
+
+
+def key_out(key: KeyInfo) -> KeyOut:
+    """The public view of a key."""
+    return KeyOut(id=key.id, name=key.name, role=key.role,  # type: ignore[arg-type]
+                  created_at=key.created_at, created_by=key.created_by,
+                  revoked_at=key.revoked_at, revoked_by=key.revoked_by)

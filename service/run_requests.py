@@ -1,0 +1,146 @@
+"""Checking a run submission completely before it is queued.
+
+A run that is queued will be computed, so every input error the engine would raise must be
+found here: candidates and plan are parsed, the series selection resolved to stored
+versions, and the plan laid over each series exactly as the engine will (benchmark added,
+candidate checks, origins). The result counts the folds, which is what the
+``FOLDLINE_MAX_FOLDS`` limit bounds.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from sqlalchemy.orm import Session
+
+from backtest.candidates import Candidate, parse_candidate
+from backtest.errors import CandidateError, PlanError, SeriesError
+from backtest.folds import plan_origins
+from backtest.models.benchmarks import BenchmarkSpec
+from backtest.plan import Plan, parse_plan
+from backtest.series import Series
+from service.errors import (
+    FieldError,
+    InvalidCandidateError,
+    InvalidInputError,
+    InvalidPlanError,
+    InvalidSelectionError,
+    LimitExceededError,
+)
+from service.schemas.runs import RunIn, SeriesSelection
+from service.settings import Settings
+from storage.errors import NotFoundError
+from storage.series_catalog import find_series, get_series
+from storage.series_store import VersionInfo, load_series
+
+MAX_SEED = 2**31 - 1
+
+
+@dataclass(frozen=True)
+class PreparedRun:
+    """A submission that the engine will accept: versions, candidates, plan, fold count."""
+
+    versions: tuple[VersionInfo, ...]
+    candidates: tuple[Candidate, ...]
+    plan: Plan
+    folds: int
+
+
+def parse_request(body: RunIn, settings: Settings) -> tuple[tuple[Candidate, ...], Plan]:
+    """The candidates and plan of a submission; errors point at the field at fault."""
+    if len(body.candidates) > settings.max_candidates:
+        raise LimitExceededError(
+            f"the run lists {len(body.candidates)} candidates; at most "
+            f"{settings.max_candidates} are accepted (FOLDLINE_MAX_CANDIDATES)",
+            errors=[FieldError("body", "/candidates", "too many candidates")])
+    candidates: list[Candidate] = []
+    for index, spec in enumerate(body.candidates):
+        candidate = _candidate(spec.model_dump(), index)
+        if any(c.id == candidate.id for c in candidates):
+            raise _invalid(InvalidCandidateError, f"candidate {index} repeats an earlier one",
+                           f"/candidates/{index}")
+        candidates.append(candidate)
+    try:
+        plan = parse_plan(body.plan)
+    except PlanError as exc:
+        raise _invalid(InvalidPlanError, str(exc), "/plan") from None
+    if plan.seed > MAX_SEED:
+        raise _invalid(InvalidPlanError, f"plan seed must be at most {MAX_SEED} (the store "
+                       f"keeps 32-bit signed seeds), got {plan.seed}", "/plan/seed")
+    return tuple(candidates), plan
+
+
+def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRun:
+    """Check a submission against the store and the limits."""
+    candidates, plan = parse_request(body, settings)
+    versions = selected_versions(session, body.series)
+    series = [load_series(session, v.id) for v in versions]
+    try:
+        folds = planned_folds(series, candidates, plan)
+    except CandidateError as exc:
+        raise _invalid(InvalidCandidateError, str(exc), "/candidates") from None
+    except (PlanError, SeriesError) as exc:
+        raise _invalid(InvalidPlanError, str(exc), "/plan") from None
+    if folds > settings.max_folds:
+        raise LimitExceededError(
+            f"the run would compute {folds} folds (series x candidates x origins, the "
+            f"benchmark included); at most {settings.max_folds} are accepted "
+            "(FOLDLINE_MAX_FOLDS): select fewer series or candidates, or set max_origins",
+            errors=[FieldError("body", "", "too many folds")])
+    return PreparedRun(tuple(versions), candidates, plan, folds)
+
+
+def selected_versions(session: Session, selection: SeriesSelection) -> list[VersionInfo]:
+    """The latest version of each selected series, in request (or key) order."""
+    if selection.tags is not None:
+        found = find_series(session, tags=selection.tags)
+        if not found:
+            raise _invalid(InvalidSelectionError, f"no series carries the tags {selection.tags}",
+                           "/series/tags")
+        return [s.latest for s in found]
+    keys = selection.keys or []
+    if len(set(keys)) != len(keys):
+        raise _invalid(InvalidSelectionError, "a series key is listed twice", "/series/keys")
+    versions = []
+    for index, key in enumerate(keys):
+        try:
+            versions.append(get_series(session, key).latest)
+        except NotFoundError:
+            raise _invalid(InvalidSelectionError, f"series {key!r} does not exist",
+                           f"/series/keys/{index}") from None
+    return versions
+
+
+def planned_folds(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan) -> int:
+    """The folds ``run_backtest`` will compute; raise what it would raise on bad input.
+
+    This mirrors the engine's own preparation (the plan's benchmark joins the candidates,
+    each candidate is checked against each series, origins are laid out); a test keeps the
+    two in agreement.
+    """
+    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
+    pool = [*candidates, *([] if any(c.id == benchmark.id for c in candidates) else [benchmark])]
+    total = 0
+    for one in series:
+        m = one.season_length
+        for candidate in pool:
+            candidate.spec.check(m)
+            if candidate.spec.needs_positive and (one.values <= 0).any():
+                raise CandidateError(f"{candidate.label(m)} needs strictly positive data, but "
+                                     f"series {one.key!r} has values <= 0")
+        origins = plan_origins(one, plan, max(c.spec.min_train(m) for c in pool))
+        total += len(origins) * len(pool)
+    return total
+
+
+def _candidate(spec: dict, index: int) -> Candidate:
+    try:
+        return parse_candidate(spec)
+    except CandidateError as exc:
+        raise _invalid(InvalidCandidateError, f"candidate {index}: {exc}",
+                       f"/candidates/{index}") from None
+
+
+def _invalid(kind: type[InvalidInputError], message: str, pointer: str) -> InvalidInputError:
+    return kind(message, errors=[FieldError("body", pointer, message)])

@@ -1,0 +1,1 @@
+"""Request and response bodies of the HTTP API, one module per resource."""

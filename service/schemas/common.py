@@ -1,0 +1,32 @@
+"""Shapes shared by several resources: strict input models, pages, tags."""
+
+from __future__ import annotations
+
+import re
+from typing import Annotated
+
+from pydantic import BaseModel, ConfigDict, Field, StringConstraints
+
+MAX_ID = 2**31 - 1
+"""Largest id, version number, offset or sequence number a request may name (the store's
+integer columns hold no more)."""
+TAG_NAME = re.compile(r"[A-Za-z0-9_.-]{1,64}")
+TAG_VALUE = re.compile(r"[^\x00-\x1f]{1,200}")
+SERIES_KEY = re.compile(r"[^\s\x00-\x1f](?:[^\x00-\x1f]{0,198}[^\s\x00-\x1f])?")
+TagName = Annotated[str, StringConstraints(pattern=f"^{TAG_NAME.pattern}$")]
+TagValue = Annotated[str, StringConstraints(pattern=f"^{TAG_VALUE.pattern}$")]
+Tags = dict[TagName, TagValue]
+SeriesKey = Annotated[str, StringConstraints(pattern=f"^{SERIES_KEY.pattern}$")]
+
+
+class Strict(BaseModel):
+    """A request body: unknown fields are refused, not ignored."""
+
+    model_config = ConfigDict(extra="forbid")
+
+
+class Page(BaseModel):
+    """Paging links shared by every list."""
+
+    next: str | None = Field(description="URL of the next page; null on the last page")
+

@@ -1,0 +1,106 @@
+"""Turning posted series (JSON, tidy CSV, appended actuals) into validated series, within limits.
+
+Everything here runs before anything is written: a request that fails any check stores
+nothing. Limits come from the settings (``FOLDLINE_MAX_OBSERVATIONS``,
+``FOLDLINE_MAX_SERIES_PER_UPLOAD``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
+
+from backtest.series import FillPolicy, Series, make_series
+from backtest.tidy import read_series_csv
+from service.errors import FieldError, InvalidInputError, LimitExceededError
+from service.schemas.common import SERIES_KEY
+from service.schemas.series import ObservationIn, SeriesIn
+from service.settings import Settings
+from storage.errors import ConflictError
+
+
+def series_from_json(body: SeriesIn, settings: Settings) -> Series:
+    """The series a JSON body describes."""
+    _check_count(len(body.observations), settings, "/observations")
+    with _numbers_in_range():
+        series = make_series(body.key, body.frequency,
+                             [(o.period, o.value) for o in body.observations],
+                             season_length=body.season_length, fill=body.fill)
+    _check_count(len(series), settings, "/observations")
+    return series
+
+
+def series_from_csv(data: bytes, settings: Settings, *, frequency: str | None,
+                    season_length: int | None, fill: FillPolicy) -> list[Series]:
+    """The series of a tidy CSV upload, in order of first appearance."""
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InvalidInputError(f"the CSV is not UTF-8 text (byte {exc.start} cannot be "
+                                "decoded)", errors=[FieldError("body", "", "not UTF-8")]) \
+            from None
+    with _numbers_in_range():
+        series = read_series_csv(text, frequency=frequency, season_length=season_length,
+                                 fill=fill)
+    if len(series) > settings.max_series_per_upload:
+        raise LimitExceededError(
+            f"the upload holds {len(series)} series; at most {settings.max_series_per_upload} "
+            "are accepted at once (FOLDLINE_MAX_SERIES_PER_UPLOAD); nothing was stored",
+            errors=[FieldError("body", "", "too many series")])
+    for one in series:
+        if not SERIES_KEY.fullmatch(one.key):
+            raise InvalidInputError(f"series key {one.key[:40]!r}... must be 1 to 200 "
+                                    "characters without control characters",
+                                    errors=[FieldError("body", "", "invalid series key")])
+        _check_count(len(one), settings, "", one.key)
+    return series
+
+
+def with_appended(stored: Series, observations: Sequence[ObservationIn],
+                  settings: Settings) -> Series:
+    """``stored`` with new observations merged in, under its own fill policy.
+
+    A period already stored must come with its stored value (so a retried append changes
+    nothing); a different value would rewrite history, which takes a full post instead.
+    """
+    filled = set(stored.filled)
+    by_position = {stored.frequency.position(label): (label, float(value))
+                   for label, value in zip(stored.labels(), stored.values)
+                   if label not in filled}
+    for index, observation in enumerate(observations):
+        position = stored.frequency.position(observation.period)
+        old = by_position.get(position)
+        if old is not None and old[1] != observation.value:
+            raise ConflictError(
+                f"period {old[0]} of series {stored.key!r} is stored as {old[1]:g}, not "
+                f"{observation.value:g} (observation {index}); appending cannot change "
+                "history: post the whole series to revise it")
+        by_position[position] = (observation.period, observation.value)
+    rows = [by_position[p] for p in sorted(by_position)]
+    _check_count(len(rows), settings, "/observations", stored.key)
+    with _numbers_in_range():
+        series = make_series(stored.key, stored.frequency.duration, rows,
+                             season_length=stored.season_length, fill=stored.fill_policy)
+    _check_count(len(series), settings, "/observations", stored.key)
+    return series
+
+
+@contextmanager
+def _numbers_in_range() -> Iterator[None]:
+    """Turn arithmetic overflow on absurd input (a frequency of a billion months, a period
+    in the year 10**9) into an input error."""
+    try:
+        yield
+    except OverflowError as exc:
+        raise InvalidInputError(f"a period or frequency is out of range ({exc})",
+                                errors=[FieldError("body", "", "out of range")]) from None
+
+
+def _check_count(count: int, settings: Settings, pointer: str, key: str | None = None) -> None:
+    limit = settings.max_observations
+    if count > limit:
+        which = f"series {key!r} has" if key else "the series has"
+        raise LimitExceededError(
+            f"{which} {count} observations; at most {limit} per series are accepted "
+            "(FOLDLINE_MAX_OBSERVATIONS); nothing was stored",
+            errors=[FieldError("body", pointer, f"more than {limit} observations")])

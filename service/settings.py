@@ -1,0 +1,47 @@
+"""Every setting of the service, read from environment variables prefixed ``FOLDLINE_``.
+
+This is the one place settings are defined; deploy/SETTINGS.md lists them for operators and
+a test keeps the two in step. Nothing is read at import: :func:`get_settings` builds the
+settings once per process, and ``create_app(settings)`` and the worker take them as an
+argument.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from pydantic import Field
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+from storage.engine import database_url
+
+
+class Settings(BaseSettings):
+    """Service settings; each field is ``FOLDLINE_<NAME>`` in the environment."""
+
+    model_config = SettingsConfigDict(env_prefix="FOLDLINE_", extra="ignore")
+
+    database_url: str = Field(default_factory=database_url,
+                              description="SQLAlchemy URL of the store (default: SQLite file)")
+    host: str = Field("127.0.0.1", description="address the API server listens on")
+    port: int = Field(8000, ge=0, le=65535, description="port the API server listens on")
+    embedded_worker: bool = Field(True, description="`foldline serve` also runs a worker")
+    worker_jobs: int = Field(2, ge=1, le=64, description="joblib processes per worker")
+    dask_scheduler: str | None = Field(None, description="dask scheduler address; when set, "
+                                       "workers send a run's tasks to that cluster")
+    lease_seconds: float = Field(60.0, gt=1, description="how long a claimed run stays "
+                                 "leased without renewal before another worker may take it")
+    poll_seconds: float = Field(1.0, gt=0, description="how often an idle worker looks for "
+                                "queued runs")
+    max_body_bytes: int = Field(10 * 1024 * 1024, ge=1024, description="largest request body")
+    max_observations: int = Field(10_000, ge=10, description="observations per series")
+    max_series_per_upload: int = Field(1_000, ge=1, description="series in one upload")
+    max_candidates: int = Field(20, ge=1, description="candidates per run")
+    max_folds: int = Field(500_000, ge=1, description="folds (series x candidates x origins) "
+                           "per run")
+
+
+@lru_cache(maxsize=1)
+def get_settings() -> Settings:
+    """The process's settings, read from the environment once."""
+    return Settings()

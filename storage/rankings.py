@@ -1,0 +1,67 @@
+"""The ranking table for BI tools: every series' candidates on its latest successful run.
+
+One row per series x candidate, ranked by one stored score (a metric at one horizon, or
+pooled, and an interval level for interval scores); lower values rank first for every
+rankable metric. Ties share the best rank (1, 1, 3); candidates without a value come last,
+unranked. This is the rule of :func:`storage.queries.ranked_candidates`, computed in one
+SQL statement for all series at once.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from sqlalchemy import case, func, select
+from sqlalchemy.orm import Session
+
+from storage.errors import translates_errors
+from storage.queries import latest_runs_query
+from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord, SeriesResultRecord
+
+RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "winkler", "msis")
+"""Metrics where lower is better; ``winkler`` and ``msis`` need an interval level."""
+
+
+@translates_errors
+def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
+                  level: int | None = None, prefix: str | None = None,
+                  tags: Mapping[str, str] | None = None, limit: int | None = None,
+                  offset: int = 0) -> list[dict[str, Any]]:
+    """Rows: series_key, series_version, run_id, run_finished_at, metric, horizon, level,
+    rank, candidate_id, candidate, is_benchmark, value, count, note; by series key, rank,
+    candidate id."""
+    latest = latest_runs_query().subquery()
+    s, unit = ScoreRecord, SeriesResultRecord
+    unscored = s.value.is_(None)
+    place = func.rank().over(partition_by=(s.run_id, s.series_version_id, unscored),
+                             order_by=s.value)
+    inner = (
+        select(latest.c.series_key, latest.c.version_number.label("series_version"),
+               latest.c.run_id, latest.c.finished_at.label("run_finished_at"), s.metric,
+               s.horizon, s.level, place.label("place"), unscored.label("unscored"),
+               s.candidate_id, ResultCandidate.label.label("candidate"),
+               (s.candidate_id == unit.benchmark_id).label("is_benchmark"), s.value, s.count,
+               s.note)
+        .select_from(latest)
+        .join(s, (s.run_id == latest.c.run_id)
+              & (s.series_version_id == latest.c.series_version_id))
+        .join(unit, (unit.run_id == s.run_id) & (unit.series_version_id == s.series_version_id))
+        .join(ResultCandidate, (ResultCandidate.run_id == s.run_id)
+              & (ResultCandidate.series_version_id == s.series_version_id)
+              & (ResultCandidate.candidate_id == s.candidate_id))
+        .join(SeriesRecord, SeriesRecord.key == latest.c.series_key)
+        .where(s.metric == metric, s.horizon.is_not_distinct_from(horizon),
+               s.level.is_not_distinct_from(level)))
+    if prefix:
+        inner = inner.where(func.substr(latest.c.series_key, 1, len(prefix)) == prefix)
+    for name, value in (tags or {}).items():
+        inner = inner.where(SeriesRecord.tags[name].as_string() == value)
+    ranked = inner.subquery()
+    c = ranked.c
+    query = (select(c.series_key, c.series_version, c.run_id, c.run_finished_at, c.metric,
+                    c.horizon, c.level, case((c.unscored, None), else_=c.place).label("rank"),
+                    c.candidate_id, c.candidate, c.is_benchmark, c.value, c.count, c.note)
+             .order_by(c.series_key, c.unscored, c.place, c.candidate_id)
+             .limit(limit).offset(offset))
+    return [dict(row) for row in session.execute(query).mappings()]

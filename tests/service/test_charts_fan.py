@@ -1,0 +1,106 @@
+"""The fan chart draws the history, the forecast, its bands and the actuals it is given."""
+
+import dataclasses
+
+import numpy as np
+import pytest
+from matplotlib.collections import PolyCollection
+
+from backtest.candidates import parse_candidates
+from backtest.demo import demo_series
+from backtest.engine import run_backtest
+from backtest.plan import parse_plan
+from service.charts import ForecastBands, fan_chart
+
+
+@pytest.fixture(scope="module")
+def backtest():
+    series = demo_series()[1]
+    plan = parse_plan({"horizon": 4, "max_origins": 3, "levels": [80, 95], "seed": 1})
+    result = run_backtest([series], parse_candidates([{"family": "theta"}]), plan)
+    return series, result.series[0]
+
+
+@pytest.fixture(scope="module")
+def drawn(backtest):
+    series, sr = backtest
+    fold = max((f for f in sr.folds if f.candidate_id != sr.benchmark_id), key=lambda f: f.fold)
+    fig = fan_chart(ForecastBands.from_fold(fold), series.labels(), series.values,
+                    series_key=sr.series["key"], candidate_label="Theta", unit="kEUR",
+                    frequency="P1M")
+    return series, fold, fig
+
+
+def _line(fig, label):
+    return next(line for line in fig.axes[0].get_lines() if line.get_label() == label)
+
+
+def _bands(fig):
+    return {c.get_label(): c for c in fig.axes[0].collections if isinstance(c, PolyCollection)}
+
+
+def test_forecast_bands_come_from_the_fold(backtest):
+    _, sr = backtest
+    fold = sr.folds[0]
+    bands = ForecastBands.from_fold(fold)
+    assert (bands.origin, bands.periods, bands.point) == (fold.origin, fold.periods, fold.point)
+    assert bands.lower == fold.lower and bands.actuals == fold.actuals
+    failed = dataclasses.replace(fold, status="failed", point=None, reason="boom")
+    with pytest.raises(ValueError, match="failed"):
+        ForecastBands.from_fold(failed)
+
+
+def test_history_stops_at_the_origin(drawn):
+    series, fold, fig = drawn
+    cut = series.index_of(fold.origin) + 1
+    history = _line(fig, "history")
+    assert np.array_equal(history.get_xdata(), np.arange(cut))
+    assert np.allclose(history.get_ydata(), series.values[:cut])
+
+
+def test_point_forecast_and_actuals_follow_the_origin(drawn):
+    series, fold, fig = drawn
+    ahead = np.arange(len(fold.periods)) + series.index_of(fold.origin) + 1
+    point, actual = _line(fig, "point forecast"), _line(fig, "actual")
+    assert np.array_equal(point.get_xdata(), ahead)
+    assert np.allclose(point.get_ydata(), fold.point)
+    assert np.allclose(actual.get_ydata(), fold.actuals)
+    assert np.allclose(actual.get_ydata(), series.values[ahead])
+
+
+@pytest.mark.parametrize("level", [80, 95])
+def test_each_band_spans_its_bounds(drawn, level):
+    series, fold, fig = drawn
+    ahead = np.arange(len(fold.periods)) + series.index_of(fold.origin) + 1
+    vertices = _bands(fig)[f"{level} % interval"].get_paths()[0].vertices
+    for x, low, high in zip(ahead, fold.lower[level], fold.upper[level]):
+        at_x = vertices[np.isclose(vertices[:, 0], x), 1]
+        assert np.isclose(at_x.min(), low) and np.isclose(at_x.max(), high)
+
+
+def test_wider_band_is_paler(drawn):
+    bands = _bands(drawn[2])
+    assert bands["95 % interval"].get_alpha() < bands["80 % interval"].get_alpha()
+
+
+def test_labels_title_and_legend(drawn):
+    series, fold, fig = drawn
+    ax = fig.axes[0]
+    assert ax.get_ylabel() == "value (kEUR)" and ax.get_xlabel() == "period (month)"
+    assert "sales/bakery" in fig.get_suptitle() and fold.origin in fig.get_suptitle()
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert legend == ["95 % interval", "80 % interval", "history", "point forecast", "actual"]
+    ticks = {t.get_text() for t in ax.get_xticklabels()}
+    assert ticks and ticks <= set(series.labels())
+
+
+def test_an_issued_forecast_has_no_actuals_and_needs_history_to_its_origin():
+    forecast = ForecastBands("2024-12", ("2025-01", "2025-02"), (5.0, 6.0), {80: (4.0, 4.5)},
+                             {80: (6.0, 7.5)}, (None, None))
+    fig = fan_chart(forecast, ["2024-11", "2024-12"], [4.0, 5.0], series_key="k",
+                    candidate_label="c")
+    assert "actual" not in [line.get_label() for line in fig.axes[0].get_lines()]
+    assert fig.axes[0].get_ylabel() == "value (series units)"
+    with pytest.raises(ValueError, match="origin"):
+        fan_chart(forecast, ["2024-10", "2024-11"], [4.0, 5.0], series_key="k",
+                  candidate_label="c")
