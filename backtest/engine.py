@@ -24,14 +24,17 @@ Progress = Callable[[int, int], None]
 
 
 def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan, *,
-                 n_jobs: int = 1, progress: Progress | None = None) -> BacktestResult:
+                 n_jobs: int = 1, progress: Progress | None = None,
+                 scheduler: str | None = None) -> BacktestResult:
     """Backtest ``candidates`` on ``series`` under ``plan``.
 
     The plan's benchmark is added to the candidates if it is not among them. Input errors
     (a candidate impossible for a series, a series too short for the plan) are raised
     before any computation; a candidate failing at one origin becomes a failed fold.
     ``progress(done, total)`` is called with fold counts as each (series, candidate) task
-    finishes. Results do not depend on ``n_jobs`` or on the order tasks finish in.
+    finishes. ``scheduler``, the address of a dask.distributed scheduler, runs the tasks on
+    its workers instead of ``n_jobs`` local processes. Results do not depend on ``n_jobs``,
+    on where tasks run or on the order they finish in.
     """
     started = time.perf_counter()
     pool, benchmark = _with_benchmark(candidates, plan)
@@ -48,7 +51,8 @@ def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan
 
     if progress is not None:
         progress(0, total)
-    outcomes = run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done)
+    outcomes = run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done,
+                         scheduler=scheduler)
     results = tuple(
         _series_result(s, pool, benchmark, plan, outcomes[i * len(pool):(i + 1) * len(pool)],
                        added=benchmark not in candidates)

@@ -1,17 +1,21 @@
-"""Running independent tasks in a joblib process pool with one BLAS thread per worker.
+"""Running independent tasks in a process pool or on a dask cluster, one BLAS thread per task.
 
-statsmodels' state-space code is not thread-safe, so tasks run in loky processes. BLAS is
-limited to one thread inside every task (threadpoolctl): with more, the workers'
-threads compete for the cores and a run gets much slower. Results come back in task order
-whatever order they finish in.
+statsmodels' state-space code is not thread-safe, so tasks run in processes: joblib's loky
+pool on this machine, or the workers of a dask.distributed scheduler (joblib's ``dask``
+backend) when a scheduler address is given; cluster workers are started with
+``dask worker ADDRESS --nthreads 1`` and have this project installed. BLAS is limited to
+one thread inside every task (threadpoolctl): with more, the workers' threads compete for
+the cores and a run gets much slower. A task is a whole unit of work (the engine's is one
+series with one candidate), so each worker process imports the code once and receives
+already-validated inputs. Results come back in task order whatever order they finish in.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from typing import Any, TypeVar
 
-from joblib import Parallel, delayed
+from joblib import Parallel, delayed, parallel_config
 from threadpoolctl import threadpool_limits
 
 T = TypeVar("T")
@@ -23,16 +27,39 @@ def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int
 
 
 def run_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs: int = 1,
-              on_done: Callable[[int, T], None] | None = None) -> list[T]:
-    """Call ``fn(*task)`` for every task; ``on_done(index, result)`` as each one finishes."""
+              on_done: Callable[[int, T], None] | None = None,
+              scheduler: str | None = None) -> list[T]:
+    """Call ``fn(*task)`` for every task; ``on_done(index, result)`` as each one finishes.
+
+    Parameters
+    ----------
+    fn : a module-level function (it is pickled by reference).
+    tasks : argument tuples, one per call.
+    n_jobs : local worker processes; 1 runs in this process. Ignored with ``scheduler``.
+    on_done : called with each task's index and result as it finishes.
+    scheduler : address of a dask.distributed scheduler, e.g. ``"tcp://10.0.0.5:8786"``;
+        the tasks then run on its workers.
+    """
     results: list[Any] = [None] * len(tasks)
-    if n_jobs == 1:
+    calls = (delayed(_single_threaded)(fn, i, t) for i, t in enumerate(tasks))
+    if scheduler is not None:
+        finished = _on_cluster(scheduler, calls)
+    elif n_jobs == 1:
         finished = (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
     else:
-        pool = Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered")
-        finished = pool(delayed(_single_threaded)(fn, i, t) for i, t in enumerate(tasks))
+        finished = Parallel(n_jobs=n_jobs, backend="loky",
+                            return_as="generator_unordered")(calls)
     for index, result in finished:
         results[index] = result
         if on_done is not None:
             on_done(index, result)
     return results
+
+
+def _on_cluster(scheduler: str, calls: Iterable) -> Iterable[tuple[int, Any]]:
+    # Imported here: dask is needed only when a cluster is used.
+    from dask.distributed import Client
+
+    with Client(scheduler, set_as_default=False) as client, \
+            parallel_config(backend="dask", client=client):
+        yield from Parallel(return_as="generator_unordered")(calls)

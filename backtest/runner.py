@@ -7,7 +7,9 @@ from the start of the last estimation window up to the origin (Tashman 2000's
 "rolling-origin-update"). Closed-form families re-estimate at every origin. Nothing after
 an origin is ever passed to the model. A fold that raises becomes a failed fold with its
 reason; warnings are captured per fold (those raised while forecasting a stretch of kept
-parameters in one pass are recorded on each fold of the stretch).
+parameters in one pass are recorded on each fold of the stretch). With the plan's
+``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
+the previous estimation's parameters.
 """
 
 from __future__ import annotations
@@ -46,7 +48,7 @@ def run_candidate(series: Series, candidate: Candidate, plan: Plan,
     while i < len(origins):
         origin = origins[i]
         if origin.reestimate or fit is None:
-            fold, fit = _estimated_fold(series, candidate, plan, z, origin)
+            fold, fit = _estimated_fold(series, candidate, plan, z, origin, fit)
             fit_start = origin.start
             out.append(fold)
             i += 1
@@ -60,15 +62,19 @@ def run_candidate(series: Series, candidate: Candidate, plan: Plan,
 
 
 def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
-                    origin: Origin) -> tuple[FoldResult, Fit | None]:
+                    origin: Origin, previous: Fit | None = None
+                    ) -> tuple[FoldResult, Fit | None]:
     spec, m = candidate.spec, series.season_length
     seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
     window = z[origin.start:origin.end]
     fit, forecast, error, summary = None, None, None, None
+    warm = plan.warm_start and spec.warm_startable and previous is not None
+    options = {"start_params": previous.params} if warm else {}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels, seed)
+            fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels, seed,
+                                              **options)
             forecast = _back_transform(spec.transform, forecast)
         except Exception as exc:  # a fold's failure must never crash the run
             fit, forecast, error = None, None, _reason(exc)

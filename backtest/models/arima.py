@@ -5,16 +5,23 @@ nonstationary part (statsmodels ``ARIMA(...).fit()`` defaults: stationarity and
 invertibility enforced). Forecasts with given parameters come from the Kalman filter over
 the training window, so a kept parameter set still conditions on every observation up to
 the origin.
+
+A fit follows statsmodels' optimiser path exactly but keeps only the filter output (no
+smoother, no default covariance): the estimates are the same, the results still give
+residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
+forecast from the estimation origin is read off that filter output. A stretch of origins
+with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import ClassVar, Literal
 
 import numpy as np
 from statsmodels.tsa.arima.model import ARIMA
+from statsmodels.tsa.statespace.kalman_filter import MEMORY_NO_SMOOTHING
 
 from backtest.errors import CandidateError
 from backtest.models.base import (
@@ -28,6 +35,14 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
+from backtest.models.kalman_stretch import (
+    LinearSystem,
+    OriginStates,
+    filter_states,
+    propagate,
+    states_at,
+)
+from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
 
 Deterministic = Literal["none", "constant", "drift"]
@@ -40,6 +55,7 @@ class ArimaSpec(ModelSpec):
     """ARIMA(p,d,q)(P,D,Q)[period] with a deterministic term and a transform."""
 
     family: ClassVar[str] = "arima"
+    warm_startable: ClassVar[bool] = True
     order: tuple[int, int, int] = (0, 1, 1)
     seasonal: tuple[int, int, int] | None = None
     period: int | None = None
@@ -84,20 +100,65 @@ class ArimaSpec(ModelSpec):
         return ARIMA(y, order=self.order, seasonal_order=seasonal,
                      trend=_TREND[self.deterministic])
 
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+    def fit(self, y: np.ndarray, season_length: int, *,
+            start_params: Params | None = None) -> Fit:
+        """Estimate on ``y``; ``start_params`` (e.g. a previous estimate) seeds the optimiser
+        instead of statsmodels' default start values."""
         model = self.model(y, season_length)
-        fitted = model.fit()
+        # With smoothing output switched off statsmodels' fit filters instead of smoothing;
+        # the optimiser path, and so every estimate, is unchanged.
+        model.ssm.set_conserve_memory(MEMORY_NO_SMOOTHING)
+        start = None if start_params is None else _vector(model, start_params)
+        fitted = model.fit(start_params=start, cov_type="none")
         names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
         return Fit(dict(zip(names, map(float, fitted.params))), fitted)
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
         model = self.model(y, season_length)
-        vector = np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names])
-        prediction = model.filter(vector).get_forecast(horizon)
+        prediction = model.filter(_vector(model, params)).get_forecast(horizon)
         mean = np.asarray(prediction.predicted_mean, dtype=float)
         sd = np.sqrt(np.asarray(prediction.var_pred_mean, dtype=float))
         return normal_bounds(mean, sd, levels)
+
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+                     levels: tuple[int, ...], seed: int, *,
+                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
+        """Estimate on ``y``, then forecast from the estimation's own filter output."""
+        fit = self.fit(y, season_length, start_params=start_params)
+        states = states_at(fit.raw.filter_results, [len(y)])
+        return fit, self._from_states(fit.raw.model, fit.params, states, [len(y)], horizon,
+                                      levels)[0]
+
+    def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
+                         ends: Sequence[int], horizon: int, levels: tuple[int, ...],
+                         seeds: Sequence[int]) -> list[Forecast]:
+        """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``."""
+        model = self.model(y, season_length)
+        states = filter_states(model, _vector(model, params), ends)
+        return self._from_states(model, params, states, ends, horizon, levels)
+
+    def _from_states(self, model: ARIMA, params: Params, states: OriginStates,
+                     ends: Sequence[int], horizon: int, levels: tuple[int, ...]
+                     ) -> list[Forecast]:
+        model.update(_vector(model, params), transformed=True)
+        times = np.asarray(ends)[:, None] + np.arange(horizon)
+        mean, var = propagate(LinearSystem.of(model), states, self._intercepts(params, times))
+        return forecasts_by_origin(mean, np.sqrt(var), levels)
+
+    def _intercepts(self, params: Params, times: np.ndarray) -> np.ndarray:
+        """The deterministic term at 0-based ``times``; statsmodels' drift regressor is
+        ``t + 1`` (its default trend offset)."""
+        if self.deterministic == "constant":
+            return np.full(times.shape, params["constant"])
+        if self.deterministic == "drift":
+            return params["drift"] * (times + 1.0)
+        return np.zeros(times.shape)
+
+
+def _vector(model: ARIMA, params: Params) -> np.ndarray:
+    """``params`` in the order of the statsmodels model's parameters."""
+    return np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names], dtype=float)
 
 
 def parse(body: Mapping) -> ArimaSpec:

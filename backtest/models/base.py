@@ -49,6 +49,8 @@ class ModelSpec(ABC):
     family: ClassVar[str]
     #: Closed-form families are re-estimated at every origin whatever the refit cadence.
     closed_form: ClassVar[bool] = False
+    #: Families whose ``fit`` takes ``start_params`` for its optimiser (a plan's warm start).
+    warm_startable: ClassVar[bool] = False
     transform: Transform
 
     @abstractmethod
@@ -64,8 +66,10 @@ class ModelSpec(ABC):
         """Fewest training observations this spec can be estimated on."""
 
     @abstractmethod
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
-        """Estimate parameters on the training window ``y``."""
+    def fit(self, y: np.ndarray, season_length: int, *,
+            start_params: Params | None = None) -> Fit:
+        """Estimate parameters on the training window ``y``; ``start_params``, where the
+        family is ``warm_startable``, are the optimiser's start values (default: its own)."""
 
     @abstractmethod
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
@@ -73,9 +77,12 @@ class ModelSpec(ABC):
         """Forecast h = 1..horizon from the end of ``y`` with the given parameters."""
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
-                     levels: tuple[int, ...], seed: int) -> tuple[Fit, Forecast]:
-        """Estimate on ``y`` and forecast from its end; families may do both in one pass."""
-        fit = self.fit(y, season_length)
+                     levels: tuple[int, ...], seed: int, *,
+                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
+        """Estimate on ``y`` and forecast from its end; families may do both in one pass.
+        ``start_params`` is passed on to ``fit`` only when given."""
+        options = {} if start_params is None else {"start_params": start_params}
+        fit = self.fit(y, season_length, **options)
         return fit, self.forecast(y, season_length, fit.params, horizon, levels, seed)
 
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,

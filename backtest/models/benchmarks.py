@@ -9,11 +9,14 @@ written-out examples in the tests): with residual standard deviation ``s`` estim
 - naive:           forecast y_T;                 sd_h = s * sqrt(h)
 - seasonal naive:  forecast y_{T+h-m(k+1)};      sd_h = s * sqrt(k + 1), k = floor((h-1)/m)
 - drift:           forecast y_T + h*b, b = (y_T - y_1)/(T - 1);  sd_h = s * sqrt(h (1 + h/T))
+
+The engine re-estimates these at every origin; all of a series' windows are computed
+together from cumulative sums (:mod:`.benchmark_windows`).
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import ClassVar, Literal
 
@@ -28,6 +31,8 @@ from backtest.models.base import (
     normal_bounds,
     take_fields,
 )
+from backtest.models.benchmark_windows import window_forecasts
+from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform
 
 Method = Literal["naive", "seasonal_naive", "drift", "mean"]
@@ -56,7 +61,9 @@ class BenchmarkSpec(ModelSpec):
         return {"naive": 2, "mean": 2, "drift": 3, "seasonal_naive": season_length + 1}[
             self.method]
 
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+    def fit(self, y: np.ndarray, season_length: int, *,
+            start_params: Params | None = None) -> Fit:
+        """Closed form: ``start_params`` is accepted for a uniform interface and not used."""
         return self.fit_forecast(y, season_length, 1, (), 0)[0]
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
@@ -64,7 +71,8 @@ class BenchmarkSpec(ModelSpec):
         return self.fit_forecast(y, season_length, horizon, levels, seed)[1]
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
-                     levels: tuple[int, ...], seed: int) -> tuple[Fit, Forecast]:
+                     levels: tuple[int, ...], seed: int, *,
+                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
         y = np.asarray(y, dtype=float)
         n, h = len(y), np.arange(1, horizon + 1)
         m = season_length
@@ -91,6 +99,23 @@ class BenchmarkSpec(ModelSpec):
             sd = s * np.sqrt(k + 1)
             params = {"sigma": float(s)}
         return Fit(params), normal_bounds(mean, sd, levels)
+
+    def fit_forecast_windows(self, y: np.ndarray, season_length: int,
+                             windows: Sequence[tuple[int, int]], horizon: int,
+                             levels: tuple[int, ...], seeds: Sequence[int]
+                             ) -> list[tuple[Fit, Forecast]]:
+        """Every window ``y[start:end]`` at once, from cumulative sums over ``y``; a subclass
+        that redefines ``fit_forecast`` gets it called per window instead."""
+        if type(self).fit_forecast is not BenchmarkSpec.fit_forecast:
+            return super().fit_forecast_windows(y, season_length, windows, horizon, levels,
+                                                seeds)
+        starts, ends = np.asarray(windows, dtype=int).reshape(-1, 2).T
+        table = window_forecasts(self.method, np.asarray(y, dtype=float), season_length,
+                                 starts, ends, horizon)
+        rows = [dict(zip(table.params, values))
+                for values in zip(*(v.tolist() for v in table.params.values()))]
+        return list(zip((Fit(p) for p in rows),
+                        forecasts_by_origin(table.mean, table.sd, levels)))
 
 
 def parse(body: Mapping) -> BenchmarkSpec:

@@ -3,11 +3,16 @@
 Interval bounds use statsmodels' analytic variance where the model class has one (linear,
 additive-error models) and otherwise simulated sample paths; the simulation is seeded
 from the plan's seed and the fold, so results are reproducible.
+
+Forecasts from an estimation origin, and from a stretch of origins with fixed parameters,
+come from one smoothing pass (:mod:`.ets_stretch`) and equal statsmodels' per-origin
+predictions; statsmodels' own route builds a results object, with its numerical
+covariance, for every origin.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import ClassVar, Literal
 
@@ -25,6 +30,14 @@ from backtest.models.base import (
     optional_period,
     take_fields,
 )
+from backtest.models.ets_stretch import (
+    EtsForm,
+    origin_states,
+    point_forecasts,
+    relative_variance,
+    simulated_bounds,
+)
+from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
 
 _CODE = {"none": "N", "additive": "A", "multiplicative": "M", "damped": "Ad"}
@@ -37,6 +50,7 @@ class EtsSpec(ModelSpec):
     """ETS with additive or multiplicative error, optional (damped) trend and season."""
 
     family: ClassVar[str] = "ets"
+    warm_startable: ClassVar[bool] = True
     error: Literal["additive", "multiplicative"] = "additive"
     trend: Literal["none", "additive", "damped"] = "none"
     season: Literal["none", "additive", "multiplicative"] = "none"
@@ -81,15 +95,19 @@ class EtsSpec(ModelSpec):
             seasonal_periods=self.season_period(season_length) if seasonal else None,
         )
 
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+    def fit(self, y: np.ndarray, season_length: int, *,
+            start_params: Params | None = None) -> Fit:
+        """Estimate on ``y``; ``start_params`` (e.g. a previous estimate) seeds the optimiser
+        instead of statsmodels' default start values."""
         model = self.model(y, season_length)
-        fitted = model.fit(disp=False)
+        start = None if start_params is None else _vector(model, start_params)
+        fitted = model.fit(start_params=start, disp=False)
         return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted)
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
         model = self.model(y, season_length)
-        smoothed = model.smooth(np.array([params[n] for n in model.param_names]))
+        smoothed = model.smooth(_vector(model, params))
         prediction = smoothed.get_prediction(
             start=len(y), end=len(y) + horizon - 1,
             simulate_repetitions=_SIMULATIONS, rng=np.random.default_rng(seed))
@@ -100,6 +118,51 @@ class EtsSpec(ModelSpec):
             lower[level] = frame["pi_lower"].to_numpy(float)
             upper[level] = frame["pi_upper"].to_numpy(float)
         return Forecast(mean, lower, upper)
+
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+                     levels: tuple[int, ...], seed: int, *,
+                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
+        """Estimate on ``y``, then forecast from the estimation's own smoothing pass."""
+        fit = self.fit(y, season_length, start_params=start_params)
+        fitted = fit.raw.fittedvalues.to_numpy(float)
+        return fit, self._from_pass(y, season_length, fit.params, fitted, fit.raw.states,
+                                    [len(y)], horizon, levels, [seed])[0]
+
+    def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
+                         ends: Sequence[int], horizon: int, levels: tuple[int, ...],
+                         seeds: Sequence[int]) -> list[Forecast]:
+        """Forecasts from every origin in ``ends`` with one smoothing pass over ``y``."""
+        model = self.model(y, season_length)
+        fitted, states = model.smooth(_vector(model, params), return_raw=True)
+        return self._from_pass(y, season_length, params, fitted.to_numpy(float), states, ends,
+                               horizon, levels, seeds)
+
+    def _from_pass(self, y: np.ndarray, season_length: int, params: Params,
+                   fitted: np.ndarray, states: pd.DataFrame, ends: Sequence[int], horizon: int,
+                   levels: tuple[int, ...], seeds: Sequence[int]) -> list[Forecast]:
+        form = self._form(params, season_length)
+        initial = [params[f"initial_seasonal.{i}"] for i in reversed(range(form.period))
+                   if self.season != "none"]
+        at = origin_states(form, np.asarray(y, dtype=float), fitted, states, np.array(initial),
+                           ends)
+        mean = point_forecasts(form, at, horizon)
+        if form.linear:
+            sd = np.sqrt(at.scale[:, None] * relative_variance(form, horizon))
+            return forecasts_by_origin(mean, sd, levels)
+        lower, upper = simulated_bounds(form, at, horizon, levels, seeds, _SIMULATIONS)
+        return [Forecast(mean[i], {lv: b[i] for lv, b in lower.items()},
+                         {lv: b[i] for lv, b in upper.items()}) for i in range(len(mean))]
+
+    def _form(self, params: Params, season_length: int) -> EtsForm:
+        return EtsForm(self.error == "multiplicative", self.season == "multiplicative",
+                       self.season_period(season_length) if self.season != "none" else 1,
+                       params["smoothing_level"], params.get("smoothing_trend", 0.0),
+                       params.get("smoothing_seasonal", 0.0), params.get("damping_trend", 1.0))
+
+
+def _vector(model: ETSModel, params: Params) -> np.ndarray:
+    """``params`` in the order of the statsmodels model's parameters."""
+    return np.array([params[n] for n in model.param_names], dtype=float)
 
 
 def parse(body: Mapping) -> EtsSpec:

@@ -1,0 +1,357 @@
+"""Engine speed against the forecasting loop a user writes by hand with statsmodels.
+
+Part "engine" runs, in this one process, the hand loop and the engine on the same data:
+
+A. log Series G with the airline model ARIMA(0,1,1)(0,1,1)[12] (REFERENCES.md section 6);
+B. a generated panel of monthly series with three candidates: the airline model (log),
+   ARIMA(1,0,0)(0,1,1)[12] with drift (log) and ETS(A,A,A)[12].
+
+For refit cadence 1, 12 and estimate-once it prints seconds, forecasts (origins x
+candidates) per second, the speed ratio to the hand loop at the same cadence and to the
+hand loop that re-estimates at every origin, and the largest absolute difference between
+the two sets of point forecasts and 80 %/95 % bounds (original scale). Timings come twice:
+wall clock, which other processes on the machine inflate, and an estimate for an idle
+machine from CPU times (this process's plus the busiest worker's). The hand loop at
+cadence k fits ``ARIMA(y[:t]).fit()`` / ``ETSModel(y[:t]).fit()`` at a re-estimating
+origin and, in between, forecasts with the kept parameters from the data since the start
+of the last estimation window (statsmodels' ``filter``/``smooth`` then
+``get_forecast``/``get_prediction``), which is what the engine computes. Then: a warm
+start row (labelled; results differ slightly by design), the fixed costs of one task, the
+closed-form benchmarks' throughput, and the peak memory of this process and its workers.
+
+Part "storage" (1,000 series end to end with storage) is to be added to ``PARTS``.
+
+    python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
+
+Not a test: timings depend on the machine and its load.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import resource
+import sys
+import time
+import warnings
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import psutil
+from joblib import Parallel, delayed
+from joblib.externals.loky import get_reusable_executor
+from statsmodels import __version__ as sm_version
+from statsmodels.tsa.arima.model import ARIMA
+from statsmodels.tsa.exponential_smoothing.ets import ETSModel
+from threadpoolctl import threadpool_limits
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from backtest.assessment import fold_fit_summary  # noqa: E402
+from backtest.candidates import parse_candidates  # noqa: E402
+from backtest.diagnosis import full_series_diagnostics  # noqa: E402
+from backtest.engine import run_backtest  # noqa: E402
+from backtest.models.benchmarks import BenchmarkSpec  # noqa: E402
+from backtest.plan import parse_plan  # noqa: E402
+from backtest.series import Series, make_series  # noqa: E402
+
+HORIZON = 12
+LEVELS = (80, 95)
+CADENCES: tuple[int | str, ...] = (1, 12, "once")
+SERIES_G = Path(__file__).resolve().parents[2] / "shared" / "data" / "series_g.csv"
+AIRLINE = {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
+           "transform": "log"}
+PANEL = [AIRLINE,
+         {"family": "arima", "order": [1, 0, 0], "seasonal": {"order": [0, 1, 1]},
+          "deterministic": "drift", "transform": "log"},
+         {"family": "ets", "error": "additive", "trend": "additive", "season": "additive"}]
+
+
+@dataclass(frozen=True)
+class HandModel:
+    """How the hand loop fits, filters and forecasts one candidate with statsmodels."""
+
+    build: Callable[[np.ndarray], object]
+    log: bool
+
+    def fit(self, z: np.ndarray):
+        model = self.build(z)
+        return model.fit(disp=False) if isinstance(model, ETSModel) else model.fit()
+
+    def forecast(self, results, z: np.ndarray, params=None) -> np.ndarray:
+        """Rows: mean, then lower and upper per level, on the original scale."""
+        if params is not None:
+            model = self.build(z)
+            results = (model.smooth(params) if isinstance(model, ETSModel)
+                       else model.filter(params))
+        if isinstance(results.model, ETSModel):
+            n = len(z)
+            prediction = results.get_prediction(start=n, end=n + HORIZON - 1)
+            frames = [prediction.summary_frame(alpha=1 - lv / 100) for lv in LEVELS]
+            rows = [frames[0]["mean"]] + [f[c] for f in frames for c in ("pi_lower", "pi_upper")]
+        else:
+            prediction = results.get_forecast(HORIZON)
+            bounds = [prediction.conf_int(alpha=1 - lv / 100) for lv in LEVELS]
+            rows = [prediction.predicted_mean] + [b[:, i] for b in bounds for i in (0, 1)]
+        out = np.asarray(rows, dtype=float)
+        return np.exp(out) if self.log else out
+
+
+HAND = [
+    HandModel(lambda z: ARIMA(z, order=(0, 1, 1), seasonal_order=(0, 1, 1, 12)), True),
+    HandModel(lambda z: ARIMA(z, order=(1, 0, 0), seasonal_order=(0, 1, 1, 12), trend="t"),
+              True),
+    HandModel(lambda z: ETSModel(pd.Series(z), error="add", trend="add", seasonal="add",
+                                 seasonal_periods=12), False),
+]
+
+
+def hand_loop(values: np.ndarray, hand: HandModel, ends: list[int], cadence: int | str
+              ) -> np.ndarray:
+    """Forecasts from every origin, shape ``(n_origins, 1 + 2 * len(LEVELS), HORIZON)``."""
+    z = np.log(values) if hand.log else values
+    out, params = [], None
+    for i, end in enumerate(ends):
+        if (i == 0) if cadence == "once" else (i % cadence == 0):
+            results = hand.fit(z[:end])
+            params = results.params
+            out.append(hand.forecast(results, z[:end]))
+        else:
+            out.append(hand.forecast(None, z[:end], params))
+    return np.array(out)
+
+
+def engine_forecasts(result, candidate_ids: list[str]) -> dict[tuple[str, str], np.ndarray]:
+    """Engine folds as the hand loop's arrays, by (series, candidate)."""
+    out = {}
+    for sr in result.series:
+        for cid in candidate_ids:
+            folds = [f for f in sr.folds if f.candidate_id == cid]
+            out[sr.series["key"], cid] = np.array(
+                [[f.point] + [b[lv] for lv in LEVELS for b in (f.lower, f.upper)]
+                 for f in folds], dtype=float)
+    return out
+
+
+@dataclass(frozen=True)
+class Clock:
+    """Wall time and CPU time of this process and of each of its (worker) children."""
+
+    wall: float
+    cpu: dict[int, float]
+
+    @classmethod
+    def now(cls) -> Clock:
+        me = psutil.Process()
+        cpu = {}
+        for process in (me, *me.children(recursive=True)):
+            try:
+                times = process.cpu_times()
+            except psutil.NoSuchProcess:
+                continue
+            cpu[process.pid] = times.user + times.system
+        return cls(time.perf_counter(), cpu)
+
+    def since(self, start: Clock) -> tuple[float, float]:
+        """Wall seconds, and the estimate for an idle machine: this process's CPU seconds
+        plus those of the busiest worker (tasks run side by side)."""
+        used = {pid: t - start.cpu.get(pid, 0.0) for pid, t in self.cpu.items()}
+        own = used.pop(os.getpid())
+        return self.wall - start.wall, own + max(used.values(), default=0.0)
+
+
+def _warm_pool(jobs: int) -> None:
+    """Start the engine's worker processes and import the engine in them, so that the
+    timings are of a running service (a fresh pool spends seconds importing first)."""
+    if jobs > 1:
+        Parallel(n_jobs=jobs, backend="loky")(
+            delayed(importlib.import_module)("backtest.diagnosis") for _ in range(jobs))
+
+
+def _load() -> str:
+    """The machine's 1-minute load average: other processes slow both loops."""
+    return f"{os.getloadavg()[0]:.1f}"
+
+
+def _quiet(fn: Callable, *args):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return fn(*args)
+
+
+def compare(label: str, series: list[Series], specs: list[dict], hands: list[HandModel],
+            first: int, max_origins: int | None, jobs: int) -> None:
+    """Print one block of rows: every cadence, hand loop against engine."""
+    candidates = parse_candidates(specs)
+    ids = [c.id for c in candidates]
+    n_obs = len(series[0])
+    ends = list(range(first, n_obs - HORIZON + 1))[-(max_origins or n_obs):]
+    forecasts = len(ends) * len(series) * len(specs)
+    print(f"\n{label}: {len(series)} series x {len(specs)} candidates x {len(ends)} origins, "
+          f"horizon {HORIZON}, engine n_jobs={jobs}; load average {_load()}")
+    print(f"{'':8} | {'wall clock (shared machine)':^55} | "
+          f"{'CPU estimate for an idle machine':^46} |")
+    print(f"{'cadence':>8} | {'hand s':>8} {'engine s':>8} {'hand f/s':>8} {'eng f/s':>8} "
+          f"{'x same':>6} {'x refit1':>8} | {'hand s':>8} {'engine s':>8} {'eng f/s':>8} "
+          f"{'x same':>6} {'x refit1':>8} | {'max |diff|':>10}  load")
+    every_origin = None
+    for cadence in CADENCES:
+        start = Clock.now()
+        hand = {(s.key, cid): _quiet(hand_loop, np.asarray(s.values, float), h, ends, cadence)
+                for s in series for cid, h in zip(ids, hands)}
+        hand_s = Clock.now().since(start)
+        every_origin = every_origin or hand_s
+        plan = parse_plan({"horizon": HORIZON, "first_origin": {"train_size": first},
+                           "max_origins": max_origins, "refit": cadence,
+                           "levels": list(LEVELS)})
+        _warm_pool(jobs)
+        start = Clock.now()
+        result = run_backtest(series, candidates, plan, n_jobs=jobs)
+        engine_s = Clock.now().since(start)
+        ours = engine_forecasts(result, ids)
+        diff = max(float(np.max(np.abs(ours[k] - hand[k]))) for k in hand)
+        cells = [f"{cadence!s:>8} |"]
+        for i in (0, 1):
+            hand_rate = f"{forecasts / hand_s[i]:8.1f} " if i == 0 else ""
+            cells.append(f"{hand_s[i]:8.2f} {engine_s[i]:8.2f} {hand_rate}"
+                         f"{forecasts / engine_s[i]:8.1f} {hand_s[i] / engine_s[i]:6.2f} "
+                         f"{every_origin[i] / engine_s[i]:8.2f} |")
+        print(" ".join(cells) + f" {diff:10.2e}  {_load()}")
+
+
+def warm_start_row(series: list[Series], first: int, jobs: int) -> None:
+    candidates = parse_candidates([AIRLINE])
+    timings = {}
+    for warm in (False, True):
+        plan = parse_plan({"horizon": HORIZON, "first_origin": {"train_size": first},
+                           "refit": 1, "warm_start": warm, "levels": list(LEVELS)})
+        _warm_pool(jobs)
+        started = time.perf_counter()
+        result = run_backtest(series, candidates, plan, n_jobs=jobs)
+        timings[warm] = time.perf_counter() - started
+        folds = engine_forecasts(result, [candidates[0].id])
+        timings[warm, "folds"] = next(iter(folds.values()))
+    gap = float(np.max(np.abs(timings[True, "folds"] - timings[False, "folds"])))
+    print(f"\nwarm start (plan warm_start=true, Series G, cadence 1): {timings[True]:.2f} s "
+          f"against {timings[False]:.2f} s cold ({timings[False] / timings[True]:.2f}x); "
+          f"forecasts differ from cold by up to {gap:.2e} (different optima, by design)")
+
+
+def task_costs(values: np.ndarray, series: Series) -> None:
+    """Fixed costs inside one (series, candidate) task of the airline model, in ms."""
+    candidate = parse_candidates([AIRLINE])[0]
+    spec, z = candidate.spec, np.log(values)
+    hand, train = HAND[0], z[:-HORIZON]
+
+    def ms(fn: Callable, repeat: int = 5) -> float:
+        _quiet(fn)
+        started = time.process_time()
+        for _ in range(repeat):
+            _quiet(fn)
+        return (time.process_time() - started) / repeat * 1e3
+
+    fit = _quiet(spec.fit, train, 12)
+    fresh = [_quiet(spec.fit, train, 12) for _ in range(5)]
+    ends = list(range(60, len(z) + 1))
+    rows = {
+        "hand loop: fit() + get_forecast()": ms(lambda: hand.forecast(hand.fit(train), train)),
+        "hand loop: filter(params) + get_forecast()":
+            ms(lambda: hand.forecast(None, train, fit.raw.params)),
+        "engine: fit (same optimiser path, filter only)": ms(lambda: spec.fit(train, 12)),
+        # statsmodels caches the covariance on the results: each call needs a fresh fit.
+        "engine: fold fit summary (numerical Hessian s.e.)":
+            ms(lambda: fold_fit_summary(spec, fresh.pop(), train, 12), 4),
+        "engine: full-series diagnostics (once per task)":
+            ms(lambda: full_series_diagnostics(series, candidate), 2),
+        f"engine: one-pass forecast, per origin ({len(ends)} origins)":
+            ms(lambda: spec.forecast_stretch(z, 12, fit.params, ends, HORIZON, LEVELS,
+                                             [0] * len(ends))) / len(ends),
+    }
+    print("\nfixed costs inside one task (airline model, 132 observations, CPU ms):")
+    for name, value in rows.items():
+        print(f"  {name:<58} {value:9.2f}")
+
+
+def benchmark_throughput(series: list[Series], first: int) -> None:
+    methods = ("naive", "seasonal_naive", "drift", "mean")
+    n_obs = len(series[0])
+    windows = [(0, end) for end in range(first, n_obs - HORIZON + 1)]
+    count = len(windows) * len(series) * len(methods)
+    started = time.process_time()
+    for s in series:
+        y = np.asarray(s.values, dtype=float)
+        for method in methods:
+            BenchmarkSpec(method).fit_forecast_windows(y, 12, windows, HORIZON, LEVELS,
+                                                       [0] * len(windows))
+    family_rate = count / (time.process_time() - started)
+    plan = parse_plan({"horizon": HORIZON, "first_origin": {"train_size": first},
+                       "levels": list(LEVELS)})
+    candidates = parse_candidates([{"family": "benchmark", "method": m} for m in methods])
+    started = time.process_time()
+    run_backtest(series, candidates, plan, n_jobs=1)
+    engine_rate = count / (time.process_time() - started)
+    print(f"\nclosed-form benchmarks, one core, {count} forecasts (4 methods, {len(series)} "
+          f"series, {len(windows)} origins):\n  family (all windows per call): "
+          f"{family_rate:,.0f} forecasts/s\n  engine end to end (folds, scores, ranking, "
+          f"diagnostics): {engine_rate:,.0f} forecasts/s")
+
+
+def peak_memory() -> None:
+    get_reusable_executor().shutdown(wait=True)
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    workers = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    print(f"\npeak resident memory: this process {own:.0f} MiB, largest worker {workers:.0f} MiB")
+
+
+def panel(n_series: int, n_obs: int = 120) -> list[Series]:
+    """Positive monthly series: trend, a drifting seasonal pattern and noise on the log scale."""
+    rng = np.random.default_rng(2024)
+    t = np.arange(n_obs)
+    out = []
+    for i in range(n_series):
+        season = rng.normal(0, 0.12, 12)
+        level = 4 + rng.uniform(-0.5, 0.5) + rng.uniform(0, 0.012) * t
+        noise = np.cumsum(rng.normal(0, 0.02, n_obs)) + rng.normal(0, 0.03, n_obs)
+        values = np.exp(level + season[t % 12] + noise)
+        out.append(make_series(f"panel/{i:02d}", "P1M",
+                               [(f"{2010 + k // 12}-{k % 12 + 1:02d}", v)
+                                for k, v in enumerate(values)]))
+    return out
+
+
+def engine_part(args: argparse.Namespace) -> None:
+    values = pd.read_csv(SERIES_G).iloc[:, 1].to_numpy(float)
+    series_g = make_series("series_g", "P1M", [(f"{1949 + k // 12}-{k % 12 + 1:02d}", v)
+                                               for k, v in enumerate(values)])
+    compare("A. log Series G, airline model", [series_g], [AIRLINE], HAND[:1], 60, None,
+            args.jobs)
+    compare("B. generated panel", panel(args.series), PANEL, HAND, 48, args.max_origins,
+            args.jobs)
+    warm_start_row([series_g], 60, args.jobs)
+    task_costs(values, series_g)
+    benchmark_throughput(panel(args.series), 24)
+    peak_memory()
+
+
+PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part}
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--part", choices=sorted(PARTS), default="engine")
+    parser.add_argument("--jobs", type=int, default=2, help="engine worker processes")
+    parser.add_argument("--series", type=int, default=20, help="panel series")
+    parser.add_argument("--max-origins", type=int, default=24, help="panel origins per series")
+    args = parser.parse_args()
+    print(f"{os.cpu_count()} CPUs; numpy {np.__version__}, statsmodels {sm_version}; "
+          "one BLAS thread in every process")
+    with threadpool_limits(limits=1):
+        PARTS[args.part](args)
+
+
+if __name__ == "__main__":
+    main()
