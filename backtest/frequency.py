@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 from backtest.errors import SeriesError
 
-_DURATION = re.compile(r"^P(\d+)([DWMY])$")
+_DURATION = re.compile(r"^P(\d{1,4})([DWMY])$")
 _DEFAULT_SEASON = {"P1D": 7, "P1W": 52, "P1M": 12, "P3M": 4, "P1Y": 1}
 _EPOCH = dt.date(1970, 1, 5)  # a Monday, so weekly positions count ISO weeks
 

@@ -90,8 +90,8 @@ def parse_plan(body: object) -> Plan:
         raise PlanError(f"plan warm_start must be true or false, got {warm_start!r}")
     levels = _levels(body.get("levels", [80, 95]))
     seed = body.get("seed", 0)
-    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**32:
-        raise PlanError(f"plan seed must be an integer from 0 to 2**32-1, got {seed!r}")
+    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**31:
+        raise PlanError(f"plan seed must be an integer from 0 to 2**31-1, got {seed!r}")
     benchmark = body.get("benchmark", "seasonal_naive")
     if benchmark not in BENCHMARKS:
         raise PlanError(f"plan benchmark must be one of {', '.join(BENCHMARKS)}, got {benchmark!r}")
@@ -124,7 +124,7 @@ def _first_origin(body: object) -> tuple[int | None, str | None]:
     if body is None:
         return None, None
     if isinstance(body, Mapping) and set(body) == {"train_size"}:
-        return _positive(body["train_size"], "first_origin.train_size"), None
+        return _positive(body["train_size"], "first_origin.train_size", optional=True), None
     if isinstance(body, Mapping) and set(body) == {"period"} and isinstance(body["period"], str):
         return None, body["period"]
     raise PlanError('plan first_origin must be {"train_size": n} or {"period": "<label>"}')

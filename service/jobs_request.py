@@ -26,8 +26,4 @@ def stored_candidates(specs: Sequence[Mapping[str, Any]],
 
 def stored_plan(body: Mapping[str, Any]) -> Plan:
     """The run's plan from its canonical body."""
-    # Plan.canonical() writes an unset first origin as {"train_size": null}, which
-    # parse_plan refuses; leaving the field out means the same plan.
-    if body.get("first_origin") == {"train_size": None}:
-        body = {name: value for name, value in body.items() if name != "first_origin"}
     return parse_plan(dict(body))

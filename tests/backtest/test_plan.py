@@ -77,3 +77,17 @@ def test_first_origin_period_before_the_series_starts():
     plan = parse_plan({"horizon": 1, "first_origin": {"period": "2010-01"}})
     with pytest.raises(PlanError, match=r"lies before series 'ops' starts"):
         plan_origins(_series(20), plan, 2)
+
+
+def test_canonical_plans_parse_back_to_the_same_plan():
+    for body in ({"horizon": 4}, {"horizon": 4, "first_origin": {"period": "2016-03"},
+                                  "window": {"kind": "sliding", "length": 12}, "refit": "once",
+                                  "warm_start": True, "levels": [50, 90]}):
+        plan = parse_plan(body)
+        assert parse_plan(plan.canonical()) == plan
+
+
+def test_seeds_fit_a_signed_32_bit_column():
+    assert parse_plan({"horizon": 1, "seed": 2**31 - 1}).seed == 2**31 - 1
+    with pytest.raises(PlanError, match=r"from 0 to 2\*\*31-1"):
+        parse_plan({"horizon": 1, "seed": 2**31})

@@ -79,3 +79,8 @@ def test_fingerprint_identifies_the_same_data_only():
     assert a.fingerprint() == same.fingerprint()
     assert a.fingerprint() != changed.fingerprint()
     assert len(a.fingerprint()) == 64
+
+
+def test_absurdly_long_durations_are_rejected():
+    with pytest.raises(SeriesError, match=r"frequency 'P99999M' is not a supported"):
+        make_series("a", "P99999M", MONTHS)
