@@ -14,9 +14,7 @@ import sys
 import threading
 from types import FrameType
 
-from pydantic import ValidationError
-
-from service.settings import get_settings
+from service.settings import InvalidSettingsError, checked_settings
 from service.worker import Worker
 from storage.errors import StorageError
 
@@ -35,11 +33,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run_worker(_args: argparse.Namespace) -> int:
     """Run a worker until a stop signal; 2 if the settings or the database URL are invalid."""
     try:
-        settings = get_settings()
-    except ValidationError as exc:
-        problems = "; ".join(f"FOLDLINE_{'_'.join(map(str, e['loc'])).upper()}: {e['msg']}"
-                             for e in exc.errors())
-        print(f"foldline: error: invalid settings: {problems}", file=sys.stderr)
+        settings = checked_settings()
+    except InvalidSettingsError as exc:
+        print(f"foldline: error: {exc}", file=sys.stderr)
         return 2
     logging.basicConfig(level=logging.INFO, stream=sys.stderr,
                         format="%(asctime)s %(name)s %(levelname)s %(message)s")

@@ -11,10 +11,9 @@ import argparse
 import sys
 
 import uvicorn
-from pydantic import ValidationError
 
 from service.app import create_app
-from service.settings import Settings, get_settings
+from service.settings import InvalidSettingsError, Settings, checked_settings
 from service.worker import start_embedded
 from storage.migrate import upgrade
 
@@ -35,11 +34,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run_server(args: argparse.Namespace) -> int:
     """Serve until interrupted; exit 2 on invalid settings."""
     try:
-        settings = get_settings()
-    except ValidationError as exc:
-        fields = ", ".join(f"FOLDLINE_{'_'.join(map(str, e['loc'])).upper()}"
-                           for e in exc.errors())
-        print(f"foldline: error: invalid settings: {fields}", file=sys.stderr)
+        settings = checked_settings()
+    except InvalidSettingsError as exc:
+        print(f"foldline: error: {exc}", file=sys.stderr)
         return 2
     updates = {k: v for k, v in (("host", args.host), ("port", args.port)) if v is not None}
     settings = settings.model_copy(update=updates)

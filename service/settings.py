@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-from pydantic import Field
+from pydantic import Field, ValidationError
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
 from storage.engine import database_url
@@ -45,3 +45,17 @@ class Settings(BaseSettings):
 def get_settings() -> Settings:
     """The process's settings, read from the environment once."""
     return Settings()
+
+
+class InvalidSettingsError(Exception):
+    """One or more FOLDLINE_* variables are invalid; the message names each with the reason."""
+
+
+def checked_settings() -> Settings:
+    """:func:`get_settings`, raising :class:`InvalidSettingsError` with a one-line message."""
+    try:
+        return get_settings()
+    except ValidationError as exc:
+        problems = "; ".join(f"FOLDLINE_{'_'.join(map(str, e['loc'])).upper()}: {e['msg']}"
+                             for e in exc.errors())
+        raise InvalidSettingsError(f"invalid settings: {problems}") from None
