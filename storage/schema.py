@@ -330,6 +330,8 @@ class ScoreRecord(Base):
     __table_args__ = (
         ForeignKeyConstraint(["run_id", "series_version_id", "candidate_id"], _RESULT_CANDIDATE),
         Index(None, "series_version_id", "candidate_id", "metric"),
+        # rankings read one score (metric, horizon, level) of every candidate of a unit
+        Index(None, "run_id", "series_version_id", "metric", "horizon", "level"),
         NO_ROWID,
     )
 

@@ -278,6 +278,8 @@ def _create_results() -> None:
     )
     op.create_index(op.f("ix_score_series_version_id"), "score",
                     ["series_version_id", "candidate_id", "metric"])
+    op.create_index(op.f("ix_score_run_id"), "score",
+                    ["run_id", "series_version_id", "metric", "horizon", "level"])
     op.create_table(
         "fold_warning",
         *_fold_key("position"), sa.Column("message", sa.Text(), nullable=False),
