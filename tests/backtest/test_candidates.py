@@ -42,7 +42,7 @@ def test_labels():
      r"lambda 7 is outside"),
     ({"family": "ets", "error": "none"}, r"ets error must be one of additive, multiplicative"),
     ({"family": "benchmark", "method": "average"}, r"benchmark method must be one of"),
-    ({"family": "prophecy"}, r"candidate family 'prophecy' is unknown"),
+    ({"family": "crystal_ball"}, r"candidate family 'crystal_ball' is unknown"),
     ([1, 2], r"a candidate must be a JSON object"),
 ])
 def test_impossible_specs_are_rejected_with_a_reason(body, message):

@@ -79,7 +79,7 @@ def test_idempotency_keys_belong_to_the_key_that_used_them(two_series: Api):
 
 
 @pytest.mark.parametrize(("candidates", "plan", "code", "pointer"), [
-    ([{"family": "prophetic"}], {"horizon": 3}, "invalid_request", "/candidates/0/family"),
+    ([{"family": "crystal_ball"}], {"horizon": 3}, "invalid_request", "/candidates/0/family"),
     ([{"family": "arima", "order": [9, 0, 0]}], {"horizon": 3}, "invalid_candidate_spec",
      "/candidates/0"),
     ([{"family": "theta"}, {"family": "theta", "season": "test"}], {"horizon": 3},
