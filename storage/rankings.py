@@ -51,8 +51,7 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
               & (ResultCandidate.series_version_id == s.series_version_id)
               & (ResultCandidate.candidate_id == s.candidate_id))
         .join(SeriesRecord, SeriesRecord.key == latest.c.series_key)
-        .where(s.metric == metric, s.horizon.is_not_distinct_from(horizon),
-               s.level.is_not_distinct_from(level)))
+        .where(s.metric == metric, _equal(s.horizon, horizon), _equal(s.level, level)))
     if prefix:
         inner = inner.where(func.substr(latest.c.series_key, 1, len(prefix)) == prefix)
     for name, value in (tags or {}).items():
@@ -65,3 +64,8 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
              .order_by(c.series_key, c.unscored, c.place, c.candidate_id)
              .limit(limit).offset(offset))
     return [dict(row) for row in session.execute(query).mappings()]
+
+
+def _equal(column: Any, value: int | None) -> Any:
+    """``column = value``, or ``IS NULL``: a literal NULL test lets the score index serve it."""
+    return column.is_(None) if value is None else column == value
