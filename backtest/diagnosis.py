@@ -1,5 +1,8 @@
 """The worker's whole job for one (series, candidate): its folds, a diagnostic report of
-its fit to the full series, and a summary of the fits at the folds that re-estimated."""
+its fit to the full series, and a summary of the fits at the folds that re-estimated.
+
+With the plan's ``assessment: "lean"`` the full-series report is left out (``None``) and
+the summary holds parameter paths only (the folds then carry no standard errors)."""
 
 from __future__ import annotations
 
@@ -24,7 +27,7 @@ class CandidateOutcome:
     """Folds plus JSON-ready full-series diagnostics and fold-stability summary."""
 
     folds: tuple[FoldResult, ...]
-    diagnostics: dict[str, Any]
+    diagnostics: dict[str, Any] | None
     stability: dict[str, Any] | None
 
 
@@ -37,7 +40,9 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
         refits = [f for f in folds if f.reestimated]
         stability = summarise_folds([f.fit_summary for f in refits],
                                     [_estimates(f) for f in refits])
-    return CandidateOutcome(folds, full_series_diagnostics(series, candidate), stability)
+    diagnostics = (full_series_diagnostics(series, candidate) if plan.assessment == "full"
+                   else None)
+    return CandidateOutcome(folds, diagnostics, stability)
 
 
 def _estimates(fold: FoldResult) -> dict | None:

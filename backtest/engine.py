@@ -41,24 +41,30 @@ def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan
     schedules = [_schedule(s, pool, plan) for s in series]
     tasks = [(s, c, plan, origins) for s, origins in zip(series, schedules) for c in pool]
     total = sum(len(t[3]) for t in tasks)
-    done = 0
+    done, k = 0, len(pool)
+    outcomes: dict[int, CandidateOutcome] = {}
+    results: dict[int, SeriesResult] = {}
 
     def on_done(index: int, outcome: CandidateOutcome) -> None:
+        # A series is scored and assessed as soon as its last task is in, while the workers
+        # go on with the other series' tasks.
         nonlocal done
         done += len(outcome.folds)
         if progress is not None:
             progress(done, total)
+        outcomes[index] = outcome
+        i = index // k
+        if all(j in outcomes for j in range(i * k, (i + 1) * k)):
+            results[i] = _series_result(series[i], pool, benchmark, plan,
+                                        [outcomes.pop(j) for j in range(i * k, (i + 1) * k)],
+                                        added=benchmark not in candidates)
 
     if progress is not None:
         progress(0, total)
-    outcomes = run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done,
-                         scheduler=scheduler)
-    results = tuple(
-        _series_result(s, pool, benchmark, plan, outcomes[i * len(pool):(i + 1) * len(pool)],
-                       added=benchmark not in candidates)
-        for i, s in enumerate(series))
+    run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done, scheduler=scheduler)
     elapsed = time.perf_counter() - started
-    return BacktestResult(plan.canonical(), software_versions(), results,
+    return BacktestResult(plan.canonical(), software_versions(),
+                          tuple(results[i] for i in range(len(series))),
                           {"seconds": elapsed, "folds": float(total)})
 
 

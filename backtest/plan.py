@@ -6,7 +6,7 @@ JSON form (every field optional except ``horizon``)::
      "first_origin": {"train_size": 60} | {"period": "2019-12"},
      "step": 1, "max_origins": 24,
      "window": "expanding" | {"kind": "sliding", "length": 60},
-     "refit": 1 | 6 | "once", "warm_start": false,
+     "refit": 1 | 6 | "once", "warm_start": false, "assessment": "full" | "lean",
      "levels": [80, 95], "seed": 0,
      "benchmark": "seasonal_naive", "rank_by": "mase", "rank_horizon": null}
 
@@ -18,6 +18,14 @@ horizon of actuals exists; if there are more than ``max_origins``, the latest ar
 values instead of the family's default start values (families with an iterative
 optimiser: ARIMA, ETS). It is faster but lands on slightly different optima, so results
 differ from a cold start; it is off by default and recorded in the canonical plan.
+
+``assessment: "lean"`` leaves out the two model-assessment computations that cost a fit's
+worth of time per task: the coefficient standard errors of every re-estimating fold
+(a numerical Hessian each; for ETS statsmodels' results object, which computes it on
+construction, is not built either) and the diagnostics of the fit to the full series (one
+more fit). Forecasts, scores, calibration, comparisons, the confidence set and the ranking are
+those of ``"full"`` (the default); folds then carry no ``fit_summary``, the series'
+``diagnostics`` are ``None`` per candidate and ``stability`` keeps only parameter paths.
 """
 
 from __future__ import annotations
@@ -30,8 +38,9 @@ from backtest.errors import PlanError
 
 RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
+ASSESSMENTS = ("full", "lean")
 _FIELDS = {"horizon", "first_origin", "step", "max_origins", "window", "refit", "warm_start",
-           "levels", "seed", "benchmark", "rank_by", "rank_horizon"}
+           "assessment", "levels", "seed", "benchmark", "rank_by", "rank_horizon"}
 
 
 @dataclass(frozen=True)
@@ -52,6 +61,7 @@ class Plan:
     rank_by: str = "mase"
     rank_horizon: int | None = None
     warm_start: bool = False
+    assessment: Literal["full", "lean"] = "full"
 
     def reestimates_at(self, origin_number: int) -> bool:
         """Whether parameters are re-estimated at the ``origin_number``-th origin (0-based)."""
@@ -67,7 +77,8 @@ class Plan:
                   else {"kind": "sliding", "length": self.window_length})
         return {"horizon": self.horizon, "first_origin": first, "step": self.step,
                 "max_origins": self.max_origins, "window": window, "refit": self.refit,
-                "warm_start": self.warm_start, "levels": list(self.levels), "seed": self.seed,
+                "warm_start": self.warm_start, "assessment": self.assessment,
+                "levels": list(self.levels), "seed": self.seed,
                 "benchmark": self.benchmark, "rank_by": self.rank_by,
                 "rank_horizon": self.rank_horizon}
 
@@ -88,6 +99,10 @@ def parse_plan(body: object) -> Plan:
     warm_start = body.get("warm_start", False)
     if not isinstance(warm_start, bool):
         raise PlanError(f"plan warm_start must be true or false, got {warm_start!r}")
+    assessment = body.get("assessment", "full")
+    if assessment not in ASSESSMENTS:
+        raise PlanError(f"plan assessment must be one of {', '.join(ASSESSMENTS)}, "
+                        f"got {assessment!r}")
     levels = _levels(body.get("levels", [80, 95]))
     seed = body.get("seed", 0)
     if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**31:
@@ -106,7 +121,7 @@ def parse_plan(body: object) -> Plan:
     return Plan(horizon, first_size, first_period, _positive(body.get("step", 1), "step"),
                 _positive(body.get("max_origins"), "max_origins", optional=True),
                 window, length, refit, levels, seed, benchmark, rank_by, rank_horizon,
-                warm_start)
+                warm_start, assessment)
 
 
 def _positive(value: object, name: str, *, required: bool = False,

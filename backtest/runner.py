@@ -9,7 +9,8 @@ an origin is ever passed to the model. A fold that raises becomes a failed fold 
 reason; warnings are captured per fold (those raised while forecasting a stretch of kept
 parameters in one pass are recorded on each fold of the stretch). With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
-the previous estimation's parameters.
+the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
+gets no fit summary, and a ``raw_optional`` family builds no results object for it.
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models import Fit, Forecast
+from backtest.models.base import back_transform
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.series import Series
@@ -69,16 +71,18 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
     window = z[origin.start:origin.end]
     fit, forecast, error, summary = None, None, None, None
     warm = plan.warm_start and spec.warm_startable and previous is not None
-    options = {"start_params": previous.params} if warm else {}
+    options: dict = {"start_params": previous.params} if warm else {}
+    if plan.assessment == "lean" and spec.raw_optional:
+        options["keep_raw"] = False
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
             fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels, seed,
                                               **options)
-            forecast = _back_transform(spec.transform, forecast)
+            forecast = back_transform(spec.transform, forecast)
         except Exception as exc:  # a fold's failure must never crash the run
             fit, forecast, error = None, None, _reason(exc)
-    if fit is not None and not spec.closed_form:
+    if fit is not None and not spec.closed_form and plan.assessment == "full":
         summary = fold_fit_summary(*spec.assessed(fit), window, m)
     fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
                  _messages(caught), summary)
@@ -104,7 +108,7 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
     folds = []
     for origin, (fit, forecast) in zip(origins, pairs):
         try:
-            forecast, error = _back_transform(spec.transform, forecast), None
+            forecast, error = back_transform(spec.transform, forecast), None
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, origin.start, True, fit, forecast,
@@ -132,7 +136,7 @@ def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
     folds = []
     for origin, forecast in zip(stretch, raw):
         try:
-            forecast, error = _back_transform(spec.transform, forecast), None
+            forecast, error = back_transform(spec.transform, forecast), None
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, fit_start, False, fit, forecast,
@@ -148,7 +152,7 @@ def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.nd
         try:
             forecast = spec.forecast(z[fit_start:origin.end], series.season_length, fit.params,
                                      plan.horizon, plan.levels, seed)
-            forecast, error = _back_transform(spec.transform, forecast), None
+            forecast, error = back_transform(spec.transform, forecast), None
         except Exception as exc:  # a fold's failure must never crash the run
             forecast, error = None, _reason(exc)
     return _fold(series, candidate, plan, origin, fit_start, False, fit, forecast, error,
@@ -157,18 +161,6 @@ def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.nd
 
 def _reason(exc: Exception) -> str:
     return f"{type(exc).__name__}: {exc}"
-
-
-def _back_transform(transform, forecast: Forecast) -> Forecast:
-    mean = transform.inverse(forecast.mean)
-    lower = {lv: transform.inverse(b) for lv, b in forecast.lower.items()}
-    upper = {lv: transform.inverse(b) for lv, b in forecast.upper.items()}
-    if not np.all(np.isfinite(mean)):
-        raise FloatingPointError("the point forecast contains non-finite values")
-    for level in lower:
-        if np.any(np.isnan(lower[level])) or np.any(np.isnan(upper[level])):
-            raise FloatingPointError(f"the {level} % interval contains NaN bounds")
-    return Forecast(mean, lower, upper)
 
 
 def _messages(caught: list[warnings.WarningMessage]) -> tuple[str, ...]:

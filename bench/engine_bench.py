@@ -9,19 +9,33 @@ B. a generated panel of monthly series with three candidates: the airline model 
 For refit cadence 1, 12 and estimate-once it prints seconds, forecasts (origins x
 candidates) per second, the speed ratio to the hand loop at the same cadence and to the
 hand loop that re-estimates at every origin, and the largest absolute difference between
-the two sets of point forecasts and 80 %/95 % bounds (original scale). Timings come twice:
-wall clock, which other processes on the machine inflate, and an estimate for an idle
-machine from CPU times (this process's plus the busiest worker's). The hand loop at
-cadence k fits ``ARIMA(y[:t]).fit()`` / ``ETSModel(y[:t]).fit()`` at a re-estimating
+the two sets of point forecasts and 80 %/95 % bounds (original scale). The engine runs
+under the plan's default ``assessment: "full"`` (per-fold standard errors and full-series
+diagnostics, which the hand loop does not compute) and under ``"lean"`` (same forecasts
+and scores without them): lean against the hand loop compares like with like. Timings
+come twice: wall clock, which other processes on the machine inflate, and an estimate for
+an idle machine from CPU times (this process's plus the busiest worker's). The hand loop
+at cadence k fits ``ARIMA(y[:t]).fit()`` / ``ETSModel(y[:t]).fit()`` at a re-estimating
 origin and, in between, forecasts with the kept parameters from the data since the start
 of the last estimation window (statsmodels' ``filter``/``smooth`` then
-``get_forecast``/``get_prediction``), which is what the engine computes. Then: a warm
-start row (labelled; results differ slightly by design), the fixed costs of one task, the
-closed-form benchmarks' throughput, and the peak memory of this process and its workers.
+``get_forecast``/``get_prediction``), which is what the engine computes. After each block,
+estimate-once in parts: the one fit and the forecasts from the later origins, timed apart,
+with the forecast-phase ratio and the bound Amdahl's law puts on the whole-run ratio (both
+loops pay one fit). Then: a warm start row (labelled; results differ slightly by design),
+the fixed costs of one task, the closed-form benchmarks' throughput, and the peak memory
+of this process and its workers.
 
-Part "storage" (1,000 series end to end with storage) is to be added to ``PARTS``.
+Part "storage" runs generated monthly series (1,000 by default) x 8 candidates (the four
+benchmarks, ETS(A,A,A), ETS(A,Ad,N), the airline model and ARIMA(1,0,0)(0,1,1) with drift,
+both on logs) x 36 origins x H = 12 at cadence 12 through the engine and writes every
+series' result to a fresh SQLite database (migrations, series versions, the run queued,
+started and finished, one transaction per series), printing wall time, folds per second,
+peak resident memory of the process and its workers, and the time extrapolated to 1,000
+series. Theta is left out of the mix: statsmodels estimates it with two state-space fits
+per origin, and as a closed-form family it re-estimates at all 36.
 
     python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
+    python bench/engine_bench.py --part storage [--series 100] [--store-assessment lean]
 
 Not a test: timings depend on the machine and its load.
 """
@@ -33,6 +47,8 @@ import importlib
 import os
 import resource
 import sys
+import tempfile
+import threading
 import time
 import warnings
 from collections.abc import Callable
@@ -184,8 +200,10 @@ def _quiet(fn: Callable, *args):
 
 
 def compare(label: str, series: list[Series], specs: list[dict], hands: list[HandModel],
-            first: int, max_origins: int | None, jobs: int) -> None:
-    """Print one block of rows: every cadence, hand loop against engine."""
+            first: int, max_origins: int | None, jobs: int, assessments: tuple[str, ...]
+            ) -> dict[tuple[int | str, str], float]:
+    """Print one block of rows: every cadence, hand loop against the engine under each
+    assessment; return the CPU-estimate ratios to the same-cadence hand loop."""
     candidates = parse_candidates(specs)
     ids = [c.id for c in candidates]
     n_obs = len(series[0])
@@ -193,34 +211,84 @@ def compare(label: str, series: list[Series], specs: list[dict], hands: list[Han
     forecasts = len(ends) * len(series) * len(specs)
     print(f"\n{label}: {len(series)} series x {len(specs)} candidates x {len(ends)} origins, "
           f"horizon {HORIZON}, engine n_jobs={jobs}; load average {_load()}")
-    print(f"{'':8} | {'wall clock (shared machine)':^55} | "
+    print(f"{'':14} | {'wall clock (shared machine)':^55} | "
           f"{'CPU estimate for an idle machine':^46} |")
-    print(f"{'cadence':>8} | {'hand s':>8} {'engine s':>8} {'hand f/s':>8} {'eng f/s':>8} "
-          f"{'x same':>6} {'x refit1':>8} | {'hand s':>8} {'engine s':>8} {'eng f/s':>8} "
-          f"{'x same':>6} {'x refit1':>8} | {'max |diff|':>10}  load")
-    every_origin = None
+    print(f"{'cadence':>8} {'assess':>5} | {'hand s':>8} {'engine s':>8} {'hand f/s':>8} "
+          f"{'eng f/s':>8} {'x same':>6} {'x refit1':>8} | {'hand s':>8} {'engine s':>8} "
+          f"{'eng f/s':>8} {'x same':>6} {'x refit1':>8} | {'max |diff|':>10}  load")
+    every_origin, ratios = None, {}
     for cadence in CADENCES:
         start = Clock.now()
         hand = {(s.key, cid): _quiet(hand_loop, np.asarray(s.values, float), h, ends, cadence)
                 for s in series for cid, h in zip(ids, hands)}
         hand_s = Clock.now().since(start)
         every_origin = every_origin or hand_s
-        plan = parse_plan({"horizon": HORIZON, "first_origin": {"train_size": first},
-                           "max_origins": max_origins, "refit": cadence,
-                           "levels": list(LEVELS)})
-        _warm_pool(jobs)
-        start = Clock.now()
-        result = run_backtest(series, candidates, plan, n_jobs=jobs)
-        engine_s = Clock.now().since(start)
-        ours = engine_forecasts(result, ids)
-        diff = max(float(np.max(np.abs(ours[k] - hand[k]))) for k in hand)
-        cells = [f"{cadence!s:>8} |"]
-        for i in (0, 1):
-            hand_rate = f"{forecasts / hand_s[i]:8.1f} " if i == 0 else ""
-            cells.append(f"{hand_s[i]:8.2f} {engine_s[i]:8.2f} {hand_rate}"
-                         f"{forecasts / engine_s[i]:8.1f} {hand_s[i] / engine_s[i]:6.2f} "
-                         f"{every_origin[i] / engine_s[i]:8.2f} |")
-        print(" ".join(cells) + f" {diff:10.2e}  {_load()}")
+        for assessment in assessments:
+            plan = parse_plan({"horizon": HORIZON, "first_origin": {"train_size": first},
+                               "max_origins": max_origins, "refit": cadence,
+                               "levels": list(LEVELS), "assessment": assessment})
+            _warm_pool(jobs)
+            start = Clock.now()
+            result = run_backtest(series, candidates, plan, n_jobs=jobs)
+            engine_s = Clock.now().since(start)
+            ours = engine_forecasts(result, ids)
+            diff = max(float(np.max(np.abs(ours[k] - hand[k]))) for k in hand)
+            ratios[cadence, assessment] = hand_s[1] / engine_s[1]
+            cells = [f"{cadence!s:>8} {assessment:>5} |"]
+            for i in (0, 1):
+                hand_rate = f"{forecasts / hand_s[i]:8.1f} " if i == 0 else ""
+                cells.append(f"{hand_s[i]:8.2f} {engine_s[i]:8.2f} {hand_rate}"
+                             f"{forecasts / engine_s[i]:8.1f} {hand_s[i] / engine_s[i]:6.2f} "
+                             f"{every_origin[i] / engine_s[i]:8.2f} |")
+            print(" ".join(cells) + f" {diff:10.2e}  {_load()}")
+    return ratios
+
+
+def once_phases(series: list[Series], specs: list[dict], hands: list[HandModel], first: int,
+                max_origins: int | None, jobs: int, whole_run: dict[str, float]) -> None:
+    """Estimate-once split into the one fit and the forecasts from the later origins, timed
+    in this process (CPU), and the bound Amdahl's law puts on the whole-run ratio: per
+    core, and times the engine's worker count for the CPU estimate (the hand loop runs on
+    one core, the engine's tasks on ``jobs``)."""
+    candidates = parse_candidates(specs)
+    n_obs = len(series[0])
+    ends = list(range(first, n_obs - HORIZON + 1))[-(max_origins or n_obs):]
+    later = ends[1:]
+    parts = dict.fromkeys(("hand fit", "hand later", "engine fit", "engine later"), 0.0)
+    for s in series:
+        values = np.asarray(s.values, float)
+        for candidate, hand in zip(candidates, hands):
+            z = np.log(values) if hand.log else values
+            spec, m = candidate.spec, s.season_length
+            started = time.process_time()
+            results = _quiet(hand.fit, z[:ends[0]])
+            _quiet(hand.forecast, results, z[:ends[0]])
+            parts["hand fit"] += time.process_time() - started
+            started = time.process_time()
+            for end in later:
+                _quiet(hand.forecast, None, z[:end], results.params)
+            parts["hand later"] += time.process_time() - started
+            started = time.process_time()
+            fit, _ = _quiet(spec.fit_forecast, z[:ends[0]], m, HORIZON, LEVELS, 0)
+            parts["engine fit"] += time.process_time() - started
+            started = time.process_time()
+            _quiet(spec.forecast_stretch, z[:later[-1]], m, fit.params, later, HORIZON,
+                   LEVELS, [0] * len(later))
+            parts["engine later"] += time.process_time() - started
+    count = len(later) * len(series) * len(specs)
+    phase = parts["hand later"] / parts["engine later"]
+    bound = ((parts["hand fit"] + parts["hand later"])
+             / (parts["engine fit"] + parts["engine later"]))
+    ceiling = (parts["hand fit"] + parts["hand later"]) / parts["engine fit"]
+    print(f"  estimate-once in parts (one process, CPU s): fits hand {parts['hand fit']:.2f}, "
+          f"engine {parts['engine fit']:.2f}; forecasts from the {count} later origins hand "
+          f"{parts['hand later']:.2f}, engine {parts['engine later']:.3f} "
+          f"({count / parts['engine later']:,.0f} forecasts/s)")
+    print(f"  forecast-phase ratio {phase:.1f}x; Amdahl bound on the whole-run ratio "
+          f"(hand fit + forecasts) / (engine fit + forecasts) = {bound:.1f}x per core (at "
+          f"most {ceiling:.1f}x even with free forecasts), {jobs * bound:.1f}x with {jobs} "
+          f"workers; measured whole run (CPU estimate): "
+          + ", ".join(f"{k} {v:.2f}x" for k, v in whole_run.items()))
 
 
 def warm_start_row(series: list[Series], first: int, jobs: int) -> None:
@@ -327,25 +395,139 @@ def engine_part(args: argparse.Namespace) -> None:
     values = pd.read_csv(SERIES_G).iloc[:, 1].to_numpy(float)
     series_g = make_series("series_g", "P1M", [(f"{1949 + k // 12}-{k % 12 + 1:02d}", v)
                                                for k, v in enumerate(values)])
-    compare("A. log Series G, airline model", [series_g], [AIRLINE], HAND[:1], 60, None,
-            args.jobs)
-    compare("B. generated panel", panel(args.series), PANEL, HAND, 48, args.max_origins,
-            args.jobs)
+    assessments = tuple(args.assessment.split(","))
+    blocks = [("A. log Series G, airline model", [series_g], [AIRLINE], HAND[:1], 60, None),
+              ("B. generated panel", panel(args.series or 20), PANEL, HAND, 48,
+               args.max_origins)]
+    for label, series, specs, hands, first, max_origins in blocks:
+        ratios = compare(label, series, specs, hands, first, max_origins, args.jobs,
+                         assessments)
+        once_phases(series, specs, hands, first, max_origins, args.jobs,
+                    {a: ratios["once", a] for a in assessments})
     warm_start_row([series_g], 60, args.jobs)
     task_costs(values, series_g)
-    benchmark_throughput(panel(args.series), 24)
+    benchmark_throughput(panel(args.series or 20), 24)
     peak_memory()
 
 
-PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part}
+STORE_CANDIDATES = [
+    {"family": "benchmark", "method": "seasonal_naive"},
+    {"family": "benchmark", "method": "naive"},
+    {"family": "benchmark", "method": "drift"},
+    {"family": "benchmark", "method": "mean"},
+    {"family": "ets", "error": "additive", "trend": "additive", "season": "additive"},
+    {"family": "ets", "error": "additive", "trend": "damped", "season": "none"},
+    AIRLINE,
+    {"family": "arima", "order": [1, 0, 0], "seasonal": {"order": [0, 1, 1]},
+     "deterministic": "drift", "transform": "log"},
+]
+STORE_ORIGINS = 36
+
+
+class PeakMemory:
+    """Peak of the summed resident memory of this process and its children, sampled."""
+
+    def __init__(self, every: float = 0.25) -> None:
+        self.peak, self._every = 0, every
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._sample, daemon=True)
+
+    def __enter__(self) -> PeakMemory:
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self._stop.set()
+        self._thread.join()
+
+    def _sample(self) -> None:
+        me = psutil.Process()
+        while not self._stop.wait(self._every):
+            total = 0
+            for process in (me, *me.children(recursive=True)):
+                try:
+                    total += process.memory_info().rss
+                except psutil.NoSuchProcess:
+                    continue
+            self.peak = max(self.peak, total)
+
+
+def storage_part(args: argparse.Namespace) -> None:
+    """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence 12, computed
+    by the engine a chunk of series at a time and written series by series to a fresh
+    SQLite database, as a worker stores a run."""
+    from storage.engine import make_engine, session_factory
+    from storage.migrate import upgrade
+    from storage.results_store import write_series_result
+    from storage.runs import finish_run, queue_run, start_run
+    from storage.series_store import save_series_version
+
+    series = panel(args.series or 1000)
+    candidates = parse_candidates(STORE_CANDIDATES)
+    plan = parse_plan({"horizon": HORIZON, "max_origins": STORE_ORIGINS, "refit": 12,
+                       "levels": list(LEVELS), "assessment": args.store_assessment})
+    folds = len(series) * len(candidates) * STORE_ORIGINS
+    print(f"\nstorage: {len(series)} series x {len(candidates)} candidates (the 4 benchmarks, "
+          f"ETS(A,A,A), ETS(A,Ad,N), 2 seasonal ARIMA) x {STORE_ORIGINS} origins x "
+          f"H = {HORIZON}, cadence 12, assessment {args.store_assessment}, n_jobs={args.jobs},"
+          f" chunks of {args.chunk} series, fresh SQLite; load average {_load()}")
+    _warm_pool(args.jobs)
+    with tempfile.TemporaryDirectory() as directory, PeakMemory() as memory:
+        url = f"sqlite:///{directory}/bench.db"
+        started = Clock.now()
+        upgrade(url)
+        engine = make_engine(url)
+        sessions = session_factory(engine)
+        with sessions.begin() as session:
+            versions = [save_series_version(session, s, actor="bench").version.id
+                        for s in series]
+            run = queue_run(session, series_version_ids=versions, candidates=candidates,
+                            plan=plan, actor="bench")
+            start_run(session, run.id, actor="bench")
+        compute, write = 0.0, 0.0
+        for first in range(0, len(series), args.chunk):
+            chunk = series[first:first + args.chunk]
+            tick = time.perf_counter()
+            result = run_backtest(chunk, candidates, plan, n_jobs=args.jobs)
+            compute += time.perf_counter() - tick
+            tick = time.perf_counter()
+            for version, series_result in zip(versions[first:], result.series):
+                with sessions.begin() as session:
+                    write_series_result(session, run.id, version, series_result, actor="bench")
+            write += time.perf_counter() - tick
+        with sessions.begin() as session:
+            finish_run(session, run.id, actor="bench", software=result.software)
+        wall, cpu = Clock.now().since(started)
+        size = Path(directory, "bench.db").stat().st_size / 2**20
+        engine.dispose()
+    scale = 1000 / len(series)
+    print(f"  wall {wall:.1f} s (engine {compute:.1f} s, storage {write:.1f} s; CPU estimate "
+          f"for an idle machine {cpu:.1f} s), {folds / wall:.1f} folds/s, {folds:,} folds, "
+          f"database {size:.0f} MiB; load average {_load()}")
+    print(f"  peak resident memory, this process and its workers together: "
+          f"{memory.peak / 2**20:.0f} MiB")
+    print(f"  extrapolated to 1,000 series (linear in series): wall {wall * scale / 60:.1f} "
+          f"min, idle-machine estimate {cpu * scale / 60:.1f} min (target: under 15 min, "
+          "under 2 GiB)")
+
+
+PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part,
+                                                          "storage": storage_part}
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--part", choices=sorted(PARTS), default="engine")
     parser.add_argument("--jobs", type=int, default=2, help="engine worker processes")
-    parser.add_argument("--series", type=int, default=20, help="panel series")
+    parser.add_argument("--series", type=int,
+                        help="generated series (default: 20 in part engine, 1,000 in storage)")
     parser.add_argument("--max-origins", type=int, default=24, help="panel origins per series")
+    parser.add_argument("--assessment", default="full,lean",
+                        help="plan assessments to time the engine with, comma-separated")
+    parser.add_argument("--store-assessment", choices=["full", "lean"], default="full",
+                        help="plan assessment of part storage")
+    parser.add_argument("--chunk", type=int, default=50,
+                        help="series per engine call in part storage")
     args = parser.parse_args()
     print(f"{os.cpu_count()} CPUs; numpy {np.__version__}, statsmodels {sm_version}; "
           "one BLAS thread in every process")

@@ -7,7 +7,8 @@ import warnings
 from collections.abc import Iterable
 
 import numpy as np
-from scipy import stats
+
+from backtest.assessment import _tails
 
 
 def number(value: object) -> float | None:
@@ -22,7 +23,7 @@ def chi2_sf(statistic: float | None, df: int) -> float | None:
     """Upper-tail chi-squared probability, ``None`` for an undefined statistic."""
     if statistic is None or df <= 0:
         return None
-    return number(stats.chi2.sf(statistic, df))
+    return number(_tails.chi2_sf(statistic, df))
 
 
 def vector(values: object, what: str) -> np.ndarray:

@@ -24,6 +24,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -129,7 +130,13 @@ def zone_thresholds(trials: int, nominal_miss_rate: float) -> tuple[int, int]:
     10 (zones 0-4, 5-9, 10+).
     """
     _check_rate(float(nominal_miss_rate))
-    cdf = stats.binom.cdf(np.arange(int(trials) + 1), int(trials), float(nominal_miss_rate))
+    return _thresholds(int(trials), float(nominal_miss_rate))
+
+
+@functools.lru_cache(maxsize=1024)
+def _thresholds(trials: int, rate: float) -> tuple[int, int]:
+    """Cached: every horizon and candidate of a backtest asks for the same few."""
+    cdf = stats.binom.cdf(np.arange(trials + 1), trials, rate)
     starts = [int(np.searchsorted(cdf, level - _CDF_TOLERANCE)) for level in ZONE_LEVELS]
     return starts[0], starts[1]
 

@@ -23,9 +23,9 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 from arch.bootstrap import MCS
-from scipy import stats
 
 from backtest.assessment._numbers import number, vector
+from backtest.assessment._tails import norm_sf, t_cdf, t_sf
 
 Loss = Literal["squared", "absolute"]
 LOSSES: tuple[Loss, ...] = ("squared", "absolute")
@@ -95,14 +95,14 @@ def _statistics(d: np.ndarray, h: int) -> dict:
                 "reason": "the loss differential is constant: no variance"}
     dm = d.mean() / math.sqrt(variance / n)
     out = {"variance": number(variance), "kernel": kernel, "dm": number(dm),
-           "p_value_normal": number(2.0 * stats.norm.sf(abs(dm)))}
+           "p_value_normal": number(2.0 * norm_sf(abs(dm)))}
     factor = (n + 1 - 2 * h + h * (h - 1) / n) / n
     if factor <= 0:
         out["reason"] = f"HLN correction undefined for T = {n}, h = {h}"
         return out
     hln = dm * math.sqrt(factor)
-    out.update(hln=number(hln), p_value=number(2.0 * stats.t.sf(abs(hln), n - 1)),
-               p_value_first_better=number(stats.t.cdf(hln, n - 1)))
+    out.update(hln=number(hln), p_value=number(2.0 * t_sf(abs(hln), n - 1)),
+               p_value_first_better=number(t_cdf(hln, n - 1)))
     return out
 
 

@@ -60,9 +60,9 @@ from typing import Literal
 
 import numpy as np
 from numpy.polynomial import polynomial
-from scipy import stats
 
 from backtest.assessment._numbers import describe_warnings, number
+from backtest.assessment._tails import norm_sf
 from backtest.assessment.insample import InSample, one_step_errors
 from backtest.assessment.residual_tests import (
     acf_report,
@@ -220,7 +220,7 @@ def _coefficient_row(name: str, estimate: float, variance: float, reason: str | 
         row["note"] = "variance: sigma2 = 0 is on the boundary, no Wald test"
         return row
     z = estimate / np.sqrt(variance)
-    row.update(z=number(z), p_value=number(2.0 * stats.norm.sf(abs(z))))
+    row.update(z=number(z), p_value=number(2.0 * norm_sf(abs(z))))
     return row
 
 

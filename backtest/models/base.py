@@ -51,6 +51,10 @@ class ModelSpec(ABC):
     closed_form: ClassVar[bool] = False
     #: Families whose ``fit`` takes ``start_params`` for its optimiser (a plan's warm start).
     warm_startable: ClassVar[bool] = False
+    #: Families whose ``fit_forecast`` takes ``keep_raw=False``: the caller needs the
+    #: estimates and the forecast only (a lean assessment), so the family may skip building
+    #: the library's results object (``Fit.raw`` is then ``None``).
+    raw_optional: ClassVar[bool] = False
     transform: Transform
 
     @abstractmethod
@@ -116,6 +120,22 @@ class ModelSpec(ABC):
     def needs_positive(self) -> bool:
         """Whether the data must be strictly positive."""
         return self.transform.needs_positive
+
+
+def back_transform(transform: Transform, forecast: Forecast) -> Forecast:
+    """``forecast`` made on the ``transform``-ed scale, back on the original scale.
+
+    Raises :class:`FloatingPointError` if the point forecast is not finite or a bound is NaN.
+    """
+    mean = transform.inverse(forecast.mean)
+    lower = {lv: transform.inverse(b) for lv, b in forecast.lower.items()}
+    upper = {lv: transform.inverse(b) for lv, b in forecast.upper.items()}
+    if not np.all(np.isfinite(mean)):
+        raise FloatingPointError("the point forecast contains non-finite values")
+    for level in lower:
+        if np.any(np.isnan(lower[level])) or np.any(np.isnan(upper[level])):
+            raise FloatingPointError(f"the {level} % interval contains NaN bounds")
+    return Forecast(mean, lower, upper)
 
 
 def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> Forecast:

@@ -51,6 +51,7 @@ class EtsSpec(ModelSpec):
 
     family: ClassVar[str] = "ets"
     warm_startable: ClassVar[bool] = True
+    raw_optional: ClassVar[bool] = True
     error: Literal["additive", "multiplicative"] = "additive"
     trend: Literal["none", "additive", "damped"] = "none"
     season: Literal["none", "additive", "multiplicative"] = "none"
@@ -120,13 +121,26 @@ class EtsSpec(ModelSpec):
         return Forecast(mean, lower, upper)
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
-                     levels: tuple[int, ...], seed: int, *,
-                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
-        """Estimate on ``y``, then forecast from the estimation's own smoothing pass."""
-        fit = self.fit(y, season_length, start_params=start_params)
-        fitted = fit.raw.fittedvalues.to_numpy(float)
-        return fit, self._from_pass(y, season_length, fit.params, fitted, fit.raw.states,
-                                    [len(y)], horizon, levels, [seed])[0]
+                     levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
+                     keep_raw: bool = True) -> tuple[Fit, Forecast]:
+        """Estimate on ``y``, then forecast from the estimation's own smoothing pass.
+
+        Without ``keep_raw`` statsmodels returns the estimates alone and does not build its
+        results object, whose construction computes the numerical covariance (about a
+        third of a fit); the smoothing pass is then run on its own. Estimates and forecasts
+        are the same either way.
+        """
+        if keep_raw:
+            fit = self.fit(y, season_length, start_params=start_params)
+            fitted, states = fit.raw.fittedvalues, fit.raw.states
+        else:
+            model = self.model(y, season_length)
+            start = None if start_params is None else _vector(model, start_params)
+            vector = model.fit(start_params=start, disp=False, return_params=True)
+            fit = Fit(dict(zip(model.param_names, map(float, vector))))
+            fitted, states = model.smooth(vector, return_raw=True)
+        return fit, self._from_pass(y, season_length, fit.params, fitted.to_numpy(float),
+                                    states, [len(y)], horizon, levels, [seed])[0]
 
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
                          ends: Sequence[int], horizon: int, levels: tuple[int, ...],
