@@ -5,7 +5,7 @@ import sys
 
 CHECK = """
 import sys
-import backtest.demo, backtest.engine, backtest.tidy
+import backtest.demo, backtest.engine, backtest.ledger, backtest.tidy
 print(",".join(m for m in ("fastapi", "sqlalchemy", "starlette", "service", "storage")
                if m in sys.modules))
 """
