@@ -6,6 +6,9 @@ Modules, one concept each:
 - ``schema`` (tables), ``types`` (UTC timestamps, JSON/JSONB), ``migrate`` + ``migrations``;
 - ``series_store`` (series versions), ``catalog`` (candidates, plans), ``runs`` (lifecycle),
   ``results_store`` (per-series units of results), ``queries`` (questions over them);
+- the forecast ledger: ``champions`` (each series' chosen candidate and its history),
+  ``ledger`` (issued forecasts), ``outcomes`` (issued forecasts scored against later
+  versions), ``ledger_rows`` (their conversion to and from rows);
 - ``audit`` (hash-chained event log), ``contents`` and ``digest`` (what events vouch for),
   ``verify`` (checking the log and the content);
 - ``errors`` (the storage error hierarchy), ``guard`` and ``bulk`` (helpers);

@@ -19,11 +19,18 @@ from storage.digest import Row, combine, table_digest
 from storage.schema import (
     Base,
     CandidateRecord,
+    ChampionChoiceRecord,
     FoldRecord,
     FoldWarning,
     ForecastBound,
     ForecastRecord,
+    IssuedBound,
+    IssuedForecastRecord,
+    IssuedPoint,
     Observation,
+    OutcomeLevel,
+    OutcomeRecord,
+    OutcomeSetRecord,
     PlanRecord,
     RankRecord,
     ResultCandidate,
@@ -41,6 +48,10 @@ UNIT_TABLES: tuple[Table, ...] = tuple(
     model.__table__ for model in (SeriesResultRecord, ResultCandidate, FoldRecord,
                                   ForecastRecord, ForecastBound, FoldWarning, ScoreRecord,
                                   RankRecord))
+ISSUED_TABLES: tuple[Table, ...] = tuple(
+    model.__table__ for model in (IssuedForecastRecord, IssuedPoint, IssuedBound))
+OUTCOME_TABLES: tuple[Table, ...] = tuple(
+    model.__table__ for model in (OutcomeSetRecord, OutcomeRecord, OutcomeLevel))
 
 
 def as_row(record: Base) -> dict[str, Any]:
@@ -76,6 +87,21 @@ def run_subject(run_id: int) -> str:
 def unit_subject(run_id: int, series_version_id: int) -> str:
     """Subject name of one series' results in one run."""
     return f"series_result/{run_id}/{series_version_id}"
+
+
+def champion_subject(choice_id: int) -> str:
+    """Subject name of a champion choice."""
+    return f"champion_choice/{choice_id}"
+
+
+def issued_subject(forecast_id: int) -> str:
+    """Subject name of an issued forecast."""
+    return f"issued_forecast/{forecast_id}"
+
+
+def outcomes_subject(forecast_id: int, series_version_id: int) -> str:
+    """Subject name of an issued forecast's outcomes against one series version."""
+    return f"outcome_set/{forecast_id}/{series_version_id}"
 
 
 def series_digest(series: Iterable[Row]) -> str:
@@ -115,6 +141,21 @@ def run_final_digest(runs: Iterable[Row]) -> str:
 def unit_digest(rows: Mapping[Table, Iterable[Row]]) -> str:
     """Digest of every row of one series' results, by table."""
     return combine(table_digest(table, rows[table]) for table in UNIT_TABLES)
+
+
+def champion_digest(choices: Iterable[Row]) -> str:
+    """Digest of a champion choice row."""
+    return table_digest(ChampionChoiceRecord.__table__, choices)
+
+
+def issued_digest(rows: Mapping[Table, Iterable[Row]]) -> str:
+    """Digest of an issued forecast's header, points and bounds."""
+    return combine(table_digest(table, rows[table]) for table in ISSUED_TABLES)
+
+
+def outcomes_digest(rows: Mapping[Table, Iterable[Row]]) -> str:
+    """Digest of one outcome set: its header, outcomes and per-level rows."""
+    return combine(table_digest(table, rows[table]) for table in OUTCOME_TABLES)
 
 
 def stored_digest(session: Session, action: str, subject: str) -> str | None:
@@ -165,6 +206,23 @@ def _unit(session: Session, ids: list[str]) -> str:
     return unit_digest({table: _rows(session, table, **keys) for table in UNIT_TABLES})
 
 
+def _champion(session: Session, ids: list[str]) -> str:
+    return champion_digest(_rows(session, ChampionChoiceRecord.__table__, id=int(ids[0])))
+
+
+def _issued(session: Session, ids: list[str]) -> str:
+    forecast_id = int(ids[0])
+    header, points, bounds = ISSUED_TABLES
+    return issued_digest({header: _rows(session, header, id=forecast_id),
+                          points: _rows(session, points, forecast_id=forecast_id),
+                          bounds: _rows(session, bounds, forecast_id=forecast_id)})
+
+
+def _outcomes(session: Session, ids: list[str]) -> str:
+    keys = {"forecast_id": int(ids[0]), "series_version_id": int(ids[1])}
+    return outcomes_digest({table: _rows(session, table, **keys) for table in OUTCOME_TABLES})
+
+
 _READERS: dict[str, Callable[[Session, list[str]], str]] = {
     "series.created": _series,
     "series_version.created": _version,
@@ -173,4 +231,7 @@ _READERS: dict[str, Callable[[Session, list[str]], str]] = {
     "run.queued": _run_request,
     "run.finished": _run_final,
     "results.written": _unit,
+    "champion.chosen": _champion,
+    "forecast.issued": _issued,
+    "outcomes.recorded": _outcomes,
 }

@@ -38,6 +38,7 @@ class LatestRun:
     version_number: int
     run_id: int
     finished_at: datetime
+    benchmark_id: str
 
 
 @dataclass(frozen=True)
@@ -68,6 +69,13 @@ class ScorePoint:
 def latest_successful_runs(session: Session) -> list[LatestRun]:
     """The latest successful run of every series that has one, by series key."""
     return [LatestRun(*row) for row in session.execute(latest_runs_query().order_by("series_key"))]
+
+
+@translates_errors
+def succeeded_run_count(session: Session) -> int:
+    """How many runs have succeeded: it grows exactly when a ranking can change."""
+    return session.scalar(select(func.count()).select_from(Run)
+                          .where(Run.status == "succeeded")) or 0
 
 
 @translates_errors
@@ -146,15 +154,19 @@ def audit_events_between(session: Session, start: datetime, end: datetime) -> li
 
 
 def latest_runs_query(series_key: str | None = None) -> Select:
-    """Columns series_key, series_version_id, version_number, run_id, finished_at: the
-    latest successful run of every series (or of one)."""
+    """Columns series_key, series_version_id, version_number, run_id, finished_at,
+    benchmark_id: the latest successful run of every series (or of one).
+
+    It reads only key columns of ``series_result`` (a covering index), never its wide
+    evidence rows."""
     order = func.row_number().over(partition_by=SeriesRecord.id,
                                    order_by=(Run.finished_at.desc(), Run.id.desc()))
     ranked = (
         select(SeriesRecord.key.label("series_key"),
                SeriesVersion.id.label("series_version_id"),
                SeriesVersion.number.label("version_number"), Run.id.label("run_id"),
-               Run.finished_at.label("finished_at"), order.label("recency"))
+               Run.finished_at.label("finished_at"),
+               SeriesResultRecord.benchmark_id.label("benchmark_id"), order.label("recency"))
         .select_from(SeriesResultRecord)
         .join(Run, Run.id == SeriesResultRecord.run_id)
         .join(SeriesVersion, SeriesVersion.id == SeriesResultRecord.series_version_id)
@@ -165,7 +177,8 @@ def latest_runs_query(series_key: str | None = None) -> Select:
         ranked = ranked.where(SeriesRecord.key == series_key)
     latest = ranked.subquery()
     return select(latest.c.series_key, latest.c.series_version_id, latest.c.version_number,
-                  latest.c.run_id, latest.c.finished_at).where(latest.c.recency == 1)
+                  latest.c.run_id, latest.c.finished_at, latest.c.benchmark_id
+                  ).where(latest.c.recency == 1)
 
 
 def _score_filter(metric: str, horizon: int | None, level: int | None) -> list:

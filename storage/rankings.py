@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 
 from storage.errors import translates_errors
 from storage.queries import latest_runs_query
-from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord, SeriesResultRecord
+from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord
 
 RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "winkler", "msis")
 """Metrics where lower is better; ``winkler`` and ``msis`` need an interval level."""
@@ -32,7 +32,12 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
     rank, candidate_id, candidate, is_benchmark, value, count, note; by series key, rank,
     candidate id."""
     latest = latest_runs_query().subquery()
-    s, unit = ScoreRecord, SeriesResultRecord
+    s = ScoreRecord
+    # the chosen score's row keys come from the score index alone; SQLite would otherwise
+    # walk every score row of a unit by primary key
+    chosen = (select(s.run_id, s.series_version_id, s.position)
+              .where(s.metric == metric, _equal(s.horizon, horizon), _equal(s.level, level))
+              .subquery())
     unscored = s.value.is_(None)
     place = func.rank().over(partition_by=(s.run_id, s.series_version_id, unscored),
                              order_by=s.value)
@@ -41,17 +46,18 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
                latest.c.run_id, latest.c.finished_at.label("run_finished_at"), s.metric,
                s.horizon, s.level, place.label("place"), unscored.label("unscored"),
                s.candidate_id, ResultCandidate.label.label("candidate"),
-               (s.candidate_id == unit.benchmark_id).label("is_benchmark"), s.value, s.count,
-               s.note)
+               (s.candidate_id == latest.c.benchmark_id).label("is_benchmark"), s.value,
+               s.count, s.note)
         .select_from(latest)
-        .join(s, (s.run_id == latest.c.run_id)
-              & (s.series_version_id == latest.c.series_version_id))
-        .join(unit, (unit.run_id == s.run_id) & (unit.series_version_id == s.series_version_id))
+        .join(chosen, (chosen.c.run_id == latest.c.run_id)
+              & (chosen.c.series_version_id == latest.c.series_version_id))
+        .join(s, (s.run_id == chosen.c.run_id)
+              & (s.series_version_id == chosen.c.series_version_id)
+              & (s.position == chosen.c.position))
         .join(ResultCandidate, (ResultCandidate.run_id == s.run_id)
               & (ResultCandidate.series_version_id == s.series_version_id)
               & (ResultCandidate.candidate_id == s.candidate_id))
-        .join(SeriesRecord, SeriesRecord.key == latest.c.series_key)
-        .where(s.metric == metric, _equal(s.horizon, horizon), _equal(s.level, level)))
+        .join(SeriesRecord, SeriesRecord.key == latest.c.series_key))
     if prefix:
         inner = inner.where(func.substr(latest.c.series_key, 1, len(prefix)) == prefix)
     for name, value in (tags or {}).items():

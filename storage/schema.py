@@ -1,11 +1,13 @@
-"""The tables: series versions, candidates, plans, runs, their results, the audit log, API keys.
+"""The tables: series versions, candidates, plans, runs, their results, the audit log, API keys,
+champions, the ledger of issued forecasts and their outcomes.
 
 Result rows are tidy and keyed by natural ids so SQL and BI users can query them directly:
 ``forecast`` has one row per run x series version x candidate x fold x horizon (origin,
 period, actual, point); prediction bounds are rows of ``forecast_bound``, one per level
-(``lower``/``upper``), because the levels are chosen per plan. A ``NULL`` float stands
-for NaN (SQLite cannot store NaN); ``fold_result.has_point`` tells a failed fold (no
-forecast at all) apart from a NaN point.
+(``lower``/``upper``), because the levels are chosen per plan. Issued forecasts
+(``issued_point``, ``issued_bound``) and their outcomes (``outcome``, ``outcome_level``)
+are stored the same way. A ``NULL`` float stands for NaN (SQLite cannot store NaN);
+``fold_result.has_point`` tells a failed fold (no forecast at all) apart from a NaN point.
 
 Everything except ``run`` is append-only: database triggers created by the migrations
 refuse UPDATE and DELETE, and a ``run`` row is frozen once its status is final. On SQLite,
@@ -114,7 +116,8 @@ class Observation(Base):
     """One observation of a series version; ``filled`` marks a value made by a fill policy."""
 
     __tablename__ = "observation"
-    __table_args__ = NO_ROWID
+    # outcomes look up the actuals of a version by period
+    __table_args__ = (Index(None, "series_version_id", "period"), NO_ROWID)
 
     series_version_id: Mapped[VersionKey]
     position: Mapped[PartKey]
@@ -199,6 +202,8 @@ class SeriesResultRecord(Base):
     __table_args__ = (
         ForeignKeyConstraint(["run_id", "series_version_id"],
                              ["run_series.run_id", "run_series.series_version_id"]),
+        # finding latest runs reads the keys alone, never the wide evidence rows
+        Index(None, "run_id", "series_version_id", "benchmark_id"),
         NO_ROWID,
     )
 
@@ -409,3 +414,146 @@ class ApiKeyRevocation(Base):
     key_id: Mapped[Label] = mapped_column(ForeignKey("api_key.id"), primary_key=True)
     revoked_at: Mapped[datetime]
     revoked_by: Mapped[Name]
+
+
+class ChampionChoiceRecord(Base):
+    """A candidate chosen as a series' champion: by whom, when, why, on which run's evidence.
+
+    The series' champion is its latest choice; earlier rows are the history of changes.
+    """
+
+    __tablename__ = "champion_choice"
+    __table_args__ = (Index(None, "series_id", "id"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    series_id: Mapped[int] = mapped_column(ForeignKey("series.id"))
+    candidate_id: Mapped[CandidateId] = mapped_column(ForeignKey("candidate.id"))
+    run_id: Mapped[int | None] = mapped_column(ForeignKey("run.id"))
+    reason: Mapped[str] = mapped_column(Text)
+    chosen_by: Mapped[Name]
+    chosen_at: Mapped[datetime]
+
+
+class IssuedForecastRecord(Base):
+    """An issued forecast: what produced it and who issued it; its horizons are rows of
+    ``issued_point`` and ``issued_bound``.
+
+    ``levels`` is the comma-separated level list as issued, part of the inputs that make a
+    re-issue return this record; ``params`` holds non-finite numbers as ``"nan"``/``"inf"``.
+    """
+
+    __tablename__ = "issued_forecast"
+    __table_args__ = (
+        UniqueConstraint("series_version_id", "candidate_id", "horizon", "levels", "seed",
+                         name="uq_issued_forecast_inputs"),
+        Index(None, "series_id", "candidate_id"),
+        Index(None, "candidate_id"),
+        Index(None, "issued_at"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    series_id: Mapped[int] = mapped_column(ForeignKey("series.id"))
+    series_version_id: Mapped[int] = mapped_column(ForeignKey("series_version.id"))
+    candidate_id: Mapped[CandidateId] = mapped_column(ForeignKey("candidate.id"))
+    label: Mapped[Name]
+    horizon: Mapped[int]
+    levels: Mapped[Name]
+    seed: Mapped[int]
+    origin: Mapped[Label]
+    params: Mapped[Json]
+    scale: Mapped[float | None]
+    scale_sq: Mapped[float | None]
+    software: Mapped[Json]
+    warnings: Mapped[Json]
+    issued_by: Mapped[Name]
+    issued_at: Mapped[datetime]
+
+
+IssuedKey = Annotated[int, mapped_column(ForeignKey("issued_forecast.id"), primary_key=True)]
+
+
+class IssuedPoint(Base):
+    """One horizon of an issued forecast: target period and point forecast."""
+
+    __tablename__ = "issued_point"
+    __table_args__ = NO_ROWID
+
+    forecast_id: Mapped[IssuedKey]
+    horizon: Mapped[PartKey]
+    period: Mapped[Label]
+    point: Mapped[float | None]
+
+
+class IssuedBound(Base):
+    """The prediction interval of one horizon of an issued forecast at one level (in %)."""
+
+    __tablename__ = "issued_bound"
+    __table_args__ = (
+        ForeignKeyConstraint(["forecast_id", "horizon"],
+                             ["issued_point.forecast_id", "issued_point.horizon"]),
+        NO_ROWID,
+    )
+
+    forecast_id: Mapped[PartKey]
+    horizon: Mapped[PartKey]
+    level: Mapped[PartKey]
+    lower: Mapped[float | None]
+    upper: Mapped[float | None]
+
+
+class OutcomeSetRecord(Base):
+    """An issued forecast scored against one series version; at most one per pair."""
+
+    __tablename__ = "outcome_set"
+    __table_args__ = NO_ROWID
+
+    forecast_id: Mapped[IssuedKey]
+    series_version_id: Mapped[VersionKey]
+    scored_at: Mapped[datetime]
+    scored_by: Mapped[Name]
+
+
+_OUTCOME_SET = ["outcome_set.forecast_id", "outcome_set.series_version_id"]
+_OUTCOME = ["outcome.forecast_id", "outcome.series_version_id", "outcome.horizon"]
+
+
+class OutcomeRecord(Base):
+    """The realised error of one horizon of an issued forecast against one version."""
+
+    __tablename__ = "outcome"
+    __table_args__ = (
+        ForeignKeyConstraint(["forecast_id", "series_version_id"], _OUTCOME_SET),
+        ForeignKeyConstraint(["forecast_id", "horizon"],
+                             ["issued_point.forecast_id", "issued_point.horizon"]),
+        NO_ROWID,
+    )
+
+    forecast_id: Mapped[PartKey]
+    series_version_id: Mapped[PartKey]
+    horizon: Mapped[PartKey]
+    period: Mapped[Label]
+    actual: Mapped[float | None]
+    point: Mapped[float | None]
+    error: Mapped[float | None]
+    scaled_error: Mapped[float | None]
+    smape_term: Mapped[float | None]
+
+
+class OutcomeLevel(Base):
+    """Whether one horizon's actual fell inside the interval at one level, and its score."""
+
+    __tablename__ = "outcome_level"
+    __table_args__ = (
+        ForeignKeyConstraint(["forecast_id", "series_version_id", "horizon"], _OUTCOME),
+        ForeignKeyConstraint(["forecast_id", "horizon", "level"],
+                             ["issued_bound.forecast_id", "issued_bound.horizon",
+                              "issued_bound.level"]),
+        NO_ROWID,
+    )
+
+    forecast_id: Mapped[PartKey]
+    series_version_id: Mapped[PartKey]
+    horizon: Mapped[PartKey]
+    level: Mapped[PartKey]
+    hit: Mapped[bool]
+    interval_score: Mapped[float | None]

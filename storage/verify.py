@@ -25,6 +25,9 @@ from sqlalchemy.orm import Session
 from storage.audit import GENESIS_HASH, event_hash
 from storage.contents import (
     candidate_subject,
+    champion_subject,
+    issued_subject,
+    outcomes_subject,
     plan_subject,
     run_subject,
     series_subject,
@@ -37,6 +40,9 @@ from storage.schema import (
     FINAL_STATUSES,
     AuditEvent,
     CandidateRecord,
+    ChampionChoiceRecord,
+    IssuedForecastRecord,
+    OutcomeSetRecord,
     PlanRecord,
     Run,
     SeriesRecord,
@@ -114,6 +120,11 @@ def _first_unrecorded(session: Session, recorded: set[tuple[str, str]]) -> str |
         ("results.written",
          select(SeriesResultRecord.run_id, SeriesResultRecord.series_version_id),
          unit_subject),
+        ("champion.chosen", select(ChampionChoiceRecord.id), champion_subject),
+        ("forecast.issued", select(IssuedForecastRecord.id), issued_subject),
+        ("outcomes.recorded",
+         select(OutcomeSetRecord.forecast_id, OutcomeSetRecord.series_version_id),
+         outcomes_subject),
     ]
     for action, query, subject_of in expected:
         for key in session.execute(query):

@@ -1,17 +1,21 @@
-"""Small real inputs for the storage tests: generated series, benchmark candidates, runs."""
+"""Small real inputs for the storage tests: generated series, benchmark candidates, runs,
+issued forecasts."""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 
 import numpy as np
+from sqlalchemy import text
 from sqlalchemy.orm import Session
 
-from backtest.candidates import Candidate, parse_candidates
+from backtest.candidates import Candidate, parse_candidate, parse_candidates
 from backtest.engine import run_backtest
+from backtest.ledger import issue_forecast
 from backtest.plan import Plan, parse_plan
 from backtest.results import BacktestResult
 from backtest.series import Series, make_series
+from storage.ledger import IssuedRecord, record_issued_forecast
 from storage.results_store import write_series_result
 from storage.runs import finish_run, queue_run, start_run
 from storage.series_store import save_series_version
@@ -52,3 +56,22 @@ def run_and_store(session: Session, series: Sequence[Series], *,
     finish_run(session, run.id, actor="worker-1", software=result.software,
                timing=result.timing)
     return run.id, versions, result
+
+
+def drop_guards(session: Session, table: str) -> None:
+    """Drop an append-only table's triggers, as someone with database access could."""
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(text(f'DROP TRIGGER {table}_append_only ON "{table}"'))
+        return
+    for action in ("update", "delete"):
+        session.execute(text(f"DROP TRIGGER {table}_no_{action}"))
+
+
+def issue_and_record(session: Session, series: Series, *, horizon: int = 4, seed: int = 0,
+                     method: str = "drift") -> IssuedRecord:
+    """Save ``series``, issue a benchmark forecast from it and record it in the ledger."""
+    version = save_series_version(session, series, actor=ACTOR).version
+    candidate = parse_candidate({"family": "benchmark", "method": method})
+    forecast = issue_forecast(series, candidate, horizon=horizon, seed=seed)
+    return record_issued_forecast(session, series_version_id=version.id, forecast=forecast,
+                                  actor=ACTOR)[0]
