@@ -7,7 +7,10 @@ worker, and lets 20 client threads page through ``GET /v1/rankings`` (JSON, 500 
 page) for a bounded number of requests each. Prints requests per second and p50 / p99
 latency.
 
-    .venv/bin/python bench/ranking_load.py [--series 1000] [--requests 50]
+    .venv/bin/python bench/ranking_load.py [--series 1000] [--requests 20] [--store FILE]
+
+``--store FILE`` keeps the SQLite store in FILE and reuses it when it exists (building
+it takes minutes), so code changes can be compared on the same data.
 """
 
 from __future__ import annotations
@@ -81,6 +84,17 @@ def build_store(url: str, count: int) -> str:
     return token.text
 
 
+def reader_key(url: str) -> str:
+    """A new reader key on an existing store."""
+    upgrade(url)
+    engine = make_engine(url)
+    with session_factory(engine).begin() as session:
+        _, token = issue_key(session, name=f"bench-reader-{time.time_ns()}", role="reader",
+                             actor="bench")
+    engine.dispose()
+    return token.text
+
+
 def load(base: str, token: str, clients: int, requests: int
          ) -> tuple[list[float], Counter[int]]:
     """Latencies (s) of the successful ones of ``clients`` x ``requests`` ranking requests
@@ -115,13 +129,19 @@ def main() -> int:
     parser.add_argument("--series", type=int, default=1000)
     parser.add_argument("--clients", type=int, default=20)
     parser.add_argument("--requests", type=int, default=20, help="per client")
+    parser.add_argument("--store", type=Path, help="SQLite file to keep and reuse")
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as folder:
-        url = f"sqlite:///{Path(folder) / 'bench.db'}"
-        started = time.perf_counter()
-        token = build_store(url, args.series)
-        built = time.perf_counter() - started
-        print(f"store: {args.series} series x 8 candidates in {built:.0f} s")
+        store = args.store or Path(folder) / "bench.db"
+        url = f"sqlite:///{store}"
+        if store.exists():
+            token = reader_key(url)
+            print(f"store: reusing {store}")
+        else:
+            started = time.perf_counter()
+            token = build_store(url, args.series)
+            built = time.perf_counter() - started
+            print(f"store: {args.series} series x 8 candidates in {built:.0f} s")
         env = {**os.environ, "FOLDLINE_DATABASE_URL": url, "FOLDLINE_HOST": "127.0.0.1",
                "FOLDLINE_PORT": str(_free_port()), "FOLDLINE_EMBEDDED_WORKER": "false"}
         with running_server(env, Path(folder) / "server.log") as base:

@@ -3,8 +3,10 @@
 =========  ============================================================================
 role       may
 =========  ============================================================================
-reader     read series, runs, results and rankings (what a BI tool gets)
-submitter  what a reader may, and post series, submit and cancel runs
+reader     read series, runs, results, rankings, champions, the forecast ledger, outcomes
+           and monitoring (what a BI tool gets)
+submitter  what a reader may, and post series, submit and cancel runs, choose champions
+           and issue forecasts
 auditor    what a reader may, and read score history, provenance, the audit log and its
            verification; never write
 admin      what a reader may, and create, list and revoke API keys
@@ -85,7 +87,7 @@ def require(permission: Permission) -> Callable[..., Caller]:
 
 _ACTIONS: dict[Permission, str] = {
     "read": "read series, runs or results",
-    "write": "post series or submit and cancel runs",
+    "write": "post series, submit and cancel runs, choose champions or issue forecasts",
     "audit": "read audit history",
     "manage_keys": "manage API keys",
 }

@@ -22,8 +22,22 @@ from service.body_limit import BodyLimitMiddleware
 from service.errors import ServiceError
 from service.metrics import MetricsMiddleware, RequestMetrics
 from service.problems import MEDIA_TYPE, problem_response
+from service.ranking_cache import RankingCache
 from service.request_guard import NulGuardMiddleware
-from service.routes import history, keys, operations, rankings, results, runs, series
+from service.routes import (
+    champions,
+    forecasts,
+    history,
+    keys,
+    monitoring,
+    operations,
+    pages,
+    rankings,
+    reports,
+    results,
+    runs,
+    series,
+)
 from service.settings import Settings, get_settings
 from storage.engine import make_engine, session_factory
 from storage.errors import StorageError
@@ -35,8 +49,11 @@ RFC 9457 problem details (`application/problem+json`). Tables are JSON, or CSV w
 `Accept: text/csv` or `?format=csv`; lists are paged with `limit` and `offset` and name the
 next page in `next` and a `Link` header.
 """
-ROUTERS = tuple(module.router for module in (series, runs, results, rankings, history, keys,
-                                            operations))
+# champions and monitoring first: their /series/{key}/... paths would otherwise be read as
+# series keys by GET /series/{key}
+ROUTERS = tuple(module.router for module in (champions, monitoring, series, runs, results,
+                                            reports, rankings, history, keys, operations,
+                                            forecasts))
 ERROR_FAMILIES = (BacktestError, StorageError, ServiceError, RequestValidationError,
                   HTTPException, Exception)
 
@@ -55,8 +72,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.settings = settings
     app.state.sessions = session_factory(engine)
     app.state.request_metrics = RequestMetrics()
+    app.state.ranking_cache = RankingCache()
     for router in ROUTERS:
         app.include_router(router)
+    app.include_router(pages.router)  # HTML for reviewers, not part of the API
     for family in ERROR_FAMILIES:
         app.add_exception_handler(family, problem_response)
     app.add_middleware(BodyLimitMiddleware, max_bytes=settings.max_body_bytes)

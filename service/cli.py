@@ -26,7 +26,16 @@ from backtest.tidy import (
     score_rows,
     write_csv,
 )
-from service import cli_db, cli_keys, cli_report, cli_run, cli_serve
+from service import (
+    cli_champion,
+    cli_db,
+    cli_forecast,
+    cli_keys,
+    cli_monitor,
+    cli_report,
+    cli_run,
+    cli_serve,
+)
 from service.demo import run_demo
 from service.terminal import ProgressBar, ranking_report
 
@@ -116,6 +125,9 @@ def build_parser() -> argparse.ArgumentParser:
     cli_db.register(commands)
     cli_report.register(commands)
     cli_keys.register(commands)
+    cli_champion.register(commands)
+    cli_forecast.register(commands)
+    cli_monitor.register(commands)
     return parser
 
 

@@ -10,6 +10,10 @@ import argparse
 import sys
 from pathlib import Path
 
+from service.errors import ServiceError
+from service.report.cache import ReportCache, cache_directory
+from service.report.stored import stored_run_report
+from service.settings import InvalidSettingsError, checked_settings
 from storage.engine import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
@@ -27,20 +31,18 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def write_report(args: argparse.Namespace) -> int:
-    """Read the run from the store, render its report and write it to ``args.output``."""
-    # Imported here: matplotlib and the charts load only when a report is asked for.
-    from service.report import load_report_inputs, render_run_report
-
+    """Write the run's report to ``args.output``: from the report cache, else rendered and
+    cached (the same cache the server uses, ``FOLDLINE_REPORT_CACHE_DIR``)."""
+    url = args.database_url or database_url()
     try:
-        engine = make_engine(args.database_url or database_url())
+        cache = ReportCache(cache_directory(checked_settings().report_cache_dir, url))
+        engine = make_engine(url)
         try:
-            with session_factory(engine).begin() as session:
-                inputs = load_report_inputs(session, args.run_id)
+            html = stored_run_report(session_factory(engine), args.run_id, cache)
         finally:
             engine.dispose()
-    except StorageError as exc:
+    except (StorageError, ServiceError, InvalidSettingsError) as exc:
         return _error(" ".join(str(exc).split()))
-    html = render_run_report(inputs.result, inputs.run_meta, inputs.series_values)
     try:
         Path(args.output).write_text(html, encoding="utf-8")
     except OSError as exc:

@@ -3,7 +3,9 @@
 It starts ``foldline serve`` on the embedded default (a SQLite file under the output
 directory, an embedded worker), creates a submitter key, posts the scenario's series as a
 CSV upload, submits a backtest, follows its progress, pulls the ranking over HTTP and
-prints it. Every step is a real HTTP call to a real server process.
+prints it, then continues in time (:mod:`service.demo_ledger`): champions, issued
+forecasts, later actuals and the monitoring flag a drifting series raises. Every step is a
+real HTTP call to a real server process.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ import httpx
 
 from backtest.demo import DEMO_CANDIDATES, DEMO_PLAN, demo_series
 from backtest.tidy import write_csv
+from service.demo_ledger import continue_demo
 from service.terminal import ProgressBar, ranking_table
 
 FINAL = ("succeeded", "failed", "cancelled")
@@ -122,10 +125,22 @@ def _submit_and_report(client: httpx.Client, out: Path) -> int:
     _print_ranking(ranking)
     print(f"\nrun {run['id']}: {elapsed:.1f} s from submission to finished "
           f"({run['progress']['folds_total']} folds); ranking CSV: {out / 'ranking.csv'}")
-    print("To explore the API: FOLDLINE_DATABASE_URL=sqlite:///"
+    print(f"run report (HTML, prints on A4): {_write_report(client, run['url'], out)}")
+    if continue_demo(client, run["id"], out) != 0:
+        return 1
+    print("\nTo explore the API: FOLDLINE_DATABASE_URL=sqlite:///"
           f"{(out / 'foldline.db').resolve()} .venv/bin/foldline serve, then open "
           "http://127.0.0.1:8000/docs (create a key with .venv/bin/foldline keys create).")
     return 0
+
+
+def _write_report(client: httpx.Client, run_url: str, out: Path) -> Path:
+    """Fetch the run's report (rendered on this first request, which takes a while)."""
+    answer = client.get(f"{run_url}/report", timeout=900)
+    answer.raise_for_status()
+    path = (out / "report.html").resolve()
+    path.write_text(answer.text, encoding="utf-8")
+    return path
 
 
 def _follow(client: httpx.Client, location: str) -> dict:

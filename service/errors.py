@@ -94,3 +94,9 @@ class BodyTooLargeError(ServiceError):
     """The request body is larger than ``FOLDLINE_MAX_BODY_BYTES``."""
 
     code = "body_too_large"
+
+
+class RunNotFinishedError(ServiceError):
+    """The run is queued or running: what is asked for exists only once it is final."""
+
+    code = "run_not_finished"

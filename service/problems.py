@@ -20,6 +20,7 @@ from pydantic import BaseModel, Field
 from starlette.exceptions import HTTPException
 
 from backtest.errors import BacktestError, CandidateError, PlanError, SeriesError
+from backtest.ledger import LedgerError
 from service.errors import (
     BodyTooLargeError,
     FieldError,
@@ -32,6 +33,7 @@ from service.errors import (
     NotAuthenticatedError,
     NotReadyError,
     PermissionDeniedError,
+    RunNotFinishedError,
     ServiceError,
     UnsupportedMediaTypeError,
 )
@@ -64,6 +66,7 @@ PROBLEMS: dict[type[Exception], Kind] = {
     SeriesError: Kind(422, "Invalid series"),
     CandidateError: Kind(422, "Invalid candidate"),
     PlanError: Kind(422, "Invalid plan"),
+    LedgerError: Kind(422, "Invalid forecast ledger input"),
     StorageError: Kind(500, "Storage failure", hidden=True),
     NotFoundError: Kind(404, "Not found"),
     ConflictError: Kind(409, "Conflict with stored data"),
@@ -79,6 +82,7 @@ PROBLEMS: dict[type[Exception], Kind] = {
     UnsupportedMediaTypeError: Kind(415, "Unsupported media type"),
     NotReadyError: Kind(503, "Not ready"),
     BodyTooLargeError: Kind(413, "Request body too large"),
+    RunNotFinishedError: Kind(409, "Run not finished"),
     InvalidCandidateError: Kind(422, "Invalid candidate"),
     InvalidPlanError: Kind(422, "Invalid plan"),
     InvalidSelectionError: Kind(422, "Invalid series selection"),

@@ -39,6 +39,14 @@ class Settings(BaseSettings):
     max_candidates: int = Field(20, ge=1, description="candidates per run")
     max_folds: int = Field(500_000, ge=1, description="folds (series x candidates x origins) "
                            "per run")
+    report_cache_dir: str | None = Field(None, description="directory of rendered run reports "
+                                         "(default: `reports` beside the SQLite store, else "
+                                         "in the default data directory)")
+    session_secret: str | None = Field(None, repr=False, description="key that signs reviewer "
+                                       "page sessions; unset: a random one per process, so "
+                                       "sessions end when the server restarts")
+    session_minutes: int = Field(480, ge=1, le=10_080, description="how long a reviewer page "
+                                 "session lasts after signing in")
 
 
 @lru_cache(maxsize=1)

@@ -17,6 +17,7 @@ import threading
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from service.outcome_scoring import score_due_outcomes
 from service.settings import Settings
 from service.worker_job import RunJob
 from storage.engine import make_engine
@@ -64,11 +65,13 @@ class Worker:
         return True
 
     def run_forever(self, stop: threading.Event) -> None:
-        """Work on runs until ``stop`` is set, looking for new ones every ``poll_seconds``."""
+        """Work on runs until ``stop`` is set, looking for new ones every ``poll_seconds``;
+        before each look, score the outcomes new actuals made due."""
         log.info("worker %s ready", self.id)
         while not stop.is_set():
             try:
-                busy = self.run_once(stop)
+                scored = score_due_outcomes(self._sessions, actor=self.id)
+                busy = self.run_once(stop) or scored > 0
             except StorageError as exc:
                 log.warning("looking for runs failed: %s", exc)
                 busy = False

@@ -7,6 +7,7 @@ the shared visual language (palette, line looks, fonts, axis wording).
 
 from service.charts.calibration import calibration_chart
 from service.charts.fan import ForecastBands, fan_chart
+from service.charts.monitoring import monitoring_chart
 from service.charts.overview import score_by_horizon_chart
 from service.charts.parameters import parameter_path_chart
 from service.charts.render import render
@@ -16,6 +17,7 @@ __all__ = [
     "ForecastBands",
     "calibration_chart",
     "fan_chart",
+    "monitoring_chart",
     "parameter_path_chart",
     "render",
     "residual_chart",

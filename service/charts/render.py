@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import threading
 from typing import Literal
 
 import matplotlib
@@ -14,6 +15,9 @@ Format = Literal["svg", "png"]
 PNG_DPI = 150
 # No creation date or software stamp: the same chart always renders to the same bytes.
 _METADATA = {"svg": {"Date": None, "Creator": None}, "png": {"Software": None}}
+#: Held while a page's charts are drawn: matplotlib's rc settings are global to the process,
+#: so two threads drawing at once could mix their styles.
+DRAWING = threading.Lock()
 
 
 def render(fig: Figure, fmt: Format) -> bytes:

@@ -17,6 +17,7 @@ from service.report.problems import problems_section
 from service.report.provenance import shown, what_was_run
 from service.report.ranking import ranking_section, score_name
 from service.report.residuals import FitResiduals, full_fit_residuals
+from service.report.selection import charted_candidates
 
 
 def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
@@ -30,7 +31,9 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
     unit). ``series_values`` maps a series version's fingerprint to its :class:`Series`;
     with it the forecast chart shows the full recent history and, unless
     ``refit_residuals`` is false, the residual charts get their time and QQ panels (each
-    candidate is refitted to the series once, which takes a moment for ARIMA models).
+    charted candidate is refitted to the series once, which takes a moment for ARIMA
+    models). Per-candidate charts are drawn for the candidates
+    :func:`~service.report.selection.charted_candidates` names; tables cover all.
     """
     values = dict(series_values or {})
     for fingerprint, series in values.items():
@@ -63,15 +66,17 @@ def _series_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
                          f"{s['last_period']}, frequency {s['frequency']}, season length "
                          f"{s['season_length']}; fingerprint ",
                     element("span", s["fingerprint"], cls="mono"), ".")
+    charted = charted_candidates(sr)
     return Html('<section class="series">\n' + join([
         heading, about,
         ranking_section(sr, plan, charts, unit=unit, series=series),
-        calibration_section(sr, charts),
-        diagnostics_section(sr, charts, residuals=residuals, unit=unit),
+        calibration_section(sr, charts, charted),
+        diagnostics_section(sr, charts, charted, residuals=residuals, unit=unit),
         problems_section(sr),
     ]) + "\n</section>")
 
 
 def _residuals(sr: SeriesResult, series: Series) -> dict[str, FitResiduals | None]:
+    charted = charted_candidates(sr)
     return {c.candidate_id: full_fit_residuals(series, c.spec) for c in sr.candidates
-            if has_residual_chart(sr, c.candidate_id)}
+            if c.candidate_id in charted and has_residual_chart(sr, c.candidate_id)}

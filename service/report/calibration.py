@@ -1,5 +1,5 @@
 """Calibration verdicts of one series: per candidate and level, the h = 1 tests and zone, the
-pooled coverage, and a calibration chart per candidate."""
+pooled coverage, and a calibration chart per charted candidate."""
 
 from __future__ import annotations
 
@@ -8,10 +8,13 @@ from service.charts import calibration_chart
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join, table
 from service.report.numbers import MISSING, p_value, share
+from service.report.selection import charted_note
 
 
-def calibration_section(sr: SeriesResult, charts: ChartEmbedder) -> Html:
-    """Verdict table and one chart per candidate with calibration evidence."""
+def calibration_section(sr: SeriesResult, charts: ChartEmbedder,
+                        charted: frozenset[str]) -> Html:
+    """Verdict table for every candidate; a chart for each ``charted`` one with calibration
+    evidence."""
     evidence = sr.evidence.get("calibration", {})
     rows = []
     for c in sr.candidates:
@@ -30,8 +33,10 @@ def calibration_section(sr: SeriesResult, charts: ChartEmbedder) -> Html:
                "Christoffersen p (cond. coverage)", "zone", "pooled coverage"], rows,
               numeric=(1, 2, 3, 4, 5, 7)),
     ]
+    if charted_note(sr):
+        parts.append(element("p", charted_note(sr), cls="note"))
     for c in sr.candidates:
-        if evidence.get(c.candidate_id):
+        if c.candidate_id in charted and evidence.get(c.candidate_id):
             parts.append(charts.embed(
                 calibration_chart(sr, c.candidate_id),
                 f"{c.label}: share of actuals inside each interval by horizon (line) against "

@@ -12,20 +12,22 @@ from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join, table
 from service.report.numbers import MISSING, fixed, general, p_value, share, verdict
 from service.report.residuals import FitResiduals, residual_scale
+from service.report.selection import charted_note
 
 ALPHA = 0.05
 
 
-def diagnostics_section(sr: SeriesResult, charts: ChartEmbedder, *,
+def diagnostics_section(sr: SeriesResult, charts: ChartEmbedder, charted: frozenset[str], *,
                         residuals: Mapping[str, FitResiduals | None],
                         unit: str | None) -> Html:
-    """One block per candidate."""
-    blocks = [_candidate(sr, c, charts, residuals.get(c.candidate_id), unit)
-              for c in sr.candidates]
+    """One block per candidate, with residual and parameter charts for ``charted`` ones."""
+    blocks = [_candidate(sr, c, charts if c.candidate_id in charted else None,
+                         residuals.get(c.candidate_id), unit) for c in sr.candidates]
+    intro = ("The fit to the whole series describes the model as it would be used today; it "
+             "includes the periods the backtest forecast, so it is not an out-of-sample check. "
+             + charted_note(sr))
     return join([element("h3", "Diagnostics per candidate"),
-                 element("p", "The fit to the whole series describes the model as it would "
-                              "be used today; it includes the periods the backtest forecast, "
-                              "so it is not an out-of-sample check.", cls="note"), *blocks])
+                 element("p", intro.strip(), cls="note"), *blocks])
 
 
 def has_parameter_paths(sr: SeriesResult, c: CandidateInfo) -> bool:
@@ -43,7 +45,7 @@ def has_residual_chart(sr: SeriesResult, candidate_id: str) -> bool:
     return bool(((diagnostics.get("residuals") or {}).get("acf") or {}).get("acf"))
 
 
-def _candidate(sr: SeriesResult, c: CandidateInfo, charts: ChartEmbedder,
+def _candidate(sr: SeriesResult, c: CandidateInfo, charts: ChartEmbedder | None,
                fitted: FitResiduals | None, unit: str | None) -> Html:
     diagnostics = sr.evidence.get("diagnostics", {}).get(c.candidate_id) or {}
     parts: list[object] = [element("h4", c.label, " ", element("span", c.candidate_id,
@@ -60,6 +62,8 @@ def _candidate(sr: SeriesResult, c: CandidateInfo, charts: ChartEmbedder,
     for section, reason in (diagnostics.get("unavailable") or {}).items():
         parts.append(element("p", f"Not available, {section.replace('_', ' ')}: {reason}",
                              cls="note"))
+    if charts is None:
+        return Html(f'<div class="candidate">\n{join(parts)}\n</div>')
     if has_residual_chart(sr, c.candidate_id):
         parts.append(_residual_chart(sr, c, charts, fitted, unit))
     if has_parameter_paths(sr, c):

@@ -40,3 +40,8 @@ def table(header: Sequence[object] | None, rows: Iterable[Sequence[object]], *,
     attributes = f' class="{esc(cls)}"' if cls else ""
     head = "" if header is None else f"<thead>{row(header, 'th')}</thead>\n"
     return Html(f"<table{attributes}>\n{head}<tbody>\n{body}\n</tbody>\n</table>")
+
+
+def link(href: str, *children: object) -> Html:
+    """``<a href="href">children</a>``, the address escaped like the text."""
+    return Html(f'<a href="{esc(href)}">{"".join(esc(c) for c in children)}</a>')

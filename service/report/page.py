@@ -19,6 +19,7 @@ h2 { font-size: 13.5pt; margin: 9mm 0 2mm; padding-bottom: 1mm;
      border-bottom: 2px solid var(--accent); }
 h3 { font-size: 11pt; margin: 6mm 0 1.5mm; }
 h4 { font-size: 10pt; margin: 4mm 0 1mm; }
+h1, h2, h3, h4 { break-after: avoid; page-break-after: avoid; }
 p { margin: 1mm 0 2mm; }
 .lede { color: var(--muted); margin-bottom: 4mm; }
 .mono { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 8.5pt;
@@ -29,6 +30,7 @@ th, td { border-bottom: 1px solid var(--rule); padding: 0.8mm 1.6mm; text-align:
          vertical-align: top; }
 th { background: var(--tint); font-weight: 600; }
 td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+th.num { white-space: normal; }
 tr { break-inside: avoid; }
 table.facts td:first-child { width: 32%; font-weight: 600; }
 table.ranking td:nth-child(2) { min-width: 42mm; }
@@ -43,7 +45,18 @@ figure.chart { margin: 2mm 0 4mm; break-inside: avoid; }
 figure.chart svg { display: block; width: 100%; height: auto; max-width: 170mm; }
 figcaption { color: var(--muted); font-size: 8.5pt; margin-top: 1mm; }
 section.series { break-before: page; }
+a { color: var(--accent); }
+nav.site { display: flex; align-items: center; gap: 4mm; font-size: 9pt; margin-bottom: 5mm;
+           padding-bottom: 2mm; border-bottom: 1px solid var(--rule); }
+nav.site .who { margin-left: auto; color: var(--muted); }
+nav.site form { margin: 0; }
+button { font: inherit; padding: 1mm 3mm; border: 1px solid var(--accent); border-radius: 1mm;
+         background: #fff; color: var(--accent); cursor: pointer; }
+form.sign-in { display: flex; flex-direction: column; gap: 2mm; max-width: 110mm; margin: 4mm 0; }
+form.sign-in input { font: inherit; padding: 1.5mm; border: 1px solid var(--muted); }
+form.sign-in button { align-self: flex-start; background: var(--accent); color: #fff; }
 @media print {
+  nav.site { display: none; }
   body { padding: 0; max-width: none; }
   * { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
   a { color: inherit; text-decoration: none; }

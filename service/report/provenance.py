@@ -20,6 +20,7 @@ _PLAN_WORDING = {
     "window": "estimation window",
     "refit": "re-estimate every (origins)",
     "warm_start": "warm start",
+    "assessment": "model assessment (full, or lean: no standard errors or full-series fit)",
     "levels": "interval levels (%)",
     "seed": "seed",
     "benchmark": "benchmark",

@@ -7,7 +7,7 @@ from typing import Annotated, Any, Literal
 from fastapi import APIRouter, Depends, Query, Request, Response
 
 from service.access import Caller, require
-from service.app_state import Sessions
+from service.app_state import Rankings, Sessions
 from service.errors import FieldError, InvalidInputError
 from service.problems import problem_responses
 from service.routes.params import PooledByDefault, TagFilter, horizon_or_pooled
@@ -22,6 +22,7 @@ from service.tables import (
     link_headers,
     next_link,
 )
+from storage.queries import succeeded_run_count
 from storage.rankings import RANKABLE, ranking_table
 
 router = APIRouter(prefix="/v1", tags=["rankings"])
@@ -34,7 +35,7 @@ LEVEL_METRICS = ("winkler", "msis")
             responses={**csv_openapi(columns(RankingRow)),
                        **problem_responses(401, 403, 406, 422, 500, 503)})
 def rankings(request: Request, response: Response, caller: Reader, sessions: Sessions,
-             tag: TagFilter, output: FormatParam = None,
+             cache: Rankings, tag: TagFilter, output: FormatParam = None,
              metric: Metric = "mase", horizon: PooledByDefault = "pooled",
              level: Annotated[int | None, Query(ge=1, le=99,
                                                 description="for winkler and msis")] = None,
@@ -45,12 +46,13 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
     candidate, ordered by series key and rank: load it as it is."""
     chosen = chosen_format(request, output)
     _check_level(metric, level)
+    pooled = horizon_or_pooled(horizon)
+    key = (metric, pooled, level, prefix, tuple(sorted(tag.items())) if tag else ())
     with sessions.begin() as session:
-        rows = ranking_table(session, metric=metric, horizon=horizon_or_pooled(horizon),
-                             level=level, prefix=prefix, tags=tag, limit=limit + 1,
-                             offset=offset)
-    link = next_link(request, offset, limit, len(rows) > limit)
-    rows = rows[:limit]
+        table = cache.table(key, succeeded_run_count(session), lambda: ranking_table(
+            session, metric=metric, horizon=pooled, level=level, prefix=prefix, tags=tag))
+    link = next_link(request, offset, limit, len(table) > offset + limit)
+    rows = table[offset:offset + limit]
     if chosen == "csv":
         return csv_response(rows, columns(RankingRow), link)
     link_headers(response, link)

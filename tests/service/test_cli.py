@@ -93,3 +93,10 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     assert "Tallow & Finch" in done.stdout
     assert "(benchmark)" in done.stdout
     assert (tmp_path / "demo" / "ranking.csv").exists()
+    report = (tmp_path / "demo" / "report.html").resolve()
+    assert f"run report (HTML, prints on A4): {report}" in done.stdout
+    assert report.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    # the demo's continuation shifts one series on purpose; its monitoring must notice
+    flagged = [line.split()[0] for line in done.stdout.splitlines() if "RAISED:" in line
+               and line.split()[0].count("/") == 1]
+    assert flagged == ["costs/cold-storage-energy"]

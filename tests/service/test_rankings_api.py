@@ -130,3 +130,19 @@ def test_a_score_that_cannot_rank_is_refused(api: Api, query):
 
     assert response.status_code == 422
     assert response.json()["errors"]
+
+
+def test_a_run_that_succeeds_after_a_cached_page_changes_the_ranking(api: Api):
+    api.post_series(monthly_series("east", seed=4))
+    first = api.submit(["east"], candidates=CANDIDATES, plan=PLAN).json()["id"]
+    api.complete(first)
+    before = api.get("reader", "/v1/rankings?limit=2").json()["items"]
+    api.post("submitter", "/v1/series/east/observations",
+             json={"observations": [{"period": "2023-01", "value": 150.0}]})
+    second = api.submit(["east"], candidates=CANDIDATES, plan=PLAN).json()["id"]
+    api.complete(second)
+    after = api.get("reader", "/v1/rankings?limit=2").json()["items"]
+
+    assert {i["run_id"] for i in before} == {first}
+    assert {i["run_id"] for i in after} == {second}
+    assert {i["series_version"] for i in after} == {2}

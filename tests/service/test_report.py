@@ -17,6 +17,7 @@ from backtest.plan import parse_plan
 from service.cli import build_parser
 from service.cli_report import register
 from service.report import full_fit_residuals, load_report_inputs, render_run_report
+from service.report.selection import charted_candidates
 from storage.engine import make_engine, session_factory
 from storage.migrate import upgrade
 from tests.storage.builders import monthly_series, run_and_store
@@ -228,3 +229,34 @@ def test_report_command_says_when_the_run_does_not_exist(tmp_path, capsys):
     assert args.handler(args) == 2
     assert "run 99 does not exist" in capsys.readouterr().err
     assert not (tmp_path / "r.html").exists()
+
+
+def test_per_candidate_charts_are_drawn_for_the_best_three_and_the_benchmark():
+    series = demo_series()[:1]
+    candidates = parse_candidates([{"family": "benchmark", "method": m}
+                                   for m in ("naive", "drift", "mean")] + [{"family": "theta"}])
+    result = run_backtest(series, candidates, parse_plan({"horizon": 3, "max_origins": 4}))
+    sr = result.series[0]
+    charted = charted_candidates(sr)
+    ranked = sorted((r for r in sr.ranking if r.rank is not None), key=lambda r: r.rank)
+
+    report = render_run_report(result, META)
+
+    assert charted == {sr.benchmark_id, *(r.candidate_id for r in ranked[:3])}
+    assert len(sr.candidates) == 5 and len(charted) in (3, 4)
+    for c in sr.candidates:
+        drawn = f"interval calibration of {c.label}" in report
+        assert drawn == (c.candidate_id in charted), c.label
+    assert "drawn for the 3 best-ranked candidates and the benchmark" in report
+
+
+def test_a_lean_run_reports_without_diagnostics():
+    series = demo_series()[:1]
+    plan = parse_plan({"horizon": 3, "max_origins": 3, "assessment": "lean"})
+    candidates = parse_candidates([DEMO_CANDIDATES[3]])
+    result = run_backtest(series, candidates, plan)
+    html = render_run_report(result, META, {s.fingerprint(): s for s in series})
+
+    assert "model assessment (full, or lean" in html
+    assert result.series[0].evidence["diagnostics"][candidates[0].id] is None
+    assert candidates[0].label(12) in html

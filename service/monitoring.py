@@ -1,0 +1,69 @@
+"""Monitoring a series' candidate: its outcomes so far beside what its backtest promised.
+
+The expectation comes from the latest succeeded run that backtested the candidate on the
+series; the candidate is the series' current champion unless one is named.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from sqlalchemy.orm import Session
+
+from backtest.ledger import (
+    Expectation,
+    LedgerError,
+    MonitoringReport,
+    expectation_from_folds,
+    monitor,
+)
+from service.backtest_lookup import latest_backtest
+from service.errors import FieldError, InvalidInputError
+from storage.champions import current_champion, current_champions
+from storage.outcomes import issued_with_outcomes
+from storage.series_catalog import get_series
+
+
+@dataclass(frozen=True)
+class Monitored:
+    """A monitoring report, with whether its candidate is the series' champion and how
+    many forecasts of it were issued."""
+
+    report: MonitoringReport
+    is_champion: bool
+    forecasts: int
+
+
+def monitor_series(session: Session, series_key: str,
+                   candidate_id: str | None = None) -> Monitored:
+    """The report of ``candidate_id`` (default: the champion) on one series."""
+    get_series(session, series_key)
+    champion = current_champion(session, series_key)
+    if candidate_id is None and champion is None:
+        message = (f"series {series_key!r} has no champion; name the candidate to monitor")
+        raise InvalidInputError(message, errors=[FieldError("query", "/candidate_id",
+                                                            message)])
+    candidate_id = candidate_id or champion.candidate_id  # type: ignore[union-attr]
+    history = issued_with_outcomes(session, series_key, candidate_id)
+    is_champion = champion is not None and champion.candidate_id == candidate_id
+    expectation = _expectation(session, series_key, candidate_id)
+    report = (monitor(history, expectation) if history
+              else MonitoringReport(series_key, candidate_id, (), expectation, ()))
+    return Monitored(report, is_champion, len(history))
+
+
+def _expectation(session: Session, series_key: str, candidate_id: str) -> Expectation | None:
+    backtested = latest_backtest(session, series_key, candidate_id)
+    if backtested is None:
+        return None
+    try:
+        return expectation_from_folds(backtested.result.folds, candidate_id, backtested.run_id)
+    except LedgerError:  # every fold of the candidate failed: nothing was promised
+        return None
+
+
+def monitor_champions(session: Session, prefix: str | None = None) -> list[Monitored]:
+    """The report of every series' champion (whose key starts with ``prefix``), by key."""
+    champions = current_champions(session)
+    return [monitor_series(session, key, champions[key].candidate_id)
+            for key in sorted(champions) if key.startswith(prefix or "")]

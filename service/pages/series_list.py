@@ -1,0 +1,68 @@
+"""The first page a reviewer sees: every series with its latest version, its latest
+successful run, that run's top-ranked candidate and score, and its current champion."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from sqlalchemy.orm import Session
+
+from service.pages.layout import run_href, series_href
+from service.report.html import Html, element, esc, join, link, table
+from service.report.numbers import MISSING, fixed
+from service.report.provenance import shown
+from service.report.ranking import score_name
+from storage.champions import ChampionChoice, current_champions
+from storage.queries import LatestRun, latest_successful_runs
+from storage.queue import run_request
+from storage.result_tables import rank_table
+from storage.series_catalog import SeriesInfo, find_series
+
+HEADER = ["series", "unit", "latest version", "latest successful run", "ranked by",
+          "top candidate", "score", "skill vs benchmark", "champion"]
+
+
+def series_list(session: Session) -> Html:
+    """The table of all series, ordered by key."""
+    latest = {run.series_key: run for run in latest_successful_runs(session)}
+    champions = current_champions(session)
+    plans: dict[int, dict[str, Any]] = {}
+    rows = [_row(session, s, latest.get(s.key), champions.get(s.key), plans)
+            for s in find_series(session)]
+    if not rows:
+        return element("p", "No series is stored yet.")
+    return join([
+        element("p", "Score and skill are those of the top-ranked candidate on the series' "
+                     "latest successful run, by that run's ranking score; skill below 1 beats "
+                     "the benchmark. The champion is the candidate last chosen for issuing "
+                     "forecasts.", cls="note"),
+        table(HEADER, rows, numeric=(6, 7), cls="series-list")])
+
+
+def _row(session: Session, s: SeriesInfo, latest: LatestRun | None,
+         champion: ChampionChoice | None, plans: dict[int, dict[str, Any]]) -> list[object]:
+    cells: list[object] = [link(series_href(s.key), s.key), shown(s.unit),
+                           f"{s.latest.number} ({s.latest.n_obs} obs. to {s.latest.last_period})"]
+    if latest is None:
+        return [*cells, "none yet", MISSING, MISSING, MISSING, MISSING,
+                _champion(champion, {})]
+    ranking = rank_table(session, latest.run_id, series_key=s.key)
+    labels = {r["candidate_id"]: r["candidate"] for r in ranking}
+    top = next((r for r in ranking if r["rank"] == 1), None)
+    if latest.run_id not in plans:
+        plans[latest.run_id] = run_request(session, latest.run_id).plan_body
+    run = Html(link(run_href(latest.run_id), f"run {latest.run_id}") + esc(
+        f" on version {latest.version_number}, {latest.finished_at:%Y-%m-%d %H:%M}"))
+    ranked_by = score_name(plans[latest.run_id])
+    if top is None:
+        return [*cells, run, ranked_by, MISSING, MISSING, MISSING,
+                _champion(champion, labels)]
+    label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
+    return [*cells, run, ranked_by, label, fixed(top["score"]), fixed(top["skill"]),
+            _champion(champion, labels)]
+
+
+def _champion(champion: ChampionChoice | None, labels: dict[str, str]) -> str:
+    if champion is None:
+        return "none chosen"
+    return labels.get(champion.candidate_id, champion.candidate_id)

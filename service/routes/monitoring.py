@@ -1,0 +1,57 @@
+"""Monitoring: a series' realised accuracy beside its backtest's expectation, with flags;
+and the flags of every series' champion as one table."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Depends, Query, Request
+
+from service.access import Caller, require
+from service.app_state import Sessions
+from service.ledger_rows import flag_rows, monitoring_out, realised_rows
+from service.monitoring import monitor_champions, monitor_series
+from service.problems import problem_responses
+from service.schemas.monitoring import FlagPage, FlagRow, MonitoringOut, RealisedRow
+from service.schemas.results import columns
+from service.tables import FormatParam, chosen_format, csv_openapi, csv_response
+
+router = APIRouter(prefix="/v1", tags=["monitoring"])
+Reader = Annotated[Caller, Depends(require("read"))]
+ERRORS = (401, 403, 406, 422, 500, 503)
+
+
+@router.get("/series/{key:path}/monitoring", response_model=MonitoringOut,
+            responses={**csv_openapi(columns(RealisedRow)), **problem_responses(*ERRORS, 404)})
+def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessions,
+                    output: FormatParam = None,
+                    candidate_id: Annotated[str | None, Query(
+                        max_length=17, description="default: the series' champion")] = None
+                    ) -> Any:
+    """Realised accuracy of the candidate's issued forecasts by target period, the
+    backtest's expectation for the same horizons, and the coverage, accuracy and level
+    shift flags. CSV: the realised accuracy, one row per period and level."""
+    chosen = chosen_format(request, output)
+    with sessions.begin() as session:
+        answer = monitoring_out(monitor_series(session, key, candidate_id))
+    if chosen == "csv":
+        return csv_response(realised_rows(answer), columns(RealisedRow), None)
+    return answer
+
+
+@router.get("/monitoring", response_model=FlagPage,
+            responses={**csv_openapi(columns(FlagRow)), **problem_responses(*ERRORS)})
+def list_flags(request: Request, caller: Reader, sessions: Sessions, output: FormatParam = None,
+               prefix: Annotated[str | None, Query(max_length=200)] = None,
+               raised: Annotated[bool | None, Query(
+                   description="true: only raised flags; false: only quiet ones")] = None
+               ) -> Any:
+    """Every monitoring rule's verdict on every series' champion, by series key."""
+    chosen = chosen_format(request, output)
+    with sessions.begin() as session:
+        reports = monitor_champions(session, prefix)
+    rows = [row for m in reports for row in flag_rows(m.report)
+            if raised is None or row["raised"] == raised]
+    if chosen == "csv":
+        return csv_response(rows, columns(FlagRow), None)
+    return FlagPage(items=[FlagRow(**row) for row in rows], next=None)

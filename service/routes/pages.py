@@ -1,0 +1,111 @@
+"""Reviewer pages: sign in and out, the series list, a series, and a run's report.
+
+The pages are HTML rendered here, readable without JavaScript and left out of the API
+document. A browser signs in by posting an API key in a form (never in the URL) and then
+carries a session cookie (:mod:`service.pages.session`); pages without a valid session
+send it back to the sign-in form.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+from urllib.parse import parse_qs
+
+from fastapi import APIRouter, Depends, Request
+from fastapi.responses import HTMLResponse, RedirectResponse
+from starlette.concurrency import run_in_threadpool
+
+from service.access import Caller
+from service.app_state import AppSettings, Sessions
+from service.errors import NotAuthenticatedError
+from service.pages.answers import PageRoute
+from service.pages.layout import HOME, SIGN_IN, reviewer_page, sign_in_page, with_navigation
+from service.pages.ledger_section import ledger_section
+from service.pages.ledger_view import load_ledger
+from service.pages.reviewer import end_session, reviewer, sign_in, start_session
+from service.pages.series_detail import load_series_page, series_detail
+from service.pages.series_list import series_list
+from service.report.html import join
+from service.report.stored import stored_run_report
+from service.routes.params import Id
+from service.routes.reports import report_cache, report_response
+
+router = APIRouter(prefix="/pages", route_class=PageRoute, include_in_schema=False)
+#: Page answers load nothing from elsewhere and run no script; no other site may frame them.
+PAGE_HEADERS = {"Content-Security-Policy": "default-src 'none'; style-src 'unsafe-inline'; "
+                                           "form-action 'self'; frame-ancestors 'none'",
+                "X-Content-Type-Options": "nosniff", "Cache-Control": "no-store",
+                "Referrer-Policy": "no-referrer"}
+
+
+Reviewer = Annotated[Caller, Depends(reviewer)]
+
+
+async def posted_key(request: Request) -> str:
+    """The ``key`` field of a posted form, stripped of surrounding blanks."""
+    fields = parse_qs((await request.body()).decode("utf-8", errors="replace"),
+                      max_num_fields=10)
+    return (fields.get("key") or [""])[0].strip()
+
+
+def _page(html: str, status: int = 200) -> HTMLResponse:
+    return HTMLResponse(html, status_code=status, headers=PAGE_HEADERS)
+
+
+@router.get("/sign-in")
+def sign_in_form() -> HTMLResponse:
+    """The sign-in form."""
+    return _page(sign_in_page())
+
+
+@router.post("/sign-in", response_model=None)
+async def sign_in_with_key(key: Annotated[str, Depends(posted_key)], sessions: Sessions,
+                           settings: AppSettings) -> HTMLResponse | RedirectResponse:
+    """Check the posted key as the API would; on success start a session and go home."""
+    if not key:
+        return _page(sign_in_page("Enter your API key."), 400)
+    try:
+        caller = await run_in_threadpool(sign_in, sessions, key)
+    except NotAuthenticatedError:
+        return _page(sign_in_page("That key is not a valid API key, or it has been revoked."),
+                     401)
+    home = RedirectResponse(HOME, status_code=303)
+    start_session(home, caller, settings)
+    return home
+
+
+@router.post("/sign-out")
+def sign_out() -> RedirectResponse:
+    """End the session."""
+    page = RedirectResponse(SIGN_IN, status_code=303)
+    end_session(page)
+    return page
+
+
+@router.get("/")
+def series_index(caller: Reviewer, sessions: Sessions) -> HTMLResponse:
+    """Every series with its latest run's top candidate, score and champion."""
+    with sessions.begin() as session:
+        body = series_list(session)
+    return _page(reviewer_page("All series", caller, body))
+
+
+@router.get("/series/{key:path}")
+def series_page(key: str, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
+    """A series: versions, runs, the latest ranking with its charts, and its forecast
+    ledger (champion, issued forecasts, outcomes, monitoring)."""
+    with sessions.begin() as session:
+        page = load_series_page(session, key)
+        ledger = load_ledger(session, key)
+    body = join([series_detail(page), ledger_section(ledger)])
+    return _page(reviewer_page(f"Series {key}", caller, body))
+
+
+@router.get("/runs/{run_id}")
+def run_page(run_id: Id, caller: Reviewer, sessions: Sessions,
+             settings: AppSettings) -> HTMLResponse:
+    """A run's report, with the page navigation on top."""
+    report = stored_run_report(sessions, run_id, report_cache(settings))
+    answer = report_response(with_navigation(report, caller))
+    answer.headers.update(PAGE_HEADERS)
+    return answer

@@ -1,0 +1,45 @@
+"""A run's report as one self-contained HTML page, rendered once and then served from the cache."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Depends
+from fastapi.responses import HTMLResponse
+
+from service.access import Caller, require
+from service.app_state import AppSettings, Sessions
+from service.problems import problem_responses
+from service.report.cache import ReportCache, cache_directory
+from service.report.stored import stored_run_report
+from service.routes.params import Id
+from service.settings import Settings
+
+router = APIRouter(prefix="/v1", tags=["reports"])
+Reader = Annotated[Caller, Depends(require("read"))]
+#: The report loads nothing from anywhere: no scripts, styles inline, charts inline SVG.
+REPORT_HEADERS = {"Content-Security-Policy": "default-src 'none'; style-src 'unsafe-inline'",
+                  "X-Content-Type-Options": "nosniff", "Cache-Control": "private, no-cache"}
+
+
+def report_cache(settings: Settings) -> ReportCache:
+    """The report cache the settings name."""
+    return ReportCache(cache_directory(settings.report_cache_dir, settings.database_url))
+
+
+def report_response(html: str) -> HTMLResponse:
+    """A report page with headers that keep it self-contained."""
+    return HTMLResponse(html, headers=REPORT_HEADERS)
+
+
+@router.get("/runs/{run_id}/report", response_class=HTMLResponse,
+            responses={200: {"content": {"text/html": {"schema": {"type": "string"}}},
+                             "description": "the report: one HTML document that prints on A4"},
+                       **problem_responses(401, 403, 404, 409, 422, 500, 503)})
+def run_report(run_id: Id, caller: Reader, sessions: Sessions,
+               settings: AppSettings) -> HTMLResponse:
+    """A finished run's report: what was run, the rankings with skill, significance and
+    confidence sets, calibration, diagnostics, failed folds, warnings and cautions, with
+    every chart inline. The first request renders it (this can take a minute for a large
+    run); later ones are served from the cache. 409 while the run is queued or running."""
+    return report_response(stored_run_report(sessions, run_id, report_cache(settings)))

@@ -1,0 +1,93 @@
+"""Monitoring: a series' realised accuracy beside its backtest's expectation, and flags."""
+
+from __future__ import annotations
+
+from pydantic import BaseModel, Field
+
+from service.schemas.common import Page
+from service.schemas.results import Row
+
+
+class FlagOut(Row):
+    """One monitoring rule's verdict on the realised outcomes."""
+
+    rule: str = Field(description="coverage, accuracy or level_shift")
+    raised: bool
+    level: int | None
+    statistic: float | None
+    p_value: float | None
+    threshold: float | None
+    first_period: str | None = Field(description="where the evidence starts")
+    detail: str
+
+
+class RealisedOut(Row):
+    """Realised accuracy of the outcomes whose target is one period."""
+
+    period: str
+    count: int
+    horizons: list[int] = Field(description="the steps ahead of the outcomes")
+    mase: float | None
+    expected_mase: float | None = Field(description="the backtest MASE at those horizons")
+    smape: float | None
+    coverage: dict[str, float | None]
+    interval_score: dict[str, float | None]
+
+
+class ExpectationOut(Row):
+    """What the backtest led one to expect of the candidate, per horizon and level."""
+
+    candidate_id: str
+    run_id: int | None
+    mase_by_horizon: dict[str, float | None]
+    coverage_by_level: dict[str, float | None]
+
+
+class MonitoringOut(BaseModel):
+    """A series' candidate (its champion by default) under monitoring."""
+
+    series_key: str
+    candidate_id: str
+    is_champion: bool
+    forecasts: int = Field(description="issued forecasts of this candidate on the series")
+    realised: list[RealisedOut]
+    expectation: ExpectationOut | None = Field(
+        description="from the latest succeeded run that backtested the candidate; null if none")
+    flags: list[FlagOut]
+    raised: list[str] = Field(description="the rules whose flag is raised")
+
+
+class FlagRow(Row):
+    """One rule's verdict for one series' champion (the monitoring table)."""
+
+    series_key: str
+    candidate_id: str
+    rule: str
+    raised: bool
+    level: int | None
+    statistic: float | None
+    p_value: float | None
+    threshold: float | None
+    first_period: str | None
+    detail: str
+
+
+class FlagPage(Page):
+    """Every series with a champion, each with its flags, by series key."""
+
+    items: list[FlagRow]
+
+
+class RealisedRow(Row):
+    """One period and level of a series' realised accuracy (the monitoring CSV)."""
+
+    series_key: str
+    candidate_id: str
+    period: str
+    count: int
+    mase: float | None
+    expected_mase: float | None
+    smape: float | None
+    level: int | None
+    coverage: float | None
+    interval_score: float | None
