@@ -1,7 +1,8 @@
 """Monitoring a series' candidate: its outcomes so far beside what its backtest promised.
 
-The expectation comes from the latest succeeded run that backtested the candidate on the
-series; the candidate is the series' current champion unless one is named.
+The expectation comes from the candidate's folds in the latest succeeded run that
+backtested it on the series (read alone, not the whole stored unit); the candidate is the
+series' current champion unless one is named.
 """
 
 from __future__ import annotations
@@ -17,10 +18,11 @@ from backtest.ledger import (
     expectation_from_folds,
     monitor,
 )
-from service.backtest_lookup import latest_backtest
 from service.errors import FieldError, InvalidInputError
 from storage.champions import current_champion, current_champions
 from storage.outcomes import issued_with_outcomes
+from storage.queries import score_history
+from storage.results_store import load_candidate_folds
 from storage.series_catalog import get_series
 
 
@@ -53,11 +55,13 @@ def monitor_series(session: Session, series_key: str,
 
 
 def _expectation(session: Session, series_key: str, candidate_id: str) -> Expectation | None:
-    backtested = latest_backtest(session, series_key, candidate_id)
-    if backtested is None:
+    runs = score_history(session, series_key, candidate_id, metric="mase")
+    if not runs:
         return None
+    latest = runs[-1]
+    folds = load_candidate_folds(session, latest.run_id, latest.series_version_id, candidate_id)
     try:
-        return expectation_from_folds(backtested.result.folds, candidate_id, backtested.run_id)
+        return expectation_from_folds(folds, candidate_id, latest.run_id)
     except LedgerError:  # every fold of the candidate failed: nothing was promised
         return None
 

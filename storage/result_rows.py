@@ -72,7 +72,7 @@ def series_result_of(series_key: str, rows: Mapping[Table, Sequence[Row]],
                       r["added_as_benchmark"])
         for r in sorted(rows[CANDIDATES], key=lambda r: r["position"]))
     return SeriesResult(unit["summary"], candidates, unit["benchmark_id"],
-                        _folds(series_key, rows), _scores(rows[SCORES]),
+                        folds_of(series_key, rows), _scores(rows[SCORES]),
                         _ranking(rows[RANKS]), unit["evidence"])
 
 
@@ -112,7 +112,12 @@ def _rank_row(row: RankRow) -> dict[str, Any]:
             "beats_benchmark": row.beats_benchmark, "calibration_zone": row.calibration_zone}
 
 
-def _folds(series_key: str, rows: Mapping[Table, Sequence[Row]]) -> tuple[FoldResult, ...]:
+FOLD_TABLES = (FOLDS, FORECASTS, BOUNDS, WARNINGS)
+"""The tables :func:`folds_of` reads."""
+
+
+def folds_of(series_key: str, rows: Mapping[Table, Sequence[Row]]) -> tuple[FoldResult, ...]:
+    """The folds in the rows of :data:`FOLD_TABLES`, in stored order."""
     forecasts = _grouped(rows[FORECASTS], "horizon")
     warnings = _grouped(rows[WARNINGS], "position")
     bounds: dict[tuple[str, int], dict[int, list[Row]]] = defaultdict(lambda: defaultdict(list))

@@ -12,13 +12,13 @@ from __future__ import annotations
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from backtest.results import BacktestResult, SeriesResult
+from backtest.results import BacktestResult, FoldResult, SeriesResult
 from storage.audit import record_event
 from storage.bulk import insert_rows
 from storage.catalog import register_candidate
 from storage.contents import UNIT_TABLES, unit_digest, unit_subject
 from storage.errors import ConflictError, ImmutableRecordError, NotFoundError, translates_errors
-from storage.result_rows import series_result_of, unit_rows
+from storage.result_rows import FOLD_TABLES, folds_of, series_result_of, unit_rows
 from storage.schema import (
     FINAL_STATUSES,
     CandidateRecord,
@@ -90,6 +90,21 @@ def load_series_result(session: Session, run_id: int, series_version_id: int) ->
     key = session.scalars(select(SeriesRecord.key).join(SeriesVersion)
                           .where(SeriesVersion.id == series_version_id)).one()
     return series_result_of(key, rows, specs)
+
+
+@translates_errors
+def load_candidate_folds(session: Session, run_id: int, series_version_id: int,
+                         candidate_id: str) -> tuple[FoldResult, ...]:
+    """One candidate's stored folds of one unit, without the rest of the unit (its
+    evidence and the other candidates' rows); empty if the unit has none of it."""
+    keys = {"run_id": run_id, "series_version_id": series_version_id,
+            "candidate_id": candidate_id}
+    rows = {table: list(session.execute(
+                select(table).where(*(table.c[k] == v for k, v in keys.items()))).mappings())
+            for table in FOLD_TABLES}
+    key = session.scalars(select(SeriesRecord.key).join(SeriesVersion)
+                          .where(SeriesVersion.id == series_version_id)).one()
+    return folds_of(key, rows)
 
 
 @translates_errors

@@ -238,6 +238,10 @@ def test_monitoring_sets_outcomes_beside_the_backtest_and_flags_them(backtested:
     assert (body["candidate_id"], body["is_champion"], body["forecasts"]) == (NAIVE, True, 1)
     assert body["expectation"]["run_id"] == 1
     assert set(body["expectation"]["mase_by_horizon"]) == {"1", "2", "3"}
+    stored = backtested.get("reader", "/v1/runs/1/scores", params={
+        "metric": "mase", "candidate_id": NAIVE, "limit": 100}).json()["items"]
+    by_horizon = {str(s["horizon"]): s["value"] for s in stored if s["horizon"] is not None}
+    assert body["expectation"]["mase_by_horizon"] == pytest.approx(by_horizon, rel=1e-12)
     assert [p["period"] for p in body["realised"]] == ["2023-01", "2023-02"]
     naive = forecast["steps"][0]["point"]
     with backtested.sessions.begin() as session:

@@ -17,6 +17,7 @@ from storage.engine import make_engine, session_factory
 from storage.errors import ConflictError, ImmutableRecordError
 from storage.results_store import (
     completed_units,
+    load_candidate_folds,
     load_series_result,
     pending_units,
     write_series_result,
@@ -87,6 +88,19 @@ def test_rare_values_round_trip(session: Session):
     assert all(_same_fold(a, b) for a, b in zip(loaded.folds, written.folds, strict=True))
     assert dataclasses.replace(loaded, folds=()) == dataclasses.replace(written, folds=())
     assert loaded.folds[-1].params["phi"] == 1.5e20
+
+
+def test_one_candidates_folds_read_alone_equal_those_of_the_whole_unit(session: Session):
+    run_id, versions, result = _running_run(session, 1)
+    written = _with_edge_cases(result.series[0])
+    write_series_result(session, run_id, versions[0], written, actor="worker-1")
+    whole = load_series_result(session, run_id, versions[0])
+
+    for candidate in whole.candidates:
+        alone = load_candidate_folds(session, run_id, versions[0], candidate.candidate_id)
+        expected = [f for f in whole.folds if f.candidate_id == candidate.candidate_id]
+        assert alone and all(_same_fold(a, b) for a, b in zip(alone, expected, strict=True))
+    assert load_candidate_folds(session, run_id, versions[0], "c0000000000000000") == ()
 
 
 def test_completed_and_pending_units_follow_the_writes(session: Session):
