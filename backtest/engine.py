@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Generator, Sequence
 from dataclasses import replace
 
 from backtest.candidates import Candidate
@@ -12,7 +12,7 @@ from backtest.errors import CandidateError
 from backtest.evidence import series_evidence
 from backtest.folds import Origin, plan_origins
 from backtest.models.benchmarks import BenchmarkSpec
-from backtest.parallel import run_tasks
+from backtest.parallel import iter_tasks
 from backtest.plan import Plan
 from backtest.ranking import rank_candidates
 from backtest.results import BacktestResult, CandidateInfo, SeriesResult, to_jsonable
@@ -21,6 +21,7 @@ from backtest.series import Series
 from backtest.software import software_versions
 
 Progress = Callable[[int, int], None]
+Units = Generator[tuple[int, SeriesResult], None, None]
 
 
 def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan, *,
@@ -37,35 +38,59 @@ def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan
     on where tasks run or on the order they finish in.
     """
     started = time.perf_counter()
+    results = dict(stream_backtest(series, candidates, plan, n_jobs=n_jobs, progress=progress,
+                                   scheduler=scheduler))
+    elapsed = time.perf_counter() - started
+    total = sum(len(r.folds) for r in results.values())
+    return BacktestResult(plan.canonical(), software_versions(),
+                          tuple(results[i] for i in range(len(series))),
+                          {"seconds": elapsed, "folds": float(total)})
+
+
+def stream_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan, *,
+                    n_jobs: int = 1, progress: Progress | None = None,
+                    scheduler: str | None = None) -> Units:
+    """:func:`run_backtest` one series at a time: yield ``(position in series, result)`` as
+    soon as a series' last task is in, while the pool goes on with the other series' tasks.
+
+    Input errors are raised here, before any computation. Each series is yielded once, in
+    the order its tasks finish; its result equals the one :func:`run_backtest` returns.
+    Closing the iterator early cancels the tasks not yet started.
+    """
     pool, benchmark = _with_benchmark(candidates, plan)
     schedules = [_schedule(s, pool, plan) for s in series]
     tasks = [(s, c, plan, origins) for s, origins in zip(series, schedules) for c in pool]
+    return _series_results(series, pool, benchmark, plan, tasks,
+                           added=benchmark not in candidates, n_jobs=n_jobs,
+                           progress=progress, scheduler=scheduler)
+
+
+def planned_fold_count(series: Sequence[Series], candidates: Sequence[Candidate],
+                       plan: Plan) -> int:
+    """The folds a backtest computes (its benchmark included); raises on bad input."""
+    pool, _ = _with_benchmark(candidates, plan)
+    return sum(len(_schedule(s, pool, plan)) for s in series) * len(pool)
+
+
+def _series_results(series: Sequence[Series], pool: Sequence[Candidate], benchmark: Candidate,
+                    plan: Plan, tasks: Sequence[tuple], *, added: bool, n_jobs: int,
+                    progress: Progress | None, scheduler: str | None) -> Units:
     total = sum(len(t[3]) for t in tasks)
     done, k = 0, len(pool)
     outcomes: dict[int, CandidateOutcome] = {}
-    results: dict[int, SeriesResult] = {}
-
-    def on_done(index: int, outcome: CandidateOutcome) -> None:
-        # A series is scored and assessed as soon as its last task is in, while the workers
-        # go on with the other series' tasks.
-        nonlocal done
+    if progress is not None:
+        progress(0, total)
+    for index, outcome in iter_tasks(evaluate_candidate, tasks, n_jobs=n_jobs,
+                                     scheduler=scheduler):
         done += len(outcome.folds)
         if progress is not None:
             progress(done, total)
         outcomes[index] = outcome
         i = index // k
         if all(j in outcomes for j in range(i * k, (i + 1) * k)):
-            results[i] = _series_result(series[i], pool, benchmark, plan,
-                                        [outcomes.pop(j) for j in range(i * k, (i + 1) * k)],
-                                        added=benchmark not in candidates)
-
-    if progress is not None:
-        progress(0, total)
-    run_tasks(evaluate_candidate, tasks, n_jobs=n_jobs, on_done=on_done, scheduler=scheduler)
-    elapsed = time.perf_counter() - started
-    return BacktestResult(plan.canonical(), software_versions(),
-                          tuple(results[i] for i in range(len(series))),
-                          {"seconds": elapsed, "folds": float(total)})
+            yield i, _series_result(series[i], pool, benchmark, plan,
+                                    [outcomes.pop(j) for j in range(i * k, (i + 1) * k)],
+                                    added=added)
 
 
 def _with_benchmark(candidates: Sequence[Candidate], plan: Plan) -> tuple[list[Candidate],

@@ -7,12 +7,13 @@ backend) when a scheduler address is given; cluster workers are started with
 one thread inside every task (threadpoolctl): with more, the workers' threads compete for
 the cores and a run gets much slower. A task is a whole unit of work (the engine's is one
 series with one candidate), so each worker process imports the code once and receives
-already-validated inputs. Results come back in task order whatever order they finish in.
+already-validated inputs. Results are yielded as tasks finish, while the pool goes on with
+the rest; the caller may work on them (score, store) meanwhile.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from typing import Any, TypeVar
 
 from joblib import Parallel, delayed, parallel_config
@@ -26,37 +27,29 @@ def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int
         return index, fn(*args)
 
 
-def run_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs: int = 1,
-              on_done: Callable[[int, T], None] | None = None,
-              scheduler: str | None = None) -> list[T]:
-    """Call ``fn(*task)`` for every task; ``on_done(index, result)`` as each one finishes.
+def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs: int = 1,
+               scheduler: str | None = None) -> Iterator[tuple[int, T]]:
+    """Call ``fn(*task)`` for every task; yield ``(index, result)`` as each one finishes.
 
     Parameters
     ----------
     fn : a module-level function (it is pickled by reference).
     tasks : argument tuples, one per call.
     n_jobs : local worker processes; 1 runs in this process. Ignored with ``scheduler``.
-    on_done : called with each task's index and result as it finishes.
     scheduler : address of a dask.distributed scheduler, e.g. ``"tcp://10.0.0.5:8786"``;
         the tasks then run on its workers.
+
+    Closing the iterator early cancels the tasks not yet started.
     """
-    results: list[Any] = [None] * len(tasks)
     calls = (delayed(_single_threaded)(fn, i, t) for i, t in enumerate(tasks))
     if scheduler is not None:
-        finished = _on_cluster(scheduler, calls)
-    elif n_jobs == 1:
-        finished = (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
-    else:
-        finished = Parallel(n_jobs=n_jobs, backend="loky",
-                            return_as="generator_unordered")(calls)
-    for index, result in finished:
-        results[index] = result
-        if on_done is not None:
-            on_done(index, result)
-    return results
+        return _on_cluster(scheduler, calls)
+    if n_jobs == 1:
+        return (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
+    return iter(Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered")(calls))
 
 
-def _on_cluster(scheduler: str, calls: Iterable) -> Iterable[tuple[int, Any]]:
+def _on_cluster(scheduler: str, calls: Iterable) -> Iterator[tuple[int, Any]]:
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 

@@ -27,12 +27,12 @@ of this process and its workers.
 
 Part "storage" runs generated monthly series (1,000 by default) x 8 candidates (the four
 benchmarks, ETS(A,A,A), ETS(A,Ad,N), the airline model and ARIMA(1,0,0)(0,1,1) with drift,
-both on logs) x 36 origins x H = 12 at cadence 12 through the engine and writes every
-series' result to a fresh SQLite database (migrations, series versions, the run queued,
-started and finished, one transaction per series), printing wall time, folds per second,
-peak resident memory of the process and its workers, and the time extrapolated to 1,000
-series. Theta is left out of the mix: statsmodels estimates it with two state-space fits
-per origin, and as a closed-form family it re-estimates at all 36.
+both on logs) x 36 origins x H = 12 at cadence 12 end to end in a fresh SQLite store: the
+series versions are saved, one run queued, and the service's job worker claims it,
+computes it and stores each series' results in its own transaction, printing wall time,
+folds per second, peak resident memory of the process and its workers, and the time
+extrapolated to 1,000 series. Theta is left out of the mix: statsmodels estimates it with
+two state-space fits per origin, and as a closed-form family it re-estimates at all 36.
 
     python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
     python bench/engine_bench.py --part storage [--series 100] [--store-assessment lean]
@@ -453,13 +453,16 @@ class PeakMemory:
 
 
 def storage_part(args: argparse.Namespace) -> None:
-    """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence 12, computed
-    by the engine a chunk of series at a time and written series by series to a fresh
-    SQLite database, as a worker stores a run."""
+    """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence 12, queued as
+    one run in a fresh SQLite store and computed by the service's own job worker
+    (``service.worker.Worker``): the pending series go through the pool together and each
+    series' results are stored in their own transaction as soon as they are complete."""
+    from service.settings import Settings
+    from service.worker import Worker
     from storage.engine import make_engine, session_factory
     from storage.migrate import upgrade
-    from storage.results_store import write_series_result
-    from storage.runs import finish_run, queue_run, start_run
+    from storage.runs import queue_run
+    from storage.schema import Run
     from storage.series_store import save_series_version
 
     series = panel(args.series or 1000)
@@ -469,8 +472,9 @@ def storage_part(args: argparse.Namespace) -> None:
     folds = len(series) * len(candidates) * STORE_ORIGINS
     print(f"\nstorage: {len(series)} series x {len(candidates)} candidates (the 4 benchmarks, "
           f"ETS(A,A,A), ETS(A,Ad,N), 2 seasonal ARIMA) x {STORE_ORIGINS} origins x "
-          f"H = {HORIZON}, cadence 12, assessment {args.store_assessment}, n_jobs={args.jobs},"
-          f" chunks of {args.chunk} series, fresh SQLite; load average {_load()}")
+          f"H = {HORIZON}, cadence 12, assessment {args.store_assessment}, one run computed "
+          f"by the job worker with worker_jobs={args.jobs}, fresh SQLite; load average "
+          f"{_load()}")
     _warm_pool(args.jobs)
     with tempfile.TemporaryDirectory() as directory, PeakMemory() as memory:
         url = f"sqlite:///{directory}/bench.db"
@@ -481,29 +485,22 @@ def storage_part(args: argparse.Namespace) -> None:
         with sessions.begin() as session:
             versions = [save_series_version(session, s, actor="bench").version.id
                         for s in series]
-            run = queue_run(session, series_version_ids=versions, candidates=candidates,
-                            plan=plan, actor="bench")
-            start_run(session, run.id, actor="bench")
-        compute, write = 0.0, 0.0
-        for first in range(0, len(series), args.chunk):
-            chunk = series[first:first + args.chunk]
-            tick = time.perf_counter()
-            result = run_backtest(chunk, candidates, plan, n_jobs=args.jobs)
-            compute += time.perf_counter() - tick
-            tick = time.perf_counter()
-            for version, series_result in zip(versions[first:], result.series):
-                with sessions.begin() as session:
-                    write_series_result(session, run.id, version, series_result, actor="bench")
-            write += time.perf_counter() - tick
+            run_id = queue_run(session, series_version_ids=versions, candidates=candidates,
+                               plan=plan, actor="bench").id
+        queued = time.perf_counter()
+        worker = Worker(Settings(database_url=url, worker_jobs=args.jobs), sessions, "bench")
+        if not worker.run_once():
+            raise SystemExit("the worker found no run")
+        computed = time.perf_counter() - queued
         with sessions.begin() as session:
-            finish_run(session, run.id, actor="bench", software=result.software)
+            status = session.get(Run, run_id).status
         wall, cpu = Clock.now().since(started)
         size = Path(directory, "bench.db").stat().st_size / 2**20
         engine.dispose()
     scale = 1000 / len(series)
-    print(f"  wall {wall:.1f} s (engine {compute:.1f} s, storage {write:.1f} s; CPU estimate "
-          f"for an idle machine {cpu:.1f} s), {folds / wall:.1f} folds/s, {folds:,} folds, "
-          f"database {size:.0f} MiB; load average {_load()}")
+    print(f"  run {status}: wall {wall:.1f} s (of which the worker's run {computed:.1f} s; CPU "
+          f"estimate for an idle machine {cpu:.1f} s), {folds / wall:.1f} folds/s, {folds:,} "
+          f"folds, database {size:.0f} MiB; load average {_load()}")
     print(f"  peak resident memory, this process and its workers together: "
           f"{memory.peak / 2**20:.0f} MiB")
     print(f"  extrapolated to 1,000 series (linear in series): wall {wall * scale / 60:.1f} "
@@ -526,8 +523,6 @@ def main() -> None:
                         help="plan assessments to time the engine with, comma-separated")
     parser.add_argument("--store-assessment", choices=["full", "lean"], default="full",
                         help="plan assessment of part storage")
-    parser.add_argument("--chunk", type=int, default=50,
-                        help="series per engine call in part storage")
     args = parser.parse_args()
     print(f"{os.cpu_count()} CPUs; numpy {np.__version__}, statsmodels {sm_version}; "
           "one BLAS thread in every process")

@@ -2,24 +2,22 @@
 
 A run that is queued will be computed, so every input error the engine would raise must be
 found here: candidates and plan are parsed, the series selection resolved to stored
-versions, and the plan laid over each series exactly as the engine will (benchmark added,
-candidate checks, origins). The result counts the folds, which is what the
+versions, and the plan laid over each series by the engine's own preparation
+(:func:`backtest.engine.planned_fold_count`: benchmark added, candidate checks, origins),
+before any computation. The result counts the folds, which is what the
 ``FOLDLINE_MAX_FOLDS`` limit bounds.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass
 
 from sqlalchemy.orm import Session
 
 from backtest.candidates import Candidate, parse_candidate
+from backtest.engine import planned_fold_count
 from backtest.errors import CandidateError, PlanError, SeriesError
-from backtest.folds import plan_origins
-from backtest.models.benchmarks import BenchmarkSpec
 from backtest.plan import Plan, parse_plan
-from backtest.series import Series
 from service.errors import (
     FieldError,
     InvalidCandidateError,
@@ -77,7 +75,7 @@ def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRu
     versions = selected_versions(session, body.series)
     series = [load_series(session, v.id) for v in versions]
     try:
-        folds = planned_folds(series, candidates, plan)
+        folds = planned_fold_count(series, candidates, plan)
     except CandidateError as exc:
         raise _invalid(InvalidCandidateError, str(exc), "/candidates") from None
     except (PlanError, SeriesError) as exc:
@@ -110,28 +108,6 @@ def selected_versions(session: Session, selection: SeriesSelection) -> list[Vers
             raise _invalid(InvalidSelectionError, f"series {key!r} does not exist",
                            f"/series/keys/{index}") from None
     return versions
-
-
-def planned_folds(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan) -> int:
-    """The folds ``run_backtest`` will compute; raise what it would raise on bad input.
-
-    This mirrors the engine's own preparation (the plan's benchmark joins the candidates,
-    each candidate is checked against each series, origins are laid out); a test keeps the
-    two in agreement.
-    """
-    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
-    pool = [*candidates, *([] if any(c.id == benchmark.id for c in candidates) else [benchmark])]
-    total = 0
-    for one in series:
-        m = one.season_length
-        for candidate in pool:
-            candidate.spec.check(m)
-            if candidate.spec.needs_positive and (one.values <= 0).any():
-                raise CandidateError(f"{candidate.label(m)} needs strictly positive data, but "
-                                     f"series {one.key!r} has values <= 0")
-        origins = plan_origins(one, plan, max(c.spec.min_train(m) for c in pool))
-        total += len(origins) * len(pool)
-    return total
 
 
 def _candidate(spec: dict, index: int) -> Candidate:

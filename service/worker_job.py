@@ -2,8 +2,11 @@
 
 Only the units not yet stored are computed, so a run taken over from a worker that died
 resumes where that worker's last committed unit left it; each series' computation is
-seeded by the plan, so the stored results equal an uninterrupted run's. Between units the
-job looks for a cancel request and for the worker being stopped. How a job ends:
+seeded by the plan, so the stored results equal an uninterrupted run's. The pending series
+go through the pool together and each unit is stored as soon as its series is done, while
+the pool goes on with the others. After each stored unit the job looks for a cancel
+request; the worker being stopped or the lease lost is noticed as each task finishes.
+How a job ends:
 
 - ``succeeded``, ``failed`` (any unexpected error, with a one-line reason) or ``cancelled``;
 - ``released``: the worker is stopping; the lease is given back so another worker resumes
@@ -19,16 +22,15 @@ from __future__ import annotations
 import logging
 import threading
 from collections.abc import Callable, Sequence
+from contextlib import closing
 from typing import Any
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from backtest.candidates import Candidate
-from backtest.engine import Progress, run_backtest
-from backtest.plan import Plan
+from backtest.engine import Progress, planned_fold_count, stream_backtest
+from backtest.series import Series
 from backtest.software import software_versions
 from service.jobs_request import stored_candidates, stored_plan
-from service.run_requests import planned_folds
 from service.settings import Settings
 from service.worker_lease import LeaseKeeper
 from storage.errors import StoreUnavailableError
@@ -88,22 +90,26 @@ class RunJob:
         request = self._transact(run_request, self._lease.run_id)
         candidates = stored_candidates(request.candidate_specs, request.run.candidate_ids)
         plan = stored_plan(request.plan_body)
-        folds = self._transact(_folds_by_unit, request.run.series_version_ids, candidates, plan)
-        done = self._transact(completed_units, self._lease.run_id)
+        series = self._transact(_load_all, request.run.series_version_ids)
+        folds = {version: planned_fold_count([one], candidates, plan)
+                 for version, one in series.items()}
+        done = set(self._transact(completed_units, self._lease.run_id))
         folds_done, folds_total = sum(folds[version] for version in done), sum(folds.values())
         self._transact(self._set_progress, folds_done, folds_total)
-        for version in (v for v in request.run.series_version_ids if v not in done):
-            if self._cancelled(keeper):
-                return "cancelled"
-            series = self._transact(load_series, version)
-            result = run_backtest([series], candidates, plan, n_jobs=self._settings.worker_jobs,
-                                  scheduler=self._settings.dask_scheduler,
-                                  progress=self._progress(keeper, folds_done))
-            folds_done += folds[version]
-            self._transact(write_unit, self._lease, version, result.series[0],
-                           folds_done=folds_done)
         if self._cancelled(keeper):
             return "cancelled"
+        pending = [v for v in request.run.series_version_ids if v not in done]
+        units = stream_backtest([series[v] for v in pending], candidates, plan,
+                                n_jobs=self._settings.worker_jobs,
+                                scheduler=self._settings.dask_scheduler,
+                                progress=self._progress(keeper, folds_done))
+        with closing(units):
+            for position, result in units:
+                folds_done += folds[pending[position]]
+                self._transact(write_unit, self._lease, pending[position], result,
+                               folds_done=folds_done)
+                if self._cancelled(keeper):
+                    return "cancelled"
         self._end(finish_run, software=software_versions(), timing=_timing(request, folds_total))
         return "succeeded"
 
@@ -157,11 +163,8 @@ class RunJob:
             return step(session, *args, **values)
 
 
-def _folds_by_unit(session: Session, versions: Sequence[int], candidates: Sequence[Candidate],
-                   plan: Plan) -> dict[int, int]:
-    """The folds each series version of the run adds to its progress, in request order."""
-    return {version: planned_folds([load_series(session, version)], candidates, plan)
-            for version in versions}
+def _load_all(session: Session, versions: Sequence[int]) -> dict[int, Series]:
+    return {version: load_series(session, version) for version in versions}
 
 
 def _timing(request: RunRequest, folds: int) -> dict[str, float]:

@@ -1,4 +1,4 @@
-"""The engine end to end: parallel equality, refit semantics, failures, progress."""
+"""The engine end to end: parallel equality, streaming, refit semantics, failures, progress."""
 
 import json
 from dataclasses import dataclass
@@ -10,7 +10,7 @@ from statsmodels.tsa.arima.model import ARIMA
 
 from backtest.candidates import Candidate, parse_candidates
 from backtest.demo import demo_series
-from backtest.engine import run_backtest
+from backtest.engine import planned_fold_count, run_backtest, stream_backtest
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.plan import parse_plan
 from backtest.series import make_series
@@ -42,6 +42,43 @@ def test_same_results_for_one_and_two_jobs(two_series):
     parallel = run_backtest(two_series, candidates, plan, n_jobs=2)
     assert _strip_timing(serial) == _strip_timing(parallel)
     json.dumps(serial.to_dict(), allow_nan=False)
+
+
+@pytest.mark.parametrize("n_jobs", [1, 2])
+def test_streamed_series_equal_the_whole_run_and_come_before_it_ends(two_series, n_jobs):
+    plan = parse_plan({"horizon": 3, "max_origins": 4, "refit": 2})
+    candidates = parse_candidates(CANDIDATES[::3])
+    whole = run_backtest(two_series, candidates, plan, n_jobs=1)
+    seen: list[tuple[int, int]] = []
+    streamed, done_at_yield = {}, []
+    for position, result in stream_backtest(two_series, candidates, plan, n_jobs=n_jobs,
+                                            progress=lambda d, t: seen.append((d, t))):
+        done_at_yield.append(seen[-1][0])
+        streamed[position] = result
+    assert sorted(streamed) == [0, 1]
+    for position, result in streamed.items():
+        assert result == whole.series[position]
+    total = planned_fold_count(two_series, candidates, plan)
+    assert seen[-1] == (total, total)
+    # The first series is handed over while the second one's folds are still to come.
+    assert done_at_yield[0] < total
+
+
+def test_closing_the_stream_early_stops_the_run(two_series):
+    plan = parse_plan({"horizon": 2, "max_origins": 3})
+    seen: list[int] = []
+    units = stream_backtest(two_series, parse_candidates(CANDIDATES[-1:]), plan,
+                            progress=lambda done, total: seen.append(done))
+    position, _ = next(units)
+    units.close()
+    assert position == 0
+    assert max(seen) == 6 < 12  # two candidates x 3 origins of the first series only
+
+
+def test_bad_input_is_raised_before_the_stream_is_read(two_series):
+    too_long = parse_plan({"horizon": 2, "first_origin": {"train_size": 10_000}})
+    with pytest.raises(Exception, match="train"):
+        stream_backtest(two_series, parse_candidates(CANDIDATES[-1:]), too_long)
 
 
 def test_benchmark_is_added_and_ranked(two_series):

@@ -6,9 +6,8 @@ import pytest
 from sqlalchemy import func, select
 
 from backtest.candidates import parse_candidates
-from backtest.engine import run_backtest
+from backtest.engine import planned_fold_count, run_backtest
 from backtest.plan import parse_plan
-from service.run_requests import planned_folds
 from storage.queue import claim_run
 from storage.schema import AuditEvent, Run, SeriesResultRecord
 from tests.service.conftest import Api
@@ -123,7 +122,7 @@ def test_the_fold_count_checked_at_submission_is_the_engines(two_series: Api):
 
     run_backtest(series, candidates, plan, progress=lambda done, total: totals.append(total))
 
-    assert planned_folds(series, candidates, plan) == totals[0]
+    assert planned_fold_count(series, candidates, plan) == totals[0]
 
 
 def test_cancelling_a_queued_run_ends_it_at_once(two_series: Api):
