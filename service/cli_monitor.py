@@ -35,7 +35,7 @@ def monitor_command(args: argparse.Namespace) -> int:
             if args.series is not None:
                 found = [monitor_series(session, args.series, args.candidate)]
             else:
-                found = monitor_champions(session)
+                found, _ = monitor_champions(session)
         outs = [monitoring_out(m) for m in found]
         if args.json:
             return "\n".join(out.model_dump_json() for out in outs)

@@ -66,8 +66,14 @@ def _expectation(session: Session, series_key: str, candidate_id: str) -> Expect
         return None
 
 
-def monitor_champions(session: Session, prefix: str | None = None) -> list[Monitored]:
-    """The report of every series' champion (whose key starts with ``prefix``), by key."""
+def monitor_champions(session: Session, prefix: str | None = None, *, offset: int = 0,
+                      limit: int | None = None) -> tuple[list[Monitored], bool]:
+    """The report of every series' champion (whose key starts with ``prefix``), by key:
+    ``limit`` series from the ``offset``-th on (all by default), and whether more follow.
+    Only the series of the page are monitored, so a page costs the same however many
+    series the store holds."""
     champions = current_champions(session)
-    return [monitor_series(session, key, champions[key].candidate_id)
-            for key in sorted(champions) if key.startswith(prefix or "")]
+    keys = [key for key in sorted(champions) if key.startswith(prefix or "")][offset:]
+    page = keys if limit is None else keys[:limit]
+    return ([monitor_series(session, key, champions[key].candidate_id) for key in page],
+            len(page) < len(keys))

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, Query, Request
+from fastapi import APIRouter, Depends, Query, Request, Response
 
 from service.access import Caller, require
 from service.app_state import Sessions
@@ -14,11 +14,20 @@ from service.monitoring import monitor_champions, monitor_series
 from service.problems import problem_responses
 from service.schemas.monitoring import FlagPage, FlagRow, MonitoringOut, RealisedRow
 from service.schemas.results import columns
-from service.tables import FormatParam, chosen_format, csv_openapi, csv_response
+from service.tables import (
+    FormatParam,
+    Offset,
+    chosen_format,
+    csv_openapi,
+    csv_response,
+    link_headers,
+    next_link,
+)
 
 router = APIRouter(prefix="/v1", tags=["monitoring"])
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 406, 422, 500, 503)
+MAX_SERIES = 1000
 
 
 @router.get("/series/{key:path}/monitoring", response_model=MonitoringOut,
@@ -41,17 +50,23 @@ def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessio
 
 @router.get("/monitoring", response_model=FlagPage,
             responses={**csv_openapi(columns(FlagRow)), **problem_responses(*ERRORS)})
-def list_flags(request: Request, caller: Reader, sessions: Sessions, output: FormatParam = None,
+def list_flags(request: Request, response: Response, caller: Reader, sessions: Sessions,
+               output: FormatParam = None,
                prefix: Annotated[str | None, Query(max_length=200)] = None,
                raised: Annotated[bool | None, Query(
-                   description="true: only raised flags; false: only quiet ones")] = None
-               ) -> Any:
-    """Every monitoring rule's verdict on every series' champion, by series key."""
+                   description="true: only raised flags; false: only quiet ones")] = None,
+               limit: Annotated[int, Query(ge=1, le=MAX_SERIES, description=(
+                   "series per page (each gives one row per rule and level)"))] = 100,
+               offset: Offset = 0) -> Any:
+    """Every monitoring rule's verdict on every series' champion, by series key, a page of
+    ``limit`` series at a time (``next`` links the following page)."""
     chosen = chosen_format(request, output)
     with sessions.begin() as session:
-        reports = monitor_champions(session, prefix)
+        reports, more = monitor_champions(session, prefix, offset=offset, limit=limit)
+    link = next_link(request, offset, limit, more)
     rows = [row for m in reports for row in flag_rows(m.report)
             if raised is None or row["raised"] == raised]
     if chosen == "csv":
-        return csv_response(rows, columns(FlagRow), None)
-    return FlagPage(items=[FlagRow(**row) for row in rows], next=None)
+        return csv_response(rows, columns(FlagRow), link)
+    link_headers(response, link)
+    return FlagPage(items=[FlagRow(**row) for row in rows], next=link)

@@ -263,3 +263,39 @@ def test_monitoring_a_series_without_champion_names_the_missing_candidate(backte
 
     assert answer.status_code == 422
     assert [e["pointer"] for e in answer.json()["errors"]] == ["/candidate_id"]
+
+
+def test_the_flag_table_pages_by_series_and_the_pages_add_up_to_the_whole(any_api: Api):
+    keys = ["costs/a", "costs/b", "sales/c"]
+    for i, key in enumerate(keys):
+        assert any_api.post_series(monthly_series(key, 48, seed=10 + i)).status_code == 201
+    any_api.complete(any_api.submit(keys).json()["id"])
+    for key in keys:
+        chosen = any_api.post("submitter", f"/v1/series/{key}/champion",
+                              json={"candidate_id": NAIVE, "run_id": 1, "reason": "paging"})
+        assert chosen.status_code == 201, chosen.text
+        issued = any_api.post("submitter", "/v1/forecasts", json={"series_key": key,
+                                                                   "horizon": 3})
+        assert issued.status_code == 201, issued.text
+        added = any_api.post("submitter", f"/v1/series/{key}/observations", json={
+            "observations": [{"period": "2023-01", "value": 130.0}]})
+        assert added.status_code in (200, 201), added.text
+    assert score_due_outcomes(any_api.sessions, actor="worker-a") == 3
+
+    whole = any_api.get("reader", "/v1/monitoring").json()
+    pages, url = [], "/v1/monitoring?limit=2"
+    while url:
+        answer = any_api.get("reader", url)
+        pages.append(answer.json())
+        url = answer.json()["next"]
+        assert answer.headers.get("Link") == (None if url is None else f'<{url}>; rel="next"')
+    costs = any_api.get("reader", "/v1/monitoring", params={"prefix": "costs/", "limit": 1})
+    csv_page = any_api.get("reader", "/v1/monitoring", params={"format": "csv", "limit": 1})
+
+    assert whole["next"] is None
+    assert [sorted({r["series_key"] for r in p["items"]}) for p in pages] == [keys[:2], keys[2:]]
+    assert [r for p in pages for r in p["items"]] == whole["items"]
+    assert {r["series_key"] for r in costs.json()["items"]} == {"costs/a"}
+    assert "prefix=costs" in costs.json()["next"] and "offset=1" in costs.json()["next"]
+    assert {r["series_key"] for r in csv.DictReader(io.StringIO(csv_page.text))} == {"costs/a"}
+    assert csv_page.headers["Link"].startswith("</v1/monitoring?")
