@@ -18,6 +18,7 @@ import threading
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.outcome_scoring import score_due_outcomes
+from service.report.prerender import prerender_report
 from service.settings import Settings
 from service.worker_job import RunJob
 from storage.engine import make_engine
@@ -62,6 +63,8 @@ class Worker:
         ending = RunJob(self._sessions, claim.lease, self.settings,
                         stop or threading.Event()).run()
         log.info("run %s: %s", run_id, ending)
+        if ending == "succeeded":
+            prerender_report(self._sessions, run_id, self.settings)
         return True
 
     def run_forever(self, stop: threading.Event) -> None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import numpy as np
@@ -10,6 +11,11 @@ import pytest
 from threadpoolctl import threadpool_limits
 
 SHARED_DATA = Path(__file__).resolve().parents[1].parent / "shared" / "data"
+
+# Workers started by tests (in this process or as servers) render no report ahead unless a
+# test asks for it: rendering costs seconds per run, and on PostgreSQL stores the default
+# report directory is outside the test's temporary directory.
+os.environ.setdefault("FOLDLINE_PRERENDER_REPORT_SERIES", "0")
 
 
 @pytest.fixture(scope="session", autouse=True)

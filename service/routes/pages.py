@@ -26,9 +26,10 @@ from service.pages.reviewer import end_session, reviewer, sign_in, start_session
 from service.pages.series_detail import load_series_page, series_detail
 from service.pages.series_list import series_list
 from service.report.html import join
+from service.report.prerender import settings_report_cache
 from service.report.stored import stored_run_report
 from service.routes.params import Id
-from service.routes.reports import report_cache, report_response
+from service.routes.reports import report_response
 
 router = APIRouter(prefix="/pages", route_class=PageRoute, include_in_schema=False)
 #: Page answers load nothing from elsewhere and run no script; no other site may frame them.
@@ -105,7 +106,7 @@ def series_page(key: str, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
 def run_page(run_id: Id, caller: Reviewer, sessions: Sessions,
              settings: AppSettings) -> HTMLResponse:
     """A run's report, with the page navigation on top."""
-    report = stored_run_report(sessions, run_id, report_cache(settings))
+    report = stored_run_report(sessions, run_id, settings_report_cache(settings))
     answer = report_response(with_navigation(report, caller))
     answer.headers.update(PAGE_HEADERS)
     return answer

@@ -10,21 +10,15 @@ from fastapi.responses import HTMLResponse
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
 from service.problems import problem_responses
-from service.report.cache import ReportCache, cache_directory
+from service.report.prerender import settings_report_cache
 from service.report.stored import stored_run_report
 from service.routes.params import Id
-from service.settings import Settings
 
 router = APIRouter(prefix="/v1", tags=["reports"])
 Reader = Annotated[Caller, Depends(require("read"))]
 #: The report loads nothing from anywhere: no scripts, styles inline, charts inline SVG.
 REPORT_HEADERS = {"Content-Security-Policy": "default-src 'none'; style-src 'unsafe-inline'",
                   "X-Content-Type-Options": "nosniff", "Cache-Control": "private, no-cache"}
-
-
-def report_cache(settings: Settings) -> ReportCache:
-    """The report cache the settings name."""
-    return ReportCache(cache_directory(settings.report_cache_dir, settings.database_url))
 
 
 def report_response(html: str) -> HTMLResponse:
@@ -40,6 +34,8 @@ def run_report(run_id: Id, caller: Reader, sessions: Sessions,
                settings: AppSettings) -> HTMLResponse:
     """A finished run's report: what was run, the rankings with skill, significance and
     confidence sets, calibration, diagnostics, failed folds, warnings and cautions, with
-    every chart inline. The first request renders it (this can take a minute for a large
-    run); later ones are served from the cache. 409 while the run is queued or running."""
-    return report_response(stored_run_report(sessions, run_id, report_cache(settings)))
+    every chart inline. The worker that finished the run renders it ahead when the run has
+    at most ``FOLDLINE_PRERENDER_REPORT_SERIES`` series; otherwise the first request
+    renders it (this can take a minute for a large run). Later ones are served from the
+    cache. 409 while the run is queued or running."""
+    return report_response(stored_run_report(sessions, run_id, settings_report_cache(settings)))

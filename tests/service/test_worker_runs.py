@@ -13,6 +13,9 @@ from backtest.engine import run_backtest
 from backtest.plan import parse_plan
 from backtest.series import make_series
 from service.jobs_request import StoredSpecError, stored_candidates, stored_plan
+from service.report.cache import ReportCache, report_key
+from service.report.prerender import prerender_report
+from service.report.stored import stored_run_report
 from service.settings import Settings
 from service.worker import Worker
 from storage.contents import run_subject
@@ -92,3 +95,36 @@ def test_a_candidate_spec_that_parses_to_another_id_is_refused():
     assert stored_candidates([naive.canonical], [naive.id]) == (naive,)
     with pytest.raises(StoredSpecError, match=naive.id):
         stored_candidates([drift.canonical], [naive.id])
+
+
+def test_a_succeeded_run_s_report_is_rendered_ahead_into_the_cache(store, tmp_path: Path):
+    url, sessions = store
+    run_id = queue(sessions, some_series(2))
+    settings = Settings(database_url=url, worker_jobs=1, lease_seconds=30,
+                        report_cache_dir=str(tmp_path / "reports"), prerender_report_series=2)
+
+    assert Worker(settings, sessions, worker_id="worker-here").run_once()
+
+    with sessions.begin() as session:
+        key = report_key(get_run(session, run_id))
+    cache = ReportCache(tmp_path / "reports")
+    filed = cache.get(key)
+    assert filed is not None and f"run {run_id}" in filed.lower()
+    # A reader is served that file, not a new rendering (marked here to tell them apart).
+    cache.path(key).write_text(filed + "<!-- filed ahead -->", encoding="utf-8")
+    served = stored_run_report(sessions, run_id, cache)
+    assert served.endswith("<!-- filed ahead -->")
+
+
+def test_runs_over_the_series_limit_are_left_to_their_first_reader(store, tmp_path: Path):
+    url, sessions = store
+    too_big = queue(sessions, some_series(3))
+    settings = Settings(database_url=url, worker_jobs=1, lease_seconds=30,
+                        report_cache_dir=str(tmp_path / "reports"), prerender_report_series=2)
+
+    assert Worker(settings, sessions, worker_id="worker-here").run_once()
+
+    with sessions.begin() as session:
+        assert get_run(session, too_big).status == "succeeded"
+    assert not (tmp_path / "reports").exists()
+    assert not prerender_report(sessions, too_big, settings)
