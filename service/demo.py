@@ -135,7 +135,7 @@ def _submit_and_report(client: httpx.Client, out: Path) -> int:
 
 
 def _write_report(client: httpx.Client, run_url: str, out: Path) -> Path:
-    """Fetch the run's report (rendered on this first request, which takes a while)."""
+    """Fetch the run's report (the worker renders it as the run ends; this waits for it)."""
     answer = client.get(f"{run_url}/report", timeout=900)
     answer.raise_for_status()
     path = (out / "report.html").resolve()
