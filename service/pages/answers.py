@@ -47,7 +47,13 @@ class PageRoute(APIRoute):
 
 def failure_page(request: Request, exc: Exception) -> HTMLResponse:
     """The HTML page for an error raised while answering ``request``."""
-    if isinstance(exc, RequestValidationError):  # a path parameter that names no page
+    if isinstance(exc, RequestValidationError):
+        bad = [e for e in exc.errors() if tuple(e.get("loc", ()))[:1] == ("query",)]
+        if bad:  # e.g. a negative offset in a page link edited by hand
+            fields = "; ".join(f"{e['loc'][-1]}: {e['msg']}" for e in bad)
+            return _page(422, "Invalid address", f"The page address has a bad parameter "
+                                                 f"({fields}).")
+        # a path parameter that names no page
         return _page(404, "Not found", f"There is no page at {request.url.path}.")
     kind = kind_of(exc)
     if kind.status >= 500:

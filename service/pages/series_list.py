@@ -1,13 +1,17 @@
 """The first page a reviewer sees: every series with its latest version, its latest
-successful run, that run's top-ranked candidate and score, and its current champion."""
+successful run, that run's top-ranked candidate and score, and its current champion.
+
+The list is paged (:data:`PAGE_SIZE` series a page, by key) and can be narrowed to the keys
+that start with a prefix, so a department's thousand series cost one page's queries."""
 
 from __future__ import annotations
 
 from typing import Any
+from urllib.parse import urlencode
 
 from sqlalchemy.orm import Session
 
-from service.pages.layout import run_href, series_href
+from service.pages.layout import HOME, run_href, series_href
 from service.report.html import Html, element, esc, join, link, table
 from service.report.numbers import MISSING, fixed
 from service.report.provenance import shown
@@ -22,21 +26,59 @@ HEADER = ["series", "unit", "latest version", "latest successful run", "ranked b
           "top candidate", "score", "skill vs benchmark", "champion"]
 
 
-def series_list(session: Session) -> Html:
-    """The table of all series, ordered by key."""
+PAGE_SIZE = 100
+
+
+def series_list(session: Session, *, prefix: str | None = None, offset: int = 0,
+                limit: int = PAGE_SIZE) -> Html:
+    """One page of the series table, ordered by key, with a prefix filter and page links."""
+    found = find_series(session, prefix=prefix, offset=offset, limit=limit + 1)
+    shown_series, more = found[:limit], len(found) > limit
     latest = {run.series_key: run for run in latest_successful_runs(session)}
     champions = current_champions(session)
     plans: dict[int, dict[str, Any]] = {}
     rows = [_row(session, s, latest.get(s.key), champions.get(s.key), plans)
-            for s in find_series(session)]
+            for s in shown_series]
+    parts: list[object] = [_filter_form(prefix)]
     if not rows:
-        return element("p", "No series is stored yet.")
+        empty = "No series is stored yet." if not prefix and not offset else \
+            "No series on this page."
+        return join([*parts, element("p", empty), _pager(prefix, offset, limit, more)])
+    first, last = offset + 1, offset + len(rows)
+    span = f"Series {first}" if first == last else f"Series {first} to {last}"
     return join([
-        element("p", "Score and skill are those of the top-ranked candidate on the series' "
-                     "latest successful run, by that run's ranking score; skill below 1 beats "
-                     "the benchmark. The champion is the candidate last chosen for issuing "
+        *parts,
+        element("p", f"{span}, by key"
+                     + (f", starting with {prefix!r}" if prefix else "") + ". Score and "
+                     "skill are those of the top-ranked candidate on the series' latest "
+                     "successful run, by that run's ranking score; skill below 1 beats the "
+                     "benchmark. The champion is the candidate last chosen for issuing "
                      "forecasts.", cls="note"),
-        table(HEADER, rows, numeric=(6, 7), cls="series-list")])
+        table(HEADER, rows, numeric=(6, 7), cls="series-list"),
+        _pager(prefix, offset, limit, more)])
+
+
+def page_href(prefix: str | None, offset: int) -> str:
+    """The address of the series list page starting at ``offset``."""
+    query = {k: v for k, v in (("prefix", prefix), ("offset", offset)) if v}
+    return HOME + (f"?{urlencode(query)}" if query else "")
+
+
+def _filter_form(prefix: str | None) -> Html:
+    value = esc(prefix or "")
+    return Html(f'<form class="filter" method="get" action="{HOME}">'
+                '<label for="prefix">Series keys starting with</label> '
+                f'<input id="prefix" name="prefix" maxlength="200" value="{value}"> '
+                '<button type="submit">Show</button></form>')
+
+
+def _pager(prefix: str | None, offset: int, limit: int, more: bool) -> Html:
+    links = []
+    if offset > 0:
+        links.append(link(page_href(prefix, max(offset - limit, 0)), "previous page"))
+    if more:
+        links.append(link(page_href(prefix, offset + limit), "next page"))
+    return element("nav", Html(" | ".join(links)), cls="pager") if links else Html("")
 
 
 def _row(session: Session, s: SeriesInfo, latest: LatestRun | None,

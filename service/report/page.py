@@ -55,6 +55,9 @@ button { font: inherit; padding: 1mm 3mm; border: 1px solid var(--accent); borde
 form.sign-in { display: flex; flex-direction: column; gap: 2mm; max-width: 110mm; margin: 4mm 0; }
 form.sign-in input { font: inherit; padding: 1.5mm; border: 1px solid var(--muted); }
 form.sign-in button { align-self: flex-start; background: var(--accent); color: #fff; }
+form.filter { display: flex; align-items: center; gap: 2mm; margin: 2mm 0 4mm; }
+form.filter input { font: inherit; padding: 1mm; border: 1px solid var(--muted); }
+nav.pager { margin: 3mm 0; font-size: 9.5pt; }
 @media print {
   nav.site { display: none; }
   body { padding: 0; max-width: none; }

@@ -11,7 +11,7 @@ from __future__ import annotations
 from typing import Annotated
 from urllib.parse import parse_qs
 
-from fastapi import APIRouter, Depends, Request
+from fastapi import APIRouter, Depends, Query, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
 from starlette.concurrency import run_in_threadpool
 
@@ -30,6 +30,7 @@ from service.report.prerender import settings_report_cache
 from service.report.stored import stored_run_report
 from service.routes.params import Id
 from service.routes.reports import report_response
+from service.schemas.common import MAX_ID
 
 router = APIRouter(prefix="/pages", route_class=PageRoute, include_in_schema=False)
 #: Page answers load nothing from elsewhere and run no script; no other site may frame them.
@@ -84,10 +85,13 @@ def sign_out() -> RedirectResponse:
 
 
 @router.get("/")
-def series_index(caller: Reviewer, sessions: Sessions) -> HTMLResponse:
-    """Every series with its latest run's top candidate, score and champion."""
+def series_index(caller: Reviewer, sessions: Sessions,
+                 prefix: Annotated[str | None, Query(max_length=200)] = None,
+                 offset: Annotated[int, Query(ge=0, le=MAX_ID)] = 0) -> HTMLResponse:
+    """Every series with its latest run's top candidate, score and champion, a page at a
+    time, optionally only the keys starting with ``prefix``."""
     with sessions.begin() as session:
-        body = series_list(session)
+        body = series_list(session, prefix=prefix or None, offset=offset)
     return _page(reviewer_page("All series", caller, body))
 
 

@@ -14,6 +14,7 @@ from pathlib import Path
 import pytest
 
 from service.cli import build_parser
+from service.pages.series_list import series_list
 from service.pages.session import COOKIE, session_value
 from storage.champions import choose_champion
 from storage.keys import revoke_key
@@ -144,6 +145,31 @@ def test_the_series_list_shows_each_series_latest_run_and_top_candidate(site: Ap
     assert "none yet" in south
     assert "&lt;b&gt;kEUR&lt;/b&gt;" in page and UNIT not in page
     assert "fl_" not in page
+
+
+def test_the_series_list_pages_by_key_and_filters_by_prefix(site: Api):
+    cookie = _session(site)
+    keys = re.compile(r'<tr><td><a href="/pages/series/([^"]+)">')
+
+    second = _page(site, "/pages/?offset=1", cookie).text
+    north = _page(site, "/pages/?prefix=shop/n", cookie).text
+    nothing = _page(site, "/pages/?prefix=depot/", cookie).text
+    refused = _page(site, "/pages/?offset=-1", cookie)
+    with site.sessions.begin() as session:
+        first_of_one = series_list(session, limit=1)
+        second_of_one = series_list(session, offset=1, limit=1)
+
+    assert keys.findall(second) == ["shop/south"] and "Series 2, by key" in second
+    assert '<a href="/pages/">previous page</a>' in second and "next page" not in second
+    assert keys.findall(north) == ["shop/north"]
+    assert 'name="prefix" maxlength="200" value="shop/n"' in north
+    assert keys.findall(nothing) == [] and "No series on this page." in nothing
+    assert refused.status_code == 422 and "<h1>422 " in refused.text
+    assert "bad parameter (offset: Input should be greater than or equal to 0)" in refused.text
+    assert keys.findall(first_of_one) == ["shop/north"]
+    assert '<a href="/pages/?offset=1">next page</a>' in first_of_one
+    assert keys.findall(second_of_one) == ["shop/south"]
+    assert "next page" not in second_of_one
 
 
 def test_the_series_page_shows_versions_runs_ranking_and_charts(site: Api):
