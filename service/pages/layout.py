@@ -24,6 +24,11 @@ def run_href(run_id: int) -> str:
     return f"/pages/runs/{run_id}"
 
 
+def forecast_href(forecast_id: int) -> str:
+    """The page of an issued forecast."""
+    return f"/pages/forecasts/{forecast_id}"
+
+
 def navigation(caller: Caller) -> Html:
     """The bar at the top of each page: home, who is signed in, and a sign-out button."""
     return Html(f'<nav class="site">{link(HOME, "Foldline: all series")}'

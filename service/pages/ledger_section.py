@@ -11,7 +11,7 @@ from service.charts.fan import fan_chart
 from service.charts.monitoring import monitoring_chart
 from service.charts.render import DRAWING, render
 from service.monitoring import Monitored
-from service.pages.layout import run_href
+from service.pages.layout import forecast_href, run_href
 from service.pages.ledger_view import IssuedRow, LatestForecast, LedgerView
 from service.report.embed import inline_svg
 from service.report.html import Html, element, esc, join, link, table
@@ -63,7 +63,8 @@ def _issued(view: LedgerView, labels: dict[str, str]) -> Html:
 
 def _issued_row(row: IssuedRow, labels: dict[str, str]) -> list[object]:
     record, f = row.record, row.record.forecast
-    cells: list[object] = [record.forecast_id, _candidate(f.candidate_id, labels), row.version,
+    cells: list[object] = [link(forecast_href(record.forecast_id), record.forecast_id),
+                           _candidate(f.candidate_id, labels), row.version,
                            f.origin, f.horizon, f"{shown(record.issued_at)} by {record.issued_by}"]
     if row.outcomes is None or not row.outcomes.outcomes:
         return [*cells, "none yet", MISSING, MISSING]
@@ -83,7 +84,7 @@ def _monitoring(monitored: Monitored | None, labels: dict[str, str],
     title = element("h3", f"Monitoring of the champion, {label}")
     if not monitored.forecasts:
         return [title, element("p", "No forecast of the champion has been issued yet.")]
-    chart = _embed(monitoring_chart(report, candidate_label=label, frequency=frequency),
+    chart = embed_figure(monitoring_chart(report, candidate_label=label, frequency=frequency),
                    "ledger-monitoring-", "Realised accuracy by target period against the "
                    "backtest, interval coverage to date against the nominal levels; raised "
                    "flags are marked at the period they point at.")
@@ -118,10 +119,10 @@ def _latest(latest: LatestForecast | None, view: LedgerView) -> list[Html]:
     caption = (f"Forecast {latest.record.forecast_id}, issued {shown(latest.record.issued_at)} "
                f"from version {latest.version}: the history it was fitted on, its "
                "point forecast and intervals, and the actuals of the series' latest version.")
-    return [element("h3", "Latest issued forecast"), _embed(fig, "ledger-fan-", caption)]
+    return [element("h3", "Latest issued forecast"), embed_figure(fig, "ledger-fan-", caption)]
 
 
-def _embed(fig: Figure, prefix: str, caption: str) -> Html:
+def embed_figure(fig: Figure, prefix: str, caption: str) -> Html:
     """The figure as inline SVG; the prefix keeps its ids apart from the page's other charts."""
     svg = render(fig, "svg").decode()
     title = fig.get_suptitle().replace("\n", " ")

@@ -85,7 +85,7 @@ def _every_issued(session: Session, series_key: str) -> list[IssuedRecord]:
 
 def _latest(session: Session, row: IssuedRow, series: SeriesInfo) -> LatestForecast:
     now = load_series(session, series.latest.id)
-    return LatestForecast(row.record, row.version, _bands(row.record, now),
+    return LatestForecast(row.record, row.version, forecast_bands(row.record, now),
                           load_series(session, row.record.series_version_id))
 
 
@@ -102,7 +102,7 @@ def _number(session: Session, version_id: int, numbers: dict[int, int]) -> int:
     return numbers[version_id]
 
 
-def _bands(record: IssuedRecord, now: Series) -> ForecastBands:
+def forecast_bands(record: IssuedRecord, now: Series) -> ForecastBands:
     """The forecast with the actuals ``now`` holds for its periods (not interpolated ones)."""
     f = record.forecast
     known = {label: float(value) for label, value in zip(now.labels(), now.values)

@@ -19,6 +19,8 @@ from service.access import Caller
 from service.app_state import AppSettings, Sessions
 from service.errors import NotAuthenticatedError
 from service.pages.answers import PageRoute
+from service.pages.forecast_detail import forecast_detail
+from service.pages.forecast_view import load_forecast_page
 from service.pages.layout import HOME, SIGN_IN, reviewer_page, sign_in_page, with_navigation
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
@@ -104,6 +106,15 @@ def series_page(key: str, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
         ledger = load_ledger(session, key)
     body = join([series_detail(page), ledger_section(ledger)])
     return _page(reviewer_page(f"Series {key}", caller, body))
+
+
+@router.get("/forecasts/{forecast_id}")
+def forecast_page(forecast_id: Id, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
+    """An issued forecast: what it was fitted on, its steps beside the actuals, every outcome
+    set and a fan chart."""
+    with sessions.begin() as session:
+        view = load_forecast_page(session, forecast_id)
+    return _page(reviewer_page(f"Forecast {forecast_id}", caller, forecast_detail(view)))
 
 
 @router.get("/runs/{run_id}")

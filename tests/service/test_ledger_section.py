@@ -17,13 +17,15 @@ from backtest.ledger import realised_mase, score_outcomes
 from backtest.series import Series, make_series
 from service.monitoring import monitor_series
 from service.pages import ledger_view
+from service.pages.forecast_detail import forecast_detail
+from service.pages.forecast_view import load_forecast_page
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
 from service.report.numbers import fixed
 from storage.champions import choose_champion
 from storage.engine import make_engine, session_factory
 from storage.outcomes import record_outcomes
-from storage.series_store import save_series_version
+from storage.series_store import load_series, save_series_version
 from tests.service.conftest import copied_store, serving
 from tests.storage.builders import (
     ACTOR,
@@ -78,7 +80,8 @@ def page(sessions: sessionmaker[Session]) -> str:
 
 
 def _issued_rows(page: str) -> dict[int, str]:
-    rows = re.findall(r'<tr><td class="num">(\d+)</td>(.*?)</tr>', page)
+    rows = re.findall(r'<tr><td class="num"><a href="/pages/forecasts/(\d+)">\1</a></td>(.*?)</tr>',
+                      page)
     return {int(forecast_id): rest for forecast_id, rest in rows}
 
 
@@ -201,7 +204,59 @@ def test_the_series_page_carries_the_section(sqlite_template: Path, tmp_path: Pa
                                      follow_redirects=False)
         cookie = signed_in.headers["set-cookie"].split(";")[0]
         page = site.client.get(f"/pages/series/{KEY}", headers={"Cookie": cookie}).text
+        forecast = site.client.get(f"/pages/forecasts/{issued.forecast_id}",
+                                   headers={"Cookie": cookie})
+        missing = site.client.get("/pages/forecasts/999", headers={"Cookie": cookie})
+    assert forecast.status_code == 200
+    assert f"<h1>Forecast {issued.forecast_id}</h1>" in forecast.text
+    assert issued.forecast.fingerprint in forecast.text
+    assert missing.status_code == 404 and "<h1>404 " in missing.text
     assert "<h2>Forecast ledger</h2>" in page
     assert "<h3>Monitoring of the champion, Drift</h3>" in page
-    assert f'<tr><td class="num">{issued.forecast_id}</td>' in page
+    forecast_url = f"/pages/forecasts/{issued.forecast_id}"
+    assert f'<tr><td class="num"><a href="{forecast_url}">{issued.forecast_id}</a></td>' in page
     assert 'aria-label="sales/north: Drift, forecast from 2021-12"' in page
+
+
+def _cells(page: str, first: str) -> list[str]:
+    row = re.search(rf"<tr><td[^>]*>{re.escape(first)}</td>.*?</tr>", page)[0]
+    return re.findall(r"<td[^>]*>(.*?)</td>", row)
+
+
+def test_a_forecast_page_shows_each_step_beside_its_actual_and_every_outcome_set(sessions):
+    with sessions() as session:  # closed without a commit
+        oldest = load_ledger(session, KEY).issued[-1].record
+        first = forecast_detail(load_forecast_page(session, oldest.forecast_id))
+        corrected = shifted(48).values.copy()
+        corrected[36] += 5.0  # a correction of the first target period
+        version = save_series_version(session, make_series(KEY, "P1M", zip(
+            shifted(48).labels(), corrected)), actor=ACTOR).version
+        rescored = score_outcomes(oldest.forecast, load_series(session, version.id))
+        record_outcomes(session, forecast_id=oldest.forecast_id,
+                        series_version_id=version.id, outcomes=rescored, actor="worker-1")
+        view = load_forecast_page(session, oldest.forecast_id)
+        second = forecast_detail(view)
+    f, actuals = oldest.forecast, shifted(48)
+    assert f.fingerprint in first and f"{f.periods[0]} to {f.periods[-1]}" in first
+    for step, period in enumerate(f.periods):
+        cells = _cells(first, str(step + 1))
+        actual = float(actuals.values[actuals.labels().index(period)])
+        assert cells[1:3] == [period, fixed(f.point[step])]
+        assert cells[3:5] == [fixed(f.lower[80][step]), fixed(f.upper[80][step])]
+        assert cells[7:9] == [fixed(actual), fixed(actual - f.point[step])]
+    earlier, newest = view.sets
+    assert earlier.version < newest.version == version.number
+    assert _cells(second, "1")[7] == fixed(corrected[36])  # steps use the newest set
+    expected = [fixed(realised_mase(s.outcomes.outcomes)) for s in view.sets]
+    assert [_cells(second, str(s.version))[3] for s in view.sets] == expected
+    assert "<svg" in second and 'id="forecast-fan-' in second
+
+
+def test_a_forecast_not_yet_observed_says_so(sessions):
+    with sessions() as session:
+        newest = load_ledger(session, KEY).issued[0].record
+        page = forecast_detail(load_forecast_page(session, newest.forecast_id))
+    assert page.count("not yet observed") == len(newest.forecast.periods)
+    assert "No outcomes yet" in page
+    for name, value in newest.forecast.params.items():
+        assert f"<td>{html.escape(name)}</td><td class=\"num\">{value:.6f}</td>" in page
