@@ -97,13 +97,17 @@ def test_a_candidate_spec_that_parses_to_another_id_is_refused():
         stored_candidates([drift.canonical], [naive.id])
 
 
+def _rendering_ahead(url: str, reports: Path) -> Settings:
+    """Settings of a worker that renders the reports of runs of up to two series ahead."""
+    return Settings(database_url=url, worker_jobs=1, lease_seconds=30,
+                    report_cache_dir=str(reports), prerender_report_series=2)
+
+
 def test_a_succeeded_run_s_report_is_rendered_ahead_into_the_cache(store, tmp_path: Path):
     url, sessions = store
     run_id = queue(sessions, some_series(2))
-    settings = Settings(database_url=url, worker_jobs=1, lease_seconds=30,
-                        report_cache_dir=str(tmp_path / "reports"), prerender_report_series=2)
 
-    assert Worker(settings, sessions, worker_id="worker-here").run_once()
+    assert Worker(_rendering_ahead(url, tmp_path / "reports"), sessions).run_once()
 
     with sessions.begin() as session:
         key = report_key(get_run(session, run_id))
@@ -119,10 +123,9 @@ def test_a_succeeded_run_s_report_is_rendered_ahead_into_the_cache(store, tmp_pa
 def test_runs_over_the_series_limit_are_left_to_their_first_reader(store, tmp_path: Path):
     url, sessions = store
     too_big = queue(sessions, some_series(3))
-    settings = Settings(database_url=url, worker_jobs=1, lease_seconds=30,
-                        report_cache_dir=str(tmp_path / "reports"), prerender_report_series=2)
+    settings = _rendering_ahead(url, tmp_path / "reports")
 
-    assert Worker(settings, sessions, worker_id="worker-here").run_once()
+    assert Worker(settings, sessions).run_once()
 
     with sessions.begin() as session:
         assert get_run(session, too_big).status == "succeeded"
