@@ -108,8 +108,10 @@ def load_candidate_folds(session: Session, run_id: int, series_version_id: int,
 
 
 @translates_errors
-def load_run_result(session: Session, run_id: int) -> BacktestResult:
-    """A run's stored results as a :class:`BacktestResult`, series in request order.
+def load_run_result(session: Session, run_id: int, *, limit: int | None = None
+                    ) -> BacktestResult:
+    """A run's stored results as a :class:`BacktestResult`, series in request order; with
+    ``limit``, only the first ``limit`` stored series.
 
     For a run that has not succeeded, only the units stored so far are included, and
     ``software``/``timing`` are empty until the run is finished.
@@ -119,7 +121,7 @@ def load_run_result(session: Session, run_id: int) -> BacktestResult:
         raise NotFoundError(f"run {run_id} does not exist")
     plan = session.get_one(PlanRecord, run.plan_id).body
     series = tuple(load_series_result(session, run_id, version)
-                   for version in completed_units(session, run_id))
+                   for version in completed_units(session, run_id)[:limit])
     return BacktestResult(plan, run.software or {}, series, run.timing or {})
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 from backtest.results import BacktestResult, SeriesResult
@@ -12,6 +12,7 @@ from service.report.cautions import cautions
 from service.report.diagnostics import diagnostics_section, has_residual_chart
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join
+from service.report.overview import overview_section
 from service.report.page import page
 from service.report.problems import problems_section
 from service.report.provenance import shown, what_was_run
@@ -22,7 +23,8 @@ from service.report.selection import charted_candidates
 
 def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
                       series_values: Mapping[str, Series] | None = None, *,
-                      refit_residuals: bool = True) -> str:
+                      refit_residuals: bool = True,
+                      overview: Sequence[Mapping[str, Any]] | None = None) -> str:
     """The HTML report of one run.
 
     ``run_meta`` describes the run as stored (every key optional): ``run_id``, ``status``,
@@ -34,6 +36,9 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
     charted candidate is refitted to the series once, which takes a moment for ARIMA
     models). Per-candidate charts are drawn for the candidates
     :func:`~service.report.selection.charted_candidates` names; tables cover all.
+    ``overview`` (the stored ranking rows of every series of the run) is given when
+    ``result`` holds only the first of the run's series: the report then opens with a
+    one-line-per-series table of all of them and details only those in ``result``.
     """
     values = dict(series_values or {})
     for fingerprint, series in values.items():
@@ -42,12 +47,18 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
                              f"{fingerprint[:12]}..., but its data has another fingerprint")
     charts = ChartEmbedder()
     run = shown(run_meta.get("run_id"))
-    keys = ", ".join(sr.series["key"] for sr in result.series) or "no series stored"
+    detailed = [sr.series["key"] for sr in result.series]
+    if overview is None:
+        about = f"{len(detailed)} series ({', '.join(detailed) or 'no series stored'})"
+    else:
+        count = len({row["series_key"] for row in overview})
+        about = f"{count} series, the first {len(detailed)} in full"
     body = [element("h1", f"Foldline run report: run {run}"),
-            element("p", f"{len(result.series)} series ({keys}); horizon "
-                         f"{result.plan.get('horizon')}; ranked by {score_name(result.plan)}.",
-                    cls="lede"),
+            element("p", f"{about}; horizon {result.plan.get('horizon')}; ranked by "
+                         f"{score_name(result.plan)}.", cls="lede"),
             cautions(result), what_was_run(result, run_meta)]
+    if overview is not None:
+        body.append(overview_section(overview, result.plan, detailed))
     units = run_meta.get("units", {})
     for sr in result.series:
         series = values.get(sr.series["fingerprint"])

@@ -73,16 +73,20 @@ def _seconds(timing: Mapping[str, float]) -> str | None:
 
 
 def _versions(result: BacktestResult, run_meta: Mapping[str, Any]) -> Html:
-    numbers = {v["fingerprint"]: v for v in run_meta.get("versions", ())}
+    """Every series version of the run (``run_meta["versions"]``, else those in ``result``),
+    with its data's facts where the report holds its results."""
+    facts = {sr.series["fingerprint"]: sr.series for sr in result.series}
+    listed = run_meta.get("versions") or [{"fingerprint": f} for f in facts]
     units = run_meta.get("units", {})
     rows = []
-    for sr in result.series:
-        s = sr.series
-        version = numbers.get(s["fingerprint"], {})
-        rows.append((s["key"], shown(version.get("number")), s["frequency"], s["n_obs"],
-                     f"{s['first_period']} .. {s['last_period']}",
-                     shown(units.get(s["key"])),
-                     element("span", s["fingerprint"], cls="mono")))
+    for version in listed:
+        s = facts.get(version["fingerprint"])
+        key = s["key"] if s else version.get("key")
+        described = ((s["frequency"], s["n_obs"], f"{s['first_period']} .. {s['last_period']}")
+                     if s else (MISSING, MISSING, MISSING))
+        rows.append((shown(key), shown(version.get("number")), *described,
+                     shown(units.get(key)),
+                     element("span", version["fingerprint"], cls="mono")))
     return table(["series", "version", "frequency", "obs.", "periods", "unit",
                   "fingerprint (SHA-256)"], rows, numeric=(1, 3))
 

@@ -36,6 +36,7 @@ def stored_run_report(sessions: sessionmaker[Session], run_id: int, cache: Repor
             return cached
         with sessions.begin() as session:
             inputs = load_report_inputs(session, run_id)
-        html = render_run_report(inputs.result, inputs.run_meta, inputs.series_values)
+        html = render_run_report(inputs.result, inputs.run_meta, inputs.series_values,
+                                 overview=inputs.overview)
         cache.put(key, html)
         return html

@@ -260,3 +260,35 @@ def test_a_lean_run_reports_without_diagnostics():
     assert "model assessment (full, or lean" in html
     assert result.series[0].evidence["diagnostics"][candidates[0].id] is None
     assert candidates[0].label(12) in html
+
+
+def test_a_run_with_more_series_than_are_detailed_opens_with_every_series(tmp_path):
+    url = f"sqlite:///{tmp_path / 'store.db'}"
+    upgrade(url)
+    engine = make_engine(url)
+    keys = ["costs/a", "costs/b", "sales/c"]
+    with session_factory(engine).begin() as session:
+        run_id, _, result = run_and_store(session, [monthly_series(k, seed=i)
+                                                    for i, k in enumerate(keys)])
+    with session_factory(engine).begin() as session:
+        small = load_report_inputs(session, run_id, detailed=2)
+        whole = load_report_inputs(session, run_id)
+    engine.dispose()
+
+    html = render_run_report(small.result, small.run_meta, small.series_values,
+                             overview=small.overview)
+
+    assert [sr.series["key"] for sr in small.result.series] == keys[:2]
+    assert len(small.series_values) == 2 and whole.overview is None
+    assert "3 series, the first 2 in full" in html and "<h2>Every series</h2>" in html
+    table = html[html.index("<h2>Every series</h2>"):html.index('<section class="series">')]
+    for sr in result.series:  # each series' line names its engine-ranked top candidate
+        top = next(r for r in sr.ranking if r.rank == 1)
+        line = re.search(rf"<tr><td>{re.escape(sr.series['key'])}</td>.*?</tr>", table)[0]
+        cells = re.findall(r"<td[^>]*>(.*?)</td>", line)
+        label = top.label + (" (benchmark)" if top.is_benchmark else "")
+        assert cells[2:4] == [label, f"{top.score:.3f}"]
+    assert [h for h in re.findall(r"<h2>Series (.*?)</h2>", html)] == keys[:2]
+    # Provenance still names every version the run used, detailed or not.
+    assert all(v["fingerprint"] in html for v in small.run_meta["versions"])
+    assert len(small.run_meta["versions"]) == 3
