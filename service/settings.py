@@ -42,10 +42,9 @@ class Settings(BaseSettings):
     report_cache_dir: str | None = Field(None, description="directory of rendered run reports "
                                          "(default: `reports` beside the SQLite store, else "
                                          "in the default data directory)")
-    prerender_report_series: int = Field(50, ge=0, description="a worker renders a succeeded "
-                                         "run's report into the report cache when the run has "
-                                         "at most this many series; 0: never (right where "
-                                         "workers do not share the API's report directory)")
+    prerender_reports: bool = Field(True, description="a worker renders each run it finishes "
+                                    "successfully into the report cache; false where workers "
+                                    "do not share the API's report directory")
     session_secret: str | None = Field(None, repr=False, description="key that signs reviewer "
                                        "page sessions; unset: a random one per process, so "
                                        "sessions end when the server restarts")

@@ -15,7 +15,7 @@ SHARED_DATA = Path(__file__).resolve().parents[1].parent / "shared" / "data"
 # Workers started by tests (in this process or as servers) render no report ahead unless a
 # test asks for it: rendering costs seconds per run, and on PostgreSQL stores the default
 # report directory is outside the test's temporary directory.
-os.environ.setdefault("FOLDLINE_PRERENDER_REPORT_SERIES", "0")
+os.environ.setdefault("FOLDLINE_PRERENDER_REPORTS", "false")
 
 
 @pytest.fixture(scope="session", autouse=True)

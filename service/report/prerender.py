@@ -2,10 +2,11 @@
 
 A worker that has just finished a run renders the run's report into the report cache, so
 the first request for it (API, reviewer page or ``foldline report``) is served from the
-file instead of waiting for a render. Only runs of at most
-``FOLDLINE_PRERENDER_REPORT_SERIES`` series are rendered, so a department-wide run does not
-hold the worker from the next run; 0 turns this off, which is right where the workers do
-not share the API servers' ``FOLDLINE_REPORT_CACHE_DIR``.
+file instead of waiting for a render. A report details at most
+:data:`~service.report.inputs.DETAILED_SERIES` series, so this holds the worker from its
+next run for about a minute at most. ``FOLDLINE_PRERENDER_REPORTS=false`` turns it off,
+which is right where the workers do not share the API servers'
+``FOLDLINE_REPORT_CACHE_DIR``.
 """
 
 from __future__ import annotations
@@ -29,13 +30,12 @@ def settings_report_cache(settings: Settings) -> ReportCache:
 
 
 def prerender_report(sessions: sessionmaker[Session], run_id: int, settings: Settings) -> bool:
-    """Render and file the report of succeeded run ``run_id`` if it is small enough; return
-    whether it is now in the cache. A failure to render is logged, never raised: the report
-    is then rendered on its first request as before."""
+    """Render and file the report of succeeded run ``run_id`` unless the settings turn this
+    off; return whether it is now in the cache. A failure to render is logged, never
+    raised: the report is then rendered on its first request as before."""
     with sessions.begin() as session:
         run = get_run(session, run_id)
-    if run.status != "succeeded" or len(run.series_version_ids) > \
-            settings.prerender_report_series:
+    if run.status != "succeeded" or not settings.prerender_reports:
         return False
     started = time.perf_counter()
     try:

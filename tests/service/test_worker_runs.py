@@ -97,17 +97,17 @@ def test_a_candidate_spec_that_parses_to_another_id_is_refused():
         stored_candidates([drift.canonical], [naive.id])
 
 
-def _rendering_ahead(url: str, reports: Path) -> Settings:
-    """Settings of a worker that renders the reports of runs of up to two series ahead."""
+def _reporting(url: str, reports: Path, *, ahead: bool) -> Settings:
+    """Settings of a worker with a report cache in ``reports``."""
     return Settings(database_url=url, worker_jobs=1, lease_seconds=30,
-                    report_cache_dir=str(reports), prerender_report_series=2)
+                    report_cache_dir=str(reports), prerender_reports=ahead)
 
 
 def test_a_succeeded_run_s_report_is_rendered_ahead_into_the_cache(store, tmp_path: Path):
     url, sessions = store
     run_id = queue(sessions, some_series(2))
 
-    assert Worker(_rendering_ahead(url, tmp_path / "reports"), sessions).run_once()
+    assert Worker(_reporting(url, tmp_path / "reports", ahead=True), sessions).run_once()
 
     with sessions.begin() as session:
         key = report_key(get_run(session, run_id))
@@ -120,14 +120,16 @@ def test_a_succeeded_run_s_report_is_rendered_ahead_into_the_cache(store, tmp_pa
     assert served.endswith("<!-- filed ahead -->")
 
 
-def test_runs_over_the_series_limit_are_left_to_their_first_reader(store, tmp_path: Path):
+def test_without_rendering_ahead_or_success_the_report_waits_for_its_first_reader(
+        store, tmp_path: Path):
     url, sessions = store
-    too_big = queue(sessions, some_series(3))
-    settings = _rendering_ahead(url, tmp_path / "reports")
-
-    assert Worker(settings, sessions).run_once()
+    finished = queue(sessions, some_series(2))
+    assert Worker(_reporting(url, tmp_path / "reports", ahead=False), sessions).run_once()
+    waiting = queue(sessions, some_series(2, prefix="later"))
 
     with sessions.begin() as session:
-        assert get_run(session, too_big).status == "succeeded"
+        assert get_run(session, finished).status == "succeeded"
     assert not (tmp_path / "reports").exists()
-    assert not prerender_report(sessions, too_big, settings)
+    assert not prerender_report(sessions, waiting,
+                                _reporting(url, tmp_path / "reports", ahead=True))
+    assert not (tmp_path / "reports").exists()

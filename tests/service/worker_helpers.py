@@ -93,7 +93,7 @@ class WorkerProcess:
         env = {k: v for k, v in os.environ.items() if not k.startswith("FOLDLINE_")}
         env.update({"FOLDLINE_DATABASE_URL": url, "FOLDLINE_LEASE_SECONDS": str(LEASE_SECONDS),
                     "FOLDLINE_POLL_SECONDS": "0.1", "FOLDLINE_WORKER_JOBS": "1",
-                    "FOLDLINE_PRERENDER_REPORT_SERIES": "0"})
+                    "FOLDLINE_PRERENDER_REPORTS": "false"})
         env.update({f"FOLDLINE_{name.upper()}": value for name, value in settings.items()})
         self.log = log
         with log.open("w") as out:
