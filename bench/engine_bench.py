@@ -488,7 +488,9 @@ def storage_part(args: argparse.Namespace) -> None:
             run_id = queue_run(session, series_version_ids=versions, candidates=candidates,
                                plan=plan, actor="bench").id
         queued = time.perf_counter()
-        worker = Worker(Settings(database_url=url, worker_jobs=args.jobs), sessions, "bench")
+        # The report the worker would render afterwards is not part of what is timed.
+        worker = Worker(Settings(database_url=url, worker_jobs=args.jobs,
+                                 prerender_reports=False), sessions, "bench")
         if not worker.run_once():
             raise SystemExit("the worker found no run")
         computed = time.perf_counter() - queued
