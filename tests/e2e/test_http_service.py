@@ -5,10 +5,6 @@ from __future__ import annotations
 
 import csv
 import io
-import os
-import subprocess
-import sys
-import time
 from pathlib import Path
 
 import httpx
@@ -18,8 +14,9 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.demo import _free_port, _scenario_csv, running_server
-from tests.storage.conftest import BACKENDS, migrated_store
+from service.demo import _scenario_csv
+from tests.e2e.serving import bearer_client, served, wait_for_run
+from tests.storage.conftest import BACKENDS
 
 CANDIDATES = [{"family": "benchmark", "method": "naive"},
               {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
@@ -27,39 +24,11 @@ CANDIDATES = [{"family": "benchmark", "method": "naive"},
 PLAN = {"horizon": 3, "max_origins": 4, "refit": 2}
 
 
-def _cli(env: dict[str, str], *args: str) -> str:
-    done = subprocess.run([sys.executable, "-m", "service.cli", *args], env=env,
-                          capture_output=True, text=True, timeout=60)
-    assert done.returncode == 0, done.stderr
-    return done.stdout
-
-
 @pytest.fixture(params=BACKENDS)
 def service(request: pytest.FixtureRequest, tmp_path: Path):
     """A running server on a migrated store, and a bearer token per role used here."""
-    with migrated_store(request.param, tmp_path) as url:
-        env = {**os.environ, "FOLDLINE_DATABASE_URL": url, "FOLDLINE_HOST": "127.0.0.1",
-               "FOLDLINE_PORT": str(_free_port()), "FOLDLINE_WORKER_JOBS": "1",
-               "FOLDLINE_POLL_SECONDS": "0.2", "FOLDLINE_LEASE_SECONDS": "20"}
-        tokens = {role: _cli(env, "keys", "create", "--role", role, "--name", f"e2e-{role}")
-                  .splitlines()[0] for role in ("submitter", "reader")}
-        with running_server(env, tmp_path / "server.log") as base:
-            yield base, tokens
-
-
-def _client(base: str, token: str) -> httpx.Client:
-    return httpx.Client(base_url=base, headers={"Authorization": f"Bearer {token}"},
-                        timeout=30)
-
-
-def _wait(client: httpx.Client, location: str, timeout: float = 180.0) -> dict:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        run = client.get(location).json()
-        if run["status"] in ("succeeded", "failed", "cancelled"):
-            return run
-        time.sleep(0.3)
-    raise AssertionError(f"run at {location} did not finish within {timeout} s")
+    with served(request.param, tmp_path, ("submitter", "reader")) as running:
+        yield running
 
 
 def test_submit_poll_and_pull_the_ranking_as_csv(service):
@@ -67,7 +36,7 @@ def test_submit_poll_and_pull_the_ranking_as_csv(service):
     series = demo_series()[:2]
     keys = [s.key for s in series]
     body = {"series": {"keys": keys}, "candidates": CANDIDATES, "plan": PLAN}
-    with _client(base, tokens["submitter"]) as submitter:
+    with bearer_client(base, tokens["submitter"]) as submitter:
         csv_text = "\n".join(line for line in _scenario_csv().splitlines()
                              if line.split(",")[0] in ("series_key", *keys)) + "\n"
         upload = submitter.post("/v1/series/upload", content=csv_text,
@@ -78,11 +47,11 @@ def test_submit_poll_and_pull_the_ranking_as_csv(service):
         retry = submitter.post("/v1/runs", json=body, headers={"Idempotency-Key": "e2e-1"})
         assert retry.json()["id"] == first.json()["id"]
         assert retry.headers["Location"] == first.headers["Location"]
-        run = _wait(submitter, first.headers["Location"])
+        run = wait_for_run(submitter, first.headers["Location"])
     assert run["status"] == "succeeded", run["failure_reason"]
     assert run["progress"]["folds_done"] == run["progress"]["folds_total"] == 2 * 3 * 4
 
-    with _client(base, tokens["reader"]) as reader:
+    with bearer_client(base, tokens["reader"]) as reader:
         answer = reader.get("/v1/rankings", params={"format": "csv", "metric": "mase"})
         assert answer.status_code == 200
         assert answer.headers["content-type"].startswith("text/csv")
@@ -102,7 +71,7 @@ def test_submit_poll_and_pull_the_ranking_as_csv(service):
 def test_a_reader_cannot_submit_and_a_stranger_is_refused(service):
     base, tokens = service
     body = {"series": {"keys": ["nothing"]}, "candidates": CANDIDATES, "plan": PLAN}
-    with _client(base, tokens["reader"]) as reader:
+    with bearer_client(base, tokens["reader"]) as reader:
         refused = reader.post("/v1/runs", json=body)
     assert refused.status_code == 403
     assert refused.headers["content-type"].startswith("application/problem+json")

@@ -7,18 +7,16 @@ from __future__ import annotations
 
 import csv
 import io
-import os
 import time
 from pathlib import Path
 
 import httpx
 import pytest
 
-from service.demo import _free_port, running_server
-from tests.e2e.test_http_service import _cli, _client, _wait
+from tests.e2e.serving import bearer_client, served, wait_for_run
 from tests.service.conftest import series_body
 from tests.storage.builders import monthly_series
-from tests.storage.conftest import BACKENDS, migrated_store
+from tests.storage.conftest import BACKENDS
 
 KNOWN, MONTHS = 48, 8
 STEADY = monthly_series("ledger/steady", KNOWN + MONTHS, seed=21)
@@ -34,17 +32,11 @@ def _actual(series, index: int) -> float:
     return round(float(series.values[index]) + shift, 2)
 
 
-@pytest.fixture(params=BACKENDS)
-def served(request: pytest.FixtureRequest, tmp_path: Path):
+@pytest.fixture(params=BACKENDS, name="served")
+def served_with_roles(request: pytest.FixtureRequest, tmp_path: Path):
     """A running server on a migrated store, and a token per role used here."""
-    with migrated_store(request.param, tmp_path) as url:
-        env = {**os.environ, "FOLDLINE_DATABASE_URL": url, "FOLDLINE_HOST": "127.0.0.1",
-               "FOLDLINE_PORT": str(_free_port()), "FOLDLINE_WORKER_JOBS": "1",
-               "FOLDLINE_POLL_SECONDS": "0.2", "FOLDLINE_LEASE_SECONDS": "20"}
-        tokens = {role: _cli(env, "keys", "create", "--role", role, "--name", f"e2e-{role}")
-                  .splitlines()[0] for role in ("submitter", "auditor")}
-        with running_server(env, tmp_path / "server.log") as base:
-            yield base, tokens
+    with served(request.param, tmp_path, ("submitter", "auditor")) as running:
+        yield running
 
 
 def _post_known(client: httpx.Client) -> None:
@@ -73,12 +65,12 @@ def _scored(auditor: httpx.Client, forecast: dict, last: str) -> bool:
 
 def test_champions_ledger_outcomes_and_a_drift_flag_over_http(served):
     base, tokens = served
-    with _client(base, tokens["submitter"]) as submitter, \
-            _client(base, tokens["auditor"]) as auditor:
+    with bearer_client(base, tokens["submitter"]) as submitter, \
+            bearer_client(base, tokens["auditor"]) as auditor:
         _post_known(submitter)
         run = submitter.post("/v1/runs", json={"series": {"keys": [STEADY.key, SHIFTED.key]},
                                                "candidates": CANDIDATES, "plan": PLAN})
-        run = _wait(submitter, run.headers["Location"])
+        run = wait_for_run(submitter, run.headers["Location"])
         assert run["status"] == "succeeded"
         suggested = auditor.get(f"{run['url']}/champion-suggestions").json()["items"]
         for s in suggested:
