@@ -11,9 +11,6 @@ from __future__ import annotations
 
 import os
 import re
-import subprocess
-import sys
-import time
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -22,6 +19,7 @@ import httpx
 import pytest
 
 from service.demo import _free_port, running_server
+from tests.e2e.serving import bearer_client, cli, wait_for_run
 from tests.service.conftest import series_body
 from tests.storage.builders import monthly_series
 
@@ -50,20 +48,8 @@ class Served:
 
 
 def _create_key(env: dict[str, str], role: str) -> str:
-    done = subprocess.run([sys.executable, "-m", "service.cli", "keys", "create", "--role", role,
-                           "--name", f"browser-{role}"], env=env, capture_output=True, text=True,
-                          check=True)
-    return done.stdout.strip().splitlines()[0]
-
-
-def _finished(client: httpx.Client, location: str, timeout: float = 300) -> dict:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        run = client.get(location).json()
-        if run["status"] in ("succeeded", "failed", "cancelled"):
-            return run
-        time.sleep(0.5)
-    raise AssertionError(f"the run at {location} did not finish within {timeout:.0f} s")
+    return cli(env, "keys", "create", "--role", role, "--name", f"browser-{role}"
+               ).strip().splitlines()[0]
 
 
 @pytest.fixture(scope="module")
@@ -75,14 +61,13 @@ def served(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Served]:
     env.pop("FOLDLINE_SESSION_SECRET", None)
     with running_server(env, directory / "server.log") as url:
         submitter = _create_key(env, "submitter")
-        with httpx.Client(base_url=url, timeout=60,
-                          headers={"Authorization": f"Bearer {submitter}"}) as client:
+        with bearer_client(url, submitter) as client:
             body = {**series_body(monthly_series(SERIES_KEY, seed=4)), "unit": "crates"}
             assert client.post("/v1/series", json=body).status_code == 201
             answer = client.post("/v1/runs", json={"series": {"keys": [SERIES_KEY]},
                                                    "candidates": CANDIDATES, "plan": PLAN})
             assert answer.status_code == 202
-            run = _finished(client, answer.headers["Location"])
+            run = wait_for_run(client, answer.headers["Location"], timeout=300)
             assert run["status"] == "succeeded", run
             ranking = client.get(f"/v1/runs/{run['id']}/ranking").json()["items"]
             champion = {"candidate_id": ranking[0]["candidate_id"], "run_id": run["id"],
