@@ -1,7 +1,8 @@
-"""Shared fixtures: the reference data that lives beside the repository in ``shared/``."""
+"""Shared fixtures: the reference data the repository carries in ``tests/data/``."""
 
 from __future__ import annotations
 
+import hashlib
 import os
 from pathlib import Path
 
@@ -10,7 +11,8 @@ import pandas as pd
 import pytest
 from threadpoolctl import threadpool_limits
 
-SHARED_DATA = Path(__file__).resolve().parents[1].parent / "shared" / "data"
+TEST_DATA = Path(__file__).resolve().parent / "data"
+SERIES_G_SHA256 = "eda0181c2450975f5ad68556dcf14367541b22553f0c628b9747334cfdc6c96c"
 
 # Workers started by tests (in this process or as servers) render no report ahead unless a
 # test asks for it: rendering costs seconds per run, and on PostgreSQL stores the default
@@ -26,13 +28,19 @@ def one_blas_thread():
         yield
 
 
+def series_g_path() -> Path:
+    """The repository's copy of Series G, checked against its recorded SHA-256."""
+    path = TEST_DATA / "series_g.csv"
+    assert hashlib.sha256(path.read_bytes()).hexdigest() == SERIES_G_SHA256, path
+    return path
+
+
 @pytest.fixture(scope="session")
 def series_g() -> pd.DataFrame:
     """Series G (Box & Jenkins 1976): monthly airline passengers, thousands, 1949-1960."""
-    path = SHARED_DATA / "series_g.csv"
-    assert path.exists(), f"reference data missing: {path} (shared/ must sit beside the repo)"
-    frame = pd.read_csv(path)
-    assert len(frame) == 144 and frame.iloc[:, 1].sum() == 40363  # REFERENCES §6 checksum
+    frame = pd.read_csv(series_g_path())
+    # Box & Jenkins (1976), Series G: 144 monthly values summing to 40,363 (published table).
+    assert len(frame) == 144 and frame.iloc[:, 1].sum() == 40363
     return frame
 
 

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import warnings
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -31,8 +30,8 @@ from backtest.models.stepwise import (
     starting_orders,
     stepwise_search,
 )
+from tests.conftest import series_g_path
 
-SERIES_G = Path(__file__).resolve().parents[2] / ".." / "shared" / "data" / "series_g.csv"
 # Toy quarterly series x used for the KPSS check values.
 TOY = np.array([12, 15, 20, 14, 13, 17, 22, 15, 15, 18, 24, 17, 16, 20, 25, 18], dtype=float)
 # Airline model ARIMA(0,1,1)(0,1,1)[12] on log Series G (Box & Jenkins 1976, ch. 9, chapter
@@ -51,8 +50,7 @@ def one_blas_thread():
 
 @pytest.fixture(scope="module")
 def log_series_g() -> np.ndarray:
-    assert SERIES_G.is_file(), f"Series G data missing at {SERIES_G}"
-    values = pd.read_csv(SERIES_G)["passengers_thousands"].to_numpy(dtype=float)
+    values = pd.read_csv(series_g_path())["passengers_thousands"].to_numpy(dtype=float)
     # Box & Jenkins Series G: 144 monthly totals, Jan 1949 - Dec 1960, summing to 40363.
     assert (len(values), values.sum()) == (144, 40363)
     return np.log(values)
