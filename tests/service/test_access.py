@@ -33,6 +33,7 @@ ENDPOINTS = [
      {"json": {"observations": [{"period": "2023-01", "value": 1.0}]}}),
     ("GET", "/v1/series/{key:path}", "/v1/series/m", "read", {}),
     ("POST", "/v1/runs", "/v1/runs", "write", {"json": RUN}),
+    ("GET", "/v1/runs", "/v1/runs", "read", {}),
     ("GET", "/v1/runs/{run_id}", "/v1/runs/1", "read", {}),
     ("POST", "/v1/runs/{run_id}/cancel", "/v1/runs/1/cancel", "write", {}),
     ("GET", "/v1/runs/{run_id}/scores", "/v1/runs/1/scores", "read", {}),
