@@ -26,6 +26,7 @@ from service.ranking_cache import RankingCache
 from service.request_guard import NulGuardMiddleware
 from service.routes import (
     champions,
+    dossier,
     forecasts,
     history,
     keys,
@@ -49,11 +50,11 @@ RFC 9457 problem details (`application/problem+json`). Tables are JSON, or CSV w
 `Accept: text/csv` or `?format=csv`; lists are paged with `limit` and `offset` and name the
 next page in `next` and a `Link` header.
 """
-# champions and monitoring first: their /series/{key}/... paths would otherwise be read as
-# series keys by GET /series/{key}
-ROUTERS = tuple(module.router for module in (champions, monitoring, series, runs, results,
-                                            reports, rankings, history, keys, operations,
-                                            forecasts))
+# champions, monitoring and dossier first: their /series/{key}/... paths would otherwise be
+# read as series keys by GET /series/{key}
+ROUTERS = tuple(module.router for module in (champions, monitoring, dossier, series, runs,
+                                            results, reports, rankings, history, keys,
+                                            operations, forecasts))
 ERROR_FAMILIES = (BacktestError, StorageError, ServiceError, RequestValidationError,
                   HTTPException, Exception)
 

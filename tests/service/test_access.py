@@ -31,6 +31,7 @@ ENDPOINTS = [
     ("GET", "/v1/series/{key:path}/versions/{number}", "/v1/series/m/versions/1", "read", {}),
     ("POST", "/v1/series/{key:path}/observations", "/v1/series/m/observations", "write",
      {"json": {"observations": [{"period": "2023-01", "value": 1.0}]}}),
+    ("GET", "/v1/series/{key:path}/dossier", "/v1/series/m/dossier", "read", {}),
     ("GET", "/v1/series/{key:path}", "/v1/series/m", "read", {}),
     ("POST", "/v1/runs", "/v1/runs", "write", {"json": RUN}),
     ("GET", "/v1/runs", "/v1/runs", "read", {}),
