@@ -180,3 +180,24 @@ def test_the_cli_gives_the_same_dossier(story, capsys):
     assert f"champion: {naive['candidate']} [{NAIVE}]" in text
     assert "issued forecasts (1):" in text and f"#{first} " in text and "0/3 known" in text
     assert error.count("\n") == 1 and "--as-of 'March' is not an ISO 8601" in error
+
+
+def test_the_ledger_and_monitoring_as_they_stood(story):
+    api, moment, (first, second) = story
+    then = {"as_of": moment.isoformat()}
+
+    listed = api.get("auditor", "/v1/forecasts", params={"series_key": SERIES.key, **then})
+    outcomes_then = api.get("auditor", f"/v1/forecasts/{first}/outcomes", params=then)
+    outcomes_now = api.get("auditor", f"/v1/forecasts/{first}/outcomes")
+    monitoring_then = api.get("auditor", "/v1/series/sales/north/monitoring", params=then)
+    monitoring_now = api.get("auditor", "/v1/series/sales/north/monitoring")
+    flags_then = api.get("auditor", "/v1/monitoring", params=then)
+
+    assert [f["id"] for f in listed.json()["items"]] == [first]
+    assert [f["id"] for f in api.get("auditor", "/v1/forecasts").json()["items"]] == [
+        first, second]
+    assert outcomes_then.json()["sets"] == [] and len(outcomes_now.json()["sets"]) == 1
+    assert monitoring_then.json()["candidate_id"] == NAIVE  # the champion then
+    assert monitoring_now.json()["candidate_id"] == DRIFT
+    assert monitoring_then.json()["forecasts"] == 1
+    assert {row["candidate_id"] for row in flags_then.json()["items"]} == {NAIVE}
