@@ -77,8 +77,8 @@ def dossier_lines(dossier: DossierOut) -> list[str]:
                      f"{f.candidate}  origin {f.origin}  v{f.series_version}  "
                      f"{f.outcomes_known}/{len(f.periods)} known  {realised}")
     lines.append(f"audit events: {len(dossier.events)}")
-    lines += [f"  #{e.seq}  {e.occurred_at.isoformat()}  {e.actor}  {e.action}  {e.subject}"
-              for e in dossier.events]
+    lines += [f"  #{e.seq}  {e.occurred_at.isoformat()}  {e.actor}  {e.action}  "
+              f"{e.subject_label} [{e.subject}]" for e in dossier.events]
     return lines
 
 

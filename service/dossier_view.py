@@ -35,7 +35,8 @@ def dossier_out(dossier: Dossier) -> DossierOut:
                                   created_by=v.created_by) for v in dossier.versions],
         forecasts=[_forecast(f) for f in dossier.forecasts],
         events=[EventOut(seq=e.seq, occurred_at=e.occurred_at, actor=e.actor, action=e.action,
-                         subject=e.subject, digest=e.digest) for e in dossier.events])
+                         subject=e.subject, subject_label=dossier.subject_labels[e.subject],
+                         digest=e.digest) for e in dossier.events])
 
 
 def step_rows(dossier: Dossier) -> Iterator[StepRow]:

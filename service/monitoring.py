@@ -20,6 +20,7 @@ from backtest.ledger import (
     monitor,
 )
 from service.errors import FieldError, InvalidInputError
+from storage.catalog import candidate_label
 from storage.champions import current_champion, current_champions
 from storage.outcomes import issued_with_outcomes
 from storage.queries import score_history
@@ -33,6 +34,7 @@ class Monitored:
     many forecasts of it were issued."""
 
     report: MonitoringReport
+    candidate_label: str | None
     is_champion: bool
     forecasts: int
 
@@ -53,7 +55,8 @@ def monitor_series(session: Session, series_key: str, candidate_id: str | None =
     expectation = _expectation(session, series_key, candidate_id, as_of)
     report = (monitor(history, expectation) if history
               else MonitoringReport(series_key, candidate_id, (), expectation, ()))
-    return Monitored(report, is_champion, len(history))
+    return Monitored(report, candidate_label(session, series_key, candidate_id), is_champion,
+                     len(history))
 
 
 def _expectation(session: Session, series_key: str, candidate_id: str,

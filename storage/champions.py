@@ -13,6 +13,7 @@ from datetime import datetime
 from sqlalchemy import ColumnElement, Select, exists, func, select
 from sqlalchemy.orm import Session
 
+from backtest.candidates import parse_candidate
 from storage.audit import lock_audit_log, record_event
 from storage.contents import as_row, champion_digest, champion_subject
 from storage.errors import ConflictError, NotFoundError, translates_errors
@@ -36,6 +37,7 @@ class ChampionChoice:
     choice_id: int
     series_key: str
     candidate_id: str
+    candidate_label: str
     run_id: int | None
     reason: str
     chosen_by: str
@@ -65,7 +67,8 @@ def choose_champion(session: Session, *, series_key: str, candidate_id: str,
     session.flush()
     record_event(session, actor=actor, action="champion.chosen",
                  subject=champion_subject(record.id), digest=champion_digest([as_row(record)]))
-    return _choice(record, series_key)
+    chosen = _choices().where(ChampionChoiceRecord.id == record.id)
+    return _choice(*session.execute(chosen).one())
 
 
 @translates_errors
@@ -96,7 +99,7 @@ def current_champions(session: Session,
               .group_by(ChampionChoiceRecord.series_id).scalar_subquery())
     rows = session.execute(_choices(as_of).where(ChampionChoiceRecord.id.in_(latest))
                            .order_by(SeriesRecord.key))
-    return {key: _choice(record, key) for record, key in rows}
+    return {row[1]: _choice(*row) for row in rows}
 
 
 def _series_id(session: Session, series_key: str) -> int:
@@ -125,14 +128,19 @@ def _check_run_backtested(session: Session, run_id: int, series_id: int, series_
 
 
 def _choices(as_of: datetime | None = None) -> Select:
-    return select(ChampionChoiceRecord, SeriesRecord.key).join(
-        SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id).where(*_made_by(as_of))
+    return (select(ChampionChoiceRecord, SeriesRecord.key, SeriesRecord.season_length,
+                   CandidateRecord.spec)
+            .join(SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id)
+            .join(CandidateRecord, CandidateRecord.id == ChampionChoiceRecord.candidate_id)
+            .where(*_made_by(as_of)))
 
 
 def _made_by(as_of: datetime | None) -> list[ColumnElement[bool]]:
     return [] if as_of is None else [ChampionChoiceRecord.chosen_at <= as_of]
 
 
-def _choice(record: ChampionChoiceRecord, series_key: str) -> ChampionChoice:
-    return ChampionChoice(record.id, series_key, record.candidate_id, record.run_id,
+def _choice(record: ChampionChoiceRecord, series_key: str, season_length: int,
+            spec: dict) -> ChampionChoice:
+    return ChampionChoice(record.id, series_key, record.candidate_id,
+                          parse_candidate(spec).label(season_length), record.run_id,
                           record.reason, record.chosen_by, record.chosen_at)

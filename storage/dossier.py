@@ -16,7 +16,6 @@ from datetime import datetime
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from backtest.candidates import parse_candidate
 from backtest.ledger.outcomes import Outcome
 from storage.audit import AuditEntry, entry_of
 from storage.champions import ChampionChoice, champion_history
@@ -33,7 +32,6 @@ from storage.ledger import IssuedRecord, issued_records
 from storage.outcomes import SETS, outcome_sets
 from storage.schema import (
     AuditEvent,
-    CandidateRecord,
     IssuedForecastRecord,
     RankRecord,
     RunSeries,
@@ -43,6 +41,7 @@ from storage.schema import (
 )
 from storage.series_catalog import SeriesInfo, get_series
 from storage.series_store import VersionInfo, list_versions
+from storage.subjects import describe_subjects
 
 
 @dataclass(frozen=True)
@@ -103,6 +102,7 @@ class Dossier:
     versions: tuple[VersionInfo, ...]
     forecasts: tuple[DossierForecast, ...]
     events: tuple[AuditEntry, ...]
+    subject_labels: dict[str, str]
 
 
 @translates_errors
@@ -114,20 +114,18 @@ def series_dossier(session: Session, series_key: str, *, as_of: datetime,
     series = get_series(session, series_key)
     versions = tuple(v for v in list_versions(session, series_key) if v.created_at <= as_of)
     numbers = {v.id: v.number for v in list_versions(session, series_key)}
-    champions = tuple(_entry(session, choice, series.season_length, numbers)
+    champions = tuple(_entry(session, choice, numbers)
                       for choice in champion_history(session, series_key)
                       if choice.chosen_at <= as_of)
     forecasts = _forecasts(session, series_key, as_of, window, limit, champions, numbers)
+    events = _events(session, series_key, as_of, limit)
     return Dossier(series, as_of, champions[-1] if champions else None, champions, versions,
-                   forecasts, _events(session, series_key, as_of, limit))
+                   forecasts, events, describe_subjects(session, (e.subject for e in events)))
 
 
-def _entry(session: Session, choice: ChampionChoice, season_length: int,
-           numbers: dict[int, int]) -> ChampionEntry:
-    spec = session.scalar(select(CandidateRecord.spec)
-                          .where(CandidateRecord.id == choice.candidate_id))
-    label = parse_candidate(spec).label(season_length)
-    return ChampionEntry(choice, label, _justification(session, choice, numbers))
+def _entry(session: Session, choice: ChampionChoice, numbers: dict[int, int]) -> ChampionEntry:
+    return ChampionEntry(choice, choice.candidate_label,
+                         _justification(session, choice, numbers))
 
 
 def _justification(session: Session, choice: ChampionChoice,

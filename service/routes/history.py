@@ -26,6 +26,7 @@ from service.tables import Limit, link_headers
 from storage.audit_pages import audit_page
 from storage.queries import runs_using_version, score_history
 from storage.series_catalog import get_series, version_by_number
+from storage.subjects import describe_subjects
 from storage.verify import verify_audit_log
 
 router = APIRouter(prefix="/v1", tags=["history"])
@@ -82,12 +83,14 @@ def audit_events(request: Request, response: Response, caller: Auditor, sessions
     with sessions.begin() as session:
         events = audit_page(session, start=_aware(start), end=_aware(end), after_seq=after,
                             limit=limit + 1)
+        described = describe_subjects(session, (e.subject for e in events[:limit]))
     link = None
     if len(events) > limit:
         query = request.url.include_query_params(after=events[limit - 1].seq).query
         link = f"{request.url.path}?{query}"
     link_headers(response, link)
-    return AuditEventPage(items=[AuditEventOut(**vars(e)) for e in events[:limit]], next=link)
+    return AuditEventPage(items=[AuditEventOut(**vars(e), subject_label=described[e.subject])
+                                 for e in events[:limit]], next=link)
 
 
 @router.get("/audit/verification", response_model=VerificationOut,

@@ -71,7 +71,7 @@ def list_flags(request: Request, response: Response, caller: Reader, sessions: S
         reports, more = monitor_champions(session, prefix, offset=offset, limit=limit,
                                           as_of=moment)
     link = next_link(request, offset, limit, more)
-    rows = [row for m in reports for row in flag_rows(m.report)
+    rows = [row for m in reports for row in flag_rows(m)
             if raised is None or row["raised"] == raised]
     if chosen == "csv":
         return csv_response(rows, columns(FlagRow), link)

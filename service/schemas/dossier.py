@@ -101,6 +101,7 @@ class EventOut(BaseModel):
     actor: str
     action: str
     subject: str
+    subject_label: str = Field(description="the subject in words (the subject keeps the ids)")
     digest: str
 
 

@@ -201,3 +201,47 @@ def test_the_ledger_and_monitoring_as_they_stood(story):
     assert monitoring_now.json()["candidate_id"] == DRIFT
     assert monitoring_then.json()["forecasts"] == 1
     assert {row["candidate_id"] for row in flags_then.json()["items"]} == {NAIVE}
+
+
+def test_audit_subjects_are_given_in_words_beside_their_ids(story):
+    api, _, (first, _) = story
+
+    events = api.get("auditor", "/v1/audit/events").json()["items"]
+    in_dossier = api.get("auditor", URL).json()["events"]
+
+    words = {e["subject"]: e["subject_label"] for e in events}
+    with api.sessions.begin() as session:
+        north = session.scalar(select(SeriesRecord.id).where(SeriesRecord.key == SERIES.key))
+        first_version = session.scalar(select(SeriesVersion.id).where(
+            SeriesVersion.series_id == north, SeriesVersion.number == 1))
+    assert words[f"series/{north}"] == "series sales/north"
+    assert words[f"series_version/{first_version}"] == "series sales/north version 1"
+    assert words[f"issued_forecast/{first}"] == f"issued forecast {first} of sales/north"
+    assert words["champion_choice/2"] == "champion choice 2 of sales/north"
+    assert words["run/1"] == "run 1"
+    assert words[f"series_result/1/{first_version}"] == "run 1 results for sales/north version 1"
+    assert words[f"candidate/{NAIVE}"] == 'candidate {"family":"benchmark","method":"naive"}'
+    outcome = next(s for s in words if s.startswith(f"outcome_set/{first}/"))
+    assert words[outcome] == (f"outcomes of forecast {first} (sales/north) against "
+                              "sales/north version 2")
+    assert any(w.startswith("API key ") for w in words.values())
+    assert all(e["subject_label"] == words[e["subject"]] for e in in_dossier)
+
+
+def test_champions_and_monitoring_carry_labels_beside_ids(story):
+    api, _, _ = story
+    labels = {c["id"]: c["label"] for c in api.get("reader", "/v1/runs/1").json()["candidates"]}
+
+    champion = api.get("reader", "/v1/series/sales/north/champion").json()
+    history = api.get("reader", "/v1/series/sales/north/champion/history",
+                      params={"format": "csv"}).text
+    monitored = api.get("reader", "/v1/series/sales/north/monitoring").json()
+    flags = list(csv.DictReader(io.StringIO(
+        api.get("reader", "/v1/monitoring", params={"format": "csv"}).text)))
+
+    assert champion["candidate"] == labels[DRIFT]
+    assert [(r["candidate_id"], r["candidate"]) for r in csv.DictReader(io.StringIO(history))
+            ] == [(NAIVE, labels[NAIVE]), (DRIFT, labels[DRIFT])]
+    assert monitored["candidate"] == labels[DRIFT]
+    assert flags and {(r["candidate_id"], r["candidate"]) for r in flags} == {
+        (DRIFT, labels[DRIFT])}
