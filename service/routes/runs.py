@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Annotated, Literal
+from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Header, Query, Request, Response
 from sqlalchemy.orm import Session
 
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
+from service.flat_rows import flat_columns, flat_rows
 from service.problems import problem_responses
 from service.routes.params import Id
 from service.routes.series import series_url
@@ -25,6 +26,7 @@ from service.schemas.runs import (
     TimingsOut,
 )
 from service.settings import Settings
+from service.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
 from service.transactions import write
 from storage.catalog import plan_id_of
 from storage.errors import ConflictError
@@ -73,9 +75,11 @@ def submit_run(body: RunIn, response: Response, caller: Writer, sessions: Sessio
         return run_out(run, versions, None, run_candidate_labels(session, run.id))
 
 
-@router.get("/runs", response_model=RunPage, responses=problem_responses(*ERRORS))
+@router.get("/runs", response_model=RunPage,
+            responses={**csv_openapi(flat_columns(RunOut)), **problem_responses(*ERRORS, 406)})
 def list_all_runs(
         request: Request, response: Response, caller: Reader, sessions: Sessions,
+        output: FormatParam = None,
         status: Annotated[Literal["queued", "running", "succeeded", "failed", "cancelled"]
                           | None, Query(description="only runs in this state")] = None,
         series_key: Annotated[str | None, Query(
@@ -88,8 +92,10 @@ def list_all_runs(
             description="only runs finished before this ISO 8601 time")] = None,
         before: Annotated[int | None, Query(ge=1, description=(
             "cursor: only runs with a smaller id (the ``next`` link sets it)"))] = None,
-        limit: Annotated[int, Query(ge=1, le=MAX_PAGE)] = 50) -> RunPage:
-    """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive."""
+        limit: Annotated[int, Query(ge=1, le=MAX_PAGE)] = 50) -> Any:
+    """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive.
+    CSV: one row per run (lists as JSON cells)."""
+    chosen = chosen_format(request, output)
     where = RunFilter(status=status, series_key=series_key, requested_by=requested_by,
                       finished_from=finished_from, finished_to=finished_to)
     with sessions.begin() as session:
@@ -99,7 +105,9 @@ def list_all_runs(
     if more:
         query = request.url.include_query_params(before=runs[-1].id, limit=limit).query
         link = f"{request.url.path}?{query}"
-        response.headers["Link"] = f'<{link}>; rel="next"'
+    if chosen == "csv":
+        return csv_response(flat_rows(items), flat_columns(RunOut), link)
+    link_headers(response, link)
     return RunPage(items=items, next=link)
 
 
