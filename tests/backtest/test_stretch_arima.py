@@ -78,21 +78,25 @@ def test_stretch_equals_statsmodels_per_origin(spec, log_air):
         _assert_same(ours, _statsmodels_forecast(spec, log_air[:end], params))
 
 
-@pytest.mark.parametrize("spec", SPECS[:2], ids=lambda s: s.label(12))
-def test_estimation_equals_a_plain_statsmodels_fit(spec, log_air):
-    y = log_air[:110]
-    fit, forecast = spec.fit_forecast(y, 12, HORIZON, LEVELS, 0)
-    hand = _statsmodels_model(spec, y).fit()
-    np.testing.assert_array_equal(list(fit.params.values()), hand.params)
-    _assert_same(forecast, hand.get_forecast(HORIZON))
-
-
 def _recording(fit):
     """``fit()`` with the warnings it emits, as (result, [(category, message)])."""
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         result = fit()
     return result, [(w.category, str(w.message)) for w in caught]
+
+
+@pytest.mark.parametrize("spec", SPECS[:2], ids=lambda s: s.label(12))
+def test_estimation_equals_a_plain_statsmodels_fit(spec, log_air):
+    """Same estimates, forecasts and warnings. Whether the optimiser passes its convergence
+    test depends on the BLAS kernel (measured: the drift model on this window warns under
+    Haswell, not under SkylakeX), so the engine must warn exactly when statsmodels does."""
+    y = log_air[:110]
+    (fit, forecast), ours = _recording(lambda: spec.fit_forecast(y, 12, HORIZON, LEVELS, 0))
+    hand, theirs = _recording(lambda: _statsmodels_model(spec, y).fit())
+    assert ours == theirs
+    np.testing.assert_array_equal(list(fit.params.values()), hand.params)
+    _assert_same(forecast, hand.get_forecast(HORIZON))
 
 
 def test_a_memory_saving_fit_is_refused_as_a_forecast_source(log_air):
