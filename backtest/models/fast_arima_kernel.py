@@ -51,7 +51,7 @@ def constrain(unconstrained: np.ndarray) -> np.ndarray:
         y[k, k] = r[k]
     out = np.empty(n)
     for i in range(n):
-        out[i] = y[n - 1, i]
+        out[i] = -y[n - 1, i]
     return out
 
 
