@@ -17,6 +17,7 @@ import threading
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from backtest.models.fast_arima import warm_up
 from service.outcome_scoring import score_due_outcomes
 from service.report.prerender import prerender_report
 from service.settings import Settings
@@ -69,7 +70,9 @@ class Worker:
 
     def run_forever(self, stop: threading.Event) -> None:
         """Work on runs until ``stop`` is set, looking for new ones every ``poll_seconds``;
-        before each look, score the outcomes new actuals made due."""
+        before each look, score the outcomes new actuals made due. The compiled ARIMA
+        likelihood is loaded (or compiled) first, so no run pays for it."""
+        log.info("worker %s: compiled estimator ready in %.2f s", self.id, warm_up())
         log.info("worker %s ready", self.id)
         while not stop.is_set():
             try:
