@@ -9,8 +9,9 @@ likelihood with its differenced states diffuse (over ``n - d - D s`` observation
 reference's effective sample). ``beta`` and the innovation variance are concentrated out,
 so L-BFGS-B (scipy) searches only the ARMA coefficients, in the unconstrained coordinates
 of Monahan's map, as the reference does. The start is the previous estimate when given,
-else the best of zero and a Hannan-Rissanen regression (Hannan & Rissanen 1982): a long
-autoregression's residuals as regressors of the moving-average terms.
+else zero and a Hannan-Rissanen regression (Hannan & Rissanen 1982: a long
+autoregression's residuals as regressors of the moving-average terms): both for models
+mixing AR and MA terms, whose likelihood is often multimodal, else the better of the two.
 
 Parameters come back under the ``arima`` family's names, so forecasts, intervals and
 assessments are computed by the reference path with them.
@@ -119,14 +120,18 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
     if k == 0:
         x, converged, iterations, evaluations = np.zeros(0), True, 0, 1
     else:
-        x0 = (_warm_start(spec, start_params, season_length) if start_params is not None
-              else _cold_start(problem))
-        if not math.isfinite(problem.loglike(x0)[0]):
+        starts = ([_warm_start(spec, start_params, season_length)] if start_params is not None
+                  else _cold_starts(problem))
+        starts = [x0 for x0 in starts if math.isfinite(problem.loglike(x0)[0])]
+        if not starts:
             raise FastEstimationError("the log-likelihood is not finite at the start values")
-        result = minimize(problem.objective, x0, jac=True, method="L-BFGS-B",
-                          bounds=[(-_BOUND, _BOUND)] * k, options=_OPTIONS)
-        x, converged = result.x, bool(result.success)
-        iterations, evaluations = int(result.nit), int(result.nfev)
+        results = [minimize(problem.objective, x0, jac=True, method="L-BFGS-B",
+                            bounds=[(-_BOUND, _BOUND)] * k, options=_OPTIONS)
+                   for x0 in starts]
+        best = min(results, key=lambda r: r.fun)
+        x, converged = best.x, bool(best.success)
+        iterations = sum(int(r.nit) for r in results)
+        evaluations = sum(int(r.nfev) for r in results)
     llf, beta, sigma2 = problem.loglike(x)
     if not (math.isfinite(llf) and sigma2 > 0):
         raise FastEstimationError("the log-likelihood is not finite at the optimum")
@@ -198,15 +203,18 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
     return np.clip(np.concatenate(parts), -_BOUND, _BOUND)
 
 
-def _cold_start(problem: _Problem) -> np.ndarray:
-    """Zero, or the Hannan-Rissanen estimates mapped to unconstrained values if they are
-    admissible and give a higher likelihood."""
+def _cold_starts(problem: _Problem) -> list[np.ndarray]:
+    """Start values: zero and the Hannan-Rissanen estimates (when admissible). A model with
+    both autoregressive and moving-average terms, whose likelihood often has more than one
+    mode, is optimised from both; otherwise from the one with the higher likelihood."""
     p, q, big_p, big_q, s = problem.orders
     zero = np.zeros(p + q + big_p + big_q)
     guess = _hannan_rissanen(problem)
     if guess is None:
-        return zero
-    return guess if problem.loglike(guess)[0] > problem.loglike(zero)[0] else zero
+        return [zero]
+    if p + big_p > 0 and q + big_q > 0:
+        return [zero, guess]
+    return [guess if problem.loglike(guess)[0] > problem.loglike(zero)[0] else zero]
 
 
 def _hannan_rissanen(problem: _Problem) -> np.ndarray | None:
