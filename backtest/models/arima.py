@@ -42,7 +42,7 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
-from backtest.models.fast_arima import fast_fit
+from backtest.models.fast_arima import ESTIMATOR_KEY, fast_fit
 from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
@@ -131,6 +131,10 @@ class ArimaSpec(ModelSpec):
         fitted = model.fit(start_params=start, cov_type="none")
         names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
         return Fit(dict(zip(names, map(float, fitted.params))), fitted)
+
+    def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
+        """The fit with its model parameters only (without the ``estimator`` record)."""
+        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw)
 
     def results_at(self, y: np.ndarray, season_length: int, params: Params):
         """statsmodels' results of a filter pass over ``y`` at ``params`` (no estimation)."""

@@ -9,7 +9,8 @@ import pytest
 from scipy.linalg import solve_discrete_lyapunov
 from statsmodels.tsa.statespace.tools import constrain_stationary_univariate
 
-from backtest.candidates import parse_candidate
+from backtest.candidates import parse_candidate, parse_candidates
+from backtest.engine import run_backtest
 from backtest.errors import PlanError
 from backtest.folds import plan_origins
 from backtest.models import fast_arima_kernel as kernel
@@ -153,3 +154,22 @@ def test_fast_search_scores_models_as_statsmodels_does(series_g):
     estimate = fast_estimate(spec, y, 12)
     assert information_criterion(estimate, "aicc") <= fit.params["search.score"] + 1e-9
     assert math.isfinite(fit.params["search.score"])
+
+
+def test_a_run_records_the_estimator_in_its_plan_and_diagnoses_the_fast_fit(airline):
+    candidates = parse_candidates([{"family": "arima", "order": [0, 1, 1],
+                                    "seasonal": {"order": [0, 1, 1]}, "transform": "log"}])
+    plan = parse_plan({"horizon": 3, "max_origins": 2, "estimator": "fast"})
+    result = run_backtest([airline], candidates, plan)
+    assert result.plan["estimator"] == "fast"
+    arima = candidates[0].id
+    report = result.series[0].evidence["diagnostics"][arima]
+    assert report["estimation"]["converged"] is True
+    y = np.log(np.asarray(airline.values, dtype=float))
+    full = fast_estimate(candidates[0].spec, y, 12)
+    rows = {row["name"]: row for row in report["coefficients"]}
+    assert set(rows) == {"ma.L1", "ma.S.L12", "sigma2"}
+    assert rows["ma.L1"]["estimate"] == pytest.approx(full.params["ma.L1"], rel=1e-12)
+    assert rows["ma.L1"]["std_error"] > 0
+    assert all(f.params["estimator"] == 1.0 for f in result.series[0].folds
+               if f.candidate_id == arima)
