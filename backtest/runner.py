@@ -6,8 +6,9 @@ observations that arrived since the last estimation: the forecast conditions on 
 from the start of the last estimation window up to the origin (Tashman 2000's
 "rolling-origin-update"). Closed-form families re-estimate at every origin. Nothing after
 an origin is ever passed to the model. A fold that raises becomes a failed fold with its
-reason; warnings are captured per fold (those raised while forecasting a stretch of kept
-parameters in one pass are recorded on each fold of the stretch). With the plan's
+reason; warnings are captured per fold: when a one-pass computation over several origins
+(closed-form windows, a stretch of kept parameters) raises or warns, its origins are
+computed again one by one, so each fold carries only what its own origin raised. With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
 gets no fit summary, and a ``raw_optional`` family builds no results object for it.
@@ -102,9 +103,8 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
                                               plan.horizon, plan.levels, seeds)
         except Exception:  # isolate the failing origins one by one below
             pairs = None
-    if pairs is None:
+    if pairs is None or caught:  # per origin, so each fold gets its own failure or warnings
         return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
-    shared = _messages(caught)
     folds = []
     for origin, (fit, forecast) in zip(origins, pairs):
         try:
@@ -112,7 +112,7 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, origin.start, True, fit, forecast,
-                           error, shared))
+                           error, ()))
     return tuple(folds)
 
 
@@ -129,10 +129,9 @@ def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                                         plan.horizon, plan.levels, seeds)
         except Exception:  # isolate the failing origins one by one below
             raw = None
-    if raw is None:
+    if raw is None or caught:  # per origin, so each fold gets its own failure or warnings
         return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start, seed)
                 for o, seed in zip(stretch, seeds)]
-    shared = _messages(caught)
     folds = []
     for origin, forecast in zip(stretch, raw):
         try:
@@ -140,7 +139,7 @@ def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, fit_start, False, fit, forecast,
-                           error, shared))
+                           error, ()))
     return folds
 
 
