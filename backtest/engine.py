@@ -141,9 +141,10 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                                 added and c.id == benchmark.id) for c in pool)
     folds = tuple(f for o in outcomes for f in o.folds)
     scores = tuple(s for c, o in zip(pool, outcomes)
-                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels))
+                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels,
+                                            series.filled))
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
-                                      benchmark.id, plan)
+                                      benchmark.id, plan, series.filled)
     evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
     evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
     ranking = tuple(

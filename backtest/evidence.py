@@ -18,13 +18,15 @@ Conventions (documented choices):
 - Candidates that make identical forecasts at every origin are listed in
   ``comparison.identical_forecasts``; the confidence set treats models with identical
   losses as one (they share its verdict).
+- Periods a fill policy made up are not actuals: they are left out of calibration and
+  comparisons like the periods of a failed fold.
 - A run whose only candidate is the benchmark has its scores and calibration; the
   comparisons and the confidence set say there is nothing to compare.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
 from typing import TypeVar
 
@@ -58,9 +60,10 @@ class Annotation:
     calibration_zone: str | None
 
 
-def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
-             ) -> dict[str, np.ndarray]:
-    """Folds x horizons arrays in origin order; NaN where a fold failed."""
+def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
+             filled: Collection[str] = ()) -> dict[str, np.ndarray]:
+    """Folds x horizons arrays in origin order; NaN where a fold failed, and NaN actuals at
+    ``filled`` periods (made by a fill policy, never observed)."""
     n = len(folds)
     out = {"actual": np.full((n, horizon), np.nan), "point": np.full((n, horizon), np.nan),
            "scale": np.full(n, np.nan)}
@@ -68,7 +71,7 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
         out[f"lower{level}"] = np.full((n, horizon), np.nan)
         out[f"upper{level}"] = np.full((n, horizon), np.nan)
     for i, f in enumerate(sorted(folds, key=lambda f: f.fold)):
-        out["actual"][i] = f.actuals
+        out["actual"][i] = [np.nan if p in filled else a for p, a in zip(f.periods, f.actuals)]
         if f.status == "ok":
             out["point"][i] = f.point
             out["scale"][i] = np.nan if not f.scale else f.scale
@@ -79,7 +82,7 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
 
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
-                    plan: Plan) -> tuple[dict, dict[str, Annotation]]:
+                    plan: Plan, filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
     """Calibration, comparisons and confidence set for one series' candidates.
 
     A step that fails (any exception) becomes ``None``, or a ``{"reason": ...}`` section,
@@ -94,7 +97,8 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
             unavailable[step] = f"{type(exc).__name__}: {exc}"
             return None
 
-    arrays = {cid: matrices(folds, plan.horizon, plan.levels)
+    filled = frozenset(filled)
+    arrays = {cid: matrices(folds, plan.horizon, plan.levels, filled)
               for cid, folds in folds_by_candidate.items()}
     calibration = {cid: attempt(f"calibration.{cid}", lambda a=a: _calibration(a, plan))
                    for cid, a in arrays.items()}

@@ -5,10 +5,12 @@ forecasts from its end. In between, parameters are kept and the model is updated
 observations that arrived since the last estimation: the forecast conditions on the data
 from the start of the last estimation window up to the origin (Tashman 2000's
 "rolling-origin-update"). Closed-form families re-estimate at every origin. Nothing after
-an origin is ever passed to the model. A fold that raises becomes a failed fold with its
-reason; warnings are captured per fold: when a one-pass computation over several origins
-(closed-form windows, a stretch of kept parameters) raises or warns, its origins are
-computed again one by one, so each fold carries only what its own origin raised. With the plan's
+an origin is ever passed to the model: periods a fill policy made up at the end of a window
+are carried forward from the last observed value, not interpolated towards later data. A
+fold that raises becomes a failed fold with its reason; warnings are captured per fold:
+when a one-pass computation over several origins (closed-form windows, a stretch of kept
+parameters) raises or warns, its origins are computed again one by one, so each fold
+carries only what its own origin raised. With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
 gets no fit summary, and a ``raw_optional`` family builds no results object for it.
@@ -26,7 +28,7 @@ from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.metrics import mase_scale, rmsse_scale
-from backtest.models import Fit, Forecast
+from backtest.models import Fit, Forecast, ModelSpec
 from backtest.models.base import back_transform
 from backtest.plan import Plan
 from backtest.results import FoldResult
@@ -69,7 +71,7 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
                     ) -> tuple[FoldResult, Fit | None]:
     spec, m = candidate.spec, series.season_length
     seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
-    window = z[origin.start:origin.end]
+    window = _known(series, spec, z, origin.end)[origin.start:]
     fit, forecast, error, summary = None, None, None, None
     warm = plan.warm_start and spec.warm_startable and previous is not None
     options: dict = {"start_params": previous.params} if warm else {}
@@ -92,8 +94,16 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
 
 def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                        origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
-    """Closed-form families: every origin re-estimated, all windows in one call."""
+    """Closed-form families: every origin re-estimated, all windows in one call (origins
+    whose window ends in a filled period on their own, see :func:`_known`)."""
     spec = candidate.spec
+    alone = [o for o in origins if series.is_filled(o.end - 1)]
+    if alone:
+        batch = [o for o in origins if not series.is_filled(o.end - 1)]
+        folds = [_estimated_fold(series, candidate, plan, z, o)[0] for o in alone]
+        if batch:
+            folds += _closed_form_folds(series, candidate, plan, z, batch)
+        return tuple(sorted(folds, key=lambda f: f.fold))
     seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in origins]
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -118,8 +128,13 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
 
 def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                 stretch: Sequence[Origin], fit: Fit, fit_start: int) -> list[FoldResult]:
-    """Folds that keep ``fit``'s parameters, forecast in one pass where the family can."""
+    """Folds that keep ``fit``'s parameters, forecast in one pass where the family can
+    (origins whose window ends in a filled period on their own, see :func:`_known`)."""
     spec, m = candidate.spec, series.season_length
+    if any(series.is_filled(o.end - 1) for o in stretch):
+        return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start,
+                                  fold_seed(plan.seed, series.key, candidate.id, o.number))
+                for o in stretch]
     seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in stretch]
     ends = [o.end - fit_start for o in stretch]
     with warnings.catch_warnings(record=True) as caught:
@@ -149,13 +164,23 @@ def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.nd
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            forecast = spec.forecast(z[fit_start:origin.end], series.season_length, fit.params,
+            forecast = spec.forecast(_known(series, spec, z, origin.end)[fit_start:],
+                                     series.season_length, fit.params,
                                      plan.horizon, plan.levels, seed)
             forecast, error = back_transform(spec.transform, forecast), None
         except Exception as exc:  # a fold's failure must never crash the run
             forecast, error = None, _reason(exc)
     return _fold(series, candidate, plan, origin, fit_start, False, fit, forecast, error,
                  _messages(caught))
+
+
+def _known(series: Series, spec: ModelSpec, z: np.ndarray, end: int) -> np.ndarray:
+    """The transformed data up to ``end`` as known at that origin: ``z[:end]``, unless the
+    window ends in filled periods, which are then carried forward from the last observed
+    value (the whole-series fill interpolated them towards later data)."""
+    if not series.is_filled(end - 1):
+        return z[:end]
+    return spec.transform.forward(series.as_of(end))
 
 
 def _reason(exc: Exception) -> str:
@@ -172,7 +197,7 @@ def _messages(caught: list[warnings.WarningMessage]) -> tuple[str, ...]:
 def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, start: int,
           reestimated: bool, fit: Fit | None, forecast: Forecast | None, error: str | None,
           caught: tuple[str, ...], summary: dict | None = None) -> FoldResult:
-    train = np.asarray(series.values[start:origin.end], dtype=float)
+    train = series.as_of(origin.end)[start:]
     target = range(origin.end, origin.end + plan.horizon)
     ok = forecast is not None
 
