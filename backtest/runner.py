@@ -23,6 +23,7 @@ import zlib
 from collections.abc import Sequence
 
 import numpy as np
+from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
 from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
@@ -87,6 +88,9 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
             fit, forecast, error = None, None, _reason(exc)
     if fit is not None and not spec.closed_form and plan.assessment == "full":
         summary = fold_fit_summary(*spec.assessed(fit), window, m)
+    converged = _converged(fit, caught)
+    if fit is not None and fit.converged is None and converged is False:
+        fit = Fit(fit.params, fit.raw, False, fit.rescaled_by)
     fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
                  _messages(caught), summary)
     return fold, fit
@@ -183,6 +187,16 @@ def _known(series: Series, spec: ModelSpec, z: np.ndarray, end: int) -> np.ndarr
     return spec.transform.forward(series.as_of(end))
 
 
+def _converged(fit: Fit | None, caught: list[warnings.WarningMessage]) -> bool | None:
+    """The optimiser's verdict; without one, ``False`` if statsmodels warned that it did not
+    converge."""
+    if fit is None or fit.converged is not None:
+        return None if fit is None else fit.converged
+    if any(issubclass(w.category, ConvergenceWarning) for w in caught):
+        return False
+    return None
+
+
 def _reason(exc: Exception) -> str:
     return f"{type(exc).__name__}: {exc}"
 
@@ -204,6 +218,9 @@ def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, star
     def values(a: np.ndarray) -> tuple[float, ...]:
         return tuple(float(v) for v in a)
 
+    converged = None if fit is None else fit.converged
+    if ok and converged is False and plan.not_converged == "fail":
+        ok, error = False, "the estimate did not converge (plan: not_converged = fail)"
     scale, scale_sq = mase_scale(train, series.season_length), rmsse_scale(train)
     return FoldResult(
         series_key=series.key, candidate_id=candidate.id, fold=origin.number,
@@ -218,5 +235,5 @@ def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, star
         upper={lv: values(b) for lv, b in forecast.upper.items()} if ok else {},
         scale=scale if np.isfinite(scale) else None,
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
-        fit_summary=summary,
+        fit_summary=summary, converged=converged,
     )

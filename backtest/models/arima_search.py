@@ -159,7 +159,7 @@ class ArimaSearchSpec(ModelSpec):
                   **selection.summary()}
         if differencing.seasonal_strength is not None:
             params["search.seasonal_strength"] = differencing.seasonal_strength
-        return Fit(params, chosen.results)
+        return Fit(params, chosen.results, True)  # the search accepts converged fits only
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:

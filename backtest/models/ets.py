@@ -103,7 +103,9 @@ class EtsSpec(ModelSpec):
         model = self.model(y, season_length)
         start = None if start_params is None else _vector(model, start_params)
         fitted = model.fit(start_params=start, disp=False)
-        return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted)
+        converged = (getattr(fitted, "mle_retvals", None) or {}).get("converged")
+        return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted,
+                   None if converged is None else bool(converged))
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
