@@ -181,6 +181,6 @@ def test_digests_of_rows_written_before_the_convergence_columns_still_verify():
     for table, column, old, new in ((FoldRecord.__table__, "converged", None, False),
                                     (RankRecord.__table__, "folds_not_converged", 0, 2)):
         row = {name: f"v{i}" for i, name in enumerate(table.columns.keys())}
-        before = [name for name in table.columns if name != column]
+        before = [c.name for c in table.columns if c.name != column]
         assert table_digest(table, [{**row, column: old}]) == table_digest(table, [row], before)
         assert table_digest(table, [{**row, column: new}]) != table_digest(table, [row], before)
