@@ -172,7 +172,7 @@ def test_a_crash_inside_a_unit_leaves_nothing_of_it(fresh_url: str):
 
 
 def test_digests_of_rows_written_before_the_convergence_columns_still_verify():
-    """Migration 0005_h14a added ``fold_result.converged`` and
+    """Migration 0006_h14a added ``fold_result.converged`` and
     ``rank_row.folds_not_converged``; a row holding the value older rows read back digests
     as it did without the column, and any other value changes the digest."""
     from storage.digest import table_digest

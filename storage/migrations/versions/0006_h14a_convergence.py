@@ -1,8 +1,8 @@
 """Convergence in stored results: per fold whether its estimate converged, per ranking row
 how many completed folds did not.
 
-Revision ID: 0005_h14a
-Revises: 0004
+Revision ID: 0006_h14a
+Revises: 0005
 Create Date: 2026-12-03
 
 Older rows have no verdict: ``converged`` is null (unknown) and ``folds_not_converged`` 0.
@@ -13,8 +13,8 @@ from collections.abc import Sequence
 import sqlalchemy as sa
 from alembic import op
 
-revision: str = "0005_h14a"
-down_revision: str | Sequence[str] | None = "0004"
+revision: str = "0006_h14a"
+down_revision: str | Sequence[str] | None = "0005"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
