@@ -111,6 +111,8 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
         if batch:
             folds += _closed_form_folds(series, candidate, plan, z, batch)
         return tuple(sorted(folds, key=lambda f: f.fold))
+    if type(spec).fit_forecast_windows is ModelSpec.fit_forecast_windows:  # no one pass
+        return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
     seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in origins]
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
