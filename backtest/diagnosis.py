@@ -2,7 +2,8 @@
 its fit to the full series, and a summary of the fits at the folds that re-estimated.
 
 With the plan's ``assessment: "lean"`` the full-series report is left out (``None``) and
-the summary holds parameter paths only (the folds then carry no standard errors)."""
+the summary holds parameter paths only (the folds then carry no standard errors). A
+diagnostic step that raises becomes ``{"error": reason}``; the folds are kept."""
 
 from __future__ import annotations
 
@@ -39,8 +40,11 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
     stability = None
     if not candidate.spec.closed_form:
         refits = [f for f in folds if f.reestimated]
-        stability = summarise_folds([f.fit_summary for f in refits],
-                                    [_estimates(f) for f in refits])
+        try:
+            stability = summarise_folds([f.fit_summary for f in refits],
+                                        [_estimates(f) for f in refits])
+        except Exception as exc:  # a failed summary is left out, never the run
+            stability = {"error": f"{type(exc).__name__}: {exc}"}
     diagnostics = (full_series_diagnostics(series, candidate, plan.estimator)
                    if plan.assessment == "full" else None)
     return CandidateOutcome(folds, diagnostics, stability)
@@ -72,7 +76,10 @@ def full_series_diagnostics(series: Series, candidate: Candidate,
             return {"error": f"{type(exc).__name__}: {exc}"}
     fit_warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
     assessed_spec, assessed_fit = spec.assessed(fit)
-    report = fit_report(assessed_spec, assessed_fit, z, m, fit_warnings=fit_warnings)
+    try:
+        report = fit_report(assessed_spec, assessed_fit, z, m, fit_warnings=fit_warnings)
+    except Exception as exc:  # a failed report is recorded, never the run
+        return {"error": f"{type(exc).__name__}: {exc}"}
     if assessed_spec is not spec:
         report["chosen"] = assessed_spec.label(m)
     return report

@@ -57,26 +57,33 @@ def stream_backtest(series: Sequence[Series], candidates: Sequence[Candidate], p
     the order its tasks finish; its result equals the one :func:`run_backtest` returns.
     Closing the iterator early cancels the tasks not yet started.
     """
-    pool, benchmark = _with_benchmark(candidates, plan)
-    schedules = [_schedule(s, pool, plan) for s in series]
-    tasks = [(s, c, plan, origins) for s, origins in zip(series, schedules) for c in pool]
-    return _series_results(series, pool, benchmark, plan, tasks,
-                           added=benchmark not in candidates, n_jobs=n_jobs,
+    pools = [_with_benchmark(candidates, plan, s.season_length) for s in series]
+    schedules = [_schedule(s, pool, plan) for s, (pool, _) in zip(series, pools)]
+    tasks = [(s, c, plan, origins)
+             for s, origins, (pool, _) in zip(series, schedules, pools) for c in pool]
+    return _series_results(series, pools, candidates, plan, tasks, n_jobs=n_jobs,
                            progress=progress, scheduler=scheduler)
 
 
 def planned_fold_count(series: Sequence[Series], candidates: Sequence[Candidate],
                        plan: Plan) -> int:
     """The folds a backtest computes (its benchmark included); raises on bad input."""
-    pool, _ = _with_benchmark(candidates, plan)
-    return sum(len(_schedule(s, pool, plan)) for s in series) * len(pool)
+    total = 0
+    for s in series:
+        pool, _ = _with_benchmark(candidates, plan, s.season_length)
+        total += len(_schedule(s, pool, plan)) * len(pool)
+    return total
 
 
-def _series_results(series: Sequence[Series], pool: Sequence[Candidate], benchmark: Candidate,
-                    plan: Plan, tasks: Sequence[tuple], *, added: bool, n_jobs: int,
-                    progress: Progress | None, scheduler: str | None) -> Units:
+def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candidate], Candidate]],
+                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple], *,
+                    n_jobs: int, progress: Progress | None, scheduler: str | None) -> Units:
     total = sum(len(t[3]) for t in tasks)
-    done, k = 0, len(pool)
+    done = 0
+    first = [0]
+    for pool, _ in pools:
+        first.append(first[-1] + len(pool))
+    owner = [i for i, (pool, _) in enumerate(pools) for _ in pool]
     outcomes: dict[int, CandidateOutcome] = {}
     if progress is not None:
         progress(0, total)
@@ -86,20 +93,33 @@ def _series_results(series: Sequence[Series], pool: Sequence[Candidate], benchma
         if progress is not None:
             progress(done, total)
         outcomes[index] = outcome
-        i = index // k
-        if all(j in outcomes for j in range(i * k, (i + 1) * k)):
+        i = owner[index]
+        span = range(first[i], first[i + 1])
+        if all(j in outcomes for j in span):
+            pool, benchmark = pools[i]
             yield i, _series_result(series[i], pool, benchmark, plan,
-                                    [outcomes.pop(j) for j in range(i * k, (i + 1) * k)],
-                                    added=added)
+                                    [outcomes.pop(j) for j in span],
+                                    added=benchmark not in requested)
 
 
-def _with_benchmark(candidates: Sequence[Candidate], plan: Plan) -> tuple[list[Candidate],
-                                                                          Candidate]:
-    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
+def _with_benchmark(candidates: Sequence[Candidate], plan: Plan, season_length: int
+                    ) -> tuple[list[Candidate], Candidate]:
+    """The candidates of one series and its benchmark: the plan's benchmark, or a candidate
+    that forecasts the same (with m = 1 seasonal naive is naive), added if none does."""
+    method = _benchmark_method(plan.benchmark, season_length)
     pool = list(candidates)
-    if all(c.id != benchmark.id for c in pool):
-        pool.append(benchmark)
-    return pool, next(c for c in pool if c.id == benchmark.id)
+    same = [c for c in pool if isinstance(c.spec, BenchmarkSpec)
+            and _benchmark_method(c.spec.method, season_length) == method]
+    exact = [c for c in same if c.spec.method == plan.benchmark]
+    if exact or same:
+        return pool, (exact or same)[0]
+    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
+    return [*pool, benchmark], benchmark
+
+
+def _benchmark_method(method: str, season_length: int) -> str:
+    """A benchmark method by the forecasts it makes: seasonal naive with m = 1 is naive."""
+    return "naive" if method == "seasonal_naive" and season_length == 1 else method
 
 
 def _schedule(series: Series, pool: Sequence[Candidate], plan: Plan) -> tuple[Origin, ...]:
@@ -121,9 +141,10 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                                 added and c.id == benchmark.id) for c in pool)
     folds = tuple(f for o in outcomes for f in o.folds)
     scores = tuple(s for c, o in zip(pool, outcomes)
-                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels))
+                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels,
+                                            series.filled))
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
-                                      benchmark.id, plan)
+                                      benchmark.id, plan, series.filled)
     evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
     evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
     ranking = tuple(

@@ -15,12 +15,20 @@ Conventions (documented choices):
   bootstrap replications, seeded with the plan's seed.
 - ``calibration_zone``: the worst zone over the plan's levels at h = 1, where the
   one-step misses from successive origins do not overlap.
+- Candidates that make identical forecasts at every origin are listed in
+  ``comparison.identical_forecasts``; the confidence set treats models with identical
+  losses as one (they share its verdict).
+- Periods a fill policy made up are not actuals: they are left out of calibration and
+  comparisons like the periods of a failed fold.
+- A run whose only candidate is the benchmark has its scores and calibration; the
+  comparisons and the confidence set say there is nothing to compare.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
+from typing import TypeVar
 
 import numpy as np
 
@@ -39,6 +47,8 @@ MCS_REPS = 1000
 ALPHA = 0.05
 _ZONE_ORDER = ("consistent", "suspect", "excessive")
 _SQUARED = ("rmse", "rmsse")
+NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
+T = TypeVar("T")
 
 
 @dataclass(frozen=True)
@@ -50,9 +60,10 @@ class Annotation:
     calibration_zone: str | None
 
 
-def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
-             ) -> dict[str, np.ndarray]:
-    """Folds x horizons arrays in origin order; NaN where a fold failed."""
+def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
+             filled: Collection[str] = ()) -> dict[str, np.ndarray]:
+    """Folds x horizons arrays in origin order; NaN where a fold failed, and NaN actuals at
+    ``filled`` periods (made by a fill policy, never observed)."""
     n = len(folds)
     out = {"actual": np.full((n, horizon), np.nan), "point": np.full((n, horizon), np.nan),
            "scale": np.full(n, np.nan)}
@@ -60,7 +71,7 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
         out[f"lower{level}"] = np.full((n, horizon), np.nan)
         out[f"upper{level}"] = np.full((n, horizon), np.nan)
     for i, f in enumerate(sorted(folds, key=lambda f: f.fold)):
-        out["actual"][i] = f.actuals
+        out["actual"][i] = [np.nan if p in filled else a for p, a in zip(f.periods, f.actuals)]
         if f.status == "ok":
             out["point"][i] = f.point
             out["scale"][i] = np.nan if not f.scale else f.scale
@@ -71,33 +82,70 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
 
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
-                    plan: Plan) -> tuple[dict, dict[str, Annotation]]:
-    """Calibration, comparisons and confidence set for one series' candidates."""
-    arrays = {cid: matrices(folds, plan.horizon, plan.levels)
+                    plan: Plan, filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
+    """Calibration, comparisons and confidence set for one series' candidates.
+
+    A step that fails (any exception) becomes ``None``, or a ``{"reason": ...}`` section,
+    and ``unavailable`` names it with the reason: a failed statistic never stops the run.
+    """
+    unavailable: dict[str, str] = {}
+
+    def attempt(step: str, compute: Callable[[], T]) -> T | None:
+        try:
+            return compute()
+        except Exception as exc:  # evidence degrades step by step, never the run
+            unavailable[step] = f"{type(exc).__name__}: {exc}"
+            return None
+
+    filled = frozenset(filled)
+    arrays = {cid: matrices(folds, plan.horizon, plan.levels, filled)
               for cid, folds in folds_by_candidate.items()}
-    calibration = {cid: _calibration(a, plan) for cid, a in arrays.items()}
+    calibration = {cid: attempt(f"calibration.{cid}", lambda a=a: _calibration(a, plan))
+                   for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
     loss = "squared" if plan.rank_by in _SQUARED else "absolute"
     per_origin = {cid: _origin_losses(e, plan.rank_horizon, loss) for cid, e in scaled.items()}
-    comparison = {
-        "errors": "scaled by each fold's MASE scale",
-        "benchmark": compare_to_benchmark(scaled, benchmark_id, alpha=ALPHA,
-                                          origin_step=plan.step),
-        "pairwise": pairwise(scaled, alpha=ALPHA, origin_step=plan.step),
-    }
-    beats = {cid: _beats(per_origin[cid], per_origin[benchmark_id], plan, loss)
+    if len(arrays) < 2:
+        comparison: dict = {"errors": "scaled by each fold's MASE scale", "benchmark": None,
+                            "pairwise": None, "reason": NOTHING_TO_COMPARE}
+    else:
+        comparison = {
+            "errors": "scaled by each fold's MASE scale",
+            "benchmark": attempt("comparison.benchmark", lambda: compare_to_benchmark(
+                scaled, benchmark_id, alpha=ALPHA, origin_step=plan.step)),
+            "pairwise": attempt("comparison.pairwise", lambda: pairwise(
+                scaled, alpha=ALPHA, origin_step=plan.step)),
+        }
+    comparison["identical_forecasts"] = identical_forecasts(folds_by_candidate)
+    beats = {cid: attempt(f"ranking_tests.{cid}", lambda cid=cid: _beats(
+                 per_origin[cid], per_origin[benchmark_id], plan, loss))
              for cid in per_origin if cid != benchmark_id}
-    confidence_set = _confidence_set(per_origin, plan, loss)
+    confidence_set = attempt("confidence_set", lambda: _confidence_set(per_origin, plan, loss))
+    if confidence_set is None:
+        confidence_set = {"reason": unavailable["confidence_set"]}
     included = set(confidence_set.get("included", ()))
     annotations = {
         cid: Annotation(cid in included if "included" in confidence_set else None,
-                        beats.get(cid), _h1_zone(calibration[cid]))
+                        beats.get(cid), _h1_zone(calibration[cid] or []))
         for cid in arrays}
     evidence = {"calibration": calibration, "comparison": comparison,
                 "ranking_tests": {"loss": loss, "alpha": ALPHA, "horizon": plan.rank_horizon,
                                   "benchmark": {cid: b for cid, b in beats.items()}},
-                "confidence_set": confidence_set}
+                "confidence_set": confidence_set, "unavailable": unavailable}
     return evidence, annotations
+
+
+def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
+                        ) -> list[list[str]]:
+    """Groups of candidates whose every fold has the same status, point forecasts and
+    bounds: one forecast under several names, which no test can tell apart."""
+    groups: dict[tuple, list[str]] = {}
+    for cid, folds in folds_by_candidate.items():
+        key = tuple((f.fold, f.status, f.point, tuple(sorted(f.lower.items())),
+                     tuple(sorted(f.upper.items())))
+                    for f in sorted(folds, key=lambda f: f.fold))
+        groups.setdefault(key, []).append(cid)
+    return [ids for ids in groups.values() if len(ids) > 1]
 
 
 def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
@@ -130,14 +178,10 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) 
 def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
     names = list(per_origin)
     if len(names) < 2:
-        return {"reason": "a confidence set needs at least two candidates"}
+        return {"reason": NOTHING_TO_COMPARE}
     power = 2 if loss == "squared" else 1
     losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
-    try:
-        return model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS,
-                                    seed=plan.seed)
-    except ValueError as exc:
-        return {"reason": str(exc)}
+    return model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS, seed=plan.seed)
 
 
 def _h1_zone(report: list[dict]) -> str | None:

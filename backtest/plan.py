@@ -8,7 +8,7 @@ JSON form (every field optional except ``horizon``)::
      "window": "expanding" | {"kind": "sliding", "length": 60},
      "refit": 1 | 6 | "once", "warm_start": false, "assessment": "full" | "lean",
      "estimator": "reference" | "fast",
-     "levels": [80, 95], "seed": 0,
+     "levels": [80, 95], "seed": 0, "not_converged": "keep" | "fail",
      "benchmark": "seasonal_naive", "rank_by": "mase", "rank_horizon": null}
 
 Origin ``t`` means the model sees observations ``0..t-1`` (or the last ``length`` of them)
@@ -19,6 +19,11 @@ horizon of actuals exists; if there are more than ``max_origins``, the latest ar
 values instead of the family's default start values (families with an iterative
 optimiser: ARIMA, ETS). It is faster but lands on slightly different optima, so results
 differ from a cold start; it is off by default and recorded in the canonical plan.
+
+``not_converged`` says what a fold whose estimate did not converge (the optimiser's own
+verdict, or a ``ConvergenceWarning`` while estimating) counts as: ``"keep"`` (the default)
+scores its forecast and counts it in the ranking's ``folds_not_converged``; ``"fail"``
+makes it a failed fold with that reason, left out of the scores.
 
 ``assessment: "lean"`` leaves out the two model-assessment computations that cost a fit's
 worth of time per task: the coefficient standard errors of every re-estimating fold
@@ -48,8 +53,10 @@ from backtest.models.base import ESTIMATORS, Estimator
 RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
+NOT_CONVERGED = ("keep", "fail")
 _FIELDS = {"horizon", "first_origin", "step", "max_origins", "window", "refit", "warm_start",
-           "assessment", "estimator", "levels", "seed", "benchmark", "rank_by", "rank_horizon"}
+           "assessment", "estimator", "levels", "seed", "benchmark", "rank_by", "rank_horizon",
+           "not_converged"}
 
 
 @dataclass(frozen=True)
@@ -72,6 +79,7 @@ class Plan:
     warm_start: bool = False
     assessment: Literal["full", "lean"] = "full"
     estimator: Estimator = "reference"
+    not_converged: Literal["keep", "fail"] = "keep"
 
     def reestimates_at(self, origin_number: int) -> bool:
         """Whether parameters are re-estimated at the ``origin_number``-th origin (0-based)."""
@@ -91,7 +99,7 @@ class Plan:
                 "estimator": self.estimator,
                 "levels": list(self.levels), "seed": self.seed,
                 "benchmark": self.benchmark, "rank_by": self.rank_by,
-                "rank_horizon": self.rank_horizon}
+                "rank_horizon": self.rank_horizon, "not_converged": self.not_converged}
 
 
 def parse_plan(body: object) -> Plan:
@@ -118,6 +126,10 @@ def parse_plan(body: object) -> Plan:
     if estimator not in ESTIMATORS:
         raise PlanError(f"plan estimator must be one of {', '.join(ESTIMATORS)}, "
                         f"got {estimator!r}")
+    not_converged = body.get("not_converged", "keep")
+    if not_converged not in NOT_CONVERGED:
+        raise PlanError(f"plan not_converged must be one of {', '.join(NOT_CONVERGED)}, "
+                        f"got {not_converged!r}")
     levels = _levels(body.get("levels", [80, 95]))
     seed = body.get("seed", 0)
     if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**31:
@@ -136,7 +148,7 @@ def parse_plan(body: object) -> Plan:
     return Plan(horizon, first_size, first_period, _positive(body.get("step", 1), "step"),
                 _positive(body.get("max_origins"), "max_origins", optional=True),
                 window, length, refit, levels, seed, benchmark, rank_by, rank_horizon,
-                warm_start, assessment, estimator)
+                warm_start, assessment, estimator, not_converged)
 
 
 def _positive(value: object, name: str, *, required: bool = False,

@@ -30,5 +30,7 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
         ok = sum(f.status == "ok" for f in own)
         skill = score / reference if score is not None and reference else None
         rows.append(RankRow(position if score is not None else None, c.candidate_id, c.label,
-                            score, skill, c.candidate_id == benchmark_id, ok, len(own) - ok))
+                            score, skill, c.candidate_id == benchmark_id, ok, len(own) - ok,
+                            folds_not_converged=sum(f.status == "ok" and f.converged is False
+                                                    for f in own)))
     return tuple(rows)

@@ -21,7 +21,9 @@ class FoldResult:
     the in-sample mean absolute seasonal-naive error of the training window (MASE
     denominator), ``scale_sq`` the mean squared one-step naive error (RMSSE denominator).
     ``fit_summary`` (re-estimated folds of families with standard errors) holds coefficient
-    standard errors and p-values, convergence and a Ljung-Box p-value.
+    standard errors and p-values, convergence and a Ljung-Box p-value. ``converged`` is
+    whether the estimate the fold forecasts with reached the optimiser's convergence (kept
+    folds inherit it; ``None`` without an iterative optimiser or without a fit).
     """
 
     series_key: str
@@ -43,6 +45,7 @@ class FoldResult:
     scale: float | None
     scale_sq: float | None
     fit_summary: dict[str, Any] | None = None
+    converged: bool | None = None
 
 
 @dataclass(frozen=True)
@@ -60,7 +63,10 @@ class Score:
 
 @dataclass(frozen=True)
 class RankRow:
-    """A candidate's place in a series' ranking by the plan's score and horizon."""
+    """A candidate's place in a series' ranking by the plan's score and horizon.
+
+    ``folds_not_converged`` counts the completed folds whose estimate did not converge
+    (under the plan's ``not_converged: "fail"`` they are failed folds instead)."""
 
     rank: int | None
     candidate_id: str
@@ -73,6 +79,7 @@ class RankRow:
     in_confidence_set: bool | None = None
     beats_benchmark: bool | None = None
     calibration_zone: str | None = None
+    folds_not_converged: int = 0
 
 
 @dataclass(frozen=True)

@@ -5,9 +5,12 @@ forecasts from its end. In between, parameters are kept and the model is updated
 observations that arrived since the last estimation: the forecast conditions on the data
 from the start of the last estimation window up to the origin (Tashman 2000's
 "rolling-origin-update"). Closed-form families re-estimate at every origin. Nothing after
-an origin is ever passed to the model. A fold that raises becomes a failed fold with its
-reason; warnings are captured per fold (those raised while forecasting a stretch of kept
-parameters in one pass are recorded on each fold of the stretch). With the plan's
+an origin is ever passed to the model: periods a fill policy made up at the end of a window
+are carried forward from the last observed value, not interpolated towards later data. A
+fold that raises becomes a failed fold with its reason; warnings are captured per fold:
+when a one-pass computation over several origins (closed-form windows, a stretch of kept
+parameters) raises or warns, its origins are computed again one by one, so each fold
+carries only what its own origin raised. With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
 gets no fit summary, and a ``raw_optional`` family builds no results object for it. With
@@ -21,12 +24,13 @@ import zlib
 from collections.abc import Sequence
 
 import numpy as np
+from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
 from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.metrics import mase_scale, rmsse_scale
-from backtest.models import Fit, Forecast
+from backtest.models import Fit, Forecast, ModelSpec
 from backtest.models.base import back_transform
 from backtest.plan import Plan
 from backtest.results import FoldResult
@@ -69,7 +73,7 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
                     ) -> tuple[FoldResult, Fit | None]:
     spec, m = candidate.spec, series.season_length
     seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
-    window = z[origin.start:origin.end]
+    window = _known(series, spec, z, origin.end)[origin.start:]
     fit, forecast, error, summary = None, None, None, None
     warm = plan.warm_start and spec.warm_startable and previous is not None
     options: dict = {"start_params": previous.params} if warm else {}
@@ -87,6 +91,9 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
             fit, forecast, error = None, None, _reason(exc)
     if fit is not None and not spec.closed_form and plan.assessment == "full":
         summary = fold_fit_summary(*spec.assessed(fit), window, m)
+    converged = _converged(fit, caught)
+    if fit is not None and fit.converged is None and converged is False:
+        fit = Fit(fit.params, fit.raw, False, fit.rescaled_by)
     fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
                  _messages(caught), summary)
     return fold, fit
@@ -94,8 +101,18 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
 
 def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                        origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
-    """Closed-form families: every origin re-estimated, all windows in one call."""
+    """Closed-form families: every origin re-estimated, all windows in one call (origins
+    whose window ends in a filled period on their own, see :func:`_known`)."""
     spec = candidate.spec
+    alone = [o for o in origins if series.is_filled(o.end - 1)]
+    if alone:
+        batch = [o for o in origins if not series.is_filled(o.end - 1)]
+        folds = [_estimated_fold(series, candidate, plan, z, o)[0] for o in alone]
+        if batch:
+            folds += _closed_form_folds(series, candidate, plan, z, batch)
+        return tuple(sorted(folds, key=lambda f: f.fold))
+    if type(spec).fit_forecast_windows is ModelSpec.fit_forecast_windows:  # no one pass
+        return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
     seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in origins]
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -105,9 +122,8 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
                                               plan.horizon, plan.levels, seeds)
         except Exception:  # isolate the failing origins one by one below
             pairs = None
-    if pairs is None:
+    if pairs is None or caught:  # per origin, so each fold gets its own failure or warnings
         return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
-    shared = _messages(caught)
     folds = []
     for origin, (fit, forecast) in zip(origins, pairs):
         try:
@@ -115,14 +131,19 @@ def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.n
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, origin.start, True, fit, forecast,
-                           error, shared))
+                           error, ()))
     return tuple(folds)
 
 
 def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                 stretch: Sequence[Origin], fit: Fit, fit_start: int) -> list[FoldResult]:
-    """Folds that keep ``fit``'s parameters, forecast in one pass where the family can."""
+    """Folds that keep ``fit``'s parameters, forecast in one pass where the family can
+    (origins whose window ends in a filled period on their own, see :func:`_known`)."""
     spec, m = candidate.spec, series.season_length
+    if any(series.is_filled(o.end - 1) for o in stretch):
+        return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start,
+                                  fold_seed(plan.seed, series.key, candidate.id, o.number))
+                for o in stretch]
     seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in stretch]
     ends = [o.end - fit_start for o in stretch]
     with warnings.catch_warnings(record=True) as caught:
@@ -132,10 +153,9 @@ def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
                                         plan.horizon, plan.levels, seeds)
         except Exception:  # isolate the failing origins one by one below
             raw = None
-    if raw is None:
+    if raw is None or caught:  # per origin, so each fold gets its own failure or warnings
         return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start, seed)
                 for o, seed in zip(stretch, seeds)]
-    shared = _messages(caught)
     folds = []
     for origin, forecast in zip(stretch, raw):
         try:
@@ -143,7 +163,7 @@ def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
         except Exception as exc:
             forecast, error = None, _reason(exc)
         folds.append(_fold(series, candidate, plan, origin, fit_start, False, fit, forecast,
-                           error, shared))
+                           error, ()))
     return folds
 
 
@@ -153,13 +173,33 @@ def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.nd
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            forecast = spec.forecast(z[fit_start:origin.end], series.season_length, fit.params,
+            forecast = spec.forecast(_known(series, spec, z, origin.end)[fit_start:],
+                                     series.season_length, fit.params,
                                      plan.horizon, plan.levels, seed)
             forecast, error = back_transform(spec.transform, forecast), None
         except Exception as exc:  # a fold's failure must never crash the run
             forecast, error = None, _reason(exc)
     return _fold(series, candidate, plan, origin, fit_start, False, fit, forecast, error,
                  _messages(caught))
+
+
+def _known(series: Series, spec: ModelSpec, z: np.ndarray, end: int) -> np.ndarray:
+    """The transformed data up to ``end`` as known at that origin: ``z[:end]``, unless the
+    window ends in filled periods, which are then carried forward from the last observed
+    value (the whole-series fill interpolated them towards later data)."""
+    if not series.is_filled(end - 1):
+        return z[:end]
+    return spec.transform.forward(series.as_of(end))
+
+
+def _converged(fit: Fit | None, caught: list[warnings.WarningMessage]) -> bool | None:
+    """The optimiser's verdict; without one, ``False`` if statsmodels warned that it did not
+    converge."""
+    if fit is None or fit.converged is not None:
+        return None if fit is None else fit.converged
+    if any(issubclass(w.category, ConvergenceWarning) for w in caught):
+        return False
+    return None
 
 
 def _reason(exc: Exception) -> str:
@@ -176,13 +216,16 @@ def _messages(caught: list[warnings.WarningMessage]) -> tuple[str, ...]:
 def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, start: int,
           reestimated: bool, fit: Fit | None, forecast: Forecast | None, error: str | None,
           caught: tuple[str, ...], summary: dict | None = None) -> FoldResult:
-    train = np.asarray(series.values[start:origin.end], dtype=float)
+    train = series.as_of(origin.end)[start:]
     target = range(origin.end, origin.end + plan.horizon)
     ok = forecast is not None
 
     def values(a: np.ndarray) -> tuple[float, ...]:
         return tuple(float(v) for v in a)
 
+    converged = None if fit is None else fit.converged
+    if ok and converged is False and plan.not_converged == "fail":
+        ok, error = False, "the estimate did not converge (plan: not_converged = fail)"
     scale, scale_sq = mase_scale(train, series.season_length), rmsse_scale(train)
     return FoldResult(
         series_key=series.key, candidate_id=candidate.id, fold=origin.number,
@@ -197,5 +240,5 @@ def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, star
         upper={lv: values(b) for lv, b in forecast.upper.items()} if ok else {},
         scale=scale if np.isfinite(scale) else None,
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
-        fit_summary=summary,
+        fit_summary=summary, converged=converged,
     )

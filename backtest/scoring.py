@@ -6,11 +6,13 @@ training-window scale: MASE by the mean absolute seasonal-naive error, RMSSE by 
 squared one-step naive error (so pooled RMSSE is ``sqrt(mean(e^2 / scale_sq))``), MSIS by
 the MASE scale. Points whose measure is undefined (zero scale; sMAPE's 0/0) are left out
 and the score's ``note`` says how many; a score with no defined point is ``None``.
+Periods a fill policy made up (never observed) are not actuals: they are left out of every
+score, and the note counts them.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 
 import numpy as np
 
@@ -22,20 +24,28 @@ LEVEL_METRICS = ("coverage", "winkler", "msis")
 
 
 def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int,
-                    levels: Sequence[int]) -> list[Score]:
-    """All scores of one candidate; ``folds`` may include failed ones (they are skipped)."""
+                    levels: Sequence[int], filled: Collection[str] = ()) -> list[Score]:
+    """All scores of one candidate; ``folds`` may include failed ones (they are skipped).
+
+    Target periods in ``filled`` (made by a fill policy, never observed) are not actuals:
+    they are left out of every score, which counts them in its ``note``."""
     done = [f for f in folds if f.status == "ok"]
     columns: list[int | None] = [*range(1, horizon + 1), None]
     if not done:
         return [Score(candidate_id, h, name, level, None, 0, "no fold completed")
                 for h in columns for name, level in _names(levels)]
-    arrays = _stack(done, levels)
+    arrays = _stack(done, levels, frozenset(filled))
     out = []
     for h in columns:
         cols = slice(None) if h is None else slice(h - 1, h)
-        out.extend(_point_scores(candidate_id, h, arrays, cols))
+        observed = arrays["observed"][:, cols]
+        points = {name: np.broadcast_to(a, arrays["actual"].shape)[:, cols][observed]
+                  for name, a in arrays.items() if name != "observed"}
+        left = int(observed.size - observed.sum())
+        unfilled = f"{left} filled period(s) left out: not observed" if left else None
+        out.extend(_point_scores(candidate_id, h, points, unfilled))
         for level in levels:
-            out.extend(_level_scores(candidate_id, h, arrays, cols, level))
+            out.extend(_level_scores(candidate_id, h, points, level, unfilled))
     return out
 
 
@@ -43,13 +53,15 @@ def _names(levels: Sequence[int]) -> list[tuple[str, int | None]]:
     return [(m, None) for m in POINT_METRICS] + [(m, lv) for lv in levels for m in LEVEL_METRICS]
 
 
-def _stack(folds: Sequence[FoldResult], levels: Sequence[int]) -> dict[str, np.ndarray]:
+def _stack(folds: Sequence[FoldResult], levels: Sequence[int],
+           filled: frozenset[str]) -> dict[str, np.ndarray]:
     arrays = {
         "actual": np.array([f.actuals for f in folds], dtype=float),
         "point": np.array([f.point for f in folds], dtype=float),
         "scale": np.array([np.nan if f.scale is None else f.scale for f in folds])[:, None],
         "scale_sq": np.array([np.nan if f.scale_sq is None else f.scale_sq
                               for f in folds])[:, None],
+        "observed": np.array([[p not in filled for p in f.periods] for f in folds], dtype=bool),
     }
     for level in levels:
         arrays[f"lower{level}"] = np.array([f.lower[level] for f in folds], dtype=float)
@@ -57,8 +69,11 @@ def _stack(folds: Sequence[FoldResult], levels: Sequence[int]) -> dict[str, np.n
     return arrays
 
 
+def _joined(*notes: str | None) -> str | None:
+    return "; ".join(n for n in notes if n) or None
+
+
 def _scaled_mean(values: np.ndarray, scale: np.ndarray) -> tuple[float | None, int, str | None]:
-    scale = np.broadcast_to(scale, values.shape)
     ok = np.isfinite(scale) & (scale > 0) & np.isfinite(values)
     left_out = int(values.size - ok.sum())
     if not ok.any():
@@ -67,10 +82,15 @@ def _scaled_mean(values: np.ndarray, scale: np.ndarray) -> tuple[float | None, i
     return float(np.mean(values[ok] / scale[ok])), int(ok.sum()), note
 
 
-def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray], cols: slice) -> list[Score]:
-    actual, point = a["actual"][:, cols], a["point"][:, cols]
+def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
+                  unfilled: str | None) -> list[Score]:
+    actual, point = a["actual"], a["point"]
     errors = actual - point
     n = errors.size
+    if not n:
+        return [Score(cid, h, name, None, None, 0, _joined(unfilled, "undefined: no observed "
+                                                                    "actual"))
+                for name in POINT_METRICS]
     mase, n_mase, note_mase = _scaled_mean(np.abs(errors), a["scale"])
     msse, n_rmsse, note_rmsse = _scaled_mean(errors**2, a["scale_sq"])
     terms = metrics.smape_terms(actual, point)
@@ -81,20 +101,24 @@ def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray], cols: slice
         smape_note = (f"{int((~defined).sum())} point(s) with actual = forecast = 0 left out"
                       if defined.any() else "undefined: every actual and forecast is 0")
     return [
-        Score(cid, h, "mase", None, mase, n_mase, note_mase),
+        Score(cid, h, "mase", None, mase, n_mase, _joined(unfilled, note_mase)),
         Score(cid, h, "rmsse", None, None if msse is None else float(np.sqrt(msse)), n_rmsse,
-              note_rmsse),
-        Score(cid, h, "smape", None, smape, int(defined.sum()), smape_note),
-        Score(cid, h, "mae", None, float(np.mean(np.abs(errors))), n),
-        Score(cid, h, "rmse", None, float(np.sqrt(np.mean(errors**2))), n),
-        Score(cid, h, "me", None, float(np.mean(errors)), n),
+              _joined(unfilled, note_rmsse)),
+        Score(cid, h, "smape", None, smape, int(defined.sum()), _joined(unfilled, smape_note)),
+        Score(cid, h, "mae", None, float(np.mean(np.abs(errors))), n, unfilled),
+        Score(cid, h, "rmse", None, float(np.sqrt(np.mean(errors**2))), n, unfilled),
+        Score(cid, h, "me", None, float(np.mean(errors)), n, unfilled),
     ]
 
 
-def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], cols: slice,
-                  level: int) -> list[Score]:
-    actual = a["actual"][:, cols]
-    lower, upper = a[f"lower{level}"][:, cols], a[f"upper{level}"][:, cols]
+def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], level: int,
+                  unfilled: str | None) -> list[Score]:
+    actual = a["actual"]
+    lower, upper = a[f"lower{level}"], a[f"upper{level}"]
+    if not actual.size:
+        return [Score(cid, h, name, level, None, 0, _joined(unfilled, "undefined: no observed "
+                                                                     "actual"))
+                for name in LEVEL_METRICS]
     coverage = float(np.mean(metrics.hits(lower, upper, actual)))
     scores = metrics.interval_score(lower, upper, actual, level)
     finite = np.isfinite(scores)
@@ -104,7 +128,7 @@ def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], cols: slice
     if not finite.all():
         msis, msis_note = None, winkler_note
     return [
-        Score(cid, h, "coverage", level, coverage, actual.size),
-        Score(cid, h, "winkler", level, winkler, actual.size, winkler_note),
-        Score(cid, h, "msis", level, msis, n_msis, msis_note),
+        Score(cid, h, "coverage", level, coverage, actual.size, unfilled),
+        Score(cid, h, "winkler", level, winkler, actual.size, _joined(unfilled, winkler_note)),
+        Score(cid, h, "msis", level, msis, n_msis, _joined(unfilled, msis_note)),
     ]

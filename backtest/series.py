@@ -40,6 +40,22 @@ class Series:
         """Canonical labels of all observations."""
         return [self.label(i) for i in range(len(self))]
 
+    def as_of(self, end: int) -> np.ndarray:
+        """The first ``end`` values as known at an origin after ``end`` periods: a fill
+        that reaches the last of them carries the last observed value forward instead of
+        interpolating towards later data (gaps inside the window are the same either way).
+        """
+        values = np.array(self.values[:end], dtype=float)
+        last = end - 1
+        while last > 0 and self.is_filled(last):
+            last -= 1
+        values[last + 1:] = values[last]
+        return values
+
+    def is_filled(self, index: int) -> bool:
+        """Whether the value at ``index`` was made by the fill policy, not observed."""
+        return bool(self.filled) and self.label(index) in self.filled
+
     def index_of(self, label: str) -> int:
         """Observation index of a period label (may be outside the data)."""
         offset = self.frequency.position(label) - self.start

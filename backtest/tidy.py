@@ -26,8 +26,8 @@ FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "tr
 SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric", "level",
                  "value", "count", "note")
 RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
-                   "is_benchmark", "folds_ok", "folds_failed", "in_confidence_set",
-                   "beats_benchmark", "calibration_zone")
+                   "is_benchmark", "folds_ok", "folds_failed", "folds_not_converged",
+                   "in_confidence_set", "beats_benchmark", "calibration_zone")
 
 
 def read_series_csv(text: str, *, frequency: str | None = None,
@@ -127,7 +127,8 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
             yield {"series_key": sr.series["key"], "rank": r.rank,
                    "candidate_id": r.candidate_id, "candidate": r.label, "score": r.score,
                    "skill": r.skill, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
-                   "folds_failed": r.folds_failed, "in_confidence_set": r.in_confidence_set,
+                   "folds_failed": r.folds_failed, "folds_not_converged": r.folds_not_converged,
+                   "in_confidence_set": r.in_confidence_set,
                    "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone}
 
 

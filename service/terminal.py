@@ -54,7 +54,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
     """
     levels = sorted({lv for c in (coverage or {}).values() for lv in c})
     head = ["#", "candidate", score_name, "vs bench", *[f"cover{lv}" for lv in levels],
-            "signif.", "conf.set", "calibration", "failed"]
+            "signif.", "conf.set", "calibration", "failed", "not conv."]
     body = []
     for r in rows:
         cover = (coverage or {}).get(r["candidate_id"], {})
@@ -66,6 +66,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
             _flag(r["beats_benchmark"], "better", "no"),
             _flag(r["in_confidence_set"], "in", "out"),
             r["calibration_zone"] or "", str(r["folds_failed"]),
+            str(r["folds_not_converged"]),
         ])
     widths = [max(len(x) for x in col) for col in zip(head, *body)]
     lines = [title]

@@ -84,7 +84,7 @@ def _add_fold(rows: Rows, key: dict[str, Any], fold: FoldResult, position: int) 
         "params": None if fold.params is None else to_jsonable(fold.params),
         "fit_summary": None if fold.fit_summary is None else to_jsonable(fold.fit_summary),
         "has_point": fold.point is not None, "scale": _number(fold.scale),
-        "scale_sq": _number(fold.scale_sq)})
+        "scale_sq": _number(fold.scale_sq), "converged": fold.converged})
     rows[WARNINGS].extend({**key, "position": i, "message": message}
                           for i, message in enumerate(fold.warnings))
     for h, period in enumerate(fold.periods, start=1):
@@ -108,7 +108,9 @@ def _rank_row(row: RankRow) -> dict[str, Any]:
     return {"candidate_id": row.candidate_id, "rank": row.rank, "label": row.label,
             "score": _number(row.score), "skill": _number(row.skill),
             "is_benchmark": row.is_benchmark, "folds_ok": int(row.folds_ok),
-            "folds_failed": int(row.folds_failed), "in_confidence_set": row.in_confidence_set,
+            "folds_failed": int(row.folds_failed),
+            "folds_not_converged": int(row.folds_not_converged),
+            "in_confidence_set": row.in_confidence_set,
             "beats_benchmark": row.beats_benchmark, "calibration_zone": row.calibration_zone}
 
 
@@ -139,7 +141,8 @@ def folds_of(series_key: str, rows: Mapping[Table, Sequence[Row]]) -> tuple[Fold
             point=tuple(_float(s["point"]) for s in steps) if f["has_point"] else None,
             lower={lv: tuple(_float(b["lower"]) for b in bs) for lv, bs in sorted(levels.items())},
             upper={lv: tuple(_float(b["upper"]) for b in bs) for lv, bs in sorted(levels.items())},
-            scale=f["scale"], scale_sq=f["scale_sq"], fit_summary=f["fit_summary"]))
+            scale=f["scale"], scale_sq=f["scale_sq"], fit_summary=f["fit_summary"],
+            converged=f["converged"]))
     return tuple(out)
 
 
@@ -152,7 +155,8 @@ def _scores(rows: Sequence[Row]) -> tuple[Score, ...]:
 def _ranking(rows: Sequence[Row]) -> tuple[RankRow, ...]:
     return tuple(RankRow(r["rank"], r["candidate_id"], r["label"], r["score"], r["skill"],
                          r["is_benchmark"], r["folds_ok"], r["folds_failed"],
-                         r["in_confidence_set"], r["beats_benchmark"], r["calibration_zone"])
+                         r["in_confidence_set"], r["beats_benchmark"], r["calibration_zone"],
+                         r["folds_not_converged"])
                  for r in sorted(rows, key=lambda r: r["position"]))
 
 

@@ -32,6 +32,7 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
+from storage.digest import ADDED_LATER
 from storage.types import JsonType, UtcDateTime
 
 NAMING_CONVENTION = {
@@ -269,6 +270,7 @@ class FoldRecord(Base):
     has_point: Mapped[bool]
     scale: Mapped[float | None]
     scale_sq: Mapped[float | None]
+    converged: Mapped[bool | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class ForecastRecord(Base):
@@ -372,6 +374,8 @@ class RankRecord(Base):
     is_benchmark: Mapped[bool]
     folds_ok: Mapped[int]
     folds_failed: Mapped[int]
+    folds_not_converged: Mapped[int] = mapped_column(server_default="0",
+                                                     info={ADDED_LATER: 0})
     in_confidence_set: Mapped[bool | None]
     beats_benchmark: Mapped[bool | None]
     calibration_zone: Mapped[Label | None]

@@ -211,8 +211,11 @@ def model_confidence_set(losses: np.ndarray, names: Sequence[str], *, size: floa
     -------
     dict
         ``included`` and ``excluded`` names (excluded in elimination order), ``p_values``
-        (name -> MCS p-value), and the settings used: size, method, bootstrap, reps,
-        block_size, seed (``None`` for a caller's Generator), n, rows_dropped.
+        (name -> MCS p-value), ``ties`` (groups of models with identical losses: the set is
+        computed over the first of each group and the others share its verdict and p-value;
+        when all are tied all are included with p-value 1), and the settings used: size,
+        method, bootstrap, reps, block_size, seed (``None`` for a caller's Generator), n,
+        rows_dropped.
     """
     matrix, labels = _validate_mcs(losses, names)
     kept = matrix[np.all(np.isfinite(matrix), axis=1)]
@@ -222,17 +225,41 @@ def model_confidence_set(losses: np.ndarray, names: Sequence[str], *, size: floa
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])
     recorded = None if isinstance(seed, np.random.Generator) else int(seed)
-    mcs = MCS(pd.DataFrame(kept, columns=labels), size=size, reps=int(reps),
-              block_size=block, method=method, bootstrap="stationary", seed=seed)
-    mcs.compute()
-    p_values = mcs.pvalues.iloc[:, 0]
-    return {"included": [str(n) for n in labels if n in set(mcs.included)],
-            "excluded": [str(n) for n in mcs.excluded],
-            "p_values": {str(n): number(p_values[n]) for n in labels},
+    tied = _tied_columns(kept)
+    distinct = [labels[j] for j in sorted(set(tied.values()))]
+    if len(distinct) == 1:
+        included, excluded, p = list(labels), [], dict.fromkeys(labels, 1.0)
+    else:
+        columns = sorted(set(tied.values()))
+        mcs = MCS(pd.DataFrame(kept[:, columns], columns=distinct), size=size, reps=int(reps),
+                  block_size=block, method=method, bootstrap="stationary", seed=seed)
+        mcs.compute()
+        first = mcs.pvalues.iloc[:, 0]
+        p = {n: float(first[labels[tied[j]]]) for j, n in enumerate(labels)}
+        kept_names = set(mcs.included)
+        included = [n for j, n in enumerate(labels) if labels[tied[j]] in kept_names]
+        excluded = [n for e in mcs.excluded for j, n in enumerate(labels)
+                    if labels[tied[j]] == e]
+    return {"included": included, "excluded": excluded,
+            "p_values": {n: number(p[n]) for n in labels},
+            "ties": [[labels[j] for j in tied if tied[j] == r] for r in sorted(set(tied.values()))
+                     if sum(v == r for v in tied.values()) > 1],
             "size": size, "method": method, "bootstrap": "stationary", "reps": int(reps),
             "block_size": block,
             "seed": recorded,
             "n": len(kept), "rows_dropped": len(matrix) - len(kept)}
+
+
+def _tied_columns(matrix: np.ndarray) -> dict[int, int]:
+    """Column -> the first column with exactly the same losses (itself if none).
+
+    Models with identical losses cannot be told apart and make the bootstrap's variance of
+    their difference zero (``arch`` then fails), so the set is computed over one model of
+    each tie and every tied model shares its verdict and p-value."""
+    out: dict[int, int] = {}
+    for j in range(matrix.shape[1]):
+        out[j] = next(r for r in range(j + 1) if np.array_equal(matrix[:, r], matrix[:, j]))
+    return out
 
 
 def _validate_mcs(losses: np.ndarray, names: Sequence[str]) -> tuple[np.ndarray, list[str]]:

@@ -6,8 +6,12 @@ invertibility enforced). Forecasts with given parameters come from the Kalman fi
 the training window, so a kept parameter set still conditions on every observation up to
 the origin.
 
-A fit follows statsmodels' optimiser path exactly but keeps only the filter output (no
-smoother, no default covariance): the estimates are the same, the results still give
+Data whose differenced spread is extreme (log data of a smooth series: innovation variance
+near 1e-6) are multiplied by a power of two before estimation (:meth:`ArimaSpec.rescaling`);
+the estimate is mapped back exactly (constant and drift divided by the factor, the variance
+by its square) and the results, likelihood and forecasts are computed on the original data.
+A fit otherwise follows statsmodels' optimiser path exactly but keeps only the filter
+output (no smoother, no default covariance): the estimates are the same, the results still give
 residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
 forecast from the estimation origin is read off that filter output. A stretch of origins
 with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
@@ -128,9 +132,39 @@ class ArimaSpec(ModelSpec):
         # the optimiser path, and so every estimate, is unchanged.
         model.ssm.set_conserve_memory(MEMORY_NO_SMOOTHING)
         start = None if start_params is None else vector(model, start_params)
-        fitted = model.fit(start_params=start, cov_type="none")
+        factor = self.rescaling(y, season_length)
+        if factor == 1.0:
+            fitted = model.fit(start_params=start, cov_type="none")
+        else:
+            scaled = self.model(np.asarray(y, dtype=float) * factor, season_length)
+            scaled.ssm.set_conserve_memory(MEMORY_NO_SMOOTHING)
+            powers = _scale_powers(model)
+            estimate = scaled.fit(start_params=None if start is None else start * factor**powers,
+                                  cov_type="none")
+            # the results on the original data at the estimate mapped back: likelihood,
+            # residuals, covariances and forecasts are those of the unscaled model
+            fitted = model.filter(estimate.params / factor**powers, cov_type="none")
+            fitted.mle_retvals, fitted.mle_settings = estimate.mle_retvals, estimate.mle_settings
         names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
-        return Fit(dict(zip(names, map(float, fitted.params))), fitted)
+        converged = (fitted.mle_retvals or {}).get("converged")
+        return Fit(dict(zip(names, map(float, fitted.params))), fitted,
+                   None if converged is None else bool(converged), factor)
+
+    def rescaling(self, y: np.ndarray, season_length: int) -> float:
+        """The power of two the data are multiplied by before estimation: 1 unless the
+        standard deviation of the differenced data lies outside [1e-2, 1e3], then the power
+        of two that brings it nearest 1. With an innovation variance near 1e-6 (log data
+        of a smooth series) statsmodels' optimiser stops short of the maximum; a power of
+        two changes no digit of the data, and the estimate is mapped back exactly."""
+        x = np.diff(np.asarray(y, dtype=float), n=self.order[1])
+        if self.seasonal is not None:
+            period = self.season_period(season_length)
+            for _ in range(self.seasonal[1]):
+                x = x[period:] - x[:-period]
+        spread = float(np.std(x)) if len(x) > 1 else 0.0
+        if not np.isfinite(spread) or spread == 0.0 or 1e-2 <= spread <= 1e3:
+            return 1.0
+        return 2.0 ** -round(float(np.log2(spread)))
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         """The fit with its model parameters only (without the ``estimator`` record)."""
@@ -188,6 +222,13 @@ class ArimaSpec(ModelSpec):
         if self.deterministic == "drift":
             return params["drift"] * (times + 1.0)
         return np.zeros(times.shape)
+
+
+def _scale_powers(model: ARIMA) -> np.ndarray:
+    """Per parameter, the power of the data's scale it carries: 1 for the constant and the
+    drift, 2 for the innovation variance, 0 for AR and MA coefficients."""
+    return np.array([2.0 if n == "sigma2" else 1.0 if n in RENAMED_PARAMETERS else 0.0
+                     for n in model.param_names])
 
 
 def vector(model: ARIMA, params: Params) -> np.ndarray:

@@ -177,7 +177,7 @@ class ArimaSearchSpec(ModelSpec):
         params = {**encode_order(chosen.spec), **estimates, **selection.summary()}
         if differencing.seasonal_strength is not None:
             params["search.seasonal_strength"] = differencing.seasonal_strength
-        return Fit(params, raw)
+        return Fit(params, raw, True)  # the search accepts converged fits only
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:

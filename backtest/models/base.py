@@ -31,10 +31,15 @@ class Fit:
 
     ``raw`` (e.g. statsmodels' ARIMA results) lets the assessment code compute standard
     errors and residual tests; it stays inside the worker process and is never returned.
+    ``converged`` is the optimiser's verdict (``None``: no iterative optimiser, or not
+    reported); ``rescaled_by`` the factor the data were multiplied by before estimation
+    (the parameters are on the original scale).
     """
 
     params: Params
     raw: Any = None
+    converged: bool | None = None
+    rescaled_by: float = 1.0
 
 
 @dataclass(frozen=True, eq=False)

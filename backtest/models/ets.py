@@ -12,12 +12,14 @@ covariance, for every origin.
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import ClassVar, Literal
 
 import numpy as np
 import pandas as pd
+from statsmodels.tools.sm_exceptions import ConvergenceWarning
 from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 
 from backtest.errors import CandidateError
@@ -103,7 +105,9 @@ class EtsSpec(ModelSpec):
         model = self.model(y, season_length)
         start = None if start_params is None else _vector(model, start_params)
         fitted = model.fit(start_params=start, disp=False)
-        return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted)
+        converged = (getattr(fitted, "mle_retvals", None) or {}).get("converged")
+        return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted,
+                   None if converged is None else bool(converged))
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
@@ -136,8 +140,14 @@ class EtsSpec(ModelSpec):
         else:
             model = self.model(y, season_length)
             start = None if start_params is None else _vector(model, start_params)
-            vector = model.fit(start_params=start, disp=False, return_params=True)
-            fit = Fit(dict(zip(model.param_names, map(float, vector))))
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                vector = model.fit(start_params=start, disp=False, return_params=True)
+            for w in caught:  # passed on to the caller, who records them
+                warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+            # statsmodels warns exactly when its optimiser reports no convergence
+            converged = not any(issubclass(w.category, ConvergenceWarning) for w in caught)
+            fit = Fit(dict(zip(model.param_names, map(float, vector))), None, converged)
             fitted, states = model.smooth(vector, return_raw=True)
         return fit, self._from_pass(y, season_length, fit.params, fitted.to_numpy(float),
                                     states, [len(y)], horizon, levels, [seed])[0]

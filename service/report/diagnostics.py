@@ -179,6 +179,9 @@ def _roots(d: dict) -> Html:
 def _stability(stability: dict | None) -> Html:
     if not stability:
         return Html("")
+    if "error" in stability:
+        return element("p", f"The summary of the re-estimating folds failed: "
+                            f"{stability['error']}", cls="alert")
     unstable = stability.get("unstable") or []
     box = stability.get("ljung_box") or {}
     finding = ("flagged unstable: " + ", ".join(unstable) if unstable

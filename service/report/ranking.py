@@ -38,7 +38,8 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
              MISSING if r.is_benchmark else verdict(r.beats_benchmark, "yes", "no"),
              verdict(r.in_confidence_set, "in", "out")
              + (f" (p {p_value(mcs_p[r.candidate_id])})" if r.candidate_id in mcs_p else ""),
-             r.calibration_zone or MISSING, f"{r.folds_ok} / {r.folds_failed}")
+             r.calibration_zone or MISSING,
+             f"{r.folds_ok} / {r.folds_failed} / {r.folds_not_converged}")
             for r in sr.ranking]
     parts: list[object] = [
         element("h3", "Ranking"),
@@ -49,7 +50,7 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
                      "told apart from the best (Hansen, Lunde & Nason 2011).", cls="note"),
         table(["rank", "candidate", metric, "skill vs benchmark",
                "significantly better than benchmark", set_name, "calibration at h = 1",
-               "folds ok / failed"], rows, numeric=(0, 2, 3, 7), cls="ranking"),
+               "folds ok / failed / not converged"], rows, numeric=(0, 2, 3, 7), cls="ranking"),
         charts.embed(score_by_horizon_chart(sr, metric=plan["rank_by"], unit=unit),
                      f"{metric} of every candidate at each horizon, averaged over the origins; "
                      "the benchmark is the thick black dashed line."),

@@ -56,7 +56,8 @@ ScoreMetricFilter = Annotated[Literal[POINT_METRICS + LEVEL_METRICS] | None,  # 
 SeriesKeyFilter = Annotated[str | None, Query(max_length=200, description="one series")]
 CandidateFilter = Annotated[str | None, Query(max_length=17, description="one candidate id")]
 DIAGNOSTIC_SECTIONS = ("diagnostics", "stability")
-EVIDENCE_SECTIONS = ("calibration", "comparison", "ranking_tests", "confidence_set")
+EVIDENCE_SECTIONS = ("calibration", "comparison", "ranking_tests", "confidence_set",
+                     "unavailable")
 
 
 def _responses(row: type[BaseModel], csv_columns: tuple[str, ...] | None = None) -> dict:

@@ -74,6 +74,7 @@ class RunRankRow(Row):
     is_benchmark: bool
     folds_ok: int
     folds_failed: int
+    folds_not_converged: int
     in_confidence_set: bool | None
     beats_benchmark: bool | None
     calibration_zone: str | None

@@ -129,7 +129,7 @@ def test_ranking_rows_show_rank_score_skill_and_tests(run, report):
         assert cells[3] == ("–" if r.is_benchmark else f"{r.skill:.3f}")
         assert cells[5].startswith("in" if r.in_confidence_set else "out")
         assert cells[6] == r.calibration_zone
-        assert cells[7] == f"{r.folds_ok} / {r.folds_failed}"
+        assert cells[7] == f"{r.folds_ok} / {r.folds_failed} / {r.folds_not_converged}"
 
 
 def test_provenance_names_versions_candidates_plan_and_software(run, report):

@@ -94,7 +94,8 @@ def test_diagnostics_and_evidence_are_the_stored_documents(finished):
     assert evidence["items"][0]["sections"]["confidence_set"] == \
         result.series[0].evidence["confidence_set"]
     assert set(evidence["items"][0]["sections"]) == {"calibration", "comparison",
-                                                     "ranking_tests", "confidence_set"}
+                                                     "ranking_tests", "confidence_set",
+                                                     "unavailable"}
 
 
 def test_csv_has_the_documented_columns_and_the_same_rows(finished):

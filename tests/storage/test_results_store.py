@@ -169,3 +169,18 @@ def test_a_crash_inside_a_unit_leaves_nothing_of_it(fresh_url: str):
         assert session.scalar(select(func.count()).select_from(ForecastRecord)) == sum(
             len(f.periods) for s in result.series for f in s.folds)
     engine.dispose()
+
+
+def test_digests_of_rows_written_before_the_convergence_columns_still_verify():
+    """Migration 0006_h14a added ``fold_result.converged`` and
+    ``rank_row.folds_not_converged``; a row holding the value older rows read back digests
+    as it did without the column, and any other value changes the digest."""
+    from storage.digest import table_digest
+    from storage.schema import FoldRecord, RankRecord
+
+    for table, column, old, new in ((FoldRecord.__table__, "converged", None, False),
+                                    (RankRecord.__table__, "folds_not_converged", 0, 2)):
+        row = {name: f"v{i}" for i, name in enumerate(table.columns.keys())}
+        before = [c.name for c in table.columns if c.name != column]
+        assert table_digest(table, [{**row, column: old}]) == table_digest(table, [row], before)
+        assert table_digest(table, [{**row, column: new}]) != table_digest(table, [row], before)
