@@ -60,7 +60,13 @@ class Score:
 
 @dataclass(frozen=True)
 class RankRow:
-    """A candidate's place in a series' ranking by the plan's score and horizon."""
+    """A candidate's place in a series' ranking by the plan's score and horizon.
+
+    ``score`` is over the ``common_folds`` origins every ranked candidate completed,
+    ``score_own_folds`` over the candidate's own completed folds; ``score_count`` of
+    ``score_possible`` points (folds for a per-fold mean) carry ``score``
+    (:mod:`backtest.ranking`).
+    """
 
     rank: int | None
     candidate_id: str
@@ -73,6 +79,10 @@ class RankRow:
     in_confidence_set: bool | None = None
     beats_benchmark: bool | None = None
     calibration_zone: str | None = None
+    score_own_folds: float | None = None
+    common_folds: int | None = None
+    score_count: int | None = None
+    score_possible: int | None = None
 
 
 @dataclass(frozen=True)

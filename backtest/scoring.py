@@ -30,6 +30,8 @@ from backtest.results import FoldResult, Score
 
 POINT_METRICS = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "me")
 LEVEL_METRICS = ("coverage", "winkler", "msis")
+#: Scores whose count is of folds, not of points.
+FOLD_COUNTED = ("rmsse_fold_mean",)
 _SHORT_SEASONAL = "training window shorter than m + 1: no seasonal difference"
 
 

@@ -375,6 +375,10 @@ class RankRecord(Base):
     in_confidence_set: Mapped[bool | None]
     beats_benchmark: Mapped[bool | None]
     calibration_zone: Mapped[Label | None]
+    score_own_folds: Mapped[float | None]
+    common_folds: Mapped[int | None]
+    score_count: Mapped[int | None]
+    score_possible: Mapped[int | None]
 
 
 class AuditEvent(Base):
