@@ -1,7 +1,7 @@
 """Ranking rows on common ground: the own-folds score, the common origins and the points.
 
-Revision ID: 0005_h14b
-Revises: 0004
+Revision ID: 0006_h14b
+Revises: 0005
 Create Date: 2026-12-03
 
 A ranking row's ``score`` is over the origins every ranked candidate completed; the new
@@ -15,8 +15,8 @@ from collections.abc import Sequence
 import sqlalchemy as sa
 from alembic import op
 
-revision: str = "0005_h14b"
-down_revision: str | Sequence[str] | None = "0004"
+revision: str = "0006_h14b"
+down_revision: str | Sequence[str] | None = "0005"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
