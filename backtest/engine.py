@@ -153,6 +153,6 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                 else notes[row.candidate_id].beats_benchmark,
                 calibration_zone=notes[row.candidate_id].calibration_zone)
         for row in rank_candidates(infos, scores, folds, benchmark.id, plan.rank_by,
-                                   plan.rank_horizon))
+                                   plan.rank_horizon, plan.horizon))
     return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
                         to_jsonable(evidence))

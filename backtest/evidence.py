@@ -9,7 +9,8 @@ Conventions (documented choices):
   correction (5 %, two-sided, rejection in the candidate's favour) at the ranking horizon;
   when ranking over all horizons, on the per-origin mean loss over horizons, with H-1
   autocovariance lags for the overlap. Absolute loss for MASE, MAE and sMAPE rankings,
-  squared loss for RMSE and RMSSE.
+  squared loss for RMSE and RMSSE, absolute loss on each origin's root mean square for
+  ``rmsse_fold_mean`` (whose figure is the mean of those roots).
 - The model confidence set (Hansen, Lunde & Nason 2011) uses the same per-origin losses,
   over the origins every candidate completed, at size 0.10 (a 90 % set), 1,000 stationary
   bootstrap replications, seeded with the plan's seed.
@@ -49,6 +50,8 @@ _ZONE_ORDER = ("consistent", "suspect", "excessive")
 _SQUARED = ("rmse", "rmsse")
 NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
 T = TypeVar("T")
+#: Scores averaged over origins of a per-origin root mean square (absolute loss on it).
+_ROOT_PER_ORIGIN = ("rmsse_fold_mean",)
 
 
 @dataclass(frozen=True)
@@ -104,7 +107,9 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
                    for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
     loss = "squared" if plan.rank_by in _SQUARED else "absolute"
-    per_origin = {cid: _origin_losses(e, plan.rank_horizon, loss) for cid, e in scaled.items()}
+    reduce = "root" if plan.rank_by in _ROOT_PER_ORIGIN else loss
+    per_origin = {cid: _origin_losses(e, plan.rank_horizon, reduce)
+                  for cid, e in scaled.items()}
     if len(arrays) < 2:
         comparison: dict = {"errors": "scaled by each fold's MASE scale", "benchmark": None,
                             "pairwise": None, "reason": NOTHING_TO_COMPARE}
@@ -155,11 +160,13 @@ def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
     return calibration_report(actual, lower, upper, plan.levels, origin_step=plan.step)
 
 
-def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, loss: str) -> np.ndarray:
-    """One pseudo-error per origin whose loss is the ranking loss at that origin."""
+def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, reduce: str) -> np.ndarray:
+    """One pseudo-error per origin whose loss is the ranking loss at that origin: over all
+    horizons the root mean square for squared loss and for a per-origin root score
+    (``reduce`` "squared" or "root"), else the mean absolute error."""
     if rank_horizon is not None:
         return scaled[:, rank_horizon - 1]
-    if loss == "squared":
+    if reduce in ("squared", "root"):
         return np.sqrt(np.mean(scaled**2, axis=1))
     return np.mean(np.abs(scaled), axis=1)
 

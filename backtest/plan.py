@@ -50,7 +50,8 @@ from typing import Literal
 from backtest.errors import PlanError
 from backtest.models.base import ESTIMATORS, Estimator
 
-RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
+RANK_SCORES = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse")
+"""Scores a plan may rank by (lower is better); defined in :mod:`backtest.scoring`."""
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
 NOT_CONVERGED = ("keep", "fail")

@@ -66,7 +66,12 @@ class RankRow:
     """A candidate's place in a series' ranking by the plan's score and horizon.
 
     ``folds_not_converged`` counts the completed folds whose estimate did not converge
-    (under the plan's ``not_converged: "fail"`` they are failed folds instead)."""
+    (under the plan's ``not_converged: "fail"`` they are failed folds instead).
+    ``score`` is over the ``common_folds`` origins every ranked candidate completed,
+    ``score_own_folds`` over the candidate's own completed folds; ``score_count`` of
+    ``score_possible`` points (folds for a per-fold mean) carry ``score``
+    (:mod:`backtest.ranking`).
+    """
 
     rank: int | None
     candidate_id: str
@@ -80,6 +85,10 @@ class RankRow:
     beats_benchmark: bool | None = None
     calibration_zone: str | None = None
     folds_not_converged: int = 0
+    score_own_folds: float | None = None
+    common_folds: int | None = None
+    score_count: int | None = None
+    score_possible: int | None = None
 
 
 @dataclass(frozen=True)

@@ -3,9 +3,20 @@
 Per horizon h the measures average over folds; "pooled" (horizon ``None``) averages over
 every fold and horizon. Scaled measures divide each fold's errors by that fold's own
 training-window scale: MASE by the mean absolute seasonal-naive error, RMSSE by the mean
-squared one-step naive error (so pooled RMSSE is ``sqrt(mean(e^2 / scale_sq))``), MSIS by
-the MASE scale. Points whose measure is undefined (zero scale; sMAPE's 0/0) are left out
-and the score's ``note`` says how many; a score with no defined point is ``None``.
+squared one-step naive error, MSIS by the MASE scale. Two RMSSEs, both after Hyndman &
+Koehler (2006), who define scaled errors:
+
+- ``rmsse``, pooled: ``sqrt(mean over folds and horizons of e^2 / scale_sq)``, one root
+  over all points, so a fold with large scaled errors weighs in squared;
+- ``rmsse_fold_mean``: the mean over folds of each fold's RMSSE
+  ``sqrt(mean over its horizons of e^2 / scale_sq)``, the per-series RMSSE of the M5
+  competition (Makridakis, Spiliotis & Assimakopoulos 2022), which has one origin per
+  series, averaged over the origins. At one horizon it is the mean of |e| / sqrt(scale_sq).
+
+Points whose measure is undefined are left out and the score's ``note`` says how many of
+how many, and why: an undefined training scale (a window shorter than m + 1 has no
+seasonal difference, shorter than 2 no one-step difference), a zero one (a constant
+window), sMAPE's 0/0. A score with no defined point is ``None``.
 Periods a fill policy made up (never observed) are not actuals: they are left out of every
 score, and the note counts them.
 """
@@ -19,8 +30,11 @@ import numpy as np
 from backtest import metrics
 from backtest.results import FoldResult, Score
 
-POINT_METRICS = ("mase", "rmsse", "smape", "mae", "rmse", "me")
+POINT_METRICS = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "me")
 LEVEL_METRICS = ("coverage", "winkler", "msis")
+#: Scores whose count is of folds, not of points.
+FOLD_COUNTED = ("rmsse_fold_mean",)
+_SHORT_SEASONAL = "training window shorter than m + 1: no seasonal difference"
 
 
 def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int,
@@ -43,7 +57,10 @@ def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int
                   for name, a in arrays.items() if name != "observed"}
         left = int(observed.size - observed.sum())
         unfilled = f"{left} filled period(s) left out: not observed" if left else None
-        out.extend(_point_scores(candidate_id, h, points, unfilled))
+        squared = np.where(observed, (arrays["actual"][:, cols] - arrays["point"][:, cols])**2,
+                           np.nan)
+        out.extend(_point_scores(candidate_id, h, points, unfilled, squared,
+                                 arrays["scale_sq"][:, 0]))
         for level in levels:
             out.extend(_level_scores(candidate_id, h, points, level, unfilled))
     return out
@@ -73,17 +90,45 @@ def _joined(*notes: str | None) -> str | None:
     return "; ".join(n for n in notes if n) or None
 
 
-def _scaled_mean(values: np.ndarray, scale: np.ndarray) -> tuple[float | None, int, str | None]:
+def _scaled_mean(values: np.ndarray, scale: np.ndarray, undefined_when: str
+                 ) -> tuple[float | None, int, str | None]:
+    """Mean of ``values / scale`` over the points with a positive scale; the note counts the
+    points left out for an undefined scale (``undefined_when`` says when) and for a zero
+    one."""
+    scale = np.broadcast_to(scale, values.shape)
     ok = np.isfinite(scale) & (scale > 0) & np.isfinite(values)
-    left_out = int(values.size - ok.sum())
+    undefined = int((~np.isfinite(scale)).sum())
+    zero = int((np.isfinite(scale) & (scale <= 0)).sum())
+    reasons = [text for count, text in (
+        (undefined, f"{undefined} with an undefined training scale ({undefined_when})"),
+        (zero, f"{zero} with a zero training scale")) if count]
     if not ok.any():
-        return None, 0, "undefined: every training window has a zero (or undefined) scale"
-    note = f"{left_out} point(s) with zero training scale left out" if left_out else None
+        return None, 0, "undefined: no point has a positive training scale: " + "; ".join(
+            reasons)
+    note = (f"{int(values.size - ok.sum())} of {values.size} point(s) left out: "
+            + "; ".join(reasons)) if reasons else None
     return float(np.mean(values[ok] / scale[ok])), int(ok.sum()), note
 
 
-def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
-                  unfilled: str | None) -> list[Score]:
+def _fold_mean_rmsse(squared: np.ndarray, scale_sq: np.ndarray
+                     ) -> tuple[float | None, int, str | None]:
+    """Mean over folds of each fold's RMSSE, sqrt(mean over its observed horizons of
+    e^2 / scale), the per-series figure of the M5 competition averaged over origins;
+    ``squared`` is NaN where a target period was not observed."""
+    seen = np.isfinite(squared).any(axis=1)
+    ok = np.isfinite(scale_sq) & (scale_sq > 0) & seen
+    if not ok.any():
+        return None, 0, "undefined: no fold has a positive training scale (window shorter " \
+                        "than 2, or a constant window)"
+    per_fold = np.sqrt(np.nanmean(squared[ok] / scale_sq[ok, None], axis=1))
+    left_out = int((~ok & seen).sum())
+    note = (f"{left_out} of {int(seen.sum())} fold(s) left out: undefined or zero training "
+            "scale" if left_out else None)
+    return float(np.mean(per_fold)), int(ok.sum()), note
+
+
+def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray], unfilled: str | None,
+                  fold_squared: np.ndarray, fold_scale_sq: np.ndarray) -> list[Score]:
     actual, point = a["actual"], a["point"]
     errors = actual - point
     n = errors.size
@@ -91,8 +136,9 @@ def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
         return [Score(cid, h, name, None, None, 0, _joined(unfilled, "undefined: no observed "
                                                                     "actual"))
                 for name in POINT_METRICS]
-    mase, n_mase, note_mase = _scaled_mean(np.abs(errors), a["scale"])
-    msse, n_rmsse, note_rmsse = _scaled_mean(errors**2, a["scale_sq"])
+    mase, n_mase, note_mase = _scaled_mean(np.abs(errors), a["scale"], _SHORT_SEASONAL)
+    msse, n_rmsse, note_rmsse = _scaled_mean(errors**2, a["scale_sq"], "window shorter than 2")
+    fold_rmsse, n_folds, note_folds = _fold_mean_rmsse(fold_squared, fold_scale_sq)
     terms = metrics.smape_terms(actual, point)
     defined = np.isfinite(terms)
     smape = float(np.mean(terms[defined])) if defined.any() else None
@@ -104,6 +150,8 @@ def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
         Score(cid, h, "mase", None, mase, n_mase, _joined(unfilled, note_mase)),
         Score(cid, h, "rmsse", None, None if msse is None else float(np.sqrt(msse)), n_rmsse,
               _joined(unfilled, note_rmsse)),
+        Score(cid, h, "rmsse_fold_mean", None, fold_rmsse, n_folds,
+              _joined(unfilled, note_folds)),
         Score(cid, h, "smape", None, smape, int(defined.sum()), _joined(unfilled, smape_note)),
         Score(cid, h, "mae", None, float(np.mean(np.abs(errors))), n, unfilled),
         Score(cid, h, "rmse", None, float(np.sqrt(np.mean(errors**2))), n, unfilled),
@@ -124,7 +172,7 @@ def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], level: int,
     finite = np.isfinite(scores)
     winkler = float(np.mean(scores)) if finite.all() else None
     winkler_note = None if finite.all() else "undefined: an interval bound is infinite"
-    msis, n_msis, msis_note = _scaled_mean(scores, a["scale"])
+    msis, n_msis, msis_note = _scaled_mean(scores, a["scale"], _SHORT_SEASONAL)
     if not finite.all():
         msis, msis_note = None, winkler_note
     return [

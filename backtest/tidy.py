@@ -27,7 +27,8 @@ SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric",
                  "value", "count", "note")
 RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
                    "is_benchmark", "folds_ok", "folds_failed", "folds_not_converged",
-                   "in_confidence_set", "beats_benchmark", "calibration_zone")
+                   "in_confidence_set", "beats_benchmark", "calibration_zone", "score_own_folds",
+                   "common_folds", "score_count", "score_possible")
 
 
 def read_series_csv(text: str, *, frequency: str | None = None,
@@ -129,7 +130,9 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
                    "skill": r.skill, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
                    "folds_failed": r.folds_failed, "folds_not_converged": r.folds_not_converged,
                    "in_confidence_set": r.in_confidence_set,
-                   "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone}
+                   "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone,
+                   "score_own_folds": r.score_own_folds, "common_folds": r.common_folds,
+                   "score_count": r.score_count, "score_possible": r.score_possible}
 
 
 def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:

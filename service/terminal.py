@@ -8,6 +8,7 @@ from typing import TextIO
 
 from backtest.results import BacktestResult, SeriesResult
 from backtest.tidy import ranking_rows
+from service.ranking_text import common_ground, score_cell
 
 
 class ProgressBar:
@@ -53,15 +54,17 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
     results and the API's run ranking both give them.
     """
     levels = sorted({lv for c in (coverage or {}).values() for lv in c})
-    head = ["#", "candidate", score_name, "vs bench", *[f"cover{lv}" for lv in levels],
-            "signif.", "conf.set", "calibration", "failed", "not conv."]
+    head = ["#", "candidate", score_name, "own folds", "vs bench",
+            *[f"cover{lv}" for lv in levels], "signif.", "conf.set", "calibration", "failed",
+            "not conv."]
     body = []
     for r in rows:
         cover = (coverage or {}).get(r["candidate_id"], {})
         body.append([
             "-" if r["rank"] is None else str(r["rank"]),
             r["candidate"] + (" (benchmark)" if r["is_benchmark"] else ""),
-            _number(r["score"]), _number(r["skill"], 2),
+            score_cell(r, _number(r["score"])), _number(r.get("score_own_folds")),
+            _number(r["skill"], 2),
             *[_number(cover.get(lv), 2) for lv in levels],
             _flag(r["beats_benchmark"], "better", "no"),
             _flag(r["in_confidence_set"], "in", "out"),
@@ -69,7 +72,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
             str(r["folds_not_converged"]),
         ])
     widths = [max(len(x) for x in col) for col in zip(head, *body)]
-    lines = [title]
+    lines = [title + common_ground(rows)]
     for row in [head, *body]:
         lines.append("  " + "  ".join(c.ljust(w) if i == 1 else c.rjust(w)
                                       for i, (c, w) in enumerate(zip(row, widths))))

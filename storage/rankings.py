@@ -16,12 +16,14 @@ from typing import Any
 from sqlalchemy import case, func, select
 from sqlalchemy.orm import Session
 
+from backtest.plan import RANK_SCORES
 from storage.errors import translates_errors
 from storage.queries import latest_runs_query
 from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord
 
-RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "winkler", "msis")
-"""Metrics where lower is better; ``winkler`` and ``msis`` need an interval level."""
+RANKABLE = (*RANK_SCORES, "winkler", "msis")
+"""Metrics where lower is better: the plan's rankable scores, and the interval scores
+``winkler`` and ``msis``, which need an interval level."""
 
 
 @translates_errors

@@ -111,7 +111,9 @@ def _rank_row(row: RankRow) -> dict[str, Any]:
             "folds_failed": int(row.folds_failed),
             "folds_not_converged": int(row.folds_not_converged),
             "in_confidence_set": row.in_confidence_set,
-            "beats_benchmark": row.beats_benchmark, "calibration_zone": row.calibration_zone}
+            "beats_benchmark": row.beats_benchmark, "calibration_zone": row.calibration_zone,
+            "score_own_folds": _number(row.score_own_folds), "common_folds": row.common_folds,
+            "score_count": row.score_count, "score_possible": row.score_possible}
 
 
 FOLD_TABLES = (FOLDS, FORECASTS, BOUNDS, WARNINGS)
@@ -156,7 +158,8 @@ def _ranking(rows: Sequence[Row]) -> tuple[RankRow, ...]:
     return tuple(RankRow(r["rank"], r["candidate_id"], r["label"], r["score"], r["skill"],
                          r["is_benchmark"], r["folds_ok"], r["folds_failed"],
                          r["in_confidence_set"], r["beats_benchmark"], r["calibration_zone"],
-                         r["folds_not_converged"])
+                         r["folds_not_converged"], r["score_own_folds"], r["common_folds"],
+                         r["score_count"], r["score_possible"])
                  for r in sorted(rows, key=lambda r: r["position"]))
 
 

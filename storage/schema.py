@@ -379,6 +379,10 @@ class RankRecord(Base):
     in_confidence_set: Mapped[bool | None]
     beats_benchmark: Mapped[bool | None]
     calibration_zone: Mapped[Label | None]
+    score_own_folds: Mapped[float | None] = mapped_column(info={ADDED_LATER: None})
+    common_folds: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
+    score_count: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
+    score_possible: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class AuditEvent(Base):

@@ -22,9 +22,14 @@ statsmodels' own covariance, which is the same numerical-Hessian estimator.
 Wald tests: z = estimate / s.e. and a two-sided normal p-value for every coefficient,
 including the constant and drift. The innovation variance gets its standard error but no
 z or p-value: sigma2 = 0 lies on the boundary of the parameter space, where the Wald test
-does not apply. ETS smoothing and damping estimates within 1e-3 of statsmodels' default
-range (smoothing 0..1, damping 0.8..0.98) keep their numbers but carry a note, for the
-same reason.
+does not apply. Estimates at or near a bound of the parameter space keep their numbers
+but carry a note, for the same reason: ETS smoothing and damping estimates within 1e-3 of
+statsmodels' default range (smoothing 0..1, damping 0.8..0.98), and ARIMA AR or MA
+coefficients whose lag polynomial has a root of modulus below 1.01 (the edge of the
+stationary and invertible region). When the numerical Hessian gives a coefficient a
+variance that is not positive (its curvature estimate is not positive: a flat or
+ill-conditioned likelihood, not necessarily a bound), the standard error is unavailable
+and the note says so; it adds the bound only for an estimate that is at one.
 
 Information criteria are statsmodels': K counts every estimated parameter including the
 innovation variance, N is the effective number of observations (n - d - D*m for ARIMA)
@@ -128,7 +133,7 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
     """
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        rows, _, _ = coefficient_table(spec, fit, covariance)
+        rows, _, _ = coefficient_table(spec, fit, covariance, season_length)
         lag = default_lags(season_length)[0]
         errors = one_step_errors(spec, fit, y, season_length)
         test = _first_ljung_box(errors, lag)
@@ -149,7 +154,8 @@ def _first_ljung_box(errors: InSample, lag: int) -> dict:
 def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
                  covariance: Covariance) -> dict:
     unavailable: dict[str, str] = {}
-    rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance)
+    rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance,
+                                                     season_length)
     if cov_reason:
         unavailable["covariance"] = cov_reason
     criteria = _criteria(spec, fit, unavailable)
@@ -171,21 +177,56 @@ def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
             "residuals": residuals, "roots": roots, "unavailable": unavailable}
 
 
-def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance
+def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance, season_length: int
                       ) -> tuple[list[dict], dict | None, str | None]:
     """Rows of name, estimate, std_error, z, p_value, note; the covariance used; and the
     reason when there are no standard errors."""
     names = list(fit.params)
     estimates = np.array([fit.params[n] for n in names], dtype=float)
     variances, reason = _coefficient_variances(spec, fit, covariance, len(names))
-    rows = [_coefficient_row(name, est, var, reason)
+    bounds = estimates_at_bounds(spec, fit, season_length)
+    rows = [_coefficient_row(name, est, var, reason, bounds.get(name))
             for name, est, var in zip(names, estimates, variances, strict=True)]
-    if spec.family == "ets":
-        for row in rows:
-            _mark_ets_bound(row)
     section = None if reason else {"estimator": covariance,
                                    "description": _COVARIANCE_TEXT[covariance]}
     return rows, section, reason
+
+
+def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[str, str]:
+    """Coefficients whose estimate is at or near a bound of the parameter space, each with
+    the bound it is at.
+
+    ETS: smoothing and damping within 1e-3 of statsmodels' default range. ARIMA: AR and MA
+    coefficients whose lag polynomial (regular in B, seasonal in B^m) has a root of
+    modulus below 1.01 in its own variable, on or near the unit circle that bounds the
+    stationary and invertible region. Other families and coefficients have no such bound.
+    """
+    out = {}
+    for name, (low, high) in _ETS_BOX.items() if spec.family == "ets" else ():
+        estimate = fit.params.get(name)
+        if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
+            out[name] = ("at or near the bound of statsmodels' default parameter range "
+                         f"[{low}, {high}]")
+    if spec.family == "arima" and fit.raw is not None and _finite_polynomials(fit.raw):
+        roots = arima_roots(fit.raw, spec.season_period(season_length))
+        for name in fit.params:
+            modulus = _smallest_modulus(roots, name)
+            if modulus is not None and modulus < NEAR_UNIT_MODULUS:
+                out[name] = ("at or near the stationarity/invertibility bound: its lag "
+                             f"polynomial has a root of modulus {modulus:.4f}")
+    return out
+
+
+def _smallest_modulus(roots: dict, name: str) -> float | None:
+    """Smallest root modulus (in B, or in B^m for a seasonal polynomial) of the lag
+    polynomial that the ARIMA coefficient ``name`` (``ar.L1``, ``ma.S.L12``, ...) belongs
+    to; ``None`` for the constant, drift and variance."""
+    for prefix, part, kind in (("ar.S.L", "ar", "seasonal"), ("ma.S.L", "ma", "seasonal"),
+                               ("ar.L", "ar", "regular"), ("ma.L", "ma", "regular")):
+        if name.startswith(prefix):
+            moduli = [row["modulus"] for row in roots[part][kind] if row["modulus"] is not None]
+            return min(moduli) if moduli else None
+    return None
 
 
 def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k: int
@@ -207,13 +248,17 @@ def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k:
     return diagonal, None
 
 
-def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None) -> dict:
+def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None,
+                     bound: str | None) -> dict:
     row = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
            "p_value": None, "note": reason}
     if reason:
         return row
     if not (np.isfinite(variance) and variance > 0):
-        row["note"] = "covariance diagonal not positive: the estimate is probably at a bound"
+        row["note"] = ("standard error unavailable: the curvature estimate (numerical Hessian) "
+                       f"is not positive for this coefficient (variance {variance:.3g})")
+        if bound:
+            row["note"] += f"; the estimate is {bound}"
         return row
     row["std_error"] = number(np.sqrt(variance))
     if name in _VARIANCE_NAMES:
@@ -221,15 +266,9 @@ def _coefficient_row(name: str, estimate: float, variance: float, reason: str | 
         return row
     z = estimate / np.sqrt(variance)
     row.update(z=number(z), p_value=number(2.0 * norm_sf(abs(z))))
+    if bound:
+        row["note"] = f"{bound}: the Wald test is unreliable"
     return row
-
-
-def _mark_ets_bound(row: dict) -> None:
-    low, high = _ETS_BOX.get(row["name"], (-np.inf, np.inf))
-    estimate = row["estimate"]
-    if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
-        row["note"] = ("at or near the bound of statsmodels' default parameter range "
-                       f"[{low}, {high}]: the Wald test is unreliable")
 
 
 def _estimation(spec: ModelSpec, fit: Fit) -> dict:

@@ -5,10 +5,10 @@ forecasts issued one period apart these do not overlap, so for a well-specified 
 the misses are independent Bernoulli(1 - level/100) trials; longer horizons overlap and
 are left to the descriptive figures. The flag is raised when
 
-- Kupiec's (1995) proportion-of-failures LR test rejects, with its p-value taken from the
-  exact binomial distribution of the LR statistic (P(LR >= observed LR) under the nominal
-  miss rate) rather than its chi-squared approximation, which over-rejects at the few
-  dozen trials of a ledger (11.7 % instead of 5 % at 48 trials of a 95 % interval); or
+- Kupiec's (1995) proportion-of-failures LR test rejects, with its exact binomial p-value
+  (:func:`backtest.assessment.calibration.kupiec_pof`, the one the backtest's calibration
+  reports) rather than its chi-squared approximation, which over-rejects at the few dozen
+  trials of a ledger (11.7 % instead of 5 % at 48 trials of a 95 % interval); or
 - the misses fall in the ``excessive`` zone of
   :func:`backtest.assessment.calibration.calibration_zone` (binomial CDF >= 99.99 %).
 
@@ -20,17 +20,18 @@ outcomes: not raised, "too little data".
 from __future__ import annotations
 
 from collections.abc import Sequence
-from functools import lru_cache
 
 import numpy as np
-from scipy import stats
 
-from backtest.assessment.calibration import calibration_zone, kupiec_pof
+from backtest.assessment.calibration import (
+    calibration_zone,
+    kupiec_null_distribution,
+    kupiec_pof,
+)
 from backtest.ledger.flag import Flag, too_little_data
 from backtest.ledger.outcomes import Outcome
 
 MIN_COVERAGE_OUTCOMES = 12
-_LR_TOLERANCE = 1e-9
 
 
 def coverage_flags(one_step: Sequence[Outcome], false_alarm: float) -> tuple[Flag, ...]:
@@ -44,7 +45,7 @@ def coverage_flags(one_step: Sequence[Outcome], false_alarm: float) -> tuple[Fla
 def coverage_false_alarm_rate(trials: int, level: int, false_alarm: float) -> float:
     """Exact probability that the flag is raised when the intervals are right."""
     rate = (100 - level) / 100.0
-    pmf = _null_distribution(trials, rate)[1]
+    pmf = kupiec_null_distribution(trials, rate)[1]
     raised = [_raised(misses, trials, rate, false_alarm) for misses in range(trials + 1)]
     return float(pmf[np.array(raised)].sum())
 
@@ -57,7 +58,8 @@ def _level_flag(hits: list[bool], periods: list[str], level: int, false_alarm: f
                                f"{MIN_COVERAGE_OUTCOMES}", level)
     rate = (100 - level) / 100.0
     misses = trials - sum(hits)
-    lr, p_value = _kupiec_exact(misses, trials, rate)
+    kupiec = kupiec_pof(misses, trials, rate)
+    lr, p_value = kupiec["lr"], kupiec["p_value"]
     zone = calibration_zone(misses, trials, rate)
     return Flag(rule="coverage", raised=_raised(misses, trials, rate, false_alarm),
                 level=level, statistic=lr, p_value=p_value, threshold=false_alarm,
@@ -69,18 +71,5 @@ def _level_flag(hits: list[bool], periods: list[str], level: int, false_alarm: f
 
 
 def _raised(misses: int, trials: int, rate: float, false_alarm: float) -> bool:
-    return (_kupiec_exact(misses, trials, rate)[1] < false_alarm
+    return (kupiec_pof(misses, trials, rate)["p_value"] < false_alarm
             or calibration_zone(misses, trials, rate) == "excessive")
-
-
-def _kupiec_exact(misses: int, trials: int, rate: float) -> tuple[float, float]:
-    """Kupiec's LR and its exact p-value under Binomial(trials, rate)."""
-    lr, pmf = _null_distribution(trials, rate)
-    return float(lr[misses]), float(min(1.0, pmf[lr >= lr[misses] - _LR_TOLERANCE].sum()))
-
-
-@lru_cache(maxsize=256)
-def _null_distribution(trials: int, rate: float) -> tuple[np.ndarray, np.ndarray]:
-    """Kupiec's LR for every possible miss count, and the count's binomial probability."""
-    lr = np.array([kupiec_pof(x, trials, rate)["lr"] for x in range(trials + 1)])
-    return lr, stats.binom.pmf(np.arange(trials + 1), trials, rate)

@@ -29,7 +29,8 @@ class MetricAxis:
 
 METRIC_AXES = {
     "mase": MetricAxis("MASE", "none"),
-    "rmsse": MetricAxis("RMSSE", "none"),
+    "rmsse": MetricAxis("pooled RMSSE", "none"),
+    "rmsse_fold_mean": MetricAxis("RMSSE, mean over origins", "none"),
     "smape": MetricAxis("sMAPE", "percent"),
     "mae": MetricAxis("MAE", "series"),
     "rmse": MetricAxis("RMSE", "series"),

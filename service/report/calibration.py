@@ -28,8 +28,11 @@ def calibration_section(sr: SeriesResult, charts: ChartEmbedder,
                      "are formal there (when origins are one period apart); the pooled "
                      "coverage over all horizons is descriptive. Zones: 'consistent', "
                      "'suspect' (misses at or beyond the 95 % point of the binomial "
-                     "distribution) or 'excessive' (beyond its 99.99 % point).", cls="note"),
-        table(["candidate", "level", "h = 1 hits / trials", "h = 1 coverage", "Kupiec p",
+                     "distribution) or 'excessive' (beyond its 99.99 % point). Kupiec's "
+                     "p-value is exact (the binomial distribution of its LR statistic), "
+                     "as in the forecast ledger.", cls="note"),
+        table(["candidate", "level", "h = 1 hits / trials", "h = 1 coverage",
+               "Kupiec p (exact)",
                "Christoffersen p (cond. coverage)", "zone", "pooled coverage"], rows,
               numeric=(1, 2, 3, 4, 5, 7)),
     ]

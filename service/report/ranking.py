@@ -10,6 +10,7 @@ from backtest.results import SeriesResult
 from backtest.series import Series
 from service.charts import ForecastBands, fan_chart, score_by_horizon_chart
 from service.charts.overview import METRIC_AXES
+from service.ranking_text import common_ground, score_cell
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join, table
 from service.report.numbers import MISSING, fixed, p_value, verdict
@@ -34,7 +35,8 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
     mcs_p = confidence.get("p_values", {})
     rows = [(MISSING if r.rank is None else r.rank,
              r.label + (" (benchmark)" if r.is_benchmark else ""),
-             fixed(r.score), MISSING if r.is_benchmark else fixed(r.skill),
+             score_cell(vars(r), fixed(r.score)), fixed(r.score_own_folds),
+             MISSING if r.is_benchmark else fixed(r.skill),
              MISSING if r.is_benchmark else verdict(r.beats_benchmark, "yes", "no"),
              verdict(r.in_confidence_set, "in", "out")
              + (f" (p {p_value(mcs_p[r.candidate_id])})" if r.candidate_id in mcs_p else ""),
@@ -43,14 +45,19 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
             for r in sr.ranking]
     parts: list[object] = [
         element("h3", "Ranking"),
-        element("p", f"Ranked by {score_name(plan)}. Skill is the candidate's {metric} "
+        element("p", f"Ranked by {score_name(plan)}"
+                     f"{common_ground([vars(r) for r in sr.ranking]) or ''}. 'Own folds' is "
+                     "the figure over the candidate's own completed folds; a figure carried "
+                     "by fewer than half of its points shows the count. Skill is the "
+                     f"candidate's {metric} "
                      "divided by the benchmark's: below 1 beats the benchmark. 'Significantly "
                      "better' is the Diebold-Mariano test with the Harvey-Leybourne-Newbold "
                      f"correction at 5 %. The {set_name} holds the candidates that cannot be "
                      "told apart from the best (Hansen, Lunde & Nason 2011).", cls="note"),
-        table(["rank", "candidate", metric, "skill vs benchmark",
+        table(["rank", "candidate", metric, f"{metric}, own folds", "skill vs benchmark",
                "significantly better than benchmark", set_name, "calibration at h = 1",
-               "folds ok / failed / not converged"], rows, numeric=(0, 2, 3, 7), cls="ranking"),
+               "folds ok / failed / not converged"], rows, numeric=(0, 2, 3, 4, 8),
+              cls="ranking"),
         charts.embed(score_by_horizon_chart(sr, metric=plan["rank_by"], unit=unit),
                      f"{metric} of every candidate at each horizon, averaged over the origins; "
                      "the benchmark is the thick black dashed line."),

@@ -78,6 +78,10 @@ class RunRankRow(Row):
     in_confidence_set: bool | None
     beats_benchmark: bool | None
     calibration_zone: str | None
+    score_own_folds: float | None
+    common_folds: int | None
+    score_count: int | None
+    score_possible: int | None
 
 
 class EvidenceItem(Row):

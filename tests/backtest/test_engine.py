@@ -13,6 +13,7 @@ from backtest.demo import demo_series
 from backtest.engine import planned_fold_count, run_backtest, stream_backtest
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.plan import parse_plan
+from backtest.scoring import score_candidate
 from backtest.series import make_series
 
 CANDIDATES = [
@@ -156,3 +157,19 @@ def test_a_failing_fold_is_recorded_not_fatal(two_series):
     assert own[0].reason == "ValueError: odd window" and own[0].point is None
     row = next(r for r in sr.ranking if r.candidate_id == flaky.id)
     assert (row.folds_ok, row.folds_failed) == (2, 2)
+
+
+def test_the_ranking_compares_candidates_on_the_origins_all_completed(two_series):
+    flaky = Candidate(FlakyBenchmark("naive"))
+    plan = parse_plan({"horizon": 2, "max_origins": 4})
+    (sr,) = run_backtest(two_series[:1], [flaky], plan).series
+    rows = {r.candidate_id: r for r in sr.ranking}
+    bench = rows[sr.benchmark_id]
+    own = next(s.value for s in sr.scores if (s.candidate_id, s.metric, s.horizon, s.level)
+               == (sr.benchmark_id, "mase", None, None))
+    common = [f for f in sr.folds if f.candidate_id == sr.benchmark_id and f.fold in (1, 3)]
+    on_common = next(s.value for s in score_candidate(sr.benchmark_id, common, 2, ())
+                     if s.metric == "mase" and s.horizon is None)
+    assert bench.common_folds == rows[flaky.id].common_folds == 2
+    assert bench.score_own_folds == own and bench.score == on_common != own
+    assert rows[flaky.id].skill == pytest.approx(rows[flaky.id].score / bench.score)

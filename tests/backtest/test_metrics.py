@@ -96,3 +96,49 @@ def test_failed_folds_only_give_null_scores():
                         (1.0,), None, {}, {}, 1.0, 1.0)
     scores = score_candidate("c1", [failed], 1, [80])
     assert all(s.value is None and s.note == "no fold completed" for s in scores)
+
+
+def test_pooled_and_fold_mean_rmsse_are_distinct_scores():
+    # Two folds of one-step scale 1 and 4: fold RMSSEs sqrt((4+0+0+0)/4 / 1) = 1 and
+    # sqrt((36+0+0+0)/4 / 4) = 1.5. Pooled (one root over all points, Hyndman & Koehler
+    # 2006 scaled errors): sqrt((4/1 + 36/4) / 8) = sqrt(13/8) = 1.274755; M5's per-series
+    # RMSSE (Makridakis, Spiliotis & Assimakopoulos 2022, one path each) averaged over the
+    # folds: (1 + 1.5) / 2 = 1.25; each fold alone equals metrics.rmsse on its path.
+    a = _fold([10, 10, 10, 10], [8, 10, 10, 10], L95, U95, 1.0, 1.0, 0)
+    b = _fold([10, 10, 10, 10], [16, 10, 10, 10], L95, U95, 2.0, 4.0, 1)
+    pooled = {s.metric: s for s in score_candidate("c1", [a, b], 4, [95])
+              if s.horizon is None and s.level is None}
+    assert pooled["rmsse"].value == pytest.approx(np.sqrt(13 / 8), rel=1e-12)
+    assert pooled["rmsse_fold_mean"].value == pytest.approx(1.25, rel=1e-12)
+    assert pooled["rmsse_fold_mean"].count == 2
+    train_a = np.array([0.0, 1.0])  # one-step scale 1
+    assert metrics.rmsse(np.array(a.actuals), np.array(a.point), train_a) == pytest.approx(1.0)
+    h1 = {s.metric: s for s in score_candidate("c1", [a, b], 4, [95])
+          if s.horizon == 1 and s.level is None}
+    assert h1["rmsse_fold_mean"].value == pytest.approx((2 / 1 + 6 / 2) / 2)
+
+
+def test_rmsse_fold_mean_is_rankable_in_plans_and_the_bi_ranking():
+    from backtest.plan import RANK_SCORES, parse_plan
+    from storage.rankings import RANKABLE
+    assert parse_plan({"horizon": 2, "rank_by": "rmsse_fold_mean"}).rank_by == "rmsse_fold_mean"
+    assert {"rmsse", "rmsse_fold_mean"} <= set(RANK_SCORES) <= set(RANKABLE)
+
+
+def test_short_windows_are_called_undefined_not_zero_and_counted():
+    # Fold 0's window is shorter than m + 1: no seasonal difference, scale undefined (None);
+    # fold 1 is constant: scale 0; fold 2 is usable.
+    short = _fold([10] * 4, [9] * 4, L95, U95, None, 1.0, 0)
+    flat = _fold([10] * 4, [9] * 4, L95, U95, 0.0, 1.0, 1)
+    good = _fold([10] * 4, [8] * 4, L95, U95, 2.0, 1.0, 2)
+    pooled = {s.metric: s for s in score_candidate("c1", [short, flat, good], 4, [95])
+              if s.horizon is None and s.level is None}
+    mase = pooled["mase"]
+    assert mase.value == pytest.approx(1.0) and mase.count == 4
+    assert mase.note == ("8 of 12 point(s) left out: 4 with an undefined training scale "
+                         "(training window shorter than m + 1: no seasonal difference); "
+                         "4 with a zero training scale")
+    only_short = {s.metric: s for s in score_candidate("c1", [short], 4, [95])
+                  if s.horizon is None and s.level is None}["mase"]
+    assert only_short.value is None
+    assert "undefined training scale" in only_short.note and "zero" not in only_short.note

@@ -112,7 +112,7 @@ def _row(report, label):
     rows = re.findall(r"<tr>(.*?)</tr>", report)
     for row in rows:
         cells = re.findall(r"<td[^>]*>(.*?)</td>", row)
-        if len(cells) == 8 and cells[1] == label:
+        if len(cells) == 9 and cells[1] == label:
             return cells
     raise AssertionError(f"no ranking row for {label}")
 
@@ -126,10 +126,11 @@ def test_ranking_rows_show_rank_score_skill_and_tests(run, report):
         cells = _row(section, label)
         assert cells[0] == str(r.rank)
         assert cells[2] == f"{r.score:.3f}"  # MASE with three decimals
-        assert cells[3] == ("–" if r.is_benchmark else f"{r.skill:.3f}")
-        assert cells[5].startswith("in" if r.in_confidence_set else "out")
-        assert cells[6] == r.calibration_zone
-        assert cells[7] == f"{r.folds_ok} / {r.folds_failed} / {r.folds_not_converged}"
+        assert cells[3] == f"{r.score_own_folds:.3f}"
+        assert cells[4] == ("–" if r.is_benchmark else f"{r.skill:.3f}")
+        assert cells[6].startswith("in" if r.in_confidence_set else "out")
+        assert cells[7] == r.calibration_zone
+        assert cells[8] == f"{r.folds_ok} / {r.folds_failed} / {r.folds_not_converged}"
 
 
 def test_provenance_names_versions_candidates_plan_and_software(run, report):

@@ -1,7 +1,8 @@
 """Interval calibration tests against Kupiec (1995), Christoffersen (1998) and the Basel
 Committee (1996).
 
-Kupiec's LR_POF = -2 ln[(1-p)^(T-x) p^x] + 2 ln[(1-p_hat)^(T-x) p_hat^x] ~ chi2(1), and
+Kupiec's LR_POF = -2 ln[(1-p)^(T-x) p^x] + 2 ln[(1-p_hat)^(T-x) p_hat^x], whose p-value is
+taken from its exact distribution under Binomial(T, p) (checked by enumeration), and
 Christoffersen's LR_ind on the transition counts n_ij ~ chi2(1); both formulas recalled. The
 check values are computed with numpy 2.4.6 / scipy 1.17.1 from those formulas.
 """
@@ -21,24 +22,77 @@ from backtest.assessment.calibration import (
     kupiec_pof,
     zone_thresholds,
 )
+from backtest.ledger.coverage_flag import coverage_flags
+from backtest.ledger.outcomes import Outcome
 
 # Invented hit sequence: violations coded 1, T = 20, x = 5, nominal miss rate 0.10
 VIOLATIONS = [0, 0, 1, 1, 0, 0, 0, 1, 0, 0, 0, 0, 0, 1, 1, 0, 0, 0, 0, 0]
 HITS = [1 - v for v in VIOLATIONS]
 
 
-@pytest.mark.parametrize(("trials", "misses", "rate", "lr", "p"), [
-    (250, 8, 0.01, 7.733551, 0.005420),
-    (250, 0, 0.01, 5.025168, 0.024982),
-    (250, 2, 0.01, 0.108435, 0.741933),
-    (250, 5, 0.01, 1.956810, 0.161855),
-    (500, 10, 0.01, 3.913620, 0.047896),
-    (20, 3, 0.10, 0.489405, 0.484193),
+def _exact_kupiec_p(misses: int, trials: int, rate: float) -> float:
+    """P(LR(X) >= LR(misses)), X ~ Binomial(trials, rate), by enumerating every count with
+    the LR written out term by term (Kupiec 1995, eq. for LR_POF) and scipy.stats.binom."""
+    def lr(x: int) -> float:
+        fitted = x / trials
+        ll_fit = ((x * np.log(fitted) if x else 0.0)
+                  + ((trials - x) * np.log(1 - fitted) if x < trials else 0.0))
+        return 2 * (ll_fit - x * np.log(rate) - (trials - x) * np.log(1 - rate))
+    observed = lr(misses)
+    return sum(stats.binom.pmf(x, trials, rate) for x in range(trials + 1)
+               if lr(x) >= observed - 1e-9)
+
+
+# LR values computed with numpy 2.4.6 from Kupiec's (1995) LR_POF; the p-value is the exact
+# binomial one (the chi-squared p-values once checked here are no longer reported).
+@pytest.mark.parametrize(("trials", "misses", "rate", "lr"), [
+    (250, 8, 0.01, 7.733551),
+    (250, 0, 0.01, 5.025168),
+    (250, 2, 0.01, 0.108435),
+    (250, 5, 0.01, 1.956810),
+    (500, 10, 0.01, 3.913620),
+    (20, 3, 0.10, 0.489405),
 ])
-def test_kupiec_matches_reference_table(trials, misses, rate, lr, p):
+def test_kupiec_matches_reference_table(trials, misses, rate, lr):
     out = kupiec_pof(misses, trials, rate)
     assert out["lr"] == pytest.approx(lr, abs=1e-6)
-    assert out["p_value"] == pytest.approx(p, abs=1e-6)
+    assert out["p_value"] == pytest.approx(_exact_kupiec_p(misses, trials, rate), rel=1e-9)
+    assert out["p_value_method"] == "exact binomial"
+
+
+def test_kupiec_p_value_is_the_exact_binomial_one_not_chi_squared():
+    # 0 misses in 60 at 95 %: LR = -120 ln 0.95 = 6.155; chi-squared(1) p = 0.0131
+    # (scipy.stats.chi2.sf). Exact: the counts whose LR is at least 6.155 are 0 and 9..60
+    # (LR(8) = 6.145 falls just short), so p = P(X = 0) + P(X >= 9) = 0.0461 + 0.0028 =
+    # 0.0489 (hand-worked with scipy.stats.binom). scipy.stats.binomtest's two-sided p,
+    # 0.0758, orders counts by probability instead of by Kupiec's LR, so it also counts
+    # X = 7, 8 (computed with scipy 1.x).
+    out = kupiec_pof(0, 60, 0.05)
+    assert out["lr"] == pytest.approx(-120 * np.log(0.95), rel=1e-12)
+    assert stats.chi2.sf(out["lr"], 1) == pytest.approx(0.0131, abs=5e-5)
+    assert out["p_value"] == pytest.approx(0.0489, abs=5e-5)
+    assert out["p_value"] == pytest.approx(_exact_kupiec_p(0, 60, 0.05), rel=1e-12)
+    tail = stats.binom.pmf(0, 60, 0.05) + stats.binom.sf(8, 60, 0.05)
+    assert out["p_value"] == pytest.approx(tail, rel=1e-12)
+    assert stats.binomtest(0, 60, 0.05).pvalue == pytest.approx(
+        tail + stats.binom.pmf([7, 8], 60, 0.05).sum(), rel=1e-9)
+
+
+def test_backtest_calibration_and_ledger_flag_report_the_same_kupiec_p_value():
+    # 0 misses in 48 one-step 95 % intervals: chi-squared p 0.0265 would reject at 5 %;
+    # the exact p (hand-worked above) does not.
+    trials = 48
+    cell = calibration_report(np.zeros((trials, 1)), {95: -np.ones((trials, 1))},
+                              {95: np.ones((trials, 1))}, [95])[0]["by_horizon"][0]
+    outcomes = [Outcome(horizon=1, period=f"p{i}", actual=0.0, point=0.0, error=0.0,
+                        scaled_error=0.0, smape_term=None, hits={95: True},
+                        interval_scores={95: 2.0}) for i in range(trials)]
+    flag = coverage_flags(outcomes, 0.05)[0]
+    assert cell["kupiec"]["p_value"] == flag.p_value
+    assert flag.p_value == pytest.approx(_exact_kupiec_p(0, trials, 0.05), rel=1e-12)
+    assert stats.chi2.sf(cell["kupiec"]["lr"], 1) == pytest.approx(0.0265, abs=5e-5)
+    assert flag.p_value == pytest.approx(0.0947, abs=5e-5)
+    assert flag.raised is False
 
 
 def test_kupiec_with_every_trial_a_miss_uses_zero_log_zero():
@@ -79,12 +133,13 @@ def test_christoffersen_conditional_coverage_uses_the_t_minus_one_transitions():
 
 
 def test_the_alternative_with_kupiec_on_all_t_observations_gives_the_other_reference_value():
-    # Computed with scipy 1.17.1: LR_uc on all 20 = 3.693261 (p 0.054633); + LR_ind =
-    # 4.315605 (p 0.115579). Not what christoffersen() returns as lr_cc; kupiec_pof gives
-    # the part.
+    # Computed with scipy 1.17.1: LR_uc on all 20 = 3.693261 (chi-squared p 0.054633);
+    # + LR_ind = 4.315605 (p 0.115579). Not what christoffersen() returns as lr_cc;
+    # kupiec_pof gives the part, with its exact p-value in place of the chi-squared one.
     uc = kupiec_pof(5, 20, 0.10)
     assert uc["lr"] == pytest.approx(3.693261, abs=1e-6)
-    assert uc["p_value"] == pytest.approx(0.054633, abs=1e-6)
+    assert stats.chi2.sf(uc["lr"], 1) == pytest.approx(0.054633, abs=1e-6)
+    assert uc["p_value"] == pytest.approx(_exact_kupiec_p(5, 20, 0.10), rel=1e-12)
     total = uc["lr"] + christoffersen(HITS, 0.10)["lr_ind"]
     assert total == pytest.approx(4.315605, abs=1e-6)
     assert stats.chi2.sf(total, 2) == pytest.approx(0.115579, abs=1e-6)

@@ -18,7 +18,13 @@ import pytest
 from scipy import stats
 from statsmodels.stats.diagnostic import acorr_ljungbox
 
-from backtest.assessment.fit_report import arima_roots, fit_report, fold_fit_summary
+from backtest.assessment.fit_report import (
+    arima_roots,
+    coefficient_table,
+    fit_report,
+    fold_fit_summary,
+)
+from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.models.ets import EtsSpec
@@ -299,3 +305,38 @@ def test_degenerate_arima_results_give_reasons_not_exceptions(airline):
     assert out["estimation"]["converged"] is None
     summary = fold_fit_summary(spec, Fit(params, raw), y, 12)
     assert summary["ljung_box"]["p_value"] is None
+
+
+def _airline_at(log_air, ma, seasonal_ma, sigma2):
+    """The airline model's results evaluated (not estimated) at the given parameters, so
+    the numerical Hessian there does not depend on where an optimiser stops."""
+    spec = ArimaSpec(order=(0, 1, 1), seasonal=(0, 1, 1), period=12)
+    params = {"ma.L1": ma, "ma.S.L12": seasonal_ma, "sigma2": sigma2}
+    return spec, Fit(params, spec.model(log_air, 12).filter(list(params.values())))
+
+
+def test_a_negative_hessian_variance_away_from_any_bound_says_what_happened(log_air):
+    # Away from the maximum (sigma2 7 times its estimate) the log-likelihood curves upward:
+    # statsmodels' cov_params_approx diagonal is negative for all three (-0.020, -0.127,
+    # -0.00013; computed with statsmodels 0.14). Both MA roots (1/0.65, 1/0.3) are far from
+    # the unit circle, so no estimate is at a bound.
+    spec, fit = _airline_at(log_air, 0.65, 0.3, 0.01)
+    assert (np.diag(fit.raw.cov_params_approx) < 0).all()
+    rows = {r["name"]: r for r in coefficient_table(spec, fit, "approx", 12)[0]}
+    for name in ("ma.L1", "ma.S.L12", "sigma2"):
+        note = rows[name]["note"]
+        assert rows[name]["std_error"] is None
+        assert "curvature estimate (numerical Hessian) is not positive" in note
+        assert "standard error unavailable" in note
+        assert "bound" not in note, note
+
+
+def test_a_negative_hessian_variance_at_the_invertibility_bound_names_the_bound(log_air):
+    # Seasonal MA at -0.999: its root in B^12 has modulus 1/0.999 = 1.001, at the edge of
+    # the invertible region; its Hessian variance is negative (-0.0012), ma.L1's is not.
+    spec, fit = _airline_at(log_air, -0.65, -0.999, 0.00135)
+    rows = {r["name"]: r for r in coefficient_table(spec, fit, "approx", 12)[0]}
+    seasonal = rows["ma.S.L12"]["note"]
+    assert "curvature estimate (numerical Hessian) is not positive" in seasonal
+    assert "stationarity/invertibility bound" in seasonal and "1.0010" in seasonal
+    assert rows["ma.L1"]["std_error"] is not None and rows["ma.L1"]["note"] is None
