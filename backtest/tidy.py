@@ -7,13 +7,20 @@ order of first appearance, and each series' rows keep their file order.
 
 Output columns are listed in :data:`FOLD_COLUMNS` and :data:`SCORE_COLUMNS`; they are a
 stable, documented interface (DEVELOPERS.md, "Output tables").
+
+:func:`write_csv` is the one CSV writer of the service and the command line. A text cell
+that a spreadsheet would run as a formula (it starts with ``=``, ``+``, ``-``, ``@``, a tab
+or a carriage return: the OWASP "CSV Injection" rule) is written with a leading ``'``;
+numbers, and text that is a plain decimal number such as ``-1.5``, are written as they are.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import Iterable, Iterator
+from datetime import datetime
 
 from backtest.errors import SeriesError
 from backtest.results import BacktestResult
@@ -25,6 +32,8 @@ FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "tr
                 "train_size", "reestimated", "status", "horizon", "period", "actual", "point")
 SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric", "level",
                  "value", "count", "note")
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
                    "is_benchmark", "folds_ok", "folds_failed", "in_confidence_set",
                    "beats_benchmark", "calibration_zone")
@@ -132,12 +141,23 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
 
 
 def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:
-    """Write dict rows as CSV; ``None`` becomes an empty field; extra keys keep their order."""
+    """Write dict rows as CSV; ``None`` becomes an empty field, a time ISO 8601, a would-be
+    formula neutralised (:func:`csv_cell`); extra keys keep their order."""
     rows = iter(rows)
     first = next(rows, None)
     fieldnames = list(columns) if first is None else list(first)
-    writer = csv.DictWriter(out, fieldnames=fieldnames, lineterminator="\n")
-    writer.writeheader()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow([csv_cell(name) for name in fieldnames])
     for row in ([] if first is None else [first]):
-        writer.writerow(row)
-    writer.writerows(rows)
+        writer.writerow([csv_cell(row.get(name)) for name in fieldnames])
+    writer.writerows([csv_cell(row.get(name)) for name in fieldnames] for row in rows)
+
+
+def csv_cell(value: object) -> object:
+    """``value`` as a CSV cell: text starting like a formula gets a leading ``'``."""
+    if isinstance(value, datetime):
+        return value.isoformat()
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS) \
+            and not _PLAIN_NUMBER.fullmatch(value):
+        return "'" + value
+    return value

@@ -132,9 +132,6 @@ def _levels(text: str) -> tuple[int, ...]:
 
 def _csv(rows: Iterable[dict[str, Any]], names: tuple[str, ...]) -> str:
     out = io.StringIO()
-    write_csv(({name: _cell(row.get(name)) for name in names} for row in rows), names, out)
+    write_csv(({name: row.get(name) for name in names} for row in rows), names, out)
     return out.getvalue().rstrip("\n")
 
-
-def _cell(value: object) -> object:
-    return value.isoformat() if isinstance(value, datetime) else value
