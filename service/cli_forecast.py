@@ -13,9 +13,11 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.tidy import write_csv
 from service.cli_store import add_store_option, operator, run_in_store
+from service.errors import InvalidInputError
 from service.issuing import IssueRequest, issue
 from service.ledger_rows import forecast_out, forecast_rows, outcome_rows, outcome_set_out
 from service.ledger_text import forecast_lines, outcome_lines
+from service.moments import MOMENT_HELP, parse_moment
 from service.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.schemas.results import columns
 from storage.ledger import IssuedRecord, get_issued, list_issued
@@ -40,10 +42,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     listing = commands.add_parser("list", help="issued forecasts, oldest first")
     listing.add_argument("--series", metavar="SERIES")
     listing.add_argument("--candidate", metavar="ID")
-    listing.add_argument("--from", dest="issued_from", type=datetime.fromisoformat,
-                         metavar="TIME", help="issued at or after (ISO 8601)")
-    listing.add_argument("--to", dest="issued_to", type=datetime.fromisoformat,
-                         metavar="TIME", help="issued before (ISO 8601)")
+    listing.add_argument("--from", dest="issued_from", metavar="TIME",
+                         help=f"issued at or after: {MOMENT_HELP}")
+    listing.add_argument("--to", dest="issued_to", metavar="TIME",
+                         help=f"issued before: {MOMENT_HELP}")
     listing.add_argument("--horizon", type=int, help="only this step ahead")
     listing.add_argument("--csv", action="store_true", help="the flat ledger as CSV")
     listing.set_defaults(handler=forecast_list)
@@ -74,9 +76,11 @@ def forecast_issue(args: argparse.Namespace) -> int:
 
 def forecast_list(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
+        issued_from, issued_to = _moment("--from", args.issued_from), _moment("--to",
+                                                                              args.issued_to)
         with sessions.begin() as session:
             records = list_issued(session, series_key=args.series, candidate_id=args.candidate,
-                                  issued_from=args.issued_from, issued_to=args.issued_to,
+                                  issued_from=issued_from, issued_to=issued_to,
                                   limit=1_000_000)
             outs = [_out(session, record) for record in records]
         if args.csv:
@@ -121,6 +125,13 @@ def _lines(out: ForecastOut, horizon: int | None) -> list[str]:
         return list(forecast_lines(out))
     steps = [s for s in out.steps if s.horizon == horizon]
     return list(forecast_lines(out.model_copy(update={"steps": steps}))) if steps else []
+
+
+def _moment(option: str, text: str | None) -> datetime | None:
+    try:
+        return None if text is None else parse_moment(text)
+    except ValueError as exc:
+        raise InvalidInputError(f"{option}: {exc}") from None
 
 
 def _levels(text: str) -> tuple[int, ...]:

@@ -5,7 +5,6 @@ Issued forecasts and outcomes are records: no route changes or deletes them.
 
 from __future__ import annotations
 
-from datetime import datetime
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Query, Request, Response
@@ -21,6 +20,7 @@ from service.ledger_rows import (
     outcome_rows,
     outcome_set_out,
 )
+from service.moments import MOMENT_HELP, Moment
 from service.problems import problem_responses
 from service.routes.params import Id
 from service.schemas.common import MAX_ID
@@ -72,10 +72,10 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
                    output: FormatParam = None,
                    series_key: Annotated[str | None, Query(max_length=200)] = None,
                    candidate_id: Annotated[str | None, Query(max_length=17)] = None,
-                   issued_from: Annotated[datetime | None, Query(
-                       description="issued at or after (ISO 8601)")] = None,
-                   issued_to: Annotated[datetime | None, Query(
-                       description="issued before (ISO 8601)")] = None,
+                   issued_from: Annotated[Moment | None, Query(
+                       description=f"issued at or after: {MOMENT_HELP}")] = None,
+                   issued_to: Annotated[Moment | None, Query(
+                       description=f"issued before: {MOMENT_HELP}")] = None,
                    horizon: Annotated[int | None, Query(
                        ge=1, le=MAX_HORIZON, description="only this step ahead")] = None,
                    after: Annotated[int, Query(ge=0, le=MAX_ID,

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
 from typing import Annotated
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 
 from service.access import Caller, require
 from service.app_state import Sessions
+from service.moments import MOMENT_HELP, Moment
 from service.problems import problem_responses
 from service.routes.params import PooledByDefault, horizon_or_pooled
 from service.routes.runs import run_url
@@ -71,16 +71,16 @@ def runs_of_version(caller: Auditor, sessions: Sessions, series_key: SeriesKeyPa
 
 @router.get("/audit/events", response_model=AuditEventPage, responses=problem_responses(*ERRORS))
 def audit_events(request: Request, response: Response, caller: Auditor, sessions: Sessions,
-                 start: Annotated[datetime | None, Query(description="ISO 8601, inclusive")]
-                 = None,
-                 end: Annotated[datetime | None, Query(description="ISO 8601, exclusive")]
-                 = None,
+                 start: Annotated[Moment | None, Query(
+                     description=f"from (inclusive): {MOMENT_HELP}")] = None,
+                 end: Annotated[Moment | None, Query(
+                     description=f"before (exclusive): {MOMENT_HELP}")] = None,
                  after: Annotated[int, Query(ge=0, le=MAX_ID,
                                              description="only events after this seq")]
                  = 0, limit: Limit = 1000) -> AuditEventPage:
     """Audit events in a time range, in log order; page on with ``after``."""
     with sessions.begin() as session:
-        events = audit_page(session, start=_aware(start), end=_aware(end), after_seq=after,
+        events = audit_page(session, start=start, end=end, after_seq=after,
                             limit=limit + 1)
     link = None
     if len(events) > limit:
@@ -100,9 +100,3 @@ def verification(caller: Auditor, sessions: Sessions) -> VerificationOut:
                            head_hash=report.head_hash, broken_at=report.broken_at,
                            problem=report.problem)
 
-
-def _aware(moment: datetime | None) -> datetime | None:
-    """Times without a zone are taken as UTC."""
-    if moment is None or moment.tzinfo is not None:
-        return moment
-    return moment.replace(tzinfo=UTC)
