@@ -17,6 +17,7 @@ from backtest.ledger import (
     MonitoringReport,
     expectation_from_folds,
     monitor,
+    untested,
 )
 from service.errors import FieldError, InvalidInputError
 from storage.champions import current_champion, current_champions
@@ -50,7 +51,7 @@ def monitor_series(session: Session, series_key: str,
     is_champion = champion is not None and champion.candidate_id == candidate_id
     expectation = _expectation(session, series_key, candidate_id)
     report = (monitor(history, expectation) if history
-              else MonitoringReport(series_key, candidate_id, (), expectation, ()))
+              else untested(series_key, candidate_id, expectation))
     return Monitored(report, is_champion, len(history))
 
 
