@@ -1,8 +1,10 @@
 """Ranking candidates on one series by a chosen score and horizon.
 
-Lower is better for every rankable score. ``skill`` is the candidate's score divided by
-the benchmark's on the same score and horizon: below 1 beats the benchmark (for MASE this
-is the ratio of MASEs). Candidates whose score is undefined are listed last, unranked.
+Lower is better for every rankable score. ``ratio_to_benchmark`` is the candidate's score
+divided by the benchmark's on the same score and horizon, a relative measure in the sense
+of Hyndman & Koehler (2006), e.g. relative MASE: lower is better, below 1 beats the
+benchmark. It is not a skill score; the usual skill score (Murphy 1988) is 1 - ratio,
+where higher is better. Candidates whose score is undefined are listed last, unranked.
 Ties are broken by label, then id, so the order never depends on input order.
 """
 
@@ -28,7 +30,7 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
         score = value.get(c.candidate_id)
         own = [f for f in folds if f.candidate_id == c.candidate_id]
         ok = sum(f.status == "ok" for f in own)
-        skill = score / reference if score is not None and reference else None
+        ratio = score / reference if score is not None and reference else None
         rows.append(RankRow(position if score is not None else None, c.candidate_id, c.label,
-                            score, skill, c.candidate_id == benchmark_id, ok, len(own) - ok))
+                            score, ratio, c.candidate_id == benchmark_id, ok, len(own) - ok))
     return tuple(rows)

@@ -34,9 +34,9 @@ SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric",
                  "value", "count", "note")
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 _PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
-RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
-                   "is_benchmark", "folds_ok", "folds_failed", "in_confidence_set",
-                   "beats_benchmark", "calibration_zone")
+RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score",
+                   "ratio_to_benchmark", "is_benchmark", "folds_ok", "folds_failed",
+                   "in_confidence_set", "beats_benchmark", "calibration_zone")
 
 
 def read_series_csv(text: str, *, frequency: str | None = None,
@@ -135,9 +135,10 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
         for r in sr.ranking:
             yield {"series_key": sr.series["key"], "rank": r.rank,
                    "candidate_id": r.candidate_id, "candidate": r.label, "score": r.score,
-                   "skill": r.skill, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
-                   "folds_failed": r.folds_failed, "in_confidence_set": r.in_confidence_set,
-                   "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone}
+                   "ratio_to_benchmark": r.ratio_to_benchmark, "is_benchmark": r.is_benchmark,
+                   "folds_ok": r.folds_ok, "folds_failed": r.folds_failed,
+                   "in_confidence_set": r.in_confidence_set, "beats_benchmark": r.beats_benchmark,
+                   "calibration_zone": r.calibration_zone}
 
 
 def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:

@@ -53,7 +53,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
     results and the API's run ranking both give them.
     """
     levels = sorted({lv for c in (coverage or {}).values() for lv in c})
-    head = ["#", "candidate", score_name, "vs bench", *[f"cover{lv}" for lv in levels],
+    head = ["#", "candidate", score_name, "ratio to bench", *[f"cover{lv}" for lv in levels],
             "signif.", "conf.set", "calibration", "failed"]
     body = []
     for r in rows:
@@ -61,7 +61,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
         body.append([
             "-" if r["rank"] is None else str(r["rank"]),
             r["candidate"] + (" (benchmark)" if r["is_benchmark"] else ""),
-            _number(r["score"]), _number(r["skill"], 2),
+            _number(r["score"]), _number(r["ratio_to_benchmark"], 2),
             *[_number(cover.get(lv), 2) for lv in levels],
             _flag(r["beats_benchmark"], "better", "no"),
             _flag(r["in_confidence_set"], "in", "out"),

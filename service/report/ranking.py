@@ -1,5 +1,6 @@
-"""One series' ranking: the table with skill, significance and confidence-set membership, the
-score-by-horizon overview, and the top candidate's forecast from the last origin."""
+"""One series' ranking: the table with the ratio to the benchmark, significance and
+confidence-set membership, the score-by-horizon overview, and the top candidate's forecast
+from the last origin."""
 
 from __future__ import annotations
 
@@ -34,7 +35,7 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
     mcs_p = confidence.get("p_values", {})
     rows = [(MISSING if r.rank is None else r.rank,
              r.label + (" (benchmark)" if r.is_benchmark else ""),
-             fixed(r.score), MISSING if r.is_benchmark else fixed(r.skill),
+             fixed(r.score), MISSING if r.is_benchmark else fixed(r.ratio_to_benchmark),
              MISSING if r.is_benchmark else verdict(r.beats_benchmark, "yes", "no"),
              verdict(r.in_confidence_set, "in", "out")
              + (f" (p {p_value(mcs_p[r.candidate_id])})" if r.candidate_id in mcs_p else ""),
@@ -42,12 +43,15 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
             for r in sr.ranking]
     parts: list[object] = [
         element("h3", "Ranking"),
-        element("p", f"Ranked by {score_name(plan)}. Skill is the candidate's {metric} "
-                     "divided by the benchmark's: below 1 beats the benchmark. 'Significantly "
+        element("p", f"Ranked by {score_name(plan)}. The ratio to the benchmark is the "
+                     f"candidate's {metric} divided by the benchmark's (a relative measure, "
+                     f"e.g. relative MASE; Hyndman & Koehler 2006): lower is better, below 1 "
+                     "beats the benchmark. It is not a skill score, which is 1 minus this "
+                     "ratio (Murphy 1988), higher being better. 'Significantly "
                      "better' is the Diebold-Mariano test with the Harvey-Leybourne-Newbold "
                      f"correction at 5 %. The {set_name} holds the candidates that cannot be "
                      "told apart from the best (Hansen, Lunde & Nason 2011).", cls="note"),
-        table(["rank", "candidate", metric, "skill vs benchmark",
+        table(["rank", "candidate", metric, "ratio to benchmark",
                "significantly better than benchmark", set_name, "calibration at h = 1",
                "folds ok / failed"], rows, numeric=(0, 2, 3, 7), cls="ranking"),
         charts.embed(score_by_horizon_chart(sr, metric=plan["rank_by"], unit=unit),

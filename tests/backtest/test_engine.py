@@ -88,7 +88,7 @@ def test_benchmark_is_added_and_ranked(two_series):
     assert [c.label for c in sr.candidates] == ["Naive", "Seasonal naive[12]"]
     assert sr.candidates[1].added_as_benchmark
     bench = next(r for r in sr.ranking if r.is_benchmark)
-    assert bench.skill == 1.0
+    assert bench.ratio_to_benchmark == 1.0
     assert sorted(r.rank for r in sr.ranking) == [1, 2]
     assert sr.ranking[0].score <= sr.ranking[1].score
 
