@@ -6,18 +6,16 @@ from __future__ import annotations
 import argparse
 import io
 from collections.abc import Iterable
-from datetime import datetime
 from typing import Any
 
 from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.tidy import write_csv
 from service.cli_store import add_store_option, operator, run_in_store
-from service.errors import InvalidInputError
 from service.issuing import IssueRequest, issue
 from service.ledger_rows import forecast_out, forecast_rows, outcome_rows, outcome_set_out
 from service.ledger_text import forecast_lines, outcome_lines
-from service.moments import MOMENT_HELP, parse_moment
+from service.moments import MOMENT_HELP, point_in_time
 from service.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.schemas.results import columns
 from storage.ledger import IssuedRecord, get_issued, list_issued
@@ -76,8 +74,8 @@ def forecast_issue(args: argparse.Namespace) -> int:
 
 def forecast_list(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        issued_from, issued_to = _moment("--from", args.issued_from), _moment("--to",
-                                                                              args.issued_to)
+        issued_from = point_in_time("--from", args.issued_from)
+        issued_to = point_in_time("--to", args.issued_to)
         with sessions.begin() as session:
             records = list_issued(session, series_key=args.series, candidate_id=args.candidate,
                                   issued_from=issued_from, issued_to=issued_to,
@@ -125,13 +123,6 @@ def _lines(out: ForecastOut, horizon: int | None) -> list[str]:
         return list(forecast_lines(out))
     steps = [s for s in out.steps if s.horizon == horizon]
     return list(forecast_lines(out.model_copy(update={"steps": steps}))) if steps else []
-
-
-def _moment(option: str, text: str | None) -> datetime | None:
-    try:
-        return None if text is None else parse_moment(text)
-    except ValueError as exc:
-        raise InvalidInputError(f"{option}: {exc}") from None
 
 
 def _levels(text: str) -> tuple[int, ...]:

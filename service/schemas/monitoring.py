@@ -59,6 +59,8 @@ class MonitoringOut(BaseModel):
 
     series_key: str
     candidate_id: str
+    candidate: str | None = Field(description="the candidate's label at the series' season "
+                                  "length (null for an unknown candidate id)")
     is_champion: bool
     forecasts: int = Field(description="issued forecasts of this candidate on the series")
     realised: list[RealisedOut]
@@ -74,6 +76,7 @@ class FlagRow(Row):
 
     series_key: str
     candidate_id: str
+    candidate: str | None
     rule: str
     state: State = Field(description=STATE_HELP)
     level: int | None
@@ -97,6 +100,7 @@ class RealisedRow(Row):
 
     series_key: str
     candidate_id: str
+    candidate: str | None
     period: str
     count: int
     mase: float | None

@@ -8,7 +8,8 @@ from datetime import UTC, datetime, timedelta
 import pytest
 
 from service.cli import main
-from service.moments import parse_moment
+from service.errors import InvalidInputError
+from service.moments import point_in_time
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 
@@ -25,15 +26,22 @@ SERIES = monthly_series("sales/north", 48, seed=3)
     ("2026-12-03T09:30:00Z", datetime(2026, 12, 3, 9, 30, tzinfo=UTC)),
 ])
 def test_iso_dates_and_times_are_read_as_utc(text, moment):
-    parsed = parse_moment(text)
+    parsed = point_in_time("t", text)
     assert parsed == moment and parsed.utcoffset() == timedelta(0)
+
+
+def test_as_of_reads_a_date_as_the_end_of_that_day():
+    assert point_in_time("as_of", "2026-12-03", day_end=True) == datetime(
+        2026, 12, 3, 23, 59, 59, 999999, tzinfo=UTC)
 
 
 @pytest.mark.parametrize("text", ["yesterday", "2026-13-01", "1764720000", "",
                                   "0001-01-01T00:00+05:00"])
-def test_anything_else_is_refused_with_what_was_given(text):
-    with pytest.raises(ValueError, match=repr(text).replace("+", r"\+")):
-        parse_moment(text)
+def test_anything_else_is_refused_naming_the_parameter_and_the_value(text):
+    with pytest.raises(InvalidInputError) as refused:
+        point_in_time("issued_from", text)
+    assert refused.value.detail.startswith(f"issued_from {text!r} is not an ISO 8601 date")
+    assert [(e.location, e.pointer) for e in refused.value.errors] == [("query", "/issued_from")]
 
 
 @pytest.fixture
@@ -84,7 +92,7 @@ def test_a_bad_time_is_a_422_problem_naming_the_parameter(api: Api, url, name, v
     body = answer.json()
     assert answer.headers["content-type"].startswith("application/problem+json")
     assert [(e["location"], e["pointer"]) for e in body["errors"]] == [("query", f"/{name}")]
-    assert value in body["errors"][0]["message"]
+    assert f"{name} {value!r} is not an ISO 8601 date" in body["detail"]
 
 
 def test_the_command_line_takes_a_date_and_refuses_a_bad_one_in_one_line(
@@ -102,5 +110,5 @@ def test_the_command_line_takes_a_date_and_refuses_a_bad_one_in_one_line(
     assert listed.out.startswith("forecast 1: sales/north") and listed.err == ""
     assert none.out.strip() == "no forecasts issued"
     assert refused.out == "" and refused.err.splitlines() == [
-        "foldline: error: --from: '2025-03-32' is not an ISO 8601 date or time (e.g. "
-        "2026-12-03 or 2026-12-03T09:30:00Z)"]
+        "foldline: error: --from '2025-03-32' is not an ISO 8601 date or time in the years 1 "
+        "to 9999 (e.g. 2025-03-31 or 2025-03-31T17:00:00Z)"]

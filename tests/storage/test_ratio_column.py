@@ -1,5 +1,5 @@
 """The ranking's ``ratio_to_benchmark`` (the column once named ``skill``): stored with its
-values, renamed in place by migration 0005_h14c and back, with the audit chain and the
+values, renamed in place by migration 0006_h14c and back, with the audit chain and the
 append-only guard intact on both backends."""
 
 from __future__ import annotations
@@ -54,7 +54,7 @@ def test_the_ratio_survives_the_rename_both_ways_with_audit_and_guards(backend: 
                    for r in ranking)
 
         stored = _column(url, "ratio_to_benchmark")
-        _downgrade(url, "0004")
+        _downgrade(url, "0005")
         before = _column(url, "skill")
         upgrade(url)
         after = _column(url, "ratio_to_benchmark")

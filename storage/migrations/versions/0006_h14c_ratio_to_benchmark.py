@@ -1,7 +1,7 @@
 """The ranking column ``skill`` is the ratio of a candidate's score to the benchmark's.
 
-Revision ID: 0005_h14c
-Revises: 0004
+Revision ID: 0006_h14c
+Revises: 0005
 Create Date: 2026-12-03
 
 Lower is better and below 1 beats the benchmark, the opposite of what a skill score
@@ -14,8 +14,8 @@ from collections.abc import Sequence
 
 from alembic import op
 
-revision: str = "0005_h14c"
-down_revision: str | Sequence[str] | None = "0004"
+revision: str = "0006_h14c"
+down_revision: str | Sequence[str] | None = "0005"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
