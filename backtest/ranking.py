@@ -8,8 +8,10 @@ ranked candidate completed (``common_folds`` of them), and the candidate's own-f
 figure is kept beside it (``score_own_folds``). With no failed folds the two are equal.
 If no origin was completed by every ranked candidate, nobody is ranked.
 
-``skill`` is the candidate's ranking score divided by the benchmark's, both on the common
-origins: below 1 beats the benchmark (for MASE this is the ratio of MASEs).
+``ratio_to_benchmark`` is the candidate's ranking score divided by the benchmark's, both
+on the common origins: a relative measure in the sense of Hyndman & Koehler (2006), e.g.
+relative MASE; lower is better, below 1 beats the benchmark. It is not a skill score; the
+usual skill score (Murphy 1988) is 1 - ratio, where higher is better.
 ``score_count`` of ``score_possible`` points (folds, for a per-fold mean) carry the
 ranking score; the rest had no defined scale. Ties are broken by label, then id, so the
 order never depends on input order.
@@ -50,10 +52,10 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
         score = value.get(cid)
         all_own = [f for f in folds if f.candidate_id == cid]
         ok = len(done[cid])
-        skill = score / reference if score is not None and reference else None
+        ratio = score / reference if score is not None and reference else None
         on_common = common_score.get(cid)
         rows.append(RankRow(
-            position if score is not None else None, cid, c.label, score, skill,
+            position if score is not None else None, cid, c.label, score, ratio,
             cid == benchmark_id, ok, len(all_own) - ok,
             folds_not_converged=sum(f.status == "ok" and f.converged is False
                                     for f in all_own),

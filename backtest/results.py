@@ -77,7 +77,7 @@ class RankRow:
     candidate_id: str
     label: str
     score: float | None
-    skill: float | None
+    ratio_to_benchmark: float | None
     is_benchmark: bool
     folds_ok: int
     folds_failed: int

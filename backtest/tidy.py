@@ -7,13 +7,20 @@ order of first appearance, and each series' rows keep their file order.
 
 Output columns are listed in :data:`FOLD_COLUMNS` and :data:`SCORE_COLUMNS`; they are a
 stable, documented interface (DEVELOPERS.md, "Output tables").
+
+:func:`write_csv` is the one CSV writer of the service and the command line. A text cell
+that a spreadsheet would run as a formula (it starts with ``=``, ``+``, ``-``, ``@``, a tab
+or a carriage return: the OWASP "CSV Injection" rule) is written with a leading ``'``;
+numbers, and text that is a plain decimal number such as ``-1.5``, are written as they are.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import Iterable, Iterator
+from datetime import datetime
 
 from backtest.errors import SeriesError
 from backtest.results import BacktestResult
@@ -25,7 +32,9 @@ FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "tr
                 "train_size", "reestimated", "status", "horizon", "period", "actual", "point")
 SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric", "level",
                  "value", "count", "note")
-RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "skill",
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
+RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "ratio_to_benchmark",
                    "is_benchmark", "folds_ok", "folds_failed", "folds_not_converged",
                    "in_confidence_set", "beats_benchmark", "calibration_zone", "score_own_folds",
                    "common_folds", "score_count", "score_possible")
@@ -127,7 +136,7 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
         for r in sr.ranking:
             yield {"series_key": sr.series["key"], "rank": r.rank,
                    "candidate_id": r.candidate_id, "candidate": r.label, "score": r.score,
-                   "skill": r.skill, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
+                   "ratio_to_benchmark": r.ratio_to_benchmark, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
                    "folds_failed": r.folds_failed, "folds_not_converged": r.folds_not_converged,
                    "in_confidence_set": r.in_confidence_set,
                    "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone,
@@ -136,12 +145,23 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
 
 
 def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:
-    """Write dict rows as CSV; ``None`` becomes an empty field; extra keys keep their order."""
+    """Write dict rows as CSV; ``None`` becomes an empty field, a time ISO 8601, a would-be
+    formula neutralised (:func:`csv_cell`); extra keys keep their order."""
     rows = iter(rows)
     first = next(rows, None)
     fieldnames = list(columns) if first is None else list(first)
-    writer = csv.DictWriter(out, fieldnames=fieldnames, lineterminator="\n")
-    writer.writeheader()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow([csv_cell(name) for name in fieldnames])
     for row in ([] if first is None else [first]):
-        writer.writerow(row)
-    writer.writerows(rows)
+        writer.writerow([csv_cell(row.get(name)) for name in fieldnames])
+    writer.writerows([csv_cell(row.get(name)) for name in fieldnames] for row in rows)
+
+
+def csv_cell(value: object) -> object:
+    """``value`` as a CSV cell: text starting like a formula gets a leading ``'``."""
+    if isinstance(value, datetime):
+        return value.isoformat()
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS) \
+            and not _PLAIN_NUMBER.fullmatch(value):
+        return "'" + value
+    return value

@@ -37,7 +37,7 @@ from service import (
     cli_run,
     cli_serve,
 )
-from service.demo import run_demo
+from service.demo import OutputFolderError, run_demo
 from service.terminal import ProgressBar, ranking_report
 
 
@@ -94,7 +94,10 @@ def _cmd_backtest(args: argparse.Namespace) -> int:
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
-    return run_demo(Path(args.out), args.jobs)
+    try:
+        return run_demo(Path(args.out), args.jobs)
+    except OutputFolderError as exc:
+        raise UsageError(str(exc)) from None
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -118,7 +121,8 @@ def build_parser() -> argparse.ArgumentParser:
     bt.set_defaults(handler=_cmd_backtest)
     demo = commands.add_parser("demo", help="run the invented demo scenario through the "
                                "service (server, worker, HTTP)")
-    demo.add_argument("--out", default="foldline-out/demo", help="output directory")
+    demo.add_argument("--out", default="foldline-out/demo", help="output folder: new, empty "
+                      "or an earlier demo's; each run writes a new numbered subfolder")
     demo.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
     demo.set_defaults(handler=_cmd_demo)
     cli_serve.register(commands)

@@ -6,7 +6,6 @@ from __future__ import annotations
 import argparse
 import io
 from collections.abc import Iterable
-from datetime import datetime
 from typing import Any
 
 from sqlalchemy.orm import Session, sessionmaker
@@ -16,6 +15,7 @@ from service.cli_store import add_store_option, operator, run_in_store
 from service.issuing import IssueRequest, issue
 from service.ledger_rows import forecast_out, forecast_rows, outcome_rows, outcome_set_out
 from service.ledger_text import forecast_lines, outcome_lines
+from service.moments import MOMENT_HELP, point_in_time
 from service.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.schemas.results import columns
 from storage.ledger import IssuedRecord, get_issued, list_issued
@@ -40,10 +40,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     listing = commands.add_parser("list", help="issued forecasts, oldest first")
     listing.add_argument("--series", metavar="SERIES")
     listing.add_argument("--candidate", metavar="ID")
-    listing.add_argument("--from", dest="issued_from", type=datetime.fromisoformat,
-                         metavar="TIME", help="issued at or after (ISO 8601)")
-    listing.add_argument("--to", dest="issued_to", type=datetime.fromisoformat,
-                         metavar="TIME", help="issued before (ISO 8601)")
+    listing.add_argument("--from", dest="issued_from", metavar="TIME",
+                         help=f"issued at or after: {MOMENT_HELP}")
+    listing.add_argument("--to", dest="issued_to", metavar="TIME",
+                         help=f"issued before: {MOMENT_HELP}")
     listing.add_argument("--horizon", type=int, help="only this step ahead")
     listing.add_argument("--csv", action="store_true", help="the flat ledger as CSV")
     listing.set_defaults(handler=forecast_list)
@@ -74,9 +74,11 @@ def forecast_issue(args: argparse.Namespace) -> int:
 
 def forecast_list(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
+        issued_from = point_in_time("--from", args.issued_from)
+        issued_to = point_in_time("--to", args.issued_to)
         with sessions.begin() as session:
             records = list_issued(session, series_key=args.series, candidate_id=args.candidate,
-                                  issued_from=args.issued_from, issued_to=args.issued_to,
+                                  issued_from=issued_from, issued_to=issued_to,
                                   limit=1_000_000)
             outs = [_out(session, record) for record in records]
         if args.csv:
@@ -132,9 +134,6 @@ def _levels(text: str) -> tuple[int, ...]:
 
 def _csv(rows: Iterable[dict[str, Any]], names: tuple[str, ...]) -> str:
     out = io.StringIO()
-    write_csv(({name: _cell(row.get(name)) for name in names} for row in rows), names, out)
+    write_csv(({name: row.get(name) for name in names} for row in rows), names, out)
     return out.getvalue().rstrip("\n")
 
-
-def _cell(value: object) -> object:
-    return value.isoformat() if isinstance(value, datetime) else value

@@ -6,6 +6,12 @@ CSV upload, submits a backtest, follows its progress, pulls the ranking over HTT
 prints it, then continues in time (:mod:`service.demo_ledger`): champions, issued
 forecasts, later actuals and the monitoring flag a drifting series raises. Every step is a
 real HTTP call to a real server process.
+
+The output folder is the demo's own: it deletes and overwrites nothing. A new or empty
+folder is marked with :data:`MARKER` (a short text file saying what the folder is); each
+invocation then writes into a new numbered subfolder (``1/``, ``2/``, ...) with its own
+store, log, CSV tables and report, so running the demo again leaves earlier runs as they
+were. A non-empty folder without the marker (a real store's folder, say) is refused.
 """
 
 from __future__ import annotations
@@ -28,6 +34,41 @@ from service.demo_ledger import continue_demo
 from service.terminal import ProgressBar, ranking_table
 
 FINAL = ("succeeded", "failed", "cancelled")
+MARKER = ".foldline-demo"
+MARKER_TEXT = ("This folder holds the output of `foldline demo`, one numbered subfolder per "
+               "invocation.\nThe demo writes new subfolders here and never deletes or "
+               "overwrites a file.\n")
+
+
+class OutputFolderError(Exception):
+    """The demo's output folder holds files the demo did not write."""
+
+
+def demo_folder(out: Path) -> Path:
+    """A new, empty subfolder of ``out`` for this invocation.
+
+    ``out`` must be new, empty, or marked as the demo's by an earlier invocation;
+    otherwise :class:`OutputFolderError` is raised and nothing is written.
+    """
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputFolderError(f"{out}: {exc.strerror}") from None
+    marker = out / MARKER
+    if not marker.is_file():
+        if any(out.iterdir()):
+            raise OutputFolderError(
+                f"{out} is not empty and was not made by foldline demo (no {MARKER} file); "
+                "give --out a new or empty folder")
+        with marker.open("x") as handle:
+            handle.write(MARKER_TEXT)
+    number = 1 + max((int(p.name) for p in out.iterdir() if p.name.isdigit()), default=0)
+    while True:
+        try:
+            (out / str(number)).mkdir()
+            return out / str(number)
+        except FileExistsError:  # another invocation took this number meanwhile
+            number += 1
 
 
 def _free_port() -> int:
@@ -85,11 +126,10 @@ def _create_key(env: dict[str, str]) -> str:
 
 
 def run_demo(out: Path, jobs: int) -> int:
-    """Run the scenario through a freshly started service; write outputs under ``out``."""
-    out.mkdir(parents=True, exist_ok=True)
+    """Run the scenario through a freshly started service; write outputs into a new
+    subfolder of ``out`` (:func:`demo_folder`)."""
+    out = demo_folder(out)
     store = out / "foldline.db"
-    for leftover in out.glob("foldline.db*"):
-        leftover.unlink()
     env = {**os.environ, "FOLDLINE_DATABASE_URL": f"sqlite:///{store.resolve()}",
            "FOLDLINE_HOST": "127.0.0.1", "FOLDLINE_PORT": str(_free_port()),
            "FOLDLINE_WORKER_JOBS": str(jobs), "FOLDLINE_POLL_SECONDS": "0.2"}

@@ -136,8 +136,11 @@ def _report(client: httpx.Client, out: Path, issued: int) -> int:
     for row in flags:
         by_series.setdefault(row["series_key"], []).append(FlagOut(**row))
     for key, series_flags in by_series.items():
-        raised = [f.rule for f in series_flags if f.raised]
-        print(f"  {key:<28} {'RAISED: ' + ', '.join(raised) if raised else 'quiet'}")
+        raised = [f.rule for f in series_flags if f.state == "raised"]
+        untested = [f.rule for f in series_flags if f.state == "not_enough_data"]
+        verdict = "RAISED: " + ", ".join(raised) if raised else "clear"
+        print(f"  {key:<28} {verdict}"
+              + (f"; not enough data: {', '.join(untested)}" if untested else ""))
     drifting = MonitoringOut(**client.get(
         f"/v1/series/{quote(DRIFTING, safe='/')}/monitoring").json())
     print("\n" + "\n".join(monitoring_lines(drifting)))

@@ -110,13 +110,16 @@ def monitoring_out(monitored: Monitored) -> MonitoringOut:
                               interval_score=_by_level(p.interval_score))
                   for p in report.realised],
         expectation=_expectation(report), flags=flag_outs(report),
-        raised=[flag.rule for flag in report.flags if flag.raised])
+        raised=[flag.rule for flag in report.flags if flag.state == "raised"],
+        not_enough_data=[flag.rule for flag in report.flags
+                         if flag.state == "not_enough_data"])
 
 
 def flag_outs(report: MonitoringReport) -> list[FlagOut]:
-    return [FlagOut(rule=f.rule, raised=f.raised, level=f.level, statistic=f.statistic,
+    return [FlagOut(rule=f.rule, state=f.state, level=f.level, statistic=f.statistic,
                     p_value=f.p_value, threshold=f.threshold, first_period=f.first_period,
-                    detail=f.detail) for f in report.flags]
+                    detail=f.detail, outcomes=f.outcomes, needed=f.needed)
+            for f in report.flags]
 
 
 def flag_rows(monitored: Monitored) -> Iterator[dict[str, Any]]:

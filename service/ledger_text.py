@@ -68,11 +68,21 @@ def monitoring_lines(out: MonitoringOut) -> Iterator[str]:
 
 
 def flag_lines(flags: Iterable[FlagOut]) -> Iterator[str]:
-    """One line per rule: RAISED or quiet, and why."""
+    """One line per rule: its state (RAISED, clear, not enough data), and why."""
     for flag in flags:
-        state = "RAISED" if flag.raised else "quiet "
         level = f" {flag.level}%" if flag.level is not None else ""
-        yield f"  {state}  {flag.rule}{level}: {flag.detail}"
+        yield f"  {flag_state(flag.state, flag.outcomes, flag.needed)}  {flag.rule}{level}: " \
+              f"{flag.detail}"
+
+
+def flag_state(state: str, outcomes: int, needed: int) -> str:
+    """A flag's state in words: ``RAISED``, ``clear``, or ``not enough data (3 of 12)``
+    (one-step outcomes had of those needed)."""
+    if state == "raised":
+        return "RAISED"
+    if state == "clear":
+        return "clear"
+    return "not enough data" + (f" ({outcomes} of {needed})" if outcomes < needed else "")
 
 
 def _num(value: float | None, digits: int = 3) -> str:

@@ -18,6 +18,7 @@ from backtest.ledger import (
     MonitoringReport,
     expectation_from_folds,
     monitor,
+    untested,
 )
 from service.errors import FieldError, InvalidInputError
 from storage.catalog import candidate_label
@@ -54,7 +55,7 @@ def monitor_series(session: Session, series_key: str, candidate_id: str | None =
     is_champion = champion is not None and champion.candidate_id == candidate_id
     expectation = _expectation(session, series_key, candidate_id, as_of)
     report = (monitor(history, expectation) if history
-              else MonitoringReport(series_key, candidate_id, (), expectation, ()))
+              else untested(series_key, candidate_id, expectation))
     return Monitored(report, candidate_label(session, series_key, candidate_id), is_champion,
                      len(history))
 

@@ -1,7 +1,9 @@
 """Tables answered as JSON or CSV, chosen by ``?format=`` or else the ``Accept`` header, and paged.
 
 CSV is UTF-8 with a header row, the documented column names, empty fields for nulls,
-``True``/``False`` for booleans (as the ``foldline backtest`` files) and ISO 8601 times.
+``True``/``False`` for booleans (as the ``foldline backtest`` files) and ISO 8601 times,
+written by :func:`backtest.tidy.write_csv` (text that would start a spreadsheet formula
+gets a leading ``'``).
 A page that has a successor names it in the JSON ``next`` member and in a
 ``Link: <...>; rel="next"`` header.
 """
@@ -10,7 +12,6 @@ from __future__ import annotations
 
 import io
 from collections.abc import Iterable, Sequence
-from datetime import datetime
 from typing import Annotated, Literal
 
 from fastapi import Query, Request
@@ -63,7 +64,7 @@ def next_link(request: Request, offset: int, limit: int, has_more: bool) -> str 
 def csv_response(rows: Iterable[dict], columns: Sequence[str], link: str | None) -> Response:
     """A CSV answer with exactly ``columns``, in order; ``link`` is the next page."""
     out = io.StringIO()
-    write_csv(({name: _cell(row.get(name)) for name in columns} for row in rows), columns, out)
+    write_csv(({name: row.get(name) for name in columns} for row in rows), columns, out)
     headers = {"Link": f'<{link}>; rel="next"'} if link else {}
     return Response(out.getvalue(), media_type="text/csv; charset=utf-8", headers=headers)
 
@@ -72,10 +73,6 @@ def link_headers(response: Response, link: str | None) -> None:
     """Add the next page's ``Link`` header to a JSON answer."""
     if link:
         response.headers["Link"] = f'<{link}>; rel="next"'
-
-
-def _cell(value: object) -> object:
-    return value.isoformat() if isinstance(value, datetime) else value
 
 
 def _weight(accept: str, media: str) -> float:

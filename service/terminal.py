@@ -54,7 +54,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
     results and the API's run ranking both give them.
     """
     levels = sorted({lv for c in (coverage or {}).values() for lv in c})
-    head = ["#", "candidate", score_name, "own folds", "vs bench",
+    head = ["#", "candidate", score_name, "own folds", "ratio to bench",
             *[f"cover{lv}" for lv in levels], "signif.", "conf.set", "calibration", "failed",
             "not conv."]
     body = []
@@ -64,7 +64,7 @@ def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
             "-" if r["rank"] is None else str(r["rank"]),
             r["candidate"] + (" (benchmark)" if r["is_benchmark"] else ""),
             score_cell(r, _number(r["score"])), _number(r.get("score_own_folds")),
-            _number(r["skill"], 2),
+            _number(r["ratio_to_benchmark"], 2),
             *[_number(cover.get(lv), 2) for lv in levels],
             _flag(r["beats_benchmark"], "better", "no"),
             _flag(r["in_confidence_set"], "in", "out"),

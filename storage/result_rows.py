@@ -106,7 +106,7 @@ def _score_row(score: Score) -> dict[str, Any]:
 
 def _rank_row(row: RankRow) -> dict[str, Any]:
     return {"candidate_id": row.candidate_id, "rank": row.rank, "label": row.label,
-            "score": _number(row.score), "skill": _number(row.skill),
+            "score": _number(row.score), "ratio_to_benchmark": _number(row.ratio_to_benchmark),
             "is_benchmark": row.is_benchmark, "folds_ok": int(row.folds_ok),
             "folds_failed": int(row.folds_failed),
             "folds_not_converged": int(row.folds_not_converged),
@@ -155,7 +155,7 @@ def _scores(rows: Sequence[Row]) -> tuple[Score, ...]:
 
 
 def _ranking(rows: Sequence[Row]) -> tuple[RankRow, ...]:
-    return tuple(RankRow(r["rank"], r["candidate_id"], r["label"], r["score"], r["skill"],
+    return tuple(RankRow(r["rank"], r["candidate_id"], r["label"], r["score"], r["ratio_to_benchmark"],
                          r["is_benchmark"], r["folds_ok"], r["folds_failed"],
                          r["in_confidence_set"], r["beats_benchmark"], r["calibration_zone"],
                          r["folds_not_converged"], r["score_own_folds"], r["common_folds"],

@@ -57,12 +57,12 @@ def score_table(session: Session, run_id: int, *, series_key: str | None = None,
 def rank_table(session: Session, run_id: int, *, series_key: str | None = None,
                limit: int | None = None, offset: int = 0) -> list[dict[str, Any]]:
     """The engine's ranking of each series: series_key, series_version, rank, candidate_id,
-    candidate, score, skill, is_benchmark, folds_ok, folds_failed, folds_not_converged,
+    candidate, score, ratio_to_benchmark, is_benchmark, folds_ok, folds_failed, folds_not_converged,
     in_confidence_set, beats_benchmark, calibration_zone, score_own_folds, common_folds,
     score_count, score_possible."""
     r = RankRecord
     query = _per_candidate(
-        select(r.rank, r.candidate_id, r.label.label("candidate"), r.score, r.skill,
+        select(r.rank, r.candidate_id, r.label.label("candidate"), r.score, r.ratio_to_benchmark,
                r.is_benchmark, r.folds_ok, r.folds_failed, r.folds_not_converged,
                r.in_confidence_set, r.beats_benchmark, r.calibration_zone, r.score_own_folds,
                r.common_folds, r.score_count, r.score_possible), r, run_id, series_key, None)

@@ -370,7 +370,7 @@ class RankRecord(Base):
     rank: Mapped[int | None]
     label: Mapped[Name]
     score: Mapped[float | None]
-    skill: Mapped[float | None]
+    ratio_to_benchmark: Mapped[float | None]
     is_benchmark: Mapped[bool]
     folds_ok: Mapped[int]
     folds_failed: Mapped[int]

@@ -10,6 +10,7 @@ from backtest.ledger.monitoring import (
     RealisedPoint,
     expectation_from_folds,
     monitor,
+    untested,
 )
 from backtest.ledger.outcomes import Outcome, realised_mase, score_outcomes
 
@@ -27,4 +28,5 @@ __all__ = [
     "monitor",
     "realised_mase",
     "score_outcomes",
+    "untested",
 ]

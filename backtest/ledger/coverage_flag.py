@@ -14,7 +14,7 @@ are left to the descriptive figures. The flag is raised when
 
 The false-alarm rate is therefore at most ``false_alarm`` + 0.01 % and is exactly
 :func:`coverage_false_alarm_rate`. Fewer than :data:`MIN_COVERAGE_OUTCOMES` one-step
-outcomes: not raised, "too little data".
+outcomes: ``not_enough_data``.
 """
 
 from __future__ import annotations
@@ -28,15 +28,21 @@ from backtest.assessment.calibration import (
     kupiec_null_distribution,
     kupiec_pof,
 )
-from backtest.ledger.flag import Flag, too_little_data
+from backtest.ledger.flag import Flag, not_enough_data, tested
 from backtest.ledger.outcomes import Outcome
 
 MIN_COVERAGE_OUTCOMES = 12
 
 
-def coverage_flags(one_step: Sequence[Outcome], false_alarm: float) -> tuple[Flag, ...]:
-    """One coverage flag per level found among the one-step ``outcomes``."""
-    levels = sorted({level for o in one_step for level in o.hits})
+def coverage_flags(one_step: Sequence[Outcome], false_alarm: float,
+                   levels: Sequence[int] = ()) -> tuple[Flag, ...]:
+    """One coverage flag per issued level (and any other found among the one-step
+    ``outcomes``); without levels, one ``not_enough_data`` flag of no level."""
+    levels = sorted({*levels, *(level for o in one_step for level in o.hits)})
+    if not levels:
+        return (not_enough_data("coverage", "no one-step outcome yet; the coverage test "
+                                f"needs at least {MIN_COVERAGE_OUTCOMES}", 0,
+                                MIN_COVERAGE_OUTCOMES),)
     return tuple(_level_flag([o.hits[level] for o in one_step if level in o.hits],
                              [o.period for o in one_step if level in o.hits], level,
                              false_alarm) for level in levels)
@@ -53,21 +59,22 @@ def coverage_false_alarm_rate(trials: int, level: int, false_alarm: float) -> fl
 def _level_flag(hits: list[bool], periods: list[str], level: int, false_alarm: float) -> Flag:
     trials = len(hits)
     if trials < MIN_COVERAGE_OUTCOMES:
-        return too_little_data("coverage", f"{trials} one-step outcome(s) at the {level} % "
+        return not_enough_data("coverage", f"{trials} one-step outcome(s) at the {level} % "
                                f"level; the coverage test needs at least "
-                               f"{MIN_COVERAGE_OUTCOMES}", level)
+                               f"{MIN_COVERAGE_OUTCOMES}", trials, MIN_COVERAGE_OUTCOMES,
+                               level)
     rate = (100 - level) / 100.0
     misses = trials - sum(hits)
     kupiec = kupiec_pof(misses, trials, rate)
     lr, p_value = kupiec["lr"], kupiec["p_value"]
     zone = calibration_zone(misses, trials, rate)
-    return Flag(rule="coverage", raised=_raised(misses, trials, rate, false_alarm),
+    return Flag(rule="coverage", state=tested(_raised(misses, trials, rate, false_alarm)),
                 level=level, statistic=lr, p_value=p_value, threshold=false_alarm,
                 first_period=periods[0],
                 detail=f"{level} % intervals held {trials - misses} of {trials} one-step "
                        f"actuals (coverage {(trials - misses) / trials:.2f}, nominal "
                        f"{level / 100:.2f}); Kupiec LR {lr:.2f}, exact p {p_value:.3g}; "
-                       f"zone {zone}")
+                       f"zone {zone}", outcomes=trials, needed=MIN_COVERAGE_OUTCOMES)
 
 
 def _raised(misses: int, trials: int, rate: float, false_alarm: float) -> bool:

@@ -22,7 +22,7 @@ are too narrow also make the CUSUM wander, which the coverage flag shows separat
 Under a transform the back-transformed interval is not symmetric and the implied sd is an
 approximation. The rate is per evaluation: monitoring every month looks again at a
 longer path, and the chance of some alarm over many looks is larger.
-Fewer than :data:`MIN_LEVEL_SHIFT_OUTCOMES` usable errors: not raised, "too little data".
+Fewer than :data:`MIN_LEVEL_SHIFT_OUTCOMES` usable errors: ``not_enough_data``.
 """
 
 from __future__ import annotations
@@ -35,7 +35,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import optimize, stats
 
-from backtest.ledger.flag import Flag, too_little_data
+from backtest.ledger.flag import Flag, not_enough_data, tested
 from backtest.ledger.issue import IssuedForecast
 from backtest.ledger.outcomes import Outcome
 
@@ -96,8 +96,9 @@ def level_shift_flag(one_step: Sequence[tuple[IssuedForecast, Outcome]],
     usable = [(o.period, o.error / sd) for f, o in one_step
               if math.isfinite(sd := implied_sd(f, 1)) and sd > 0]
     if len(usable) < MIN_LEVEL_SHIFT_OUTCOMES:
-        return too_little_data("level_shift", f"{len(usable)} standardised one-step error(s); "
-                               f"the CUSUM needs at least {MIN_LEVEL_SHIFT_OUTCOMES}")
+        return not_enough_data("level_shift", f"{len(usable)} standardised one-step "
+                               f"error(s); the CUSUM needs at least {MIN_LEVEL_SHIFT_OUTCOMES}",
+                               len(usable), MIN_LEVEL_SHIFT_OUTCOMES)
     periods = [p for p, _ in usable]
     test = cusum_test([z for _, z in usable], false_alarm)
     first = None if test.first_crossing is None else periods[test.first_crossing]
@@ -106,8 +107,9 @@ def level_shift_flag(one_step: Sequence[tuple[IssuedForecast, Outcome]],
                else f"stays inside the boundary (a = {a:.3f})")
     skipped = len(one_step) - len(usable)
     note = f"; {skipped} without a finite interval left out" if skipped else ""
-    return Flag(rule="level_shift", raised=first is not None, level=None,
+    return Flag(rule="level_shift", state=tested(first is not None), level=None,
                 statistic=test.a_star, p_value=test.p_value, threshold=false_alarm,
                 first_period=first,
                 detail=f"CUSUM of {len(usable)} standardised one-step errors {verdict}; "
-                       f"a* = {test.a_star:.3f}, p {test.p_value:.3g}{note}")
+                       f"a* = {test.a_star:.3f}, p {test.p_value:.3g}{note}",
+                outcomes=len(usable), needed=MIN_LEVEL_SHIFT_OUTCOMES)

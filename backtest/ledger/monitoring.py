@@ -13,7 +13,10 @@ module and each tested on the one-step outcomes (one per origin, so no two overl
 - ``level_shift`` (:mod:`.level_shift`): CUSUM of standardised errors with the Brown,
   Durbin & Evans (1975) boundary.
 
-Each is raised with probability at most ``false_alarm`` for a well-specified model.
+Each is raised with probability at most ``false_alarm`` for a well-specified model. A
+rule with too little data to test is ``not_enough_data``, never ``clear``
+(:class:`~backtest.ledger.flag.Flag`); :func:`untested` is the report of a candidate with
+no issued forecast yet.
 """
 
 from __future__ import annotations
@@ -36,7 +39,7 @@ from backtest.ledger.realised import RealisedPoint, realised_points
 from backtest.results import to_jsonable
 
 __all__ = ["Expectation", "Flag", "IssuedOutcomes", "MonitoringReport", "RealisedPoint",
-           "expectation_from_folds", "monitor"]
+           "expectation_from_folds", "monitor", "untested"]
 
 
 @dataclass(frozen=True)
@@ -74,11 +77,25 @@ def monitor(history: Sequence[IssuedOutcomes], expectation: Expectation | None, 
     series_key, candidate_id = _checked(history, expectation, false_alarm)
     latest = _latest_per_origin(history)
     one_step = [(item.forecast, o) for item in latest for o in item.outcomes if o.horizon == 1]
-    steps = [o for _, o in one_step]
-    flags = (*coverage_flags(steps, false_alarm), accuracy_flag(steps, expectation, false_alarm),
-             level_shift_flag(one_step, false_alarm))
+    levels = sorted({level for item in latest for level in item.forecast.levels})
+    flags = _flags(one_step, levels, expectation, false_alarm)
     realised = realised_points([o for item in latest for o in item.outcomes], expectation)
     return MonitoringReport(series_key, candidate_id, realised, expectation, flags)
+
+
+def untested(series_key: str, candidate_id: str, expectation: Expectation | None, *,
+             false_alarm: float = 0.05) -> MonitoringReport:
+    """The report of a candidate with no issued forecast: every rule ``not_enough_data``."""
+    return MonitoringReport(series_key, candidate_id, (), expectation,
+                            _flags([], [], expectation, false_alarm))
+
+
+def _flags(one_step: list[tuple[IssuedForecast, Outcome]], levels: Sequence[int],
+           expectation: Expectation | None, false_alarm: float) -> tuple[Flag, ...]:
+    steps = [o for _, o in one_step]
+    return (*coverage_flags(steps, false_alarm, levels),
+            accuracy_flag(steps, expectation, false_alarm),
+            level_shift_flag(one_step, false_alarm))
 
 
 def _checked(history: Sequence[IssuedOutcomes], expectation: Expectation | None,

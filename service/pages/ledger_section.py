@@ -10,6 +10,7 @@ from backtest.ledger import MonitoringReport, realised_mase
 from service.charts.fan import fan_chart
 from service.charts.monitoring import monitoring_chart
 from service.charts.render import DRAWING, render
+from service.ledger_text import flag_state
 from service.monitoring import Monitored
 from service.pages.layout import forecast_href, run_href
 from service.pages.ledger_view import IssuedRow, LatestForecast, LedgerView
@@ -98,12 +99,15 @@ def _basis(monitored: Monitored) -> str:
                else f"expectation from the backtest of run {expectation.run_id}")
     return (f"{monitored.forecasts} issued forecast(s); {against}. Each flag tests the "
             "one-step outcomes only, one per origin; a flag is raised when its p-value is "
-            "below its false-alarm rate.")
+            "below its false-alarm rate, clear when it is not, and a rule with too few "
+            "outcomes to test says \"not enough data\" (had of needed), which is no "
+            "all-clear.")
 
 
 def _flags(report: MonitoringReport) -> Html:
     rows = [(f.rule.replace("_", " "), MISSING if f.level is None else f"{f.level} %",
-             element("strong", "RAISED") if f.raised else "quiet", fixed(f.statistic),
+             element("strong", "RAISED") if f.raised
+             else flag_state(f.state, f.outcomes, f.needed), fixed(f.statistic),
              p_value(f.p_value), fixed(f.threshold, 2), shown(f.first_period), f.detail)
             for f in report.flags]
     return table(FLAG_HEADER, rows, numeric=(3, 4, 5), cls="flags")

@@ -23,7 +23,7 @@ from storage.result_tables import rank_table
 from storage.series_catalog import SeriesInfo, find_series
 
 HEADER = ["series", "unit", "latest version", "latest successful run", "ranked by",
-          "top candidate", "score", "skill vs benchmark", "champion"]
+          "top candidate", "score", "ratio to benchmark", "champion"]
 
 
 PAGE_SIZE = 100
@@ -50,8 +50,9 @@ def series_list(session: Session, *, prefix: str | None = None, offset: int = 0,
         *parts,
         element("p", f"{span}, by key"
                      + (f", starting with {prefix!r}" if prefix else "") + ". Score and "
-                     "skill are those of the top-ranked candidate on the series' latest "
-                     "successful run, by that run's ranking score; skill below 1 beats the "
+                     "ratio to benchmark are those of the top-ranked candidate on the series' "
+                     "latest successful run, by that run's ranking score; the ratio is its "
+                     "score divided by the benchmark's: lower is better, below 1 beats the "
                      "benchmark. The champion is the candidate last chosen for issuing "
                      "forecasts.", cls="note"),
         table(HEADER, rows, numeric=(6, 7), cls="series-list"),
@@ -100,7 +101,7 @@ def _row(session: Session, s: SeriesInfo, latest: LatestRun | None,
         return [*cells, run, ranked_by, MISSING, MISSING, MISSING,
                 _champion(champion, labels)]
     label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
-    return [*cells, run, ranked_by, label, fixed(top["score"]), fixed(top["skill"]),
+    return [*cells, run, ranked_by, label, fixed(top["score"]), fixed(top["ratio_to_benchmark"]),
             _champion(champion, labels)]
 
 

@@ -1,5 +1,6 @@
 """The overview of a run with more series than the report details: every series' top
-candidate, score and skill from the stored ranking rows, with each series' page named."""
+candidate, score and ratio to the benchmark from the stored ranking rows, with each
+series' page named."""
 
 from __future__ import annotations
 
@@ -10,7 +11,7 @@ from service.report.html import Html, element, join, table
 from service.report.numbers import MISSING, fixed
 from service.report.ranking import score_name
 
-HEADER = ["series", "version", "top candidate", "score", "skill vs benchmark",
+HEADER = ["series", "version", "top candidate", "score", "ratio to benchmark",
           "in confidence set", "calibration at h = 1", "folds ok / failed"]
 
 
@@ -27,7 +28,8 @@ def overview_section(rows: Sequence[Mapping[str, Any]], plan: Mapping[str, Any],
             "other series, this line is what its stored ranking says; its full ranking, "
             "charts and folds are on its page (/pages/series/KEY) and in the API "
             "(/v1/runs/ID/ranking, /v1/runs/ID/folds). Ranked by "
-            f"{score_name(plan)}; skill below 1 beats the benchmark.")
+            f"{score_name(plan)}; the ratio to the benchmark is the top candidate's score "
+            "divided by the benchmark's: lower is better, below 1 beats it.")
     return join([element("h2", "Every series"), element("p", note, cls="note"),
                  table(HEADER, lines, numeric=(1, 3, 4), cls="overview")])
 
@@ -42,6 +44,6 @@ def _line(key: str, ranking: Sequence[Mapping[str, Any]]) -> list[object]:
                 f"{in_set} of {len(ranking)}", MISSING, f"{ok} / {failed}"]
     label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
     return [key, top["series_version"], label, fixed(top["score"]),
-            MISSING if top["is_benchmark"] else fixed(top["skill"]),
+            MISSING if top["is_benchmark"] else fixed(top["ratio_to_benchmark"]),
             f"{in_set} of {len(ranking)}", top["calibration_zone"] or MISSING,
             f"{ok} / {failed}"]

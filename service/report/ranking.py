@@ -1,5 +1,6 @@
-"""One series' ranking: the table with skill, significance and confidence-set membership, the
-score-by-horizon overview, and the top candidate's forecast from the last origin."""
+"""One series' ranking: the table with the ratio to the benchmark, significance and
+confidence-set membership, the score-by-horizon overview, and the top candidate's forecast
+from the last origin."""
 
 from __future__ import annotations
 
@@ -36,7 +37,7 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
     rows = [(MISSING if r.rank is None else r.rank,
              r.label + (" (benchmark)" if r.is_benchmark else ""),
              score_cell(vars(r), fixed(r.score)), fixed(r.score_own_folds),
-             MISSING if r.is_benchmark else fixed(r.skill),
+             MISSING if r.is_benchmark else fixed(r.ratio_to_benchmark),
              MISSING if r.is_benchmark else verdict(r.beats_benchmark, "yes", "no"),
              verdict(r.in_confidence_set, "in", "out")
              + (f" (p {p_value(mcs_p[r.candidate_id])})" if r.candidate_id in mcs_p else ""),
@@ -48,13 +49,15 @@ def ranking_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
         element("p", f"Ranked by {score_name(plan)}"
                      f"{common_ground([vars(r) for r in sr.ranking]) or ''}. 'Own folds' is "
                      "the figure over the candidate's own completed folds; a figure carried "
-                     "by fewer than half of its points shows the count. Skill is the "
-                     f"candidate's {metric} "
-                     "divided by the benchmark's: below 1 beats the benchmark. 'Significantly "
+                     "by fewer than half of its points shows the count. The ratio to the "
+                     f"benchmark is the candidate's {metric} divided by the benchmark's (a "
+                     "relative measure, e.g. relative MASE; Hyndman & Koehler 2006): lower is "
+                     "better, below 1 beats the benchmark. It is not a skill score, which is 1 "
+                     "minus this ratio (Murphy 1988), higher being better. 'Significantly "
                      "better' is the Diebold-Mariano test with the Harvey-Leybourne-Newbold "
                      f"correction at 5 %. The {set_name} holds the candidates that cannot be "
                      "told apart from the best (Hansen, Lunde & Nason 2011).", cls="note"),
-        table(["rank", "candidate", metric, f"{metric}, own folds", "skill vs benchmark",
+        table(["rank", "candidate", metric, f"{metric}, own folds", "ratio to benchmark",
                "significantly better than benchmark", set_name, "calibration at h = 1",
                "folds ok / failed / not converged"], rows, numeric=(0, 2, 3, 4, 8),
               cls="ranking"),

@@ -5,7 +5,6 @@ Issued forecasts and outcomes are records: no route changes or deletes them.
 
 from __future__ import annotations
 
-from datetime import datetime
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Query, Request, Response
@@ -21,7 +20,7 @@ from service.ledger_rows import (
     outcome_rows,
     outcome_set_out,
 )
-from service.moments import point_in_time
+from service.moments import MOMENT_HELP, point_in_time
 from service.problems import problem_responses
 from service.routes.params import AsOfParam, Id
 from service.schemas.common import MAX_ID
@@ -73,10 +72,10 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
                    output: FormatParam = None,
                    series_key: Annotated[str | None, Query(max_length=200)] = None,
                    candidate_id: Annotated[str | None, Query(max_length=17)] = None,
-                   issued_from: Annotated[datetime | None, Query(
-                       description="issued at or after (ISO 8601)")] = None,
-                   issued_to: Annotated[datetime | None, Query(
-                       description="issued before (ISO 8601)")] = None,
+                   issued_from: Annotated[str | None, Query(
+                       description=f"issued at or after: {MOMENT_HELP}")] = None,
+                   issued_to: Annotated[str | None, Query(
+                       description=f"issued before: {MOMENT_HELP}")] = None,
                    horizon: Annotated[int | None, Query(
                        ge=1, le=MAX_HORIZON, description="only this step ahead")] = None,
                    after: Annotated[int, Query(ge=0, le=MAX_ID,
@@ -89,7 +88,8 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
     moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
         records = list_issued(session, series_key=series_key, candidate_id=candidate_id,
-                              issued_from=issued_from, issued_to=issued_to, as_of=moment,
+                              issued_from=point_in_time("issued_from", issued_from),
+                              issued_to=point_in_time("issued_to", issued_to), as_of=moment,
                               after_id=after, limit=limit + 1)
         items = _outs(session, records[:limit])
     if horizon is not None:

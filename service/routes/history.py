@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
@@ -11,6 +10,7 @@ from backtest.scoring import LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flat_rows import flat_columns, flat_rows
+from service.moments import MOMENT_HELP, point_in_time
 from service.problems import problem_responses
 from service.routes.params import PooledByDefault, horizon_or_pooled
 from service.routes.runs import run_url
@@ -94,18 +94,19 @@ def runs_of_version(request: Request, caller: Auditor, sessions: Sessions,
                        **problem_responses(*ERRORS, 406)})
 def audit_events(request: Request, response: Response, caller: Auditor, sessions: Sessions,
                  output: FormatParam = None,
-                 start: Annotated[datetime | None, Query(description="ISO 8601, inclusive")]
-                 = None,
-                 end: Annotated[datetime | None, Query(description="ISO 8601, exclusive")]
-                 = None,
+                 start: Annotated[str | None, Query(
+                     description=f"from (inclusive): {MOMENT_HELP}")] = None,
+                 end: Annotated[str | None, Query(
+                     description=f"before (exclusive): {MOMENT_HELP}")] = None,
                  after: Annotated[int, Query(ge=0, le=MAX_ID,
                                              description="only events after this seq")]
                  = 0, limit: Limit = 1000) -> Any:
     """Audit events in a time range, in log order; page on with ``after``. Each names its
     subject by id and in words (``subject_label``)."""
     chosen = chosen_format(request, output)
+    window = point_in_time("start", start), point_in_time("end", end)
     with sessions.begin() as session:
-        events = audit_page(session, start=_aware(start), end=_aware(end), after_seq=after,
+        events = audit_page(session, start=window[0], end=window[1], after_seq=after,
                             limit=limit + 1)
         described = describe_subjects(session, (e.subject for e in events[:limit]))
     link = None
@@ -130,9 +131,3 @@ def verification(caller: Auditor, sessions: Sessions) -> VerificationOut:
                            head_hash=report.head_hash, broken_at=report.broken_at,
                            problem=report.problem)
 
-
-def _aware(moment: datetime | None) -> datetime | None:
-    """Times without a zone are taken as UTC."""
-    if moment is None or moment.tzinfo is not None:
-        return moment
-    return moment.replace(tzinfo=UTC)

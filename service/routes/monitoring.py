@@ -14,7 +14,14 @@ from service.moments import point_in_time
 from service.monitoring import monitor_champions, monitor_series
 from service.problems import problem_responses
 from service.routes.params import AsOfParam
-from service.schemas.monitoring import FlagPage, FlagRow, MonitoringOut, RealisedRow
+from service.schemas.monitoring import (
+    STATE_HELP,
+    FlagPage,
+    FlagRow,
+    MonitoringOut,
+    RealisedRow,
+    State,
+)
 from service.schemas.results import columns
 from service.tables import (
     FormatParam,
@@ -57,8 +64,8 @@ def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessio
 def list_flags(request: Request, response: Response, caller: Reader, sessions: Sessions,
                output: FormatParam = None,
                prefix: Annotated[str | None, Query(max_length=200)] = None,
-               raised: Annotated[bool | None, Query(
-                   description="true: only raised flags; false: only quiet ones")] = None,
+               state: Annotated[State | None, Query(
+                   description=f"only flags in this state ({STATE_HELP})")] = None,
                limit: Annotated[int, Query(ge=1, le=MAX_SERIES, description=(
                    "series per page (each gives one row per rule and level)"))] = 100,
                offset: Offset = 0, as_of: AsOfParam = None) -> Any:
@@ -72,7 +79,7 @@ def list_flags(request: Request, response: Response, caller: Reader, sessions: S
                                           as_of=moment)
     link = next_link(request, offset, limit, more)
     rows = [row for m in reports for row in flag_rows(m)
-            if raised is None or row["raised"] == raised]
+            if state is None or row["state"] == state]
     if chosen == "csv":
         return csv_response(rows, columns(FlagRow), link)
     link_headers(response, link)

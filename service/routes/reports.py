@@ -32,10 +32,10 @@ def report_response(html: str) -> HTMLResponse:
                        **problem_responses(401, 403, 404, 409, 422, 500, 503)})
 def run_report(run_id: Id, caller: Reader, sessions: Sessions,
                settings: AppSettings) -> HTMLResponse:
-    """A finished run's report: what was run, the rankings with skill, significance and
-    confidence sets, calibration, diagnostics, failed folds, warnings and cautions, with
-    every chart inline; a run of more than 25 series gets a line per series, then the first
-    25 in full. The worker that finished the run renders it ahead
+    """A finished run's report: what was run, the rankings with the ratio to the benchmark,
+    significance and confidence sets, calibration, diagnostics, failed folds, warnings and
+    cautions, with every chart inline; a run of more than 25 series gets a line per series,
+    then the first 25 in full. The worker that finished the run renders it ahead
     (``FOLDLINE_PRERENDER_REPORTS``); otherwise the first request renders it (up to about a
     minute). Later ones are served from the cache. 409 while the run is queued or running."""
     return report_response(stored_run_report(sessions, run_id, settings_report_cache(settings)))

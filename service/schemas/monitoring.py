@@ -2,23 +2,34 @@
 
 from __future__ import annotations
 
+from typing import Literal
+
 from pydantic import BaseModel, Field
 
 from service.schemas.common import Page
 from service.schemas.results import Row
+
+State = Literal["raised", "clear", "not_enough_data"]
+STATE_HELP = ("raised: the rule's test rejects; clear: tested, no rejection; "
+              "not_enough_data: too few outcomes (or no backtest) to test, which says nothing "
+              "either way")
+OUTCOMES_HELP = "one-step outcomes the rule had"
+NEEDED_HELP = "the fewest one-step outcomes the rule tests on"
 
 
 class FlagOut(Row):
     """One monitoring rule's verdict on the realised outcomes."""
 
     rule: str = Field(description="coverage, accuracy or level_shift")
-    raised: bool
+    state: State = Field(description=STATE_HELP)
     level: int | None
     statistic: float | None
     p_value: float | None
     threshold: float | None
     first_period: str | None = Field(description="where the evidence starts")
     detail: str
+    outcomes: int = Field(description=OUTCOMES_HELP)
+    needed: int = Field(description=NEEDED_HELP)
 
 
 class RealisedOut(Row):
@@ -57,6 +68,7 @@ class MonitoringOut(BaseModel):
         description="from the latest succeeded run that backtested the candidate; null if none")
     flags: list[FlagOut]
     raised: list[str] = Field(description="the rules whose flag is raised")
+    not_enough_data: list[str] = Field(description="the rules that could not be tested")
 
 
 class FlagRow(Row):
@@ -66,13 +78,15 @@ class FlagRow(Row):
     candidate_id: str
     candidate: str | None
     rule: str
-    raised: bool
+    state: State = Field(description=STATE_HELP)
     level: int | None
     statistic: float | None
     p_value: float | None
     threshold: float | None
     first_period: str | None
     detail: str
+    outcomes: int = Field(description=OUTCOMES_HELP)
+    needed: int = Field(description=NEEDED_HELP)
 
 
 class FlagPage(Page):

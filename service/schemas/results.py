@@ -10,9 +10,13 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from pydantic import BaseModel, ConfigDict
+from pydantic import BaseModel, ConfigDict, Field
 
 from service.schemas.common import Page
+
+RATIO_HELP = ("the candidate's ranking score divided by the benchmark's (e.g. relative MASE): "
+              "lower is better, below 1 beats the benchmark; the usual skill score is "
+              "1 - this ratio")
 
 
 class Row(BaseModel):
@@ -70,7 +74,7 @@ class RunRankRow(Row):
     candidate_id: str
     candidate: str
     score: float | None
-    skill: float | None
+    ratio_to_benchmark: float | None = Field(description=RATIO_HELP)
     is_benchmark: bool
     folds_ok: int
     folds_failed: int

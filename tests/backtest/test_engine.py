@@ -89,7 +89,7 @@ def test_benchmark_is_added_and_ranked(two_series):
     assert [c.label for c in sr.candidates] == ["Naive", "Seasonal naive[12]"]
     assert sr.candidates[1].added_as_benchmark
     bench = next(r for r in sr.ranking if r.is_benchmark)
-    assert bench.skill == 1.0
+    assert bench.ratio_to_benchmark == 1.0
     assert sorted(r.rank for r in sr.ranking) == [1, 2]
     assert sr.ranking[0].score <= sr.ranking[1].score
 
@@ -172,4 +172,4 @@ def test_the_ranking_compares_candidates_on_the_origins_all_completed(two_series
                      if s.metric == "mase" and s.horizon is None)
     assert bench.common_folds == rows[flaky.id].common_folds == 2
     assert bench.score_own_folds == own and bench.score == on_common != own
-    assert rows[flaky.id].skill == pytest.approx(rows[flaky.id].score / bench.score)
+    assert rows[flaky.id].ratio_to_benchmark == pytest.approx(rows[flaky.id].score / bench.score)

@@ -35,8 +35,8 @@ def test_candidates_are_ranked_on_the_origins_all_of_them_completed():
     assert rows["steady"].score_own_folds == pytest.approx(2.75)
     assert rows["steady"].score == pytest.approx(1.5)
     assert rows["bench"].score == pytest.approx(2.0)
-    assert rows["fragile"].skill == pytest.approx(0.5)
-    assert rows["steady"].skill == pytest.approx(0.75)
+    assert rows["fragile"].ratio_to_benchmark == pytest.approx(0.5)
+    assert rows["steady"].ratio_to_benchmark == pytest.approx(0.75)
     assert {r.common_folds for r in rows.values()} == {2}
     assert (rows["fragile"].folds_ok, rows["fragile"].folds_failed) == (2, 2)
     assert rows["steady"].score_count == rows["steady"].score_possible == 2

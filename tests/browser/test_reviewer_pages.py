@@ -123,8 +123,8 @@ def test_a_reader_signs_in_and_reads_the_series_list_series_and_report(served: S
     cells = _cells(row)
     assert cells[3].startswith(f"run {served.run_id} on version 1")
     label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
-    skill = "–" if top["skill"] is None else f"{top['skill']:.3f}"
-    assert cells[5:8] == [label, f"{top['score']:.3f}", skill]
+    ratio = "–" if top["ratio_to_benchmark"] is None else f"{top['ratio_to_benchmark']:.3f}"
+    assert cells[5:8] == [label, f"{top['score']:.3f}", ratio]
     champion = api.get(f"/v1/series/{SERIES_KEY}/champion").json()["candidate_id"]
     assert cells[8] == next(r["candidate"] for r in ranking if r["candidate_id"] == champion)
     page.screenshot(path=ARTIFACTS / "01-series-list.png", full_page=True)
@@ -169,7 +169,7 @@ def _check_ranking_table(page, ranking: list[dict]) -> None:
         label = expected["candidate"] + (" (benchmark)" if expected["is_benchmark"] else "")
         assert cells[:3] == [str(expected["rank"]), label, f"{expected['score']:.3f}"]
         if not expected["is_benchmark"]:
-            assert cells[3] == f"{expected['skill']:.3f}"
+            assert cells[3] == f"{expected['ratio_to_benchmark']:.3f}"
 
 
 def _visited(page) -> list[str]:

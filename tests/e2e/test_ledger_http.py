@@ -94,7 +94,7 @@ def test_champions_ledger_outcomes_and_a_drift_flag_over_http(served):
         _wait_scored(auditor, forecasts)
         shifted = auditor.get(f"/v1/series/{SHIFTED.key}/monitoring").json()
         steady = auditor.get(f"/v1/series/{STEADY.key}/monitoring").json()
-        flags = auditor.get("/v1/monitoring", params={"raised": "true",
+        flags = auditor.get("/v1/monitoring", params={"state": "raised",
                                                       "format": "csv"}).text
         ledger = auditor.get("/v1/forecasts", params={"series_key": SHIFTED.key,
                                                       "horizon": 1}).json()["items"]

@@ -38,8 +38,9 @@ def point(period, count, mase, coverage, expected=None):
 
 
 def raised(rule, first_period, level=None):
-    return Flag(rule=rule, raised=True, level=level, statistic=1.0, p_value=0.01,
-                threshold=0.05, first_period=first_period, detail="by hand")
+    return Flag(rule=rule, state="raised", level=level, statistic=1.0, p_value=0.01,
+                threshold=0.05, first_period=first_period, detail="by hand", outcomes=12,
+                needed=6)
 
 
 def by_hand(flags=(), expected=0.8):
@@ -112,7 +113,7 @@ def test_each_raised_flag_is_marked_on_both_panels_at_its_first_period(gone_wron
 
 
 def test_quiet_flags_are_not_marked(gone_wrong):
-    quiet = tuple(dataclasses.replace(f, raised=f.rule != "level_shift")
+    quiet = tuple(dataclasses.replace(f, state="raised" if f.rule != "level_shift" else "clear")
                   for f in gone_wrong.flags)
     accuracy = monitoring_chart(dataclasses.replace(gone_wrong, flags=quiet)).axes[0]
     names = ", ".join(flag_names(accuracy))

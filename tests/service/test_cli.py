@@ -92,8 +92,9 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     assert done.returncode == 0, done.stderr
     assert "Tallow & Finch" in done.stdout
     assert "(benchmark)" in done.stdout
-    assert (tmp_path / "demo" / "ranking.csv").exists()
-    report = (tmp_path / "demo" / "report.html").resolve()
+    assert (tmp_path / "demo" / ".foldline-demo").is_file()
+    assert (tmp_path / "demo" / "1" / "ranking.csv").exists()
+    report = (tmp_path / "demo" / "1" / "report.html").resolve()
     assert f"run report (HTML, prints on A4): {report}" in done.stdout
     assert report.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
     # the demo's continuation shifts one series on purpose; its monitoring must notice

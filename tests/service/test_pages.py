@@ -138,8 +138,9 @@ def test_the_series_list_shows_each_series_latest_run_and_top_candidate(site: Ap
     assert cells[2].startswith("1 (48 obs. to 2022-12)")
     assert cells[3].startswith('<a href="/pages/runs/1">run 1</a> on version 1')
     label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
-    skill = "–" if top["skill"] is None else f"{top['skill']:.3f}"
-    assert cells[5:8] == [label, f"{top['score']:.3f}", skill]
+    ratio = "–" if top["ratio_to_benchmark"] is None else f"{top['ratio_to_benchmark']:.3f}"
+    assert cells[5:8] == [label, f"{top['score']:.3f}", ratio]
+    assert ">ratio to benchmark</th>" in page and "skill" not in page
     assert cells[8] == "Naive"  # the champion, chosen in the fixture
     south = re.search(r"<tr><td><a href=\"/pages/series/shop/south\">.*?</tr>", page)[0]
     assert "none yet" in south

@@ -117,7 +117,7 @@ def _row(report, label):
     raise AssertionError(f"no ranking row for {label}")
 
 
-def test_ranking_rows_show_rank_score_skill_and_tests(run, report):
+def test_ranking_rows_show_rank_score_ratio_to_benchmark_and_tests(run, report):
     result, _ = run
     sr = result.series[0]
     section = report[report.index(f"Series {sr.series['key']}"):]
@@ -127,10 +127,17 @@ def test_ranking_rows_show_rank_score_skill_and_tests(run, report):
         assert cells[0] == str(r.rank)
         assert cells[2] == f"{r.score:.3f}"  # MASE with three decimals
         assert cells[3] == f"{r.score_own_folds:.3f}"
-        assert cells[4] == ("–" if r.is_benchmark else f"{r.skill:.3f}")
+        assert cells[4] == ("–" if r.is_benchmark else f"{r.ratio_to_benchmark:.3f}")
         assert cells[6].startswith("in" if r.in_confidence_set else "out")
         assert cells[7] == r.calibration_zone
         assert cells[8] == f"{r.folds_ok} / {r.folds_failed} / {r.folds_not_converged}"
+
+
+def test_the_ratio_to_the_benchmark_is_named_for_what_it_is(report):
+    assert ">ratio to benchmark</th>" in report
+    assert "lower is better, below 1 beats the benchmark" in report
+    assert "It is not a skill score, which is 1 minus this ratio (Murphy 1988)" in report
+    assert "skill vs benchmark" not in report and "Skill is" not in report
 
 
 def test_provenance_names_versions_candidates_plan_and_software(run, report):

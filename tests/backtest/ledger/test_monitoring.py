@@ -16,6 +16,7 @@ from backtest.ledger import (
     expectation_from_folds,
     monitor,
     score_outcomes,
+    untested,
 )
 from backtest.ledger.coverage_flag import coverage_flags
 from backtest.ledger.level_shift import boundary_constant, crossing_probability, cusum_test
@@ -95,12 +96,16 @@ def test_a_reissue_from_the_same_origin_replaces_the_earlier_one(simulated):
     assert after.mase == pytest.approx(np.mean([abs(o.scaled_error) for o in kept]))
 
 
-def test_flags_are_not_raised_on_too_little_data(simulated):
+def test_flags_on_too_little_data_say_so_with_the_count_needed(simulated):
     _, _, history = simulated
     report = monitor(history[:3], None)
     details = {(f.rule, f.level): f for f in report.flags}
     assert set(details) == {("coverage", 80), ("coverage", 95), ("accuracy", None),
                             ("level_shift", None)}
+    assert {key: (f.state, f.outcomes, f.needed) for key, f in details.items()} == {
+        ("coverage", 80): ("not_enough_data", 3, 12), ("coverage", 95): ("not_enough_data", 3, 12),
+        ("accuracy", None): ("not_enough_data", 3, 6),
+        ("level_shift", None): ("not_enough_data", 3, 6)}
     assert not any(f.raised for f in report.flags)
     assert "3 one-step outcome(s) at the 80 % level; the coverage test needs at least 12" in (
         details["coverage", 80].detail)
@@ -117,6 +122,7 @@ def test_a_model_gone_wrong_raises_every_flag():
     report = monitor(ledger(model, monthly_series(y), 40, 39),
                      expectation_from_folds(folds, "car1"))
     assert all(f.raised for f in report.flags), [f.detail for f in report.flags]
+    assert {f.state for f in report.flags} == {"raised"}
     accuracy = next(f for f in report.flags if f.rule == "accuracy")
     assert accuracy.statistic > 1.5 and accuracy.p_value < 0.01
 
@@ -209,3 +215,30 @@ def test_the_latest_issued_at_wins_whatever_the_list_order_or_id(simulated):
     report = monitor([history[0], earlier, *history[1:]], None)
     assert report.realised == monitor(history, None).realised
     assert report.realised != monitor([earlier, *history[1:]], None).realised
+
+
+def test_three_misses_of_three_are_not_enough_data_not_clear(simulated):
+    """Every one of 3 actuals outside the 95 % interval: the rule cannot test yet, and
+    says so instead of reading as an all-clear."""
+    _, _, history = simulated
+    missed = [dataclasses.replace(item, outcomes=tuple(
+        dataclasses.replace(o, hits={level: False for level in o.hits}) for o in item.outcomes))
+        for item in history[:3]]
+    coverage = [f for f in monitor(missed, None).flags if f.rule == "coverage"]
+    assert [(f.level, f.state, f.outcomes, f.needed) for f in coverage] == [
+        (80, "not_enough_data", 3, 12), (95, "not_enough_data", 3, 12)]
+
+
+def test_a_candidate_never_issued_has_every_rule_untested():
+    report = untested("sales/north", "c1", None)
+    assert report.realised == ()
+    assert [(f.rule, f.level, f.state, f.outcomes, f.needed) for f in report.flags] == [
+        ("coverage", None, "not_enough_data", 0, 12), ("accuracy", None, "not_enough_data", 0, 6),
+        ("level_shift", None, "not_enough_data", 0, 6)]
+
+
+def test_a_tested_rule_that_does_not_reject_is_clear(simulated):
+    _, _, history = simulated
+    report = monitor(history, None)
+    coverage = [f for f in report.flags if f.rule == "coverage"]
+    assert coverage and all(f.state == "clear" and f.outcomes >= f.needed for f in coverage)
