@@ -136,7 +136,8 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
         for r in sr.ranking:
             yield {"series_key": sr.series["key"], "rank": r.rank,
                    "candidate_id": r.candidate_id, "candidate": r.label, "score": r.score,
-                   "ratio_to_benchmark": r.ratio_to_benchmark, "is_benchmark": r.is_benchmark, "folds_ok": r.folds_ok,
+                   "ratio_to_benchmark": r.ratio_to_benchmark, "is_benchmark": r.is_benchmark,
+                   "folds_ok": r.folds_ok,
                    "folds_failed": r.folds_failed, "folds_not_converged": r.folds_not_converged,
                    "in_confidence_set": r.in_confidence_set,
                    "beats_benchmark": r.beats_benchmark, "calibration_zone": r.calibration_zone,
