@@ -156,7 +156,8 @@ def _scores(rows: Sequence[Row]) -> tuple[Score, ...]:
 
 def _ranking(rows: Sequence[Row]) -> tuple[RankRow, ...]:
     return tuple(RankRow(r["rank"], r["candidate_id"], r["label"], r["score"],
-                         r["ratio_to_benchmark"], r["is_benchmark"], r["folds_ok"], r["folds_failed"],
+                         r["ratio_to_benchmark"], r["is_benchmark"], r["folds_ok"],
+                         r["folds_failed"],
                          r["in_confidence_set"], r["beats_benchmark"], r["calibration_zone"],
                          r["folds_not_converged"], r["score_own_folds"], r["common_folds"],
                          r["score_count"], r["score_possible"])
