@@ -68,8 +68,16 @@ def stream_backtest(series: Sequence[Series], candidates: Sequence[Candidate], p
 def planned_fold_count(series: Sequence[Series], candidates: Sequence[Candidate],
                        plan: Plan) -> int:
     """The folds a backtest computes (its benchmark included); raises on bad input."""
+    pool, schedules = planned_origins(series, candidates, plan)
+    return sum(len(origins) for origins in schedules) * len(pool)
+
+
+def planned_origins(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan
+                    ) -> tuple[list[Candidate], list[tuple[Origin, ...]]]:
+    """The candidates a backtest runs (its benchmark included) and each series' origins;
+    raises on bad input, computes nothing."""
     pool, _ = _with_benchmark(candidates, plan)
-    return sum(len(_schedule(s, pool, plan)) for s in series) * len(pool)
+    return pool, [_schedule(s, pool, plan) for s in series]
 
 
 def _series_results(series: Sequence[Series], pool: Sequence[Candidate], benchmark: Candidate,

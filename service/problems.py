@@ -115,6 +115,10 @@ class Problem(BaseModel):
     code: str = Field(description="stable machine-readable code")
     errors: list[ProblemField] = Field(default_factory=list,
                                        description="field-level errors of invalid input")
+    estimate: dict | None = Field(None, description="limit_exceeded: what the request would "
+                                  "cost (e.g. a run's folds, fits by family, rows)")
+    limit: dict | None = Field(None, description="limit_exceeded: the configured limits it "
+                               "was measured against")
 
 
 def kind_of(exc: Exception) -> Kind:
@@ -128,8 +132,8 @@ async def problem_response(request: Request, exc: Exception) -> JSONResponse:
     if problem.status >= 500:
         log.error("%s %s failed: %s: %s", request.method, request.url.path,
                   type(exc).__name__, exc, exc_info=problem.code == "internal_error")
-    return JSONResponse(problem.model_dump(), status_code=problem.status, headers=headers,
-                        media_type=MEDIA_TYPE)
+    return JSONResponse(problem.model_dump(exclude_none=True), status_code=problem.status,
+                        headers=headers, media_type=MEDIA_TYPE)
 
 
 def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]:
@@ -143,7 +147,10 @@ def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]
     if kind.status == 503:
         headers["Retry-After"] = str(RETRY_AFTER_SECONDS)
     code = getattr(exc, "code", None) or _fallback_code(exc)
-    return _make(request, kind.status, kind.title, detail, code, _field_errors(exc)), headers
+    problem = _make(request, kind.status, kind.title, detail, code, _field_errors(exc))
+    if isinstance(exc, LimitExceededError):
+        problem.estimate, problem.limit = exc.estimate, exc.limit
+    return problem, headers
 
 
 def _http_problem(request: Request, exc: HTTPException) -> tuple[Problem, dict[str, str]]:
