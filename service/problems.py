@@ -17,9 +17,17 @@ from fastapi import Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 from pydantic import BaseModel, Field
+from sqlalchemy.exc import SQLAlchemyError
 from starlette.exceptions import HTTPException
 
-from backtest.errors import BacktestError, CandidateError, PlanError, SeriesError
+from backtest.errors import (
+    BacktestError,
+    CandidateError,
+    PlanError,
+    SeriesError,
+    SeriesTooLongError,
+    TooManySeriesError,
+)
 from backtest.ledger import LedgerError
 from service.errors import (
     BodyTooLargeError,
@@ -44,6 +52,7 @@ from storage.errors import (
     NotFoundError,
     StorageError,
     StoreUnavailableError,
+    translate,
 )
 
 MEDIA_TYPE = "application/problem+json"
@@ -64,6 +73,8 @@ class Kind:
 PROBLEMS: dict[type[Exception], Kind] = {
     BacktestError: Kind(422, "Invalid backtest input"),
     SeriesError: Kind(422, "Invalid series"),
+    SeriesTooLongError: Kind(422, "Limit exceeded"),
+    TooManySeriesError: Kind(422, "Limit exceeded"),
     CandidateError: Kind(422, "Invalid candidate"),
     PlanError: Kind(422, "Invalid plan"),
     LedgerError: Kind(422, "Invalid forecast ledger input"),
@@ -139,6 +150,9 @@ async def problem_response(request: Request, exc: Exception) -> JSONResponse:
 def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]:
     if isinstance(exc, HTTPException):
         return _http_problem(request, exc)
+    if isinstance(exc, SQLAlchemyError):
+        # raised outside a storage function (a commit or rollback on a dropped connection)
+        exc = translate(exc)
     kind = kind_of(exc)
     detail = HIDDEN_DETAIL[kind.status] if kind.hidden else _detail(exc)
     headers = {}

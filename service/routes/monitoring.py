@@ -12,6 +12,7 @@ from service.app_state import Sessions
 from service.ledger_rows import flag_rows, monitoring_out, realised_rows
 from service.monitoring import monitor_champions, monitor_series
 from service.problems import problem_responses
+from service.schemas.champions import CANDIDATE_ID
 from service.schemas.monitoring import FlagPage, FlagRow, MonitoringOut, RealisedRow
 from service.schemas.results import columns
 from service.tables import (
@@ -35,7 +36,8 @@ MAX_SERIES = 1000
 def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessions,
                     output: FormatParam = None,
                     candidate_id: Annotated[str | None, Query(
-                        max_length=17, description="default: the series' champion")] = None
+                        pattern=CANDIDATE_ID, description="default: the series' champion")
+                    ] = None
                     ) -> Any:
     """Realised accuracy of the candidate's issued forecasts by target period, the
     backtest's expectation for the same horizons, and the coverage, accuracy and level
