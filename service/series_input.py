@@ -9,13 +9,14 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
+from dataclasses import replace
 
 from backtest.errors import SeriesTooLongError, TooManySeriesError
 from backtest.series import FillPolicy, Series, make_series
 from backtest.tidy import read_series_csv
 from service.errors import FieldError, InvalidInputError, LimitExceededError
-from service.schemas.common import SERIES_KEY
 from service.schemas.series import ObservationIn, SeriesIn
+from service.series_keys import SeriesKeyError, normalised_key
 from service.settings import Settings
 from storage.errors import ConflictError
 
@@ -43,12 +44,21 @@ def series_from_csv(data: bytes, settings: Settings, *, frequency: str | None,
         series = read_series_csv(text, frequency=frequency, season_length=season_length,
                                  fill=fill, max_length=settings.max_observations,
                                  max_series=settings.max_series_per_upload)
-    for one in series:
-        if not SERIES_KEY.fullmatch(one.key):
-            raise InvalidInputError(f"series key {one.key[:40]!r}... must be 1 to 200 "
-                                    "characters without control characters",
-                                    errors=[FieldError("body", "", "invalid series key")])
-    return series
+    keyed = [replace(one, key=_upload_key(one.key)) for one in series]
+    repeated = len({one.key for one in keyed}) < len(keyed)
+    if repeated:
+        raise InvalidInputError("two series keys of the upload are spellings of one key "
+                                "(they are equal in Unicode NFC)",
+                                errors=[FieldError("body", "", "invalid series key")])
+    return keyed
+
+
+def _upload_key(key: str) -> str:
+    try:
+        return normalised_key(key)
+    except SeriesKeyError as exc:
+        raise InvalidInputError(f"series key {key[:40]!r}: {exc}",
+                                errors=[FieldError("body", "", "invalid series key")]) from None
 
 
 def with_appended(stored: Series, observations: Sequence[ObservationIn],

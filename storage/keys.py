@@ -10,10 +10,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from storage.audit import record_event
+from storage.audit import lock_audit_log, record_event
 from storage.contents import as_row
 from storage.digest import table_digest
 from storage.errors import ConflictError, NotFoundError, translates_errors
@@ -79,18 +79,32 @@ def list_keys(session: Session) -> list[KeyInfo]:
 
 @translates_errors
 def revoke_key(session: Session, key_id: str, *, actor: str) -> KeyInfo:
-    """Revoke a key; revoking a revoked key changes nothing and returns it as it is."""
+    """Revoke a key; revoking a revoked key changes nothing and returns it as it is.
+
+    The last active admin key is not revoked (:class:`ConflictError`): create another
+    admin key first, so that someone can still manage keys.
+    """
+    lock_audit_log(session)
     row = session.execute(_with_revocation().where(ApiKey.id == key_id)).first()
     if row is None:
         raise NotFoundError(f"API key {key_id} does not exist")
     if row[1] is not None:
         return _info(*row)
+    if row[0].role == "admin" and _active_admins(session) == 1:
+        raise ConflictError(f"API key {key_id} is the last active admin key; create another "
+                            "admin key before revoking it")
     revocation = ApiKeyRevocation(key_id=key_id, revoked_at=utc_now(), revoked_by=actor)
     session.add(revocation)
     session.flush()
     record_event(session, actor=actor, action="api_key.revoked", subject=f"api_key/{key_id}",
                  digest=table_digest(ApiKeyRevocation.__table__, [as_row(revocation)]))
     return _info(row[0], revocation)
+
+
+def _active_admins(session: Session) -> int:
+    query = (select(func.count()).select_from(ApiKey).outerjoin(ApiKeyRevocation)
+             .where(ApiKey.role == "admin", ApiKeyRevocation.key_id.is_(None)))
+    return session.scalar(query) or 0
 
 
 def _with_revocation():

@@ -77,3 +77,16 @@ def test_the_command_line_reports_errors_on_one_line(api: Api,
 
     errors = capsys.readouterr().err.strip().splitlines()
     assert len(errors) == 2 and all(e.startswith("foldline: error: ") for e in errors)
+
+
+def test_the_last_admin_key_cannot_be_revoked(api: Api):
+    own_id = api.tokens["admin"].removeprefix("fl_").split(".")[0]
+
+    refused = api.post("admin", f"/v1/keys/{own_id}/revoke")
+    second = api.post("admin", "/v1/keys", json={"name": "ops-2", "role": "admin"}).json()
+    allowed = api.post("admin", f"/v1/keys/{own_id}/revoke")
+
+    assert refused.status_code == 409 and "last active admin" in refused.json()["detail"]
+    assert allowed.status_code == 200
+    assert api.client.post(f"/v1/keys/{second['key']['id']}/revoke", headers={
+        "Authorization": f"Bearer {second['token']}"}).status_code == 409

@@ -74,3 +74,17 @@ def test_the_database_refuses_changing_keys(session: Session, statement: str):
 
     with pytest.raises(DBAPIError, match=IMMUTABLE_MARKER), session.begin_nested():
         session.execute(text(statement))
+
+
+def test_the_last_active_admin_key_is_not_revoked(session: Session):
+    _create(session, "a1", "ops-1", role="admin")
+    _create(session, "a2", "ops-2", role="admin")
+    _create(session, "r1", "bi-tool")
+
+    revoke_key(session, "a1", actor="ops-2")
+    with pytest.raises(ConflictError, match="last active admin"), session.begin_nested():
+        revoke_key(session, "a2", actor="ops-2")
+    revoke_key(session, "r1", actor="ops-2")
+
+    assert [(k.id, k.active) for k in list_keys(session)] == [("a1", False), ("a2", True),
+                                                              ("r1", False)]
