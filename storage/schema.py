@@ -381,6 +381,8 @@ class AuditEvent(Base):
     """One entry of the append-only, hash-chained log of writes."""
 
     __tablename__ = "audit_event"
+    # authentication looks up the audited digest of a key by subject and action
+    __table_args__ = (Index(None, "subject", "action"),)
 
     seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
     occurred_at: Mapped[datetime] = mapped_column(index=True)

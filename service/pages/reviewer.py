@@ -61,7 +61,7 @@ def reviewer(request: Request, sessions: Sessions, settings: AppSettings) -> Cal
         raise SignInRequired
     with sessions.begin() as session:
         stored = find_credentials(session, key_id)
-    if stored is None or not stored.key.active:
+    if stored is None or not stored.key.active or not stored.audited:
         raise SignInRequired
     caller = Caller(stored.key.id, stored.key.name, stored.key.role)
     if not caller.may("read"):

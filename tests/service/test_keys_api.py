@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import pytest
+from sqlalchemy import text
 
 from service.cli import main
 from tests.service.conftest import Api
+from tests.storage.builders import drop_guards
 
 
 def _keys_cli(api: Api, *args: str) -> int:
@@ -90,3 +92,17 @@ def test_the_last_admin_key_cannot_be_revoked(api: Api):
     assert allowed.status_code == 200
     assert api.client.post(f"/v1/keys/{second['key']['id']}/revoke", headers={
         "Authorization": f"Bearer {second['token']}"}).status_code == 409
+
+
+def test_a_key_promoted_behind_the_api_is_refused(api: Api):
+    reader_id = api.tokens["reader"].removeprefix("fl_").split(".")[0]
+    assert api.get("reader", "/v1/series").status_code == 200
+    with api.sessions.begin() as session:
+        drop_guards(session, "api_key")
+        session.execute(text(f"UPDATE api_key SET role = 'admin' WHERE id = '{reader_id}'"))
+
+    refused = api.get("reader", "/v1/keys")
+
+    assert refused.status_code == 401
+    assert "audit record" in refused.json()["detail"]
+    assert api.get("reader", "/v1/series").status_code == 401
