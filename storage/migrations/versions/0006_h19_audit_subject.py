@@ -1,7 +1,7 @@
 """An index on the audit log's subjects, so authentication finds a key's audited digest.
 
-Revision ID: 0005_h19
-Revises: 0004
+Revision ID: 0006_h19
+Revises: 0005
 Create Date: 2026-12-03
 
 Authentication compares a key's stored row with the digest its audit event recorded
@@ -12,8 +12,8 @@ from collections.abc import Sequence
 
 from alembic import op
 
-revision: str = "0005_h19"
-down_revision: str | Sequence[str] | None = "0004"
+revision: str = "0006_h19"
+down_revision: str | Sequence[str] | None = "0005"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
