@@ -71,6 +71,17 @@ def test_signing_in_sets_a_signed_http_only_strict_secure_cookie(site: Api):
     assert secret not in cookie and site.tokens["reader"] not in answer.text
 
 
+@pytest.mark.parametrize(("origin", "status"), [("https://elsewhere.example", 403),
+                                                ("null", 403), ("http://testserver", 303)])
+def test_a_sign_in_posted_from_another_site_is_refused(site: Api, origin: str, status: int):
+    site.client.cookies.clear()
+    answer = site.client.post("/pages/sign-in", data={"key": site.tokens["reader"]},
+                              headers={"Origin": origin}, follow_redirects=False)
+
+    assert answer.status_code == status
+    assert ("set-cookie" in answer.headers) == (status == 303)
+
+
 def test_the_form_posts_the_key_in_the_body_and_a_key_in_the_url_is_ignored(site: Api):
     form = site.client.get("/pages/sign-in")
     assert form.status_code == 200 and form.headers["content-type"].startswith("text/html")
