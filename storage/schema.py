@@ -418,6 +418,17 @@ class ApiKeyRevocation(Base):
     revoked_by: Mapped[Name]
 
 
+class PageSignOut(Base):
+    """A reviewer page session ended by signing out (the SHA-256 of its cookie value): the
+    cookie is refused from then on, even where a copy of it survives."""
+
+    __tablename__ = "page_sign_out"
+
+    session_digest: Mapped[Digest] = mapped_column(primary_key=True)
+    key_id: Mapped[Label] = mapped_column(ForeignKey("api_key.id"))
+    signed_out_at: Mapped[datetime]
+
+
 class ChampionChoiceRecord(Base):
     """A candidate chosen as a series' champion: by whom, when, why, on which run's evidence.
 

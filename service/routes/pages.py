@@ -24,7 +24,13 @@ from service.pages.forecast_view import load_forecast_page
 from service.pages.layout import HOME, SIGN_IN, reviewer_page, sign_in_page, with_navigation
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
-from service.pages.reviewer import end_session, reviewer, sign_in, start_session
+from service.pages.reviewer import (
+    end_session,
+    reviewer,
+    sign_in,
+    sign_out_on_server,
+    start_session,
+)
 from service.pages.series_detail import load_series_page, series_detail
 from service.pages.series_list import series_list
 from service.report.html import join
@@ -91,8 +97,9 @@ async def sign_in_with_key(request: Request, key: Annotated[str, Depends(posted_
 
 
 @router.post("/sign-out")
-def sign_out() -> RedirectResponse:
-    """End the session."""
+def sign_out(request: Request, sessions: Sessions, settings: AppSettings) -> RedirectResponse:
+    """End the session on the server and clear its cookie."""
+    sign_out_on_server(request, sessions, settings)
     page = RedirectResponse(SIGN_IN, status_code=303)
     end_session(page)
     return page

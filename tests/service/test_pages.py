@@ -104,8 +104,8 @@ def test_a_bad_key_is_refused_without_a_cookie_or_an_echo(site: Api, key: str):
 
 def test_pages_without_a_valid_session_send_the_browser_to_sign_in(site: Api):
     cookie = _session(site)
-    key_id, expires, signature = cookie["Cookie"].split("=", 1)[1].split(".")
-    stretched = {"Cookie": f"{COOKIE}={key_id}.{int(expires) + 3600}.{signature}"}
+    key_id, expires, nonce, signature = cookie["Cookie"].split("=", 1)[1].split(".")
+    stretched = {"Cookie": f"{COOKIE}={key_id}.{int(expires) + 3600}.{nonce}.{signature}"}
     ended = session_value(key_id, int(time.time()) - 1, SECRET.encode())
     expired = {"Cookie": f"{COOKIE}={ended}"}
     for url in ("/pages/", "/pages/series/shop/north", "/pages/runs/1"):
@@ -136,6 +136,17 @@ def test_signing_out_clears_the_cookie(site: Api):
 
     assert answer.status_code == 303 and answer.headers["location"] == "/pages/sign-in"
     assert re.search(rf'{COOKIE}="?"?;.*max-age=0', answer.headers["set-cookie"].lower())
+
+
+def test_signing_out_ends_the_session_on_the_server_and_no_other(site: Api):
+    copied, other = _session(site), _session(site)
+    assert _page(site, "/pages/", copied).status_code == 200
+
+    site.client.post("/pages/sign-out", headers=copied, follow_redirects=False)
+
+    refused = _page(site, "/pages/", copied)  # a copy of the cookie kept after signing out
+    assert refused.status_code == 303 and refused.headers["location"] == "/pages/sign-in"
+    assert _page(site, "/pages/", other).status_code == 200
 
 
 def test_the_series_list_shows_each_series_latest_run_and_top_candidate(site: Api):
