@@ -68,11 +68,19 @@ def stream_backtest(series: Sequence[Series], candidates: Sequence[Candidate], p
 def planned_fold_count(series: Sequence[Series], candidates: Sequence[Candidate],
                        plan: Plan) -> int:
     """The folds a backtest computes (its benchmark included); raises on bad input."""
-    total = 0
+    return sum(len(origins) * len(pool)
+               for pool, origins in planned_origins(series, candidates, plan))
+
+
+def planned_origins(series: Sequence[Series], candidates: Sequence[Candidate], plan: Plan
+                    ) -> list[tuple[list[Candidate], tuple[Origin, ...]]]:
+    """Per series, the candidates a backtest runs on it (its benchmark included) and its
+    origins; raises on bad input, computes nothing."""
+    plans = []
     for s in series:
         pool, _ = _with_benchmark(candidates, plan, s.season_length)
-        total += len(_schedule(s, pool, plan)) * len(pool)
-    return total
+        plans.append((pool, _schedule(s, pool, plan)))
+    return plans
 
 
 def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candidate], Candidate]],

@@ -13,6 +13,29 @@ class SeriesError(BacktestError):
     code = "invalid_series"
 
 
+class SeriesTooLongError(SeriesError):
+    """A series would hold more observations (gaps filled) than the caller allows; raised
+    from the span of its periods, before anything is filled in."""
+
+    code = "series_too_long"
+
+    def __init__(self, key: str, length: int, limit: int) -> None:
+        super().__init__(f"series {key!r} spans {length} periods (gaps filled); at most "
+                         f"{limit} are accepted")
+        self.key, self.length, self.limit = key, length, limit
+
+
+class TooManySeriesError(SeriesError):
+    """A file holds more series than the caller allows; raised on the first one too many."""
+
+    code = "too_many_series"
+
+    def __init__(self, count: int, limit: int) -> None:
+        super().__init__(f"the file holds at least {count} series; at most {limit} are "
+                         "accepted at once")
+        self.count, self.limit = count, limit
+
+
 class CandidateError(BacktestError):
     """A candidate model specification is malformed or impossible."""
 

@@ -9,10 +9,20 @@ the cores and a run gets much slower. A task is a whole unit of work (the engine
 series with one candidate), so each worker process imports the code once and receives
 already-validated inputs. Results are yielded as tasks finish, while the pool goes on with
 the rest; the caller may work on them (score, store) meanwhile.
+
+Pool processes never outlive the process that started them: each one, as it starts, runs
+a watchdog thread that ends it within :data:`WATCH_SECONDS` of being handed to another
+parent; so a worker killed with SIGKILL, or a server stopped by SIGTERM, leaves no pool
+behind. (Linux's parent-death signal, ``prctl(PR_SET_PDEATHSIG)``, is not used: it fires
+when the parent *thread* that started the process ends, and loky starts replacement
+processes from whichever thread submits work.)
 """
 
 from __future__ import annotations
 
+import os
+import threading
+import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from typing import Any, TypeVar
 
@@ -20,6 +30,19 @@ from joblib import Parallel, delayed, parallel_config
 from threadpoolctl import threadpool_limits
 
 T = TypeVar("T")
+WATCH_SECONDS = 0.5
+
+
+def die_with_parent() -> None:
+    """End this process once its parent has died (it is then re-parented)."""
+    parent = os.getppid()
+
+    def watch() -> None:
+        while os.getppid() == parent:
+            time.sleep(WATCH_SECONDS)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="parent-watchdog", daemon=True).start()
 
 
 def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int, T]:
@@ -46,7 +69,8 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
         return _on_cluster(scheduler, calls)
     if n_jobs == 1:
         return (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
-    return iter(Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered")(calls))
+    return iter(Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered",
+                         initializer=die_with_parent)(calls))
 
 
 def _on_cluster(scheduler: str, calls: Iterable) -> Iterator[tuple[int, Any]]:

@@ -11,7 +11,7 @@ from typing import Literal
 
 import numpy as np
 
-from backtest.errors import SeriesError
+from backtest.errors import SeriesError, SeriesTooLongError
 from backtest.frequency import Frequency, parse_frequency
 
 FillPolicy = Literal["reject", "linear"]
@@ -106,12 +106,14 @@ def make_series(
     *,
     season_length: int | None = None,
     fill: FillPolicy = "reject",
+    max_length: int | None = None,
 ) -> Series:
     """Validate observations and build a :class:`Series`.
 
     Raises :class:`SeriesError` naming the series, the period and the row (1-based) for
     duplicate, unsorted or off-grid periods, non-finite values and, unless ``fill`` is
-    ``"linear"``, missing periods.
+    ``"linear"``, missing periods. With ``max_length``, a series spanning more periods
+    raises :class:`SeriesTooLongError` before any gap is filled or listed.
     """
     key = str(key).strip()
     if not key:
@@ -126,7 +128,12 @@ def make_series(
     rows = list(observations)
     if not rows:
         raise SeriesError(f"series {key!r} has no observations")
+    if max_length is not None and len(rows) > max_length:
+        raise SeriesTooLongError(key, len(rows), max_length)
     positions = _positions(key, freq, rows)
+    span = (positions[-1] - positions[0]) // freq.step + 1
+    if max_length is not None and span > max_length:
+        raise SeriesTooLongError(key, span, max_length)
     values = _values(key, rows)
     return _regularise(key, freq, m, positions, values, fill)
 

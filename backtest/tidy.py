@@ -22,10 +22,11 @@ import re
 from collections.abc import Iterable, Iterator
 from datetime import datetime
 
-from backtest.errors import SeriesError
+from backtest.errors import SeriesError, TooManySeriesError
 from backtest.results import BacktestResult
 from backtest.series import FillPolicy, Series, make_series
 
+PLAIN_DECIMAL = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 REQUIRED = ("series_key", "period", "value")
 OPTIONAL = ("frequency", "season_length")
 FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "train_start",
@@ -42,8 +43,13 @@ RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "
 
 def read_series_csv(text: str, *, frequency: str | None = None,
                     season_length: int | None = None,
-                    fill: FillPolicy = "reject") -> list[Series]:
-    """Parse a tidy series CSV; errors name the file line (header = line 1)."""
+                    fill: FillPolicy = "reject", max_length: int | None = None,
+                    max_series: int | None = None) -> list[Series]:
+    """Parse a tidy series CSV; errors name the file line (header = line 1).
+
+    ``max_series`` and ``max_length`` (see :func:`make_series`) are checked on the rows as
+    read, before any series is built or any gap filled.
+    """
     reader = csv.DictReader(io.StringIO(text))
     header = reader.fieldnames or []
     missing = [c for c in REQUIRED if c not in header]
@@ -60,13 +66,16 @@ def read_series_csv(text: str, *, frequency: str | None = None,
         key = row["series_key"].strip()
         if not key:
             raise SeriesError(f"line {line}: series_key is empty")
+        if max_series is not None and key not in groups and len(groups) == max_series:
+            raise TooManySeriesError(len(groups) + 1, max_series)
         group = groups.setdefault(key, {"rows": [], "line": line,
                                         **{c: row.get(c) or None for c in OPTIONAL}})
         _check_constant(group, row, line, key)
         group["rows"].append((row["period"], _number(row["value"], line)))
     if not groups:
         raise SeriesError("the file has no observations")
-    return [_build(key, g, frequency, season_length, fill) for key, g in groups.items()]
+    return [_build(key, g, frequency, season_length, fill, max_length)
+            for key, g in groups.items()]
 
 
 def _check_constant(group: dict, row: dict, line: int, key: str) -> None:
@@ -78,14 +87,16 @@ def _check_constant(group: dict, row: dict, line: int, key: str) -> None:
 
 
 def _number(text: str, line: int) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise SeriesError(f"line {line}: value {text!r} is not a number") from None
+    """A value written as a plain decimal number (``-12``, ``3.5``, ``1e6``): not the other
+    spellings Python's ``float`` takes (``1_000``, non-ASCII digits, ``inf``, ``nan``)."""
+    if not PLAIN_DECIMAL.fullmatch(text.strip()):
+        raise SeriesError(f"line {line}: value {text[:40]!r} is not a number (write plain "
+                          "decimals: digits 0-9, an optional sign, point and exponent)")
+    return float(text)
 
 
 def _build(key: str, group: dict, frequency: str | None, season_length: int | None,
-           fill: FillPolicy) -> Series:
+           fill: FillPolicy, max_length: int | None) -> Series:
     frequency = group["frequency"] or frequency
     if not frequency:
         raise SeriesError(f"series {key!r} (from line {group['line']}): no frequency; add a "
@@ -97,7 +108,8 @@ def _build(key: str, group: dict, frequency: str | None, season_length: int | No
         except ValueError:
             raise SeriesError(f"series {key!r}: season_length {group['season_length']!r} "
                               "is not an integer") from None
-    return make_series(key, frequency, group["rows"], season_length=m, fill=fill)
+    return make_series(key, frequency, group["rows"], season_length=m, fill=fill,
+                       max_length=max_length)
 
 
 def fold_rows(result: BacktestResult) -> Iterator[dict]:

@@ -70,6 +70,9 @@ def authenticate(sessions: Sessions, credentials: Annotated[
         raise NotAuthenticatedError("the API key is not valid")
     if not stored.key.active:
         raise NotAuthenticatedError(f"API key {token.key_id} has been revoked")
+    if not stored.audited:
+        raise NotAuthenticatedError(f"API key {token.key_id} does not match its audit record; "
+                                    "ask an admin to run the audit verification")
     return Caller(stored.key.id, stored.key.name, stored.key.role)
 
 

@@ -49,9 +49,15 @@ class InvalidInputError(ServiceError):
 
 
 class LimitExceededError(ServiceError):
-    """The request asks for more than a configured limit allows."""
+    """The request asks for more than a configured limit allows; ``estimate`` and ``limit``
+    (if given) are shown in the problem document as they are."""
 
     code = "limit_exceeded"
+
+    def __init__(self, detail: str, *, errors: Sequence[FieldError] = (),
+                 estimate: dict | None = None, limit: dict | None = None) -> None:
+        super().__init__(detail, errors=errors)
+        self.estimate, self.limit = estimate, limit
 
 
 class NotAcceptableError(ServiceError):

@@ -17,9 +17,17 @@ from fastapi import Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 from pydantic import BaseModel, Field
+from sqlalchemy.exc import SQLAlchemyError
 from starlette.exceptions import HTTPException
 
-from backtest.errors import BacktestError, CandidateError, PlanError, SeriesError
+from backtest.errors import (
+    BacktestError,
+    CandidateError,
+    PlanError,
+    SeriesError,
+    SeriesTooLongError,
+    TooManySeriesError,
+)
 from backtest.ledger import LedgerError
 from service.errors import (
     BodyTooLargeError,
@@ -44,6 +52,7 @@ from storage.errors import (
     NotFoundError,
     StorageError,
     StoreUnavailableError,
+    translate,
 )
 
 MEDIA_TYPE = "application/problem+json"
@@ -64,6 +73,8 @@ class Kind:
 PROBLEMS: dict[type[Exception], Kind] = {
     BacktestError: Kind(422, "Invalid backtest input"),
     SeriesError: Kind(422, "Invalid series"),
+    SeriesTooLongError: Kind(422, "Limit exceeded"),
+    TooManySeriesError: Kind(422, "Limit exceeded"),
     CandidateError: Kind(422, "Invalid candidate"),
     PlanError: Kind(422, "Invalid plan"),
     LedgerError: Kind(422, "Invalid forecast ledger input"),
@@ -115,6 +126,10 @@ class Problem(BaseModel):
     code: str = Field(description="stable machine-readable code")
     errors: list[ProblemField] = Field(default_factory=list,
                                        description="field-level errors of invalid input")
+    estimate: dict | None = Field(None, description="limit_exceeded: what the request would "
+                                  "cost (e.g. a run's folds, fits by family, rows)")
+    limit: dict | None = Field(None, description="limit_exceeded: the configured limits it "
+                               "was measured against")
 
 
 def kind_of(exc: Exception) -> Kind:
@@ -128,13 +143,16 @@ async def problem_response(request: Request, exc: Exception) -> JSONResponse:
     if problem.status >= 500:
         log.error("%s %s failed: %s: %s", request.method, request.url.path,
                   type(exc).__name__, exc, exc_info=problem.code == "internal_error")
-    return JSONResponse(problem.model_dump(), status_code=problem.status, headers=headers,
-                        media_type=MEDIA_TYPE)
+    return JSONResponse(problem.model_dump(exclude_none=True), status_code=problem.status,
+                        headers=headers, media_type=MEDIA_TYPE)
 
 
 def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]:
     if isinstance(exc, HTTPException):
         return _http_problem(request, exc)
+    if isinstance(exc, SQLAlchemyError):
+        # raised outside a storage function (a commit or rollback on a dropped connection)
+        exc = translate(exc)
     kind = kind_of(exc)
     detail = HIDDEN_DETAIL[kind.status] if kind.hidden else _detail(exc)
     headers = {}
@@ -143,7 +161,10 @@ def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]
     if kind.status == 503:
         headers["Retry-After"] = str(RETRY_AFTER_SECONDS)
     code = getattr(exc, "code", None) or _fallback_code(exc)
-    return _make(request, kind.status, kind.title, detail, code, _field_errors(exc)), headers
+    problem = _make(request, kind.status, kind.title, detail, code, _field_errors(exc))
+    if isinstance(exc, LimitExceededError):
+        problem.estimate, problem.limit = exc.estimate, exc.limit
+    return problem, headers
 
 
 def _http_problem(request: Request, exc: HTTPException) -> tuple[Problem, dict[str, str]]:

@@ -4,8 +4,11 @@ A run that is queued will be computed, so every input error the engine would rai
 found here: candidates and plan are parsed, the series selection resolved to stored
 versions, and the plan laid over each series by the engine's own preparation
 (:func:`backtest.engine.planned_fold_count`: benchmark added, candidate checks, origins),
-before any computation. The result counts the folds, which is what the
-``FOLDLINE_MAX_FOLDS`` limit bounds.
+before any computation. The result carries the run's estimated cost
+(:func:`backtest.cost.estimate_cost`: folds, model fits by family, result rows), which
+``FOLDLINE_MAX_FOLDS``, ``FOLDLINE_MAX_RUN_FITS`` and ``FOLDLINE_MAX_RUN_ROWS`` bound; the
+plan's horizon and levels are bounded first (``FOLDLINE_MAX_HORIZON``,
+``FOLDLINE_MAX_LEVELS``).
 """
 
 from __future__ import annotations
@@ -15,7 +18,7 @@ from dataclasses import dataclass
 from sqlalchemy.orm import Session
 
 from backtest.candidates import Candidate, parse_candidate
-from backtest.engine import planned_fold_count
+from backtest.cost import RunCost, estimate_cost
 from backtest.errors import CandidateError, PlanError, SeriesError
 from backtest.plan import Plan, parse_plan
 from service.errors import (
@@ -37,12 +40,12 @@ MAX_SEED = 2**31 - 1
 
 @dataclass(frozen=True)
 class PreparedRun:
-    """A submission that the engine will accept: versions, candidates, plan, fold count."""
+    """A submission that the engine will accept: versions, candidates, plan, its cost."""
 
     versions: tuple[VersionInfo, ...]
     candidates: tuple[Candidate, ...]
     plan: Plan
-    folds: int
+    cost: RunCost
 
 
 def parse_request(body: RunIn, settings: Settings) -> tuple[tuple[Candidate, ...], Plan]:
@@ -66,7 +69,25 @@ def parse_request(body: RunIn, settings: Settings) -> tuple[tuple[Candidate, ...
     if plan.seed > MAX_SEED:
         raise _invalid(InvalidPlanError, f"plan seed must be at most {MAX_SEED} (the store "
                        f"keeps 32-bit signed seeds), got {plan.seed}", "/plan/seed")
+    check_horizon_and_levels(plan.horizon, len(plan.levels), settings, "/plan")
     return tuple(candidates), plan
+
+
+def check_horizon_and_levels(horizon: int, levels: int, settings: Settings,
+                             pointer: str) -> None:
+    """Refuse a horizon or a number of interval levels beyond the settings."""
+    if horizon > settings.max_horizon:
+        raise LimitExceededError(
+            f"the horizon is {horizon} steps; at most {settings.max_horizon} are accepted "
+            "(FOLDLINE_MAX_HORIZON)", errors=[FieldError("body", f"{pointer}/horizon",
+                                                         "horizon too long")],
+            estimate={"horizon": horizon}, limit={"horizon": settings.max_horizon})
+    if levels > settings.max_levels:
+        raise LimitExceededError(
+            f"{levels} interval levels are asked for; at most {settings.max_levels} are "
+            "accepted (FOLDLINE_MAX_LEVELS)",
+            errors=[FieldError("body", f"{pointer}/levels", "too many levels")],
+            estimate={"levels": levels}, limit={"levels": settings.max_levels})
 
 
 def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRun:
@@ -75,18 +96,36 @@ def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRu
     versions = selected_versions(session, body.series)
     series = [load_series(session, v.id) for v in versions]
     try:
-        folds = planned_fold_count(series, candidates, plan)
+        cost = estimate_cost(series, candidates, plan)
     except CandidateError as exc:
         raise _invalid(InvalidCandidateError, str(exc), "/candidates") from None
     except (PlanError, SeriesError) as exc:
         raise _invalid(InvalidPlanError, str(exc), "/plan") from None
-    if folds > settings.max_folds:
-        raise LimitExceededError(
-            f"the run would compute {folds} folds (series x candidates x origins, the "
-            f"benchmark included); at most {settings.max_folds} are accepted "
-            "(FOLDLINE_MAX_FOLDS): select fewer series or candidates, or set max_origins",
-            errors=[FieldError("body", "", "too many folds")])
-    return PreparedRun(tuple(versions), candidates, plan, folds)
+    check_cost(cost, settings)
+    return PreparedRun(tuple(versions), candidates, plan, cost)
+
+
+def check_cost(cost: RunCost, settings: Settings) -> None:
+    """Refuse a run whose estimated cost exceeds a limit; the problem shows both."""
+    limits = {"folds": settings.max_folds, "total_fits": settings.max_run_fits,
+              "rows": settings.max_run_rows}
+    estimate = cost.to_dict()
+    over = [name for name, limit in limits.items() if estimate[name] > limit]
+    if not over:
+        return
+    parts = {"folds": f"{cost.folds} folds (series x candidates x origins, the benchmark "
+                      f"included; at most {settings.max_folds}, FOLDLINE_MAX_FOLDS)",
+             "total_fits": f"{cost.total_fits} model fits (at most {settings.max_run_fits}, "
+                           "FOLDLINE_MAX_RUN_FITS)",
+             "rows": f"{cost.rows} result rows (at most {settings.max_run_rows}, "
+                     "FOLDLINE_MAX_RUN_ROWS)"}
+    raise LimitExceededError(
+        "the run would compute " + " and ".join(parts[name] for name in over)
+        + ": select fewer series or candidates, a shorter horizon or fewer levels, or set "
+        "max_origins or a less frequent refit; nothing was queued",
+        errors=[FieldError("body", "", f"too many {name.replace('total_', '')}")
+                for name in over],
+        estimate=estimate, limit=limits)
 
 
 def selected_versions(session: Session, selection: SeriesSelection) -> list[VersionInfo]:

@@ -9,12 +9,14 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
+from dataclasses import replace
 
+from backtest.errors import SeriesTooLongError, TooManySeriesError
 from backtest.series import FillPolicy, Series, make_series
 from backtest.tidy import read_series_csv
 from service.errors import FieldError, InvalidInputError, LimitExceededError
-from service.schemas.common import SERIES_KEY
 from service.schemas.series import ObservationIn, SeriesIn
+from service.series_keys import SeriesKeyError, normalised_key
 from service.settings import Settings
 from storage.errors import ConflictError
 
@@ -22,12 +24,11 @@ from storage.errors import ConflictError
 def series_from_json(body: SeriesIn, settings: Settings) -> Series:
     """The series a JSON body describes."""
     _check_count(len(body.observations), settings, "/observations")
-    with _numbers_in_range():
-        series = make_series(body.key, body.frequency,
-                             [(o.period, o.value) for o in body.observations],
-                             season_length=body.season_length, fill=body.fill)
-    _check_count(len(series), settings, "/observations")
-    return series
+    with _numbers_in_range(), _bounded(settings, "/observations"):
+        return make_series(body.key, body.frequency,
+                           [(o.period, o.value) for o in body.observations],
+                           season_length=body.season_length, fill=body.fill,
+                           max_length=settings.max_observations)
 
 
 def series_from_csv(data: bytes, settings: Settings, *, frequency: str | None,
@@ -39,21 +40,25 @@ def series_from_csv(data: bytes, settings: Settings, *, frequency: str | None,
         raise InvalidInputError(f"the CSV is not UTF-8 text (byte {exc.start} cannot be "
                                 "decoded)", errors=[FieldError("body", "", "not UTF-8")]) \
             from None
-    with _numbers_in_range():
+    with _numbers_in_range(), _bounded(settings, ""):
         series = read_series_csv(text, frequency=frequency, season_length=season_length,
-                                 fill=fill)
-    if len(series) > settings.max_series_per_upload:
-        raise LimitExceededError(
-            f"the upload holds {len(series)} series; at most {settings.max_series_per_upload} "
-            "are accepted at once (FOLDLINE_MAX_SERIES_PER_UPLOAD); nothing was stored",
-            errors=[FieldError("body", "", "too many series")])
-    for one in series:
-        if not SERIES_KEY.fullmatch(one.key):
-            raise InvalidInputError(f"series key {one.key[:40]!r}... must be 1 to 200 "
-                                    "characters without control characters",
-                                    errors=[FieldError("body", "", "invalid series key")])
-        _check_count(len(one), settings, "", one.key)
-    return series
+                                 fill=fill, max_length=settings.max_observations,
+                                 max_series=settings.max_series_per_upload)
+    keyed = [replace(one, key=_upload_key(one.key)) for one in series]
+    repeated = len({one.key for one in keyed}) < len(keyed)
+    if repeated:
+        raise InvalidInputError("two series keys of the upload are spellings of one key "
+                                "(they are equal in Unicode NFC)",
+                                errors=[FieldError("body", "", "invalid series key")])
+    return keyed
+
+
+def _upload_key(key: str) -> str:
+    try:
+        return normalised_key(key)
+    except SeriesKeyError as exc:
+        raise InvalidInputError(f"series key {key[:40]!r}: {exc}",
+                                errors=[FieldError("body", "", "invalid series key")]) from None
 
 
 def with_appended(stored: Series, observations: Sequence[ObservationIn],
@@ -78,11 +83,10 @@ def with_appended(stored: Series, observations: Sequence[ObservationIn],
         by_position[position] = (observation.period, observation.value)
     rows = [by_position[p] for p in sorted(by_position)]
     _check_count(len(rows), settings, "/observations", stored.key)
-    with _numbers_in_range():
-        series = make_series(stored.key, stored.frequency.duration, rows,
-                             season_length=stored.season_length, fill=stored.fill_policy)
-    _check_count(len(series), settings, "/observations", stored.key)
-    return series
+    with _numbers_in_range(), _bounded(settings, "/observations"):
+        return make_series(stored.key, stored.frequency.duration, rows,
+                           season_length=stored.season_length, fill=stored.fill_policy,
+                           max_length=settings.max_observations)
 
 
 @contextmanager
@@ -94,6 +98,21 @@ def _numbers_in_range() -> Iterator[None]:
     except OverflowError as exc:
         raise InvalidInputError(f"a period or frequency is out of range ({exc})",
                                 errors=[FieldError("body", "", "out of range")]) from None
+
+
+@contextmanager
+def _bounded(settings: Settings, pointer: str) -> Iterator[None]:
+    """Turn the engine's span and count checks into limit problems naming the setting."""
+    try:
+        yield
+    except SeriesTooLongError as exc:
+        _check_count(exc.length, settings, pointer, exc.key)
+        raise
+    except TooManySeriesError as exc:
+        raise LimitExceededError(
+            f"the upload holds at least {exc.count} series; at most {exc.limit} are accepted "
+            "at once (FOLDLINE_MAX_SERIES_PER_UPLOAD); nothing was stored",
+            errors=[FieldError("body", "", "too many series")]) from None
 
 
 def _check_count(count: int, settings: Settings, pointer: str, key: str | None = None) -> None:

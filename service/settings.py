@@ -39,6 +39,15 @@ class Settings(BaseSettings):
     max_candidates: int = Field(20, ge=1, description="candidates per run")
     max_folds: int = Field(500_000, ge=1, description="folds (series x candidates x origins) "
                            "per run")
+    max_run_fits: int = Field(200_000, ge=1, description="model fits a run may take, by the "
+                              "estimate made at submission (order searches count each order "
+                              "they may try)")
+    max_run_rows: int = Field(5_000_000, ge=1, description="result rows a run may write, by the "
+                              "estimate made at submission (forecasts, interval bounds, scores)")
+    max_horizon: int = Field(500, ge=1, description="steps ahead of a run's plan or an issued "
+                             "forecast")
+    max_levels: int = Field(10, ge=1, description="interval levels of a run's plan or an issued "
+                            "forecast")
     report_cache_dir: str | None = Field(None, description="directory of rendered run reports "
                                          "(default: `reports` beside the SQLite store, else "
                                          "in the default data directory)")
@@ -48,6 +57,9 @@ class Settings(BaseSettings):
     session_secret: str | None = Field(None, repr=False, description="key that signs reviewer "
                                        "page sessions; unset: a random one per process, so "
                                        "sessions end when the server restarts")
+    audit_key: str | None = Field(None, repr=False, min_length=16, description="secret that "
+                                  "signs audit checkpoints (`foldline audit checkpoint`); keep "
+                                  "it outside the database")
     session_minutes: int = Field(480, ge=1, le=10_080, description="how long a reviewer page "
                                  "session lasts after signing in")
 

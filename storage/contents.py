@@ -17,6 +17,8 @@ from sqlalchemy.orm import Session
 
 from storage.digest import Row, combine, table_digest
 from storage.schema import (
+    ApiKey,
+    ApiKeyRevocation,
     Base,
     CandidateRecord,
     ChampionChoiceRecord,
@@ -158,6 +160,21 @@ def outcomes_digest(rows: Mapping[Table, Iterable[Row]]) -> str:
     return combine(table_digest(table, rows[table]) for table in OUTCOME_TABLES)
 
 
+def key_subject(key_id: str) -> str:
+    """Subject name of an API key (its creation, role and revocation)."""
+    return f"api_key/{key_id}"
+
+
+def key_digest(rows: Iterable[Row]) -> str:
+    """Digest of an API key's row: id, name, role, secret hash, creation."""
+    return table_digest(ApiKey.__table__, rows)
+
+
+def revocation_digest(rows: Iterable[Row]) -> str:
+    """Digest of an API key's revocation row."""
+    return table_digest(ApiKeyRevocation.__table__, rows)
+
+
 def stored_digest(session: Session, action: str, subject: str) -> str | None:
     """The digest of a subject's content as stored now; ``None`` if ``action`` has none."""
     reader = _READERS.get(action)
@@ -223,7 +240,17 @@ def _outcomes(session: Session, ids: list[str]) -> str:
     return outcomes_digest({table: _rows(session, table, **keys) for table in OUTCOME_TABLES})
 
 
+def _key(session: Session, ids: list[str]) -> str:
+    return key_digest(_rows(session, ApiKey.__table__, id=ids[0]))
+
+
+def _revocation(session: Session, ids: list[str]) -> str:
+    return revocation_digest(_rows(session, ApiKeyRevocation.__table__, key_id=ids[0]))
+
+
 _READERS: dict[str, Callable[[Session, list[str]], str]] = {
+    "api_key.created": _key,
+    "api_key.revoked": _revocation,
     "series.created": _series,
     "series_version.created": _version,
     "candidate.registered": _candidate,

@@ -10,14 +10,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from storage.audit import record_event
-from storage.contents import as_row
-from storage.digest import table_digest
+from storage.audit import lock_audit_log, record_event
+from storage.contents import as_row, key_digest, key_subject, revocation_digest
 from storage.errors import ConflictError, NotFoundError, translates_errors
-from storage.schema import ROLES, ApiKey, ApiKeyRevocation
+from storage.schema import ROLES, ApiKey, ApiKeyRevocation, AuditEvent
 from storage.types import utc_now
 
 
@@ -40,10 +39,12 @@ class KeyInfo:
 
 @dataclass(frozen=True)
 class KeyCredentials:
-    """What authentication needs: the key, and the hash its secret must match."""
+    """What authentication needs: the key, the hash its secret must match, and whether its
+    stored rows (key and revocation) match the digests their audit events recorded."""
 
     key: KeyInfo
     secret_hash: str
+    audited: bool
 
 
 @translates_errors
@@ -58,16 +59,30 @@ def create_key(session: Session, *, key_id: str, name: str, role: str, secret_ha
                     created_at=utc_now(), created_by=actor)
     session.add(record)
     session.flush()
-    record_event(session, actor=actor, action="api_key.created", subject=f"api_key/{key_id}",
-                 digest=table_digest(ApiKey.__table__, [as_row(record)]))
+    record_event(session, actor=actor, action="api_key.created", subject=key_subject(key_id),
+                 digest=key_digest([as_row(record)]))
     return _info(record, None)
 
 
 @translates_errors
 def find_credentials(session: Session, key_id: str) -> KeyCredentials | None:
-    """The key with this public id and its secret hash, if stored."""
+    """The key with this public id and its secret hash, if stored.
+
+    A key whose row was changed behind the API's back (a role promoted, a revocation
+    deleted, a key inserted without its event) is not ``audited``.
+    """
     row = session.execute(_with_revocation().where(ApiKey.id == key_id)).first()
-    return None if row is None else KeyCredentials(_info(*row), row[0].secret_hash)
+    if row is None:
+        return None
+    key, revocation = row
+    recorded = dict(session.execute(
+        select(AuditEvent.action, AuditEvent.digest)
+        .where(AuditEvent.subject == key_subject(key_id),
+               AuditEvent.action.in_(("api_key.created", "api_key.revoked")))).all())
+    audited = (recorded.get("api_key.created") == key_digest([as_row(key)])
+               and recorded.get("api_key.revoked") == (
+                   None if revocation is None else revocation_digest([as_row(revocation)])))
+    return KeyCredentials(_info(key, revocation), key.secret_hash, audited)
 
 
 @translates_errors
@@ -79,18 +94,32 @@ def list_keys(session: Session) -> list[KeyInfo]:
 
 @translates_errors
 def revoke_key(session: Session, key_id: str, *, actor: str) -> KeyInfo:
-    """Revoke a key; revoking a revoked key changes nothing and returns it as it is."""
+    """Revoke a key; revoking a revoked key changes nothing and returns it as it is.
+
+    The last active admin key is not revoked (:class:`ConflictError`): create another
+    admin key first, so that someone can still manage keys.
+    """
+    lock_audit_log(session)
     row = session.execute(_with_revocation().where(ApiKey.id == key_id)).first()
     if row is None:
         raise NotFoundError(f"API key {key_id} does not exist")
     if row[1] is not None:
         return _info(*row)
+    if row[0].role == "admin" and _active_admins(session) == 1:
+        raise ConflictError(f"API key {key_id} is the last active admin key; create another "
+                            "admin key before revoking it")
     revocation = ApiKeyRevocation(key_id=key_id, revoked_at=utc_now(), revoked_by=actor)
     session.add(revocation)
     session.flush()
-    record_event(session, actor=actor, action="api_key.revoked", subject=f"api_key/{key_id}",
-                 digest=table_digest(ApiKeyRevocation.__table__, [as_row(revocation)]))
+    record_event(session, actor=actor, action="api_key.revoked", subject=key_subject(key_id),
+                 digest=revocation_digest([as_row(revocation)]))
     return _info(row[0], revocation)
+
+
+def _active_admins(session: Session) -> int:
+    query = (select(func.count()).select_from(ApiKey).outerjoin(ApiKeyRevocation)
+             .where(ApiKey.role == "admin", ApiKeyRevocation.key_id.is_(None)))
+    return session.scalar(query) or 0
 
 
 def _with_revocation():

@@ -389,6 +389,8 @@ class AuditEvent(Base):
     """One entry of the append-only, hash-chained log of writes."""
 
     __tablename__ = "audit_event"
+    # authentication looks up the audited digest of a key by subject and action
+    __table_args__ = (Index(None, "subject", "action"),)
 
     seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
     occurred_at: Mapped[datetime] = mapped_column(index=True)
@@ -422,6 +424,17 @@ class ApiKeyRevocation(Base):
     key_id: Mapped[Label] = mapped_column(ForeignKey("api_key.id"), primary_key=True)
     revoked_at: Mapped[datetime]
     revoked_by: Mapped[Name]
+
+
+class PageSignOut(Base):
+    """A reviewer page session ended by signing out (the SHA-256 of its cookie value): the
+    cookie is refused from then on, even where a copy of it survives."""
+
+    __tablename__ = "page_sign_out"
+
+    session_digest: Mapped[Digest] = mapped_column(primary_key=True)
+    key_id: Mapped[Label] = mapped_column(ForeignKey("api_key.id"))
+    signed_out_at: Mapped[datetime]
 
 
 class ChampionChoiceRecord(Base):

@@ -27,6 +27,7 @@ from storage.contents import (
     candidate_subject,
     champion_subject,
     issued_subject,
+    key_subject,
     outcomes_subject,
     plan_subject,
     run_subject,
@@ -38,6 +39,8 @@ from storage.contents import (
 from storage.errors import translates_errors
 from storage.schema import (
     FINAL_STATUSES,
+    ApiKey,
+    ApiKeyRevocation,
     AuditEvent,
     CandidateRecord,
     ChampionChoiceRecord,
@@ -122,6 +125,8 @@ def _first_unrecorded(session: Session, recorded: set[tuple[str, str]]) -> str |
          unit_subject),
         ("champion.chosen", select(ChampionChoiceRecord.id), champion_subject),
         ("forecast.issued", select(IssuedForecastRecord.id), issued_subject),
+        ("api_key.created", select(ApiKey.id), key_subject),
+        ("api_key.revoked", select(ApiKeyRevocation.key_id), key_subject),
         ("outcomes.recorded",
          select(OutcomeSetRecord.forecast_id, OutcomeSetRecord.series_version_id),
          outcomes_subject),

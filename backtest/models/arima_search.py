@@ -129,6 +129,9 @@ class ArimaSearchSpec(ModelSpec):
     period: int | None = None
     transform: Transform = Transform()
 
+
+    def fits_per_estimate(self) -> int:
+        return self.max_models
     def body(self) -> dict:
         return {"max_order": self.limits.body(), "seasonal": self.seasonal,
                 "criterion": self.criterion, "max_models": self.max_models,

@@ -67,6 +67,10 @@ class ModelSpec(ABC):
     fast_estimable: ClassVar[bool] = False
     transform: Transform
 
+    def fits_per_estimate(self) -> int:
+        """Most model fits one estimation may take (an order search fits several)."""
+        return 1
+
     @abstractmethod
     def body(self) -> dict:
         """Canonical JSON body of the spec, every default filled in (without ``family``)."""

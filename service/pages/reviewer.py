@@ -23,7 +23,9 @@ from service.pages.session import (
     session_value,
 )
 from service.settings import Settings
+from service.transactions import write
 from storage.keys import find_credentials
+from storage.sign_outs import record_sign_out, signed_out
 
 
 class SignInRequired(Exception):
@@ -52,16 +54,27 @@ def end_session(response: Response) -> None:
                            samesite="strict")
 
 
+def sign_out_on_server(request: Request, sessions: sessionmaker[Session],
+                       settings: Settings) -> None:
+    """Record the request's session, if it has a valid one, as ended, so that a copy of its
+    cookie is refused too."""
+    cookie = request.cookies.get(COOKIE, "")
+    key_id = session_key_id(cookie, session_secret(settings.session_secret), time.time())
+    if key_id is not None:
+        write(sessions, lambda session: record_sign_out(session, cookie, key_id))
+
+
 def reviewer(request: Request, sessions: Sessions, settings: AppSettings) -> Caller:
     """The signed-in reader of a page request (a dependency); raise :class:`SignInRequired`
     if there is none."""
-    key_id = session_key_id(request.cookies.get(COOKIE, ""),
-                            session_secret(settings.session_secret), time.time())
+    cookie = request.cookies.get(COOKIE, "")
+    key_id = session_key_id(cookie, session_secret(settings.session_secret), time.time())
     if key_id is None:
         raise SignInRequired
     with sessions.begin() as session:
         stored = find_credentials(session, key_id)
-    if stored is None or not stored.key.active:
+        ended = signed_out(session, cookie)
+    if ended or stored is None or not stored.key.active or not stored.audited:
         raise SignInRequired
     caller = Caller(stored.key.id, stored.key.name, stored.key.role)
     if not caller.may("read"):

@@ -14,6 +14,7 @@ from service.moments import point_in_time
 from service.monitoring import monitor_champions, monitor_series
 from service.problems import problem_responses
 from service.routes.params import AsOfParam
+from service.schemas.champions import CANDIDATE_ID
 from service.schemas.monitoring import (
     STATE_HELP,
     FlagPage,
@@ -44,7 +45,8 @@ MAX_SERIES = 1000
 def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessions,
                     output: FormatParam = None,
                     candidate_id: Annotated[str | None, Query(
-                        max_length=17, description="default: the series' champion")] = None,
+                        pattern=CANDIDATE_ID, description="default: the series' champion")
+                    ] = None,
                     as_of: AsOfParam = None) -> Any:
     """Realised accuracy of the candidate's issued forecasts by target period, the
     backtest's expectation for the same horizons, and the coverage, accuracy and level

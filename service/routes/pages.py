@@ -9,7 +9,7 @@ send it back to the sign-in form.
 from __future__ import annotations
 
 from typing import Annotated
-from urllib.parse import parse_qs
+from urllib.parse import parse_qs, urlsplit
 
 from fastapi import APIRouter, Depends, Query, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
@@ -24,7 +24,13 @@ from service.pages.forecast_view import load_forecast_page
 from service.pages.layout import HOME, SIGN_IN, reviewer_page, sign_in_page, with_navigation
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
-from service.pages.reviewer import end_session, reviewer, sign_in, start_session
+from service.pages.reviewer import (
+    end_session,
+    reviewer,
+    sign_in,
+    sign_out_on_server,
+    start_session,
+)
 from service.pages.series_detail import load_series_page, series_detail
 from service.pages.series_list import series_list
 from service.report.html import join
@@ -52,6 +58,12 @@ async def posted_key(request: Request) -> str:
     return (fields.get("key") or [""])[0].strip()
 
 
+def same_origin(request: Request) -> bool:
+    """Whether the request's ``Origin``, when the browser sends one, is this host."""
+    origin = request.headers.get("origin")
+    return origin is None or urlsplit(origin).netloc == request.headers.get("host")
+
+
 def _page(html: str, status: int = 200) -> HTMLResponse:
     return HTMLResponse(html, status_code=status, headers=PAGE_HEADERS)
 
@@ -63,9 +75,15 @@ def sign_in_form() -> HTMLResponse:
 
 
 @router.post("/sign-in", response_model=None)
-async def sign_in_with_key(key: Annotated[str, Depends(posted_key)], sessions: Sessions,
+async def sign_in_with_key(request: Request, key: Annotated[str, Depends(posted_key)],
+                           sessions: Sessions,
                            settings: AppSettings) -> HTMLResponse | RedirectResponse:
-    """Check the posted key as the API would; on success start a session and go home."""
+    """Check the posted key as the API would; on success start a session and go home.
+
+    A form posted from another site (its ``Origin`` names another host) is refused, so no
+    page elsewhere can sign a browser in under someone else's key (login CSRF)."""
+    if not same_origin(request):
+        return _page(sign_in_page("Sign in from this site's own form."), 403)
     if not key:
         return _page(sign_in_page("Enter your API key."), 400)
     try:
@@ -79,8 +97,9 @@ async def sign_in_with_key(key: Annotated[str, Depends(posted_key)], sessions: S
 
 
 @router.post("/sign-out")
-def sign_out() -> RedirectResponse:
-    """End the session."""
+def sign_out(request: Request, sessions: Sessions, settings: AppSettings) -> RedirectResponse:
+    """End the session on the server and clear its cookie."""
+    sign_out_on_server(request, sessions, settings)
     page = RedirectResponse(SIGN_IN, status_code=303)
     end_session(page)
     return page

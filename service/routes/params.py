@@ -7,12 +7,16 @@ from typing import Annotated
 from fastapi import Depends, Path, Query
 
 from service.errors import FieldError, InvalidInputError
-from service.schemas.common import MAX_ID, TAG_NAME, TAG_VALUE
+from service.schemas.common import MAX_ID, MAX_TAGS, TAG_NAME, TAG_VALUE
 
 
 def tag_filter(tag: Annotated[list[str] | None, Query(
         description="name:value; repeat to require several tags")] = None) -> dict[str, str]:
-    """The ``tag`` query values as a name → value mapping."""
+    """The ``tag`` query values as a name → value mapping; at most :data:`MAX_TAGS`."""
+    if len(tag or []) > MAX_TAGS:
+        raise InvalidInputError(f"too many tag filters: {len(tag or [])} given, at most "
+                                f"{MAX_TAGS} are accepted",
+                                errors=[FieldError("query", "/tag", "too many filters")])
     tags: dict[str, str] = {}
     for index, text in enumerate(tag or []):
         name, sep, value = text.partition(":")

@@ -30,14 +30,24 @@ def served(backend: str, tmp_path: Path, roles: Sequence[str]
            ) -> Iterator[tuple[str, dict[str, str]]]:
     """A server with its embedded worker on a migrated store of ``backend``: its base URL
     and a bearer token for each of ``roles``."""
+    with served_store(backend, tmp_path, roles) as (base, tokens, _url):
+        yield base, tokens
+
+
+@contextmanager
+def served_store(backend: str, tmp_path: Path, roles: Sequence[str], **settings: str
+                 ) -> Iterator[tuple[str, dict[str, str], str]]:
+    """:func:`served`, with the store's URL too; ``settings`` are extra ``FOLDLINE_*``
+    variables by lower-case name."""
     with migrated_store(backend, tmp_path) as url:
         env = {**os.environ, "FOLDLINE_DATABASE_URL": url, "FOLDLINE_HOST": "127.0.0.1",
                "FOLDLINE_PORT": str(_free_port()), "FOLDLINE_WORKER_JOBS": "1",
-               "FOLDLINE_POLL_SECONDS": "0.2", "FOLDLINE_LEASE_SECONDS": "20"}
+               "FOLDLINE_POLL_SECONDS": "0.2", "FOLDLINE_LEASE_SECONDS": "20",
+               **{f"FOLDLINE_{name.upper()}": value for name, value in settings.items()}}
         tokens = {role: cli(env, "keys", "create", "--role", role, "--name", f"e2e-{role}")
                   .splitlines()[0] for role in roles}
         with running_server(env, tmp_path / "server.log") as base:
-            yield base, tokens
+            yield base, tokens, url
 
 
 def bearer_client(base: str, token: str) -> httpx.Client:

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import pytest
+from sqlalchemy import text
 
 from service.cli import main
 from tests.service.conftest import Api
+from tests.storage.builders import drop_guards
 
 
 def _keys_cli(api: Api, *args: str) -> int:
@@ -77,3 +79,30 @@ def test_the_command_line_reports_errors_on_one_line(api: Api,
 
     errors = capsys.readouterr().err.strip().splitlines()
     assert len(errors) == 2 and all(e.startswith("foldline: error: ") for e in errors)
+
+
+def test_the_last_admin_key_cannot_be_revoked(api: Api):
+    own_id = api.tokens["admin"].removeprefix("fl_").split(".")[0]
+
+    refused = api.post("admin", f"/v1/keys/{own_id}/revoke")
+    second = api.post("admin", "/v1/keys", json={"name": "ops-2", "role": "admin"}).json()
+    allowed = api.post("admin", f"/v1/keys/{own_id}/revoke")
+
+    assert refused.status_code == 409 and "last active admin" in refused.json()["detail"]
+    assert allowed.status_code == 200
+    assert api.client.post(f"/v1/keys/{second['key']['id']}/revoke", headers={
+        "Authorization": f"Bearer {second['token']}"}).status_code == 409
+
+
+def test_a_key_promoted_behind_the_api_is_refused(api: Api):
+    reader_id = api.tokens["reader"].removeprefix("fl_").split(".")[0]
+    assert api.get("reader", "/v1/series").status_code == 200
+    with api.sessions.begin() as session:
+        drop_guards(session, "api_key")
+        session.execute(text(f"UPDATE api_key SET role = 'admin' WHERE id = '{reader_id}'"))
+
+    refused = api.get("reader", "/v1/keys")
+
+    assert refused.status_code == 401
+    assert "audit record" in refused.json()["detail"]
+    assert api.get("reader", "/v1/series").status_code == 401

@@ -71,6 +71,17 @@ def test_signing_in_sets_a_signed_http_only_strict_secure_cookie(site: Api):
     assert secret not in cookie and site.tokens["reader"] not in answer.text
 
 
+@pytest.mark.parametrize(("origin", "status"), [("https://elsewhere.example", 403),
+                                                ("null", 403), ("http://testserver", 303)])
+def test_a_sign_in_posted_from_another_site_is_refused(site: Api, origin: str, status: int):
+    site.client.cookies.clear()
+    answer = site.client.post("/pages/sign-in", data={"key": site.tokens["reader"]},
+                              headers={"Origin": origin}, follow_redirects=False)
+
+    assert answer.status_code == status
+    assert ("set-cookie" in answer.headers) == (status == 303)
+
+
 def test_the_form_posts_the_key_in_the_body_and_a_key_in_the_url_is_ignored(site: Api):
     form = site.client.get("/pages/sign-in")
     assert form.status_code == 200 and form.headers["content-type"].startswith("text/html")
@@ -93,8 +104,8 @@ def test_a_bad_key_is_refused_without_a_cookie_or_an_echo(site: Api, key: str):
 
 def test_pages_without_a_valid_session_send_the_browser_to_sign_in(site: Api):
     cookie = _session(site)
-    key_id, expires, signature = cookie["Cookie"].split("=", 1)[1].split(".")
-    stretched = {"Cookie": f"{COOKIE}={key_id}.{int(expires) + 3600}.{signature}"}
+    key_id, expires, nonce, signature = cookie["Cookie"].split("=", 1)[1].split(".")
+    stretched = {"Cookie": f"{COOKIE}={key_id}.{int(expires) + 3600}.{nonce}.{signature}"}
     ended = session_value(key_id, int(time.time()) - 1, SECRET.encode())
     expired = {"Cookie": f"{COOKIE}={ended}"}
     for url in ("/pages/", "/pages/series/shop/north", "/pages/runs/1"):
@@ -125,6 +136,17 @@ def test_signing_out_clears_the_cookie(site: Api):
 
     assert answer.status_code == 303 and answer.headers["location"] == "/pages/sign-in"
     assert re.search(rf'{COOKIE}="?"?;.*max-age=0', answer.headers["set-cookie"].lower())
+
+
+def test_signing_out_ends_the_session_on_the_server_and_no_other(site: Api):
+    copied, other = _session(site), _session(site)
+    assert _page(site, "/pages/", copied).status_code == 200
+
+    site.client.post("/pages/sign-out", headers=copied, follow_redirects=False)
+
+    refused = _page(site, "/pages/", copied)  # a copy of the cookie kept after signing out
+    assert refused.status_code == 303 and refused.headers["location"] == "/pages/sign-in"
+    assert _page(site, "/pages/", other).status_code == 200
 
 
 def test_the_series_list_shows_each_series_latest_run_and_top_candidate(site: Api):

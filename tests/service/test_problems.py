@@ -4,10 +4,12 @@ from __future__ import annotations
 
 import pytest
 from fastapi.exceptions import RequestValidationError
+from sqlalchemy.exc import OperationalError
+from starlette.requests import Request
 
 from backtest import errors as backtest_errors
 from service import errors as service_errors
-from service.problems import PROBLEMS, kind_of, pointer
+from service.problems import PROBLEMS, _problem, kind_of, pointer
 from storage import errors as storage_errors
 from storage.queue import LeaseLostError
 from tests.service.conftest import Api
@@ -112,3 +114,17 @@ def test_an_unexpected_failure_is_a_500_problem_without_internals(api: Api):
 
 def test_json_pointers_escape_slashes_and_tildes():
     assert pointer(["a/b", "c~d", 0]) == "/a~1b/c~0d/0"
+
+
+def test_a_database_error_raised_outside_storage_is_503_to_retry():
+    # A commit or rollback on a connection the server dropped raises SQLAlchemy's own
+    # error after the storage function returned.
+    dropped = OperationalError("COMMIT", {}, Exception("server closed the connection"))
+    request = Request({"type": "http", "method": "GET", "path": "/v1/series",
+                       "headers": [], "query_string": b""})
+
+    problem, headers = _problem(request, dropped)
+
+    assert problem.status == 503 and problem.code == "store_unavailable"
+    assert headers["Retry-After"]
+    assert "server closed" not in problem.detail

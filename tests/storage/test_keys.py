@@ -11,6 +11,7 @@ from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
 from storage.keys import create_key, find_credentials, list_keys, revoke_key
 from storage.schema import AuditEvent
 from storage.verify import verify_audit_log
+from tests.storage.builders import drop_guards
 
 HASH = "ab" * 32
 
@@ -74,3 +75,57 @@ def test_the_database_refuses_changing_keys(session: Session, statement: str):
 
     with pytest.raises(DBAPIError, match=IMMUTABLE_MARKER), session.begin_nested():
         session.execute(text(statement))
+
+
+def test_the_last_active_admin_key_is_not_revoked(session: Session):
+    _create(session, "a1", "ops-1", role="admin")
+    _create(session, "a2", "ops-2", role="admin")
+    _create(session, "r1", "bi-tool")
+
+    revoke_key(session, "a1", actor="ops-2")
+    with pytest.raises(ConflictError, match="last active admin"), session.begin_nested():
+        revoke_key(session, "a2", actor="ops-2")
+    revoke_key(session, "r1", actor="ops-2")
+
+    assert [(k.id, k.active) for k in list_keys(session)] == [("a1", False), ("a2", True),
+                                                              ("r1", False)]
+
+
+def _verification(session: Session) -> str | None:
+    return verify_audit_log(session).problem
+
+
+def test_a_role_promoted_behind_the_api_breaks_verification_and_the_key(session: Session):
+    _create(session, "k1", "bi-tool")
+    assert find_credentials(session, "k1").audited and _verification(session) is None
+
+    drop_guards(session, "api_key")
+    session.execute(text("UPDATE api_key SET role = 'admin' WHERE id = 'k1'"))
+    session.expire_all()
+
+    assert not find_credentials(session, "k1").audited
+    assert "api_key/k1" in _verification(session)
+
+
+def test_a_deleted_revocation_breaks_verification_and_the_key(session: Session):
+    _create(session, "k1", "bi-tool")
+    revoke_key(session, "k1", actor="ops")
+    assert find_credentials(session, "k1").audited
+
+    drop_guards(session, "api_key_revocation")
+    session.execute(text("DELETE FROM api_key_revocation WHERE key_id = 'k1'"))
+    session.expire_all()
+
+    found = find_credentials(session, "k1")
+    assert found.key.active and not found.audited  # looks active, but is refused
+    assert "api_key/k1" in _verification(session)
+
+
+def test_a_key_inserted_behind_the_api_breaks_verification_and_the_key(session: Session):
+    _create(session, "k1", "bi-tool")
+    session.execute(text(
+        "INSERT INTO api_key (id, name, role, secret_hash, created_at, created_by) "
+        f"VALUES ('k9', 'forged', 'admin', '{HASH}', '2026-01-01 00:00:00+00:00', 'ops')"))
+
+    assert not find_credentials(session, "k9").audited
+    assert "api_key/k9 is stored but no api_key.created event" in _verification(session)
