@@ -9,10 +9,13 @@ Conventions (documented choices):
   correction (5 %, two-sided, rejection in the candidate's favour) at the ranking horizon;
   when ranking over all horizons, on the per-origin mean loss over horizons, with H-1
   autocovariance lags for the overlap. Absolute loss for MASE, MAE and sMAPE rankings,
-  squared loss for RMSE and RMSSE.
+  squared loss for RMSE and RMSSE. For the distribution scores (CRPS, pinball, scaled
+  pinball) the loss is the fold's CRPS, or its mean pinball loss over the plan's
+  quantiles, divided by the fold's MASE scale.
 - The model confidence set (Hansen, Lunde & Nason 2011) uses the same per-origin losses,
   over the origins every candidate completed, at size 0.10 (a 90 % set), 1,000 stationary
-  bootstrap replications, seeded with the plan's seed.
+  bootstrap replications, seeded with the plan's seed. A candidate whose loss is undefined
+  at every origin (every fold failed; a CRPS of simulated intervals) is left out of it.
 - ``calibration_zone``: the worst zone over the plan's levels at h = 1, where the
   one-step misses from successive origins do not overlap.
 """
@@ -32,6 +35,7 @@ from backtest.assessment import (
     pairwise,
 )
 from backtest.plan import Plan
+from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
 
 MCS_SIZE = 0.10
@@ -39,6 +43,7 @@ MCS_REPS = 1000
 ALPHA = 0.05
 _ZONE_ORDER = ("consistent", "suspect", "excessive")
 _SQUARED = ("rmse", "rmsse")
+_DISTRIBUTION = ("crps", "pinball", "scaled_pinball")
 
 
 @dataclass(frozen=True)
@@ -71,14 +76,20 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int]
 
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
-                    plan: Plan) -> tuple[dict, dict[str, Annotation]]:
-    """Calibration, comparisons and confidence set for one series' candidates."""
+                    plan: Plan, predictive: Mapping[str, Predictive]
+                    ) -> tuple[dict, dict[str, Annotation]]:
+    """Calibration, comparisons and confidence set for one series' candidates;
+    ``predictive`` gives each candidate's predictive form (for distribution scores)."""
     arrays = {cid: matrices(folds, plan.horizon, plan.levels)
               for cid, folds in folds_by_candidate.items()}
     calibration = {cid: _calibration(a, plan) for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
     loss = "squared" if plan.rank_by in _SQUARED else "absolute"
-    per_origin = {cid: _origin_losses(e, plan.rank_horizon, loss) for cid, e in scaled.items()}
+    ranked = scaled
+    if plan.rank_by in _DISTRIBUTION:
+        ranked = {cid: _distribution_losses(folds, predictive[cid], plan)
+                  / arrays[cid]["scale"][:, None] for cid, folds in folds_by_candidate.items()}
+    per_origin = {cid: _origin_losses(e, plan.rank_horizon, loss) for cid, e in ranked.items()}
     comparison = {
         "errors": "scaled by each fold's MASE scale",
         "benchmark": compare_to_benchmark(scaled, benchmark_id, alpha=ALPHA,
@@ -107,6 +118,22 @@ def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
     return calibration_report(actual, lower, upper, plan.levels, origin_step=plan.step)
 
 
+def _distribution_losses(folds: Sequence[FoldResult], predictive: Predictive,
+                         plan: Plan) -> np.ndarray:
+    """Folds x horizons CRPS (or mean pinball loss) in origin order; NaN where a fold failed."""
+    ordered = sorted(folds, key=lambda f: f.fold)
+    out = np.full((len(ordered), plan.horizon), np.nan)
+    rows = [i for i, f in enumerate(ordered) if f.status == "ok"]
+    if not rows:
+        return out
+    if plan.rank_by == "crps":
+        out[rows] = crps_by_fold(ordered, predictive, plan.levels)[0]
+    else:
+        done = [ordered[i] for i in rows]
+        out[rows] = np.mean(list(pinball_by_level(done, plan.levels).values()), axis=0)
+    return out
+
+
 def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, loss: str) -> np.ndarray:
     """One pseudo-error per origin whose loss is the ranking loss at that origin."""
     if rank_horizon is not None:
@@ -128,16 +155,18 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) 
 
 
 def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
-    names = list(per_origin)
+    names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
+    undefined = [n for n in per_origin if n not in names]
     if len(names) < 2:
-        return {"reason": "a confidence set needs at least two candidates"}
+        return {"reason": "a confidence set needs at least two candidates with a loss"}
     power = 2 if loss == "squared" else 1
     losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
     try:
-        return model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS,
-                                    seed=plan.seed)
+        found = model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS,
+                                     seed=plan.seed)
     except ValueError as exc:
         return {"reason": str(exc)}
+    return {**found, "without_loss": undefined} if undefined else found
 
 
 def _h1_zone(report: list[dict]) -> str | None:

@@ -36,7 +36,7 @@ from typing import Literal
 
 from backtest.errors import PlanError
 
-RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
+RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse", "crps", "pinball", "scaled_pinball")
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
 _FIELDS = {"horizon", "first_origin", "step", "max_origins", "window", "refit", "warm_start",

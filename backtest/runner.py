@@ -10,7 +10,9 @@ reason; warnings are captured per fold (those raised while forecasting a stretch
 parameters in one pass are recorded on each fold of the stretch). With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
-gets no fit summary, and a ``raw_optional`` family builds no results object for it.
+gets no fit summary, and a ``raw_optional`` family builds no results object for it. A
+candidate that asks for empirical intervals gets them last, from its own folds
+(:mod:`backtest.recalibration`).
 """
 
 from __future__ import annotations
@@ -28,6 +30,7 @@ from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models import Fit, Forecast
 from backtest.models.base import back_transform
 from backtest.plan import Plan
+from backtest.recalibration import recalibrate
 from backtest.results import FoldResult
 from backtest.series import Series
 
@@ -41,6 +44,15 @@ def fold_seed(plan_seed: int, series_key: str, candidate_id: str, fold: int) -> 
 def run_candidate(series: Series, candidate: Candidate, plan: Plan,
                   origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """Forecast every origin of ``series`` with ``candidate``."""
+    folds = _model_folds(series, candidate, plan, origins)
+    if candidate.intervals is None:
+        return folds
+    return recalibrate(folds, candidate.intervals, plan.levels, plan.step)
+
+
+def _model_folds(series: Series, candidate: Candidate, plan: Plan,
+                 origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
+    """The folds with the model's own intervals."""
     z = candidate.spec.transform.forward(np.asarray(series.values, dtype=float))
     if candidate.spec.closed_form:
         return _closed_form_folds(series, candidate, plan, z, origins)

@@ -19,8 +19,10 @@ from storage.errors import translates_errors
 from storage.queries import latest_runs_query
 from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord
 
-RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "winkler", "msis")
-"""Metrics where lower is better; ``winkler`` and ``msis`` need an interval level."""
+RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "crps", "pinball", "scaled_pinball",
+            "winkler", "msis")
+"""Metrics where lower is better; ``winkler`` and ``msis`` need an interval level,
+``pinball`` takes one (one level's two quantiles) or none (every quantile of the plan)."""
 
 
 @translates_errors
