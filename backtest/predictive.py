@@ -51,6 +51,10 @@ class Predictive:
     step: int = 1
 
 
+GAUSSIAN = Predictive()
+"""A Gaussian forecast on the original scale, with the model's own intervals."""
+
+
 def predictive_of(candidate: Candidate, step: int) -> Predictive:
     """The predictive form of ``candidate`` in a plan whose origins are ``step`` apart."""
     spec = candidate.spec

@@ -22,7 +22,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from backtest import metrics
-from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
+from backtest.predictive import GAUSSIAN, Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult, Score
 
 POINT_METRICS = ("mase", "rmsse", "smape", "mae", "rmse", "me")
@@ -31,7 +31,7 @@ LEVEL_METRICS = ("coverage", "winkler", "msis", "pinball")
 
 
 def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int,
-                    levels: Sequence[int], predictive: Predictive = Predictive()) -> list[Score]:
+                    levels: Sequence[int], predictive: Predictive = GAUSSIAN) -> list[Score]:
     """All scores of one candidate; ``folds`` may include failed ones (they are skipped).
     ``predictive`` says what distribution the folds' bounds come from (default: Gaussian
     on the original scale)."""
