@@ -15,7 +15,10 @@ import pytest
 from scipy import integrate, stats
 
 from backtest import metrics
-from backtest.candidates import parse_candidate
+from backtest.candidates import parse_candidate, parse_candidates
+from backtest.demo import demo_series
+from backtest.engine import run_backtest
+from backtest.plan import parse_plan
 from backtest.predictive import Predictive, crps_by_fold, predictive_of
 from backtest.results import FoldResult
 from backtest.scoring import score_candidate
@@ -125,3 +128,26 @@ def test_simulated_intervals_leave_the_crps_undefined_and_say_why():
     assert scores["crps", None].value is None
     assert "simulated" in scores["crps", None].note
     assert scores["pinball", None].value == pytest.approx(0.7)
+
+
+def test_a_backtest_ranks_by_crps_and_leaves_simulated_intervals_unranked():
+    series = demo_series()[:1]
+    plan = parse_plan({"horizon": 3, "max_origins": 30, "rank_by": "crps", "levels": [80, 95]})
+    candidates = parse_candidates([
+        {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
+         "transform": "log"},
+        {"family": "benchmark", "method": "seasonal_naive",
+         "intervals": {"kind": "empirical", "min_errors": 10}},
+        {"family": "ets", "error": "multiplicative", "season": "multiplicative"},
+    ])
+    sr = run_backtest(series, candidates, plan).series[0]
+    pooled = {s.candidate_id: s for s in sr.scores
+              if s.metric == "crps" and s.horizon is None and s.level is None}
+    ranked = [row for row in sr.ranking if row.rank is not None]
+    assert [row.score for row in ranked] == sorted(pooled[r.candidate_id].value for r in ranked)
+    ets = next(row for row in sr.ranking if row.label.startswith("ETS(M"))
+    assert ets.rank is None and ets.in_confidence_set is False
+    assert "simulated" in pooled[ets.candidate_id].note
+    assert sr.evidence["confidence_set"]["without_loss"] == [ets.candidate_id]
+    assert len(ranked) == 3  # the plan's benchmark is added
+    assert all(pooled[r.candidate_id].note is None for r in ranked)
