@@ -57,7 +57,9 @@ def parse_candidate(body: object) -> Candidate:
     if family not in FAMILIES:
         raise CandidateError(f"candidate family {family!r} is unknown; "
                              f"use one of {', '.join(sorted(FAMILIES))}")
-    intervals = parse_intervals(body.get("intervals"))
+    # a combination has no intervals of its own worth keeping: empirical by default
+    default = EmpiricalIntervals().canonical() if family == "combination" else "model"
+    intervals = parse_intervals(body.get("intervals", default))
     return Candidate(FAMILIES[family]({k: v for k, v in body.items() if k != "intervals"}),
                      intervals)
 

@@ -16,6 +16,7 @@ import numpy as np
 from backtest.assessment import fit_report, summarise_folds
 from backtest.candidates import Candidate
 from backtest.folds import Origin
+from backtest.models.combination import CombinationSpec
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.runner import run_candidate
@@ -35,6 +36,8 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
                        origins: Sequence[Origin]) -> CandidateOutcome:
     """Backtest one candidate on one series and diagnose its fits."""
     folds = run_candidate(series, candidate, plan, origins)
+    if isinstance(candidate.spec, CombinationSpec):  # its members' fits are theirs to assess
+        return CandidateOutcome(folds, None, None)
     stability = None
     if not candidate.spec.closed_form:
         refits = [f for f in folds if f.reestimated]

@@ -33,6 +33,10 @@ SPECS = [
                                                              "min_errors": 5}},
     {"family": "arima", "order": [1, 0, 0], "deterministic": "constant",
      "intervals": {"kind": "empirical", "min_errors": 5, "errors": "scaled"}},
+    {"family": "combination", "rule": "median", "intervals": {"kind": "empirical",
+                                                              "min_errors": 5},
+     "members": [{"family": "theta", "transform": "log"}, {"family": "benchmark"},
+                 {"family": "ets", "error": "additive", "trend": "damped"}]},
 ]
 N, M = 36, 4
 BASE = 50 + 0.8 * np.arange(N) + 6 * np.sin(np.arange(N) * np.pi / 2)
