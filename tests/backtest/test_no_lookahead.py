@@ -35,7 +35,8 @@ SPECS = [
      "intervals": {"kind": "empirical", "min_errors": 5, "errors": "scaled"}},
     {"family": "combination", "rule": "median", "intervals": {"kind": "empirical",
                                                               "min_errors": 5},
-     "members": [{"family": "theta", "transform": "log"}, {"family": "benchmark"},
+     "members": [{"family": "theta", "transform": "log"},
+                 {"family": "benchmark", "method": "naive"},
                  {"family": "ets", "error": "additive", "trend": "damped"}]},
 ]
 N, M = 36, 4
