@@ -28,7 +28,7 @@ changes, drifts; ``"raw"`` (default) uses the errors as they were.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import Literal
 
@@ -122,26 +122,72 @@ def recalibrate(folds: Sequence[FoldResult], option: EmpiricalIntervals,
         if fold.status != "ok":
             out.append(fold)
             continue
-        lower = {lv: list(b) for lv, b in fold.lower.items()}
-        upper = {lv: list(b) for lv, b in fold.upper.items()}
-        done = 0
-        for h in range(1, len(fold.actuals) + 1):
-            errors = error_sample(ordered, i, h, step, option)
-            if errors is None:
-                break
-            done = h
-            for level in levels:
-                low, high = conformal_offsets(errors, level)
-                lower[level][h - 1] = fold.point[h - 1] + low  # type: ignore[index]
-                upper[level][h - 1] = fold.point[h - 1] + high  # type: ignore[index]
+        samples = (error_sample(ordered, i, h, step, option)
+                   for h in range(1, len(fold.actuals) + 1))
+        lower, upper, done = empirical_bounds(fold.point, fold.lower, fold.upper,  # type: ignore[arg-type]
+                                              samples, levels)
         first = error_sample(ordered, i, 1, step, replace(option, min_errors=0))
-        params = {**(fold.params or {}),
-                  "empirical.errors_h1": float(0 if first is None else len(first)),
-                  "empirical.horizons": float(done)}
-        out.append(replace(fold, params=params,
-                           lower={lv: tuple(b) for lv, b in lower.items()},
-                           upper={lv: tuple(b) for lv, b in upper.items()}))
+        marks = _marks(0 if first is None else len(first), done)
+        out.append(replace(fold, params={**(fold.params or {}), **marks},
+                           lower=lower, upper=upper))
     return tuple(out)
+
+
+def issued_bounds(point: Sequence[float], lower: Mapping[int, Sequence[float]],
+                  upper: Mapping[int, Sequence[float]], folds: Sequence[FoldResult],
+                  option: EmpiricalIntervals, scale: float, observed: Callable[[str], bool]
+                  ) -> tuple[dict[int, tuple[float, ...]], dict[int, tuple[float, ...]],
+                             dict[str, float]]:
+    """Empirical bounds of an issued forecast from the candidate's backtest ``folds``:
+    at horizon h, the errors at h of every completed fold whose target period is
+    ``observed`` in the issuing version (scaled: by the fold's scale, times ``scale``,
+    the version's). Returns lower, upper and the marks recorded with the forecast."""
+    scaled = option.errors == "scaled"
+
+    def errors(h: int) -> np.ndarray:
+        out = []
+        for f in folds:
+            if f.status != "ok" or h > len(f.actuals) or not observed(f.periods[h - 1]):
+                continue
+            if scaled and not f.scale:
+                continue
+            error = f.actuals[h - 1] - f.point[h - 1]  # type: ignore[index]
+            out.append(error / f.scale if scaled else error)  # type: ignore[operator]
+        return np.array(out, dtype=float) * (scale if scaled else 1.0)
+
+    def sample(h: int) -> np.ndarray | None:
+        found = errors(h)
+        return found if len(found) >= option.min_errors else None
+
+    new_lower, new_upper, done = empirical_bounds(
+        point, lower, upper, (sample(h) for h in range(1, len(point) + 1)), list(lower))
+    return new_lower, new_upper, _marks(len(errors(1)), done)
+
+
+def empirical_bounds(point: Sequence[float], lower: Mapping[int, Sequence[float]],
+                     upper: Mapping[int, Sequence[float]],
+                     samples: Iterable[np.ndarray | None], levels: Sequence[int]
+                     ) -> tuple[dict[int, tuple[float, ...]], dict[int, tuple[float, ...]],
+                                int]:
+    """Bounds from ``samples`` (one per horizon from h = 1; the first ``None`` stops, the
+    model's bounds stay from there) and how many horizons got them."""
+    new_lower = {lv: list(b) for lv, b in lower.items()}
+    new_upper = {lv: list(b) for lv, b in upper.items()}
+    done = 0
+    for h, errors in enumerate(samples, start=1):
+        if errors is None:
+            break
+        done = h
+        for level in levels:
+            low, high = conformal_offsets(errors, level)
+            new_lower[level][h - 1] = point[h - 1] + low
+            new_upper[level][h - 1] = point[h - 1] + high
+    return ({lv: tuple(b) for lv, b in new_lower.items()},
+            {lv: tuple(b) for lv, b in new_upper.items()}, done)
+
+
+def _marks(errors_h1: int, horizons: int) -> dict[str, float]:
+    return {"empirical.errors_h1": float(errors_h1), "empirical.horizons": float(horizons)}
 
 
 def conformal_offsets(errors: np.ndarray, level: int) -> tuple[float, float]:
