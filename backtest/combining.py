@@ -73,7 +73,7 @@ def _selected(spec: CombinationSpec, known: np.ndarray, seed: int,
         found = model_confidence_set(rows, names, size=SELECTION_SIZE, reps=SELECTION_REPS,
                                      seed=int(np.random.SeedSequence([seed, fold])
                                               .generate_state(1)[0]))
-    except ValueError:
+    except (ValueError, IndexError):  # arch fails on members with identical losses
         return everyone, float(len(rows))
     return [int(n) for n in found["included"]] or everyone, float(len(rows))
 

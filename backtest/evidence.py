@@ -15,7 +15,8 @@ Conventions (documented choices):
 - The model confidence set (Hansen, Lunde & Nason 2011) uses the same per-origin losses,
   over the origins every candidate completed, at size 0.10 (a 90 % set), 1,000 stationary
   bootstrap replications, seeded with the plan's seed. A candidate whose loss is undefined
-  at every origin (every fold failed; a CRPS of simulated intervals) is left out of it.
+  at every origin (every fold failed; a CRPS of simulated intervals) is left out of it;
+  candidates with identical losses enter it as one and share its verdict (``tied``).
 - ``calibration_zone``: the worst zone over the plan's levels at h = 1, where the
   one-step misses from successive origins do not overlap.
 """
@@ -157,15 +158,29 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) 
 def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
     names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
     undefined = [n for n in per_origin if n not in names]
-    if len(names) < 2:
-        return {"reason": "a confidence set needs at least two candidates with a loss"}
+    # candidates with identical losses (a model and the same model with empirical
+    # intervals, under a point score) enter the set as one, and share its verdict
+    groups: dict[bytes, list[str]] = {}
+    for n in names:
+        groups.setdefault(np.asarray(per_origin[n], float).tobytes(), []).append(n)
+    heads = [members[0] for members in groups.values()]
+    if len(heads) < 2:
+        return {"reason": "a confidence set needs at least two candidates with different "
+                          "losses"}
     power = 2 if loss == "squared" else 1
-    losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
+    losses = np.column_stack([np.abs(per_origin[n]) ** power for n in heads])
     try:
-        found = model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS,
+        found = model_confidence_set(losses, heads, size=MCS_SIZE, reps=MCS_REPS,
                                      seed=plan.seed)
     except ValueError as exc:
         return {"reason": str(exc)}
+    tied = {members[0]: members[1:] for members in groups.values() if len(members) > 1}
+    if tied:
+        found = {**found, "tied": tied,
+                 "included": [m for n in found["included"] for m in [n, *tied.get(n, [])]],
+                 "excluded": [m for n in found["excluded"] for m in [n, *tied.get(n, [])]],
+                 "p_values": {m: p for n, p in found["p_values"].items()
+                              for m in [n, *tied.get(n, [])]}}
     return {**found, "without_loss": undefined} if undefined else found
 
 

@@ -10,8 +10,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from backtest.candidates import parse_candidate
+from backtest.candidates import parse_candidate, parse_candidates
+from backtest.demo import demo_series
+from backtest.engine import run_backtest
 from backtest.errors import CandidateError
+from backtest.plan import parse_plan
 from backtest.recalibration import (
     EmpiricalIntervals,
     conformal_offsets,
@@ -126,3 +129,19 @@ def test_the_option_is_part_of_the_candidate_and_its_label():
 def test_bad_interval_options_are_refused(intervals, message):
     with pytest.raises(CandidateError, match=message):
         parse_candidate({"family": "benchmark", "method": "naive", "intervals": intervals})
+
+
+def test_a_model_and_its_recalibrated_twin_are_ranked_and_judged_side_by_side():
+    drift = {"family": "benchmark", "method": "drift"}
+    twin = {**drift, "intervals": {"kind": "empirical", "min_errors": 10}}
+    plan = parse_plan({"horizon": 2, "max_origins": 30, "levels": [80, 95]})
+    model, recalibrated = parse_candidates([drift, twin])
+    sr = run_backtest(demo_series()[4:5], [model, recalibrated], plan).series[0]
+    rows = {r.candidate_id: r for r in sr.ranking}
+    # the same point forecasts: the same MASE, one entry in the confidence set, one verdict
+    assert rows[model.id].score == rows[recalibrated.id].score
+    assert sr.evidence["confidence_set"]["tied"] == {model.id: [recalibrated.id]}
+    assert rows[model.id].in_confidence_set == rows[recalibrated.id].in_confidence_set
+    # but not the same intervals: calibration is reported for each
+    calibration = sr.evidence["calibration"]
+    assert calibration[model.id] != calibration[recalibrated.id]
