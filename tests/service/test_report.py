@@ -110,12 +110,16 @@ def test_every_chart_is_embedded(run, report):
 
 def _row(report, label):
     """The cells of the ranking table row whose candidate cell is ``label``."""
-    rows = re.findall(r"<tr>(.*?)</tr>", report)
-    for row in rows:
-        cells = re.findall(r"<td[^>]*>(.*?)</td>", row)
-        if len(cells) == 8 and cells[1] == label:
-            return cells
-    raise AssertionError(f"no ranking row for {label}")
+    found = [cells for cells in _cells(report) if len(cells) == 8 and cells[1] == label]
+    if not found:
+        raise AssertionError(f"no ranking row for {label}")
+    return found[0]
+
+
+def _cells(html_text):
+    """The data cells of every table row in ``html_text``."""
+    return [re.findall(r"<td[^>]*>(.*?)</td>", row)
+            for row in re.findall(r"<tr>(.*?)</tr>", html_text)]
 
 
 def test_ranking_rows_show_rank_score_skill_and_tests(run, report):
@@ -298,12 +302,11 @@ def test_a_run_with_more_series_than_are_detailed_opens_with_every_series(tmp_pa
 def _distribution_row(report, label):
     """The cells of the distribution-score table row whose candidate cell is ``label``."""
     table = report[report.index('class="distribution"'):]
-    table = table[:table.index("</table>")]
-    for row in re.findall(r"<tr>(.*?)</tr>", table):
-        cells = re.findall(r"<td[^>]*>(.*?)</td>", row)
-        if cells and cells[0] == label:
-            return cells
-    raise AssertionError(f"no distribution row for {label}")
+    found = [cells for cells in _cells(table[:table.index("</table>")])
+             if cells and cells[0] == label]
+    if not found:
+        raise AssertionError(f"no distribution row for {label}")
+    return found[0]
 
 
 def test_distribution_scores_of_every_candidate_are_reported(run, report):
