@@ -10,7 +10,8 @@ reason; warnings are captured per fold (those raised while forecasting a stretch
 parameters in one pass are recorded on each fold of the stretch). With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
-gets no fit summary, and a ``raw_optional`` family builds no results object for it. A
+gets no fit summary, and a ``raw_optional`` family builds no results object for it. With
+``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator. A
 candidate that asks for empirical intervals gets them last, from its own folds
 (:mod:`backtest.recalibration`). A combination runs each member over the origins (as a
 candidate of its own: the same seeds, so the same folds) and combines them per origin
@@ -95,6 +96,8 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
     options: dict = {"start_params": previous.params} if warm else {}
     if plan.assessment == "lean" and spec.raw_optional:
         options["keep_raw"] = False
+    if plan.estimator == "fast" and spec.fast_estimable:
+        options["estimator"] = "fast"
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
