@@ -35,6 +35,7 @@ from typing import Literal
 import numpy as np
 
 from backtest.errors import CandidateError
+from backtest.models.base import choice
 from backtest.results import FoldResult
 
 ERROR_KINDS = ("raw", "scaled")
@@ -71,11 +72,8 @@ def parse_intervals(body: object) -> EmpiricalIntervals | None:
     if isinstance(least, bool) or not isinstance(least, int) or not 5 <= least <= 10_000:
         raise CandidateError(f"intervals min_errors must be an integer from 5 to 10000; "
                              f"got {least!r}")
-    errors = body.get("errors", "raw")
-    if errors not in ERROR_KINDS:
-        raise CandidateError(f"intervals errors must be one of {', '.join(ERROR_KINDS)}; "
-                             f"got {errors!r}")
-    return EmpiricalIntervals(least, errors)
+    errors = choice(body.get("errors", "raw"), ERROR_KINDS, "intervals errors")
+    return EmpiricalIntervals(least, errors)  # type: ignore[arg-type]
 
 
 def known_errors(folds: Sequence[FoldResult], position: int, horizon: int, step: int,
