@@ -15,18 +15,26 @@ from dataclasses import dataclass
 
 from backtest.errors import CandidateError
 from backtest.models import FAMILIES, ModelSpec
+from backtest.recalibration import EmpiricalIntervals, parse_intervals
 
 
 @dataclass(frozen=True)
 class Candidate:
-    """A parsed candidate: its spec, canonical JSON text and stable id."""
+    """A parsed candidate: its spec, canonical JSON text and stable id.
+
+    ``intervals`` asks for empirical intervals (:mod:`backtest.recalibration`); the
+    canonical form names it only when given, so the ids of candidates that use their
+    model's own intervals do not depend on the option's existence.
+    """
 
     spec: ModelSpec
+    intervals: EmpiricalIntervals | None = None
 
     @property
     def canonical(self) -> dict:
         """The canonical spec, ``family`` included."""
-        return {"family": self.spec.family, **self.spec.body()}
+        extra = {} if self.intervals is None else {"intervals": self.intervals.canonical()}
+        return {"family": self.spec.family, **self.spec.body(), **extra}
 
     @property
     def canonical_json(self) -> str:
@@ -37,7 +45,8 @@ class Candidate:
         return "c" + hashlib.sha256(self.canonical_json.encode()).hexdigest()[:16]
 
     def label(self, season_length: int) -> str:
-        return self.spec.label(season_length)
+        suffix = "" if self.intervals is None else self.intervals.suffix()
+        return self.spec.label(season_length) + suffix
 
 
 def parse_candidate(body: object) -> Candidate:
@@ -48,7 +57,11 @@ def parse_candidate(body: object) -> Candidate:
     if family not in FAMILIES:
         raise CandidateError(f"candidate family {family!r} is unknown; "
                              f"use one of {', '.join(sorted(FAMILIES))}")
-    return Candidate(FAMILIES[family](body))
+    # a combination has no intervals of its own worth keeping: empirical by default
+    default = EmpiricalIntervals().canonical() if family == "combination" else "model"
+    intervals = parse_intervals(body.get("intervals", default))
+    return Candidate(FAMILIES[family]({k: v for k, v in body.items() if k != "intervals"}),
+                     intervals)
 
 
 def parse_candidates(bodies: Iterable[object]) -> tuple[Candidate, ...]:

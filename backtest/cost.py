@@ -8,7 +8,7 @@ The estimate is an upper bound built from the origins the engine would use
   assessment, and an order search may fit up to its ``max_models`` per estimation;
 - result rows written: per fold one fold row, ``horizon`` forecast rows and
   ``horizon x levels`` interval rows; per candidate its scores (every horizon and pooled,
-  each point metric and each level metric per level), one ranking and one candidate row;
+  each point and distribution metric and each level metric per level), one ranking and one candidate row;
   one unit row per series.
 """
 
@@ -21,7 +21,7 @@ from dataclasses import dataclass
 from backtest.candidates import Candidate
 from backtest.engine import planned_origins
 from backtest.plan import Plan
-from backtest.scoring import LEVEL_METRICS, POINT_METRICS
+from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from backtest.series import Series
 
 
@@ -48,7 +48,8 @@ def estimate_cost(series: Sequence[Series], candidates: Sequence[Candidate],
     """The cost of backtesting ``candidates`` on ``series`` under ``plan``; raises on bad
     input like the engine would."""
     levels, horizon = len(plan.levels), plan.horizon
-    per_candidate = (horizon + 1) * (len(POINT_METRICS) + levels * len(LEVEL_METRICS)) + 2
+    scores = len(POINT_METRICS) + len(DISTRIBUTION_METRICS) + levels * len(LEVEL_METRICS)
+    per_candidate = (horizon + 1) * scores + 2
     fits: Counter[str] = Counter()
     folds = rows = 0
     for pool, origins in planned_origins(series, candidates, plan):

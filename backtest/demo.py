@@ -25,7 +25,18 @@ DEMO_CANDIDATES: list[dict] = [
      "deterministic": "drift"},
     {"family": "ets", "error": "additive", "trend": "damped", "season": "additive"},
     {"family": "theta"},
+    # remedies: Theta with intervals from its own past errors, and a combination
+    {"family": "theta", "intervals": {"kind": "empirical", "min_errors": 12}},
+    {"family": "combination", "members": [
+        {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
+         "transform": "log"},
+        {"family": "ets", "error": "additive", "trend": "damped", "season": "additive"},
+        {"family": "theta"}]},
 ]
+RECALIBRATED = ((6, 7),)
+"""Positions in ``DEMO_CANDIDATES`` of a model and the same model with empirical intervals."""
+COMBINED = (8,)
+"""Positions in ``DEMO_CANDIDATES`` of combinations."""
 DEMO_PLAN: dict = {"horizon": 12, "max_origins": 24, "refit": 6, "levels": [80, 95],
                    "seed": 7}
 

@@ -18,6 +18,7 @@ from backtest.assessment import fit_report, summarise_folds
 from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.models.base import Estimator
+from backtest.models.combination import CombinationSpec
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.runner import run_candidate
@@ -37,6 +38,8 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
                        origins: Sequence[Origin]) -> CandidateOutcome:
     """Backtest one candidate on one series and diagnose its fits."""
     folds = run_candidate(series, candidate, plan, origins)
+    if isinstance(candidate.spec, CombinationSpec):  # its members' fits are theirs to assess
+        return CandidateOutcome(folds, None, None)
     stability = None
     if not candidate.spec.closed_form:
         refits = [f for f in folds if f.reestimated]

@@ -14,6 +14,7 @@ from backtest.folds import Origin, plan_origins
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.parallel import iter_tasks
 from backtest.plan import Plan
+from backtest.predictive import predictive_of
 from backtest.ranking import rank_candidates
 from backtest.results import BacktestResult, CandidateInfo, SeriesResult, to_jsonable
 from backtest.scoring import score_candidate
@@ -148,11 +149,12 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
     infos = tuple(CandidateInfo(c.id, c.label(m), c.canonical,
                                 added and c.id == benchmark.id) for c in pool)
     folds = tuple(f for o in outcomes for f in o.folds)
+    predictive = {c.id: predictive_of(c, plan.step) for c in pool}
     scores = tuple(s for c, o in zip(pool, outcomes)
                    for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels,
-                                            series.filled))
+                                            series.filled, predictive[c.id]))
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
-                                      benchmark.id, plan, series.filled)
+                                      benchmark.id, plan, predictive, series.filled)
     evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
     evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
     ranking = tuple(

@@ -10,10 +10,14 @@ Conventions (documented choices):
   when ranking over all horizons, on the per-origin mean loss over horizons, with H-1
   autocovariance lags for the overlap. Absolute loss for MASE, MAE and sMAPE rankings,
   squared loss for RMSE and RMSSE, absolute loss on each origin's root mean square for
-  ``rmsse_fold_mean`` (whose figure is the mean of those roots).
+  ``rmsse_fold_mean`` (whose figure is the mean of those roots). For the distribution
+  scores (CRPS, pinball, scaled pinball) the loss is the fold's CRPS, or its mean pinball
+  loss over the plan's quantiles, divided by the fold's MASE scale.
 - The model confidence set (Hansen, Lunde & Nason 2011) uses the same per-origin losses,
   over the origins every candidate completed, at size 0.10 (a 90 % set), 1,000 stationary
-  bootstrap replications, seeded with the plan's seed.
+  bootstrap replications, seeded with the plan's seed. A candidate whose loss is undefined
+  at every origin (every fold failed; a CRPS of simulated intervals) is left out of it;
+  candidates with identical losses enter it as one and share its verdict (``tied``).
 - ``calibration_zone``: the worst zone over the plan's levels at h = 1, where the
   one-step misses from successive origins do not overlap.
 - Candidates that make identical forecasts at every origin are listed in
@@ -41,6 +45,7 @@ from backtest.assessment import (
     pairwise,
 )
 from backtest.plan import Plan
+from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
 
 MCS_SIZE = 0.10
@@ -52,6 +57,7 @@ NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
 T = TypeVar("T")
 #: Scores averaged over origins of a per-origin root mean square (absolute loss on it).
 _ROOT_PER_ORIGIN = ("rmsse_fold_mean",)
+_DISTRIBUTION = ("crps", "pinball", "scaled_pinball")
 
 
 @dataclass(frozen=True)
@@ -85,8 +91,10 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
 
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
-                    plan: Plan, filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
-    """Calibration, comparisons and confidence set for one series' candidates.
+                    plan: Plan, predictive: Mapping[str, Predictive],
+                    filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
+    """Calibration, comparisons and confidence set for one series' candidates;
+    ``predictive`` gives each candidate's predictive form (for distribution scores).
 
     A step that fails (any exception) becomes ``None``, or a ``{"reason": ...}`` section,
     and ``unavailable`` names it with the reason: a failed statistic never stops the run.
@@ -108,8 +116,12 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
     loss = "squared" if plan.rank_by in _SQUARED else "absolute"
     reduce = "root" if plan.rank_by in _ROOT_PER_ORIGIN else loss
+    ranked = scaled
+    if plan.rank_by in _DISTRIBUTION:
+        ranked = {cid: _distribution_losses(folds, predictive[cid], plan)
+                  / arrays[cid]["scale"][:, None] for cid, folds in folds_by_candidate.items()}
     per_origin = {cid: _origin_losses(e, plan.rank_horizon, reduce)
-                  for cid, e in scaled.items()}
+                  for cid, e in ranked.items()}
     if len(arrays) < 2:
         comparison: dict = {"errors": "scaled by each fold's MASE scale", "benchmark": None,
                             "pairwise": None, "reason": NOTHING_TO_COMPARE}
@@ -160,6 +172,22 @@ def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
     return calibration_report(actual, lower, upper, plan.levels, origin_step=plan.step)
 
 
+def _distribution_losses(folds: Sequence[FoldResult], predictive: Predictive,
+                         plan: Plan) -> np.ndarray:
+    """Folds x horizons CRPS (or mean pinball loss) in origin order; NaN where a fold failed."""
+    ordered = sorted(folds, key=lambda f: f.fold)
+    out = np.full((len(ordered), plan.horizon), np.nan)
+    rows = [i for i, f in enumerate(ordered) if f.status == "ok"]
+    if not rows:
+        return out
+    if plan.rank_by == "crps":
+        out[rows] = crps_by_fold(ordered, predictive, plan.levels)[0]
+    else:
+        done = [ordered[i] for i in rows]
+        out[rows] = np.mean(list(pinball_by_level(done, plan.levels).values()), axis=0)
+    return out
+
+
 def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, reduce: str) -> np.ndarray:
     """One pseudo-error per origin whose loss is the ranking loss at that origin: over all
     horizons the root mean square for squared loss and for a per-origin root score
@@ -183,12 +211,15 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) 
 
 
 def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
-    names = list(per_origin)
+    names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
+    undefined = [n for n in per_origin if n not in names]
     if len(names) < 2:
-        return {"reason": NOTHING_TO_COMPARE}
+        return {"reason": NOTHING_TO_COMPARE, **({"without_loss": undefined} if undefined
+                                                 else {})}
     power = 2 if loss == "squared" else 1
     losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
-    return model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS, seed=plan.seed)
+    found = model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS, seed=plan.seed)
+    return {**found, "without_loss": undefined} if undefined else found
 
 
 def _h1_zone(report: list[dict]) -> str | None:

@@ -10,11 +10,19 @@ Definitions (each checked in tests against published worked values):
 - Interval (Winkler) score for a central (1 - a) interval [l, u]:
   (u - l) + 2/a (l - y) 1{y < l} + 2/a (y - u) 1{y > u} (Winkler 1972; Gneiting & Raftery
   2007). MSIS divides its mean by the seasonal MASE scale (M4).
+- Pinball (quantile) loss of a quantile forecast q at probability tau:
+  (y - q)(tau - 1{y < q}) (Koenker & Bassett 1978; Gneiting & Raftery 2007, eq. 24).
+- CRPS of a predictive distribution F: integral of (F(x) - 1{x >= y})^2 dx (Matheson &
+  Winkler 1976; Gneiting & Raftery 2007, eq. 20), equal to twice the pinball loss
+  integrated over tau in (0, 1) (Laio & Tamea 2007). Closed form for a normal
+  (Gneiting & Raftery 2007, eq. 5); for a sample, the CRPS of its empirical distribution,
+  E|X - y| - E|X - X'| / 2 (Gneiting & Raftery 2007, eq. 21).
 """
 
 from __future__ import annotations
 
 import numpy as np
+from scipy import stats
 
 
 def mase_scale(train: np.ndarray, m: int = 1) -> float:
@@ -78,3 +86,41 @@ def msis(lower: np.ndarray, upper: np.ndarray, actual: np.ndarray, train: np.nda
          m: int, level: float = 95) -> float:
     """Mean scaled interval score of one forecast path (M4 uses level 95)."""
     return float(np.mean(interval_score(lower, upper, actual, level)) / mase_scale(train, m))
+
+
+def pinball(quantile: np.ndarray, actual: np.ndarray, tau: float) -> np.ndarray:
+    """Per-point pinball loss of the ``tau``-quantile forecast ``quantile``."""
+    diff = np.asarray(actual, float) - np.asarray(quantile, float)
+    return diff * (tau - (diff < 0))
+
+
+def crps_normal(mean: np.ndarray, sd: np.ndarray, actual: np.ndarray) -> np.ndarray:
+    """Per-point CRPS of N(mean, sd^2); ``sd`` = 0 gives the absolute error, a NaN ``sd``
+    NaN."""
+    mean, sd, actual = (np.asarray(a, float) for a in (mean, sd, actual))
+    safe = np.where(sd > 0, sd, 1.0)
+    z = (actual - mean) / safe
+    spread = safe * (z * (2.0 * stats.norm.cdf(z) - 1.0) + 2.0 * stats.norm.pdf(z)
+                     - 1.0 / np.sqrt(np.pi))
+    return np.where(sd > 0, spread, np.where(sd == 0, np.abs(actual - mean), np.nan))
+
+
+def crps_quantiles(quantiles: np.ndarray, actual: np.ndarray) -> np.ndarray:
+    """CRPS from a quantile function on the midpoint grid ``tau_k = (k - 1/2) / K``.
+
+    ``quantiles[..., k]`` is the ``tau_k``-quantile (last axis, K of them); the CRPS is
+    2 * integral of the pinball loss over tau, by the midpoint rule.
+    """
+    quantiles = np.asarray(quantiles, float)
+    k = quantiles.shape[-1]
+    taus = (np.arange(k) + 0.5) / k
+    losses = pinball(quantiles, np.asarray(actual, float)[..., None], taus)  # type: ignore[arg-type]
+    return 2.0 * np.mean(losses, axis=-1)
+
+
+def crps_sample(sample: np.ndarray, actual: float) -> float:
+    """CRPS of the empirical distribution of ``sample`` (exact, O(n log n))."""
+    x = np.sort(np.asarray(sample, float))
+    n = len(x)
+    spread = 2.0 * np.sum((2.0 * np.arange(1, n + 1) - n - 1) * x) / n**2
+    return float(np.mean(np.abs(x - actual)) - spread / 2.0)

@@ -50,7 +50,8 @@ from typing import Literal
 from backtest.errors import PlanError
 from backtest.models.base import ESTIMATORS, Estimator
 
-RANK_SCORES = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse")
+RANK_SCORES = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "crps", "pinball",
+               "scaled_pinball")
 """Scores a plan may rank by (lower is better); defined in :mod:`backtest.scoring`."""
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")

@@ -14,7 +14,11 @@ carries only what its own origin raised. With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
 gets no fit summary, and a ``raw_optional`` family builds no results object for it. With
-``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator.
+``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator. A
+candidate that asks for empirical intervals gets them last, from its own folds
+(:mod:`backtest.recalibration`). A combination runs each member over the origins (as a
+candidate of its own: the same seeds, so the same folds) and combines them per origin
+(:mod:`backtest.combining`).
 """
 
 from __future__ import annotations
@@ -28,11 +32,14 @@ from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
 from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
+from backtest.combining import combine_folds
 from backtest.folds import Origin
 from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models import Fit, Forecast, ModelSpec
 from backtest.models.base import back_transform
+from backtest.models.combination import CombinationSpec
 from backtest.plan import Plan
+from backtest.recalibration import recalibrate
 from backtest.results import FoldResult
 from backtest.series import Series
 
@@ -46,6 +53,20 @@ def fold_seed(plan_seed: int, series_key: str, candidate_id: str, fold: int) -> 
 def run_candidate(series: Series, candidate: Candidate, plan: Plan,
                   origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """Forecast every origin of ``series`` with ``candidate``."""
+    spec = candidate.spec
+    if isinstance(spec, CombinationSpec):
+        members = [_model_folds(series, Candidate(s), plan, origins) for s in spec.members]
+        folds = combine_folds(candidate.id, spec, members, plan.levels, plan.seed)
+    else:
+        folds = _model_folds(series, candidate, plan, origins)
+    if candidate.intervals is None:
+        return folds
+    return recalibrate(folds, candidate.intervals, plan.levels, plan.step)
+
+
+def _model_folds(series: Series, candidate: Candidate, plan: Plan,
+                 origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
+    """The folds with the model's own intervals."""
     z = candidate.spec.transform.forward(np.asarray(series.values, dtype=float))
     if candidate.spec.closed_form:
         return _closed_form_folds(series, candidate, plan, z, origins)

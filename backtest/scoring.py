@@ -19,6 +19,13 @@ seasonal difference, shorter than 2 no one-step difference), a zero one (a const
 window), sMAPE's 0/0. A score with no defined point is ``None``.
 Periods a fill policy made up (never observed) are not actuals: they are left out of every
 score, and the note counts them.
+
+Distribution scores (level ``None``): ``crps`` in the series' units, from the candidate's
+predictive distribution (:mod:`backtest.predictive`); ``pinball``, the mean pinball loss
+over every quantile the plan's interval bounds give (two per level), also per level; and
+``scaled_pinball``, that mean divided by each fold's MASE scale. The M5 competition's
+scaled pinball loss divided by the one-step naive scale instead (Makridakis et al. 2022);
+the two agree for non-seasonal series.
 """
 
 from __future__ import annotations
@@ -28,27 +35,35 @@ from collections.abc import Collection, Sequence
 import numpy as np
 
 from backtest import metrics
+from backtest.predictive import GAUSSIAN, Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult, Score
 
 POINT_METRICS = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "me")
-LEVEL_METRICS = ("coverage", "winkler", "msis")
+DISTRIBUTION_METRICS = ("crps", "pinball", "scaled_pinball")
+LEVEL_METRICS = ("coverage", "winkler", "msis", "pinball")
 #: Scores whose count is of folds, not of points.
 FOLD_COUNTED = ("rmsse_fold_mean",)
 _SHORT_SEASONAL = "training window shorter than m + 1: no seasonal difference"
 
 
 def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int,
-                    levels: Sequence[int], filled: Collection[str] = ()) -> list[Score]:
+                    levels: Sequence[int], filled: Collection[str] = (),
+                    predictive: Predictive = GAUSSIAN) -> list[Score]:
     """All scores of one candidate; ``folds`` may include failed ones (they are skipped).
 
     Target periods in ``filled`` (made by a fill policy, never observed) are not actuals:
-    they are left out of every score, which counts them in its ``note``."""
+    they are left out of every score, which counts them in its ``note``. ``predictive``
+    says what distribution the folds' bounds come from (default: Gaussian on the original
+    scale)."""
     done = [f for f in folds if f.status == "ok"]
     columns: list[int | None] = [*range(1, horizon + 1), None]
     if not done:
         return [Score(candidate_id, h, name, level, None, 0, "no fold completed")
                 for h in columns for name, level in _names(levels)]
     arrays = _stack(done, levels, frozenset(filled))
+    arrays["crps"], crps_note = crps_by_fold(done, predictive, levels)
+    for level, losses in pinball_by_level(done, levels).items():
+        arrays[f"pinball{level}"] = losses
     out = []
     for h in columns:
         cols = slice(None) if h is None else slice(h - 1, h)
@@ -61,13 +76,15 @@ def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int
                            np.nan)
         out.extend(_point_scores(candidate_id, h, points, unfilled, squared,
                                  arrays["scale_sq"][:, 0]))
+        out.extend(_distribution_scores(candidate_id, h, points, levels, crps_note, unfilled))
         for level in levels:
             out.extend(_level_scores(candidate_id, h, points, level, unfilled))
     return out
 
 
 def _names(levels: Sequence[int]) -> list[tuple[str, int | None]]:
-    return [(m, None) for m in POINT_METRICS] + [(m, lv) for lv in levels for m in LEVEL_METRICS]
+    return ([(m, None) for m in (*POINT_METRICS, *DISTRIBUTION_METRICS)]
+            + [(m, lv) for lv in levels for m in LEVEL_METRICS])
 
 
 def _stack(folds: Sequence[FoldResult], levels: Sequence[int],
@@ -159,6 +176,34 @@ def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray], unfilled: s
     ]
 
 
+def _distribution_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
+                         levels: Sequence[int], crps_note: str | None,
+                         unfilled: str | None) -> list[Score]:
+    crps = a["crps"]
+    if not crps.size:
+        return [Score(cid, h, name, None, None, 0, _joined(unfilled, "undefined: no observed "
+                                                                    "actual"))
+                for name in DISTRIBUTION_METRICS]
+    defined = np.isfinite(crps)
+    note = None
+    if not defined.all():
+        note = (f"{int((~defined).sum())} point(s) left out: {crps_note}" if defined.any()
+                else crps_note)
+    pinball = np.mean([a[f"pinball{level}"] for level in levels], axis=0)
+    finite = np.isfinite(pinball)
+    pinball_note = None if finite.all() else "undefined: an interval bound is infinite"
+    scaled, n_scaled, scaled_note = _scaled_mean(pinball, a["scale"], _SHORT_SEASONAL)
+    if not finite.all():
+        scaled, scaled_note = None, pinball_note
+    return [
+        Score(cid, h, "crps", None, float(np.mean(crps[defined])) if defined.any() else None,
+              int(defined.sum()), _joined(unfilled, note)),
+        Score(cid, h, "pinball", None, float(np.mean(pinball)) if finite.all() else None,
+              pinball.size, _joined(unfilled, pinball_note)),
+        Score(cid, h, "scaled_pinball", None, scaled, n_scaled, _joined(unfilled, scaled_note)),
+    ]
+
+
 def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], level: int,
                   unfilled: str | None) -> list[Score]:
     actual = a["actual"]
@@ -175,8 +220,11 @@ def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], level: int,
     msis, n_msis, msis_note = _scaled_mean(scores, a["scale"], _SHORT_SEASONAL)
     if not finite.all():
         msis, msis_note = None, winkler_note
+    pinball = a[f"pinball{level}"]
     return [
         Score(cid, h, "coverage", level, coverage, actual.size, unfilled),
         Score(cid, h, "winkler", level, winkler, actual.size, _joined(unfilled, winkler_note)),
         Score(cid, h, "msis", level, msis, n_msis, _joined(unfilled, msis_note)),
+        Score(cid, h, "pinball", level, float(np.mean(pinball)) if finite.all() else None,
+              pinball.size, _joined(unfilled, winkler_note)),
     ]

@@ -3,7 +3,8 @@
 The candidate is the series' current champion unless one is named; either way it must
 have been backtested on the series by a succeeded run, whose stored spec is the one
 fitted. The fit runs outside any transaction; the record is written in one. Identical
-inputs (version, candidate, horizon, levels, seed) return the forecast issued before.
+inputs (version, candidate, horizon, levels, seed) return the forecast issued before. A
+candidate with empirical intervals takes them from that run's folds.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.candidates import Candidate, parse_candidate
 from backtest.ledger import issue_forecast
+from backtest.results import FoldResult
 from backtest.series import Series
 from service.backtest_lookup import latest_backtest
 from service.errors import FieldError, InvalidInputError
@@ -42,6 +44,7 @@ class _Inputs:
     version_id: int
     series: Series
     candidate: Candidate
+    folds: tuple[FoldResult, ...]
 
 
 def issue(sessions: sessionmaker[Session], request: IssueRequest, *,
@@ -50,7 +53,8 @@ def issue(sessions: sessionmaker[Session], request: IssueRequest, *,
     with sessions.begin() as session:
         inputs = _inputs(session, request)
     forecast = issue_forecast(inputs.series, inputs.candidate, horizon=request.horizon,
-                              levels=request.levels, seed=request.seed)
+                              levels=request.levels, seed=request.seed,
+                              backtest_folds=inputs.folds)
 
     def record(session: Session) -> tuple[IssuedRecord, bool]:
         return record_issued_forecast(session, series_version_id=inputs.version_id,
@@ -76,8 +80,9 @@ def _inputs(session: Session, request: IssueRequest) -> _Inputs:
         raise _invalid("/candidate_id", f"candidate {candidate_id} has not been backtested on "
                        f"series {key!r} by a succeeded run; forecasts are issued only for "
                        "backtested candidates")
+    folds = tuple(f for f in backtested.result.folds if f.candidate_id == candidate_id)
     return _Inputs(version.id, load_series(session, version.id),
-                   parse_candidate(backtested.candidate.spec))
+                   parse_candidate(backtested.candidate.spec), folds)
 
 
 def _champion_id(session: Session, series_key: str) -> str:

@@ -23,7 +23,8 @@ from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord
 
 RANKABLE = (*RANK_SCORES, "winkler", "msis")
 """Metrics where lower is better: the plan's rankable scores, and the interval scores
-``winkler`` and ``msis``, which need an interval level."""
+``winkler`` and ``msis``, which need an interval level; ``pinball`` takes one (one level's
+two quantiles) or none (every quantile of the plan)."""
 
 
 @translates_errors

@@ -6,6 +6,12 @@ scale exactly as in the backtest engine (:func:`backtest.models.base.back_transf
 The record keeps what is needed to score it later without the data: the MASE and RMSSE
 denominators of the issuing version, its fingerprint, the parameters and the software
 versions. Library warnings raised while fitting are kept in ``warnings``.
+
+A candidate with empirical intervals is issued with bounds from its backtest errors
+(:func:`backtest.recalibration.issued_bounds`): at each horizon, the errors of every
+backtest fold whose target period the issuing version holds; its parameters then record
+``empirical.errors_h1`` and ``empirical.horizons`` (0: the model's own bounds were issued
+at every horizon), and its spec names the intervals.
 """
 
 from __future__ import annotations
@@ -24,7 +30,8 @@ from backtest.errors import CandidateError
 from backtest.ledger.errors import LedgerError
 from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models.base import back_transform
-from backtest.results import to_jsonable
+from backtest.recalibration import issued_bounds
+from backtest.results import FoldResult, to_jsonable
 from backtest.series import Series
 from backtest.software import software_versions
 
@@ -91,8 +98,12 @@ class IssuedForecast:
 
 
 def issue_forecast(series: Series, candidate: Candidate, *, horizon: int,
-                   levels: tuple[int, ...] = (80, 95), seed: int = 0) -> IssuedForecast:
+                   levels: tuple[int, ...] = (80, 95), seed: int = 0,
+                   backtest_folds: Sequence[FoldResult] = ()) -> IssuedForecast:
     """Fit ``candidate`` on all of ``series`` and forecast ``horizon`` steps ahead.
+
+    ``backtest_folds`` (the candidate's folds in a backtest of the series) are needed
+    when the candidate asks for empirical intervals, and used only then.
 
     Raises :class:`LedgerError` for a bad horizon or level, a candidate impossible for the
     series (too short, non-positive data under a transform, a seasonal part without a
@@ -118,13 +129,23 @@ def issue_forecast(series: Series, candidate: Candidate, *, horizon: int,
             raise LedgerError(f"{candidate.label(m)} could not be fitted to series "
                               f"{series.key!r}: {type(exc).__name__}: {exc}") from exc
     n = len(series)
+    lower = {lv: _floats(forecast.lower[lv]) for lv in levels}
+    upper = {lv: _floats(forecast.upper[lv]) for lv in levels}
+    params = {k: float(v) for k, v in fit.params.items()}
+    if candidate.intervals is not None:
+        if not backtest_folds:
+            raise LedgerError(f"{candidate.label(m)} issues empirical intervals, which need "
+                              "its backtest folds on the series")
+        lower, upper, marks = issued_bounds(
+            _floats(forecast.mean), lower, upper, backtest_folds, candidate.intervals, scale,
+            lambda period: series.index_of(period) < n)
+        params.update(marks)
     return IssuedForecast(
         series_key=series.key, fingerprint=series.fingerprint(), candidate_id=candidate.id,
         candidate_spec=candidate.canonical, label=candidate.label(m), season_length=m,
         origin=series.label(n - 1), periods=tuple(series.label(n + i) for i in range(horizon)),
-        point=_floats(forecast.mean), lower={lv: _floats(forecast.lower[lv]) for lv in levels},
-        upper={lv: _floats(forecast.upper[lv]) for lv in levels}, levels=levels, seed=seed,
-        params={k: float(v) for k, v in fit.params.items()}, scale=scale, scale_sq=scale_sq,
+        point=_floats(forecast.mean), lower=lower, upper=upper, levels=levels, seed=seed,
+        params=params, scale=scale, scale_sq=scale_sq,
         software=software_versions(), warnings=_messages(caught))
 
 

@@ -2,7 +2,7 @@
 
 from collections.abc import Callable, Mapping
 
-from backtest.models import arima, arima_search, benchmarks, ets, theta
+from backtest.models import arima, arima_search, benchmarks, combination, ets, theta
 from backtest.models.base import Fit, Forecast, ModelSpec, Params
 
 FAMILIES: dict[str, Callable[[Mapping], ModelSpec]] = {
@@ -11,6 +11,7 @@ FAMILIES: dict[str, Callable[[Mapping], ModelSpec]] = {
     "ets": ets.parse,
     "theta": theta.parse,
     "benchmark": benchmarks.parse,
+    "combination": combination.parse,
 }
 
 __all__ = ["FAMILIES", "Fit", "Forecast", "ModelSpec", "Params"]

@@ -135,6 +135,13 @@ class ModelSpec(ABC):
         """Whether the data must be strictly positive."""
         return self.transform.needs_positive
 
+    @property
+    def gaussian(self) -> bool:
+        """Whether the forecast is Gaussian on the transformed scale: the point forecast its
+        mean and the bounds mean +/- z * sd (probabilistic scores rely on it). Families
+        whose intervals are simulated say no."""
+        return True
+
 
 def back_transform(transform: Transform, forecast: Forecast) -> Forecast:
     """``forecast`` made on the ``transform``-ed scale, back on the original scale.

@@ -78,6 +78,11 @@ class EtsSpec(ModelSpec):
         multiplicative = "multiplicative" in (self.error, self.season)
         return multiplicative or self.transform.needs_positive
 
+    @property
+    def gaussian(self) -> bool:
+        """Only the linear classes (additive error and season) have Gaussian forecasts."""
+        return self.error == "additive" and self.season != "multiplicative"
+
     def check(self, season_length: int) -> None:
         if self.season != "none" and self.season_period(season_length) < 2:
             raise CandidateError(f"{self.label(season_length)}: a seasonal component needs a "

@@ -38,6 +38,9 @@ METRIC_AXES = {
     "coverage": MetricAxis("coverage", "percent", 100.0),
     "winkler": MetricAxis("interval score", "series"),
     "msis": MetricAxis("MSIS", "none"),
+    "crps": MetricAxis("CRPS", "series"),
+    "pinball": MetricAxis("pinball loss", "series"),
+    "scaled_pinball": MetricAxis("scaled pinball loss", "none"),
 }
 
 

@@ -10,6 +10,7 @@ from backtest.series import Series
 from service.report.calibration import calibration_section
 from service.report.cautions import cautions
 from service.report.diagnostics import diagnostics_section, has_residual_chart
+from service.report.distribution import distribution_section
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join
 from service.report.overview import overview_section
@@ -81,6 +82,7 @@ def _series_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbe
     return Html('<section class="series">\n' + join([
         heading, about,
         ranking_section(sr, plan, charts, unit=unit, series=series),
+        distribution_section(sr),
         calibration_section(sr, charts, charted),
         diagnostics_section(sr, charts, charted, residuals=residuals, unit=unit),
         problems_section(sr),

@@ -6,7 +6,7 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 
-from backtest.scoring import LEVEL_METRICS, POINT_METRICS
+from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flat_rows import flat_columns, flat_rows
@@ -42,7 +42,7 @@ router = APIRouter(prefix="/v1", tags=["history"])
 Auditor = Annotated[Caller, Depends(require("audit"))]
 ERRORS = (401, 403, 422, 500, 503)
 SeriesKeyParam = Annotated[str, Query(min_length=1, max_length=200)]
-ScoreMetric = Literal[POINT_METRICS + LEVEL_METRICS]  # type: ignore[valid-type]
+ScoreMetric = Literal[POINT_METRICS + DISTRIBUTION_METRICS + LEVEL_METRICS]  # type: ignore[valid-type]
 
 
 @router.get("/history/scores", response_model=ScoreHistoryOut,

@@ -30,6 +30,7 @@ router = APIRouter(prefix="/v1", tags=["rankings"])
 Reader = Annotated[Caller, Depends(require("read"))]
 Metric = Literal[RANKABLE]  # type: ignore[valid-type]
 LEVEL_METRICS = ("winkler", "msis")
+LEVEL_OPTIONAL = ("pinball",)
 
 
 @router.get("/rankings", response_model=RankingPage,
@@ -39,7 +40,8 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
              cache: Rankings, tag: TagFilter, output: FormatParam = None,
              metric: Metric = "mase", horizon: PooledByDefault = "pooled",
              level: Annotated[int | None, Query(ge=1, le=99,
-                                                description="for winkler and msis")] = None,
+                                                description="for winkler and msis; "
+                                                            "pinball takes one or none")] = None,
              prefix: Annotated[str | None, Query(max_length=200)] = None,
              as_of: AsOfParam = None, limit: Limit = 1000, offset: Offset = 0) -> Any:
     """For each series, its candidates ranked on its latest successful run (finished by
@@ -64,6 +66,8 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
 
 
 def _check_level(metric: str, level: int | None) -> None:
+    if metric in LEVEL_OPTIONAL:
+        return
     if (metric in LEVEL_METRICS) != (level is not None):
         message = (f"{metric} is scored per interval level: give level" if level is None
                    else f"{metric} has no interval level: leave level out")

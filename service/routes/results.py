@@ -11,7 +11,7 @@ from typing import Annotated, Any, Literal
 from fastapi import APIRouter, Depends, Query, Request, Response
 from pydantic import BaseModel
 
-from backtest.scoring import LEVEL_METRICS, POINT_METRICS
+from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flatten import flatten
@@ -51,7 +51,7 @@ from storage.runs import get_run
 router = APIRouter(prefix="/v1/runs/{run_id}", tags=["results"])
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 404, 406, 422, 500, 503)
-ScoreMetricFilter = Annotated[Literal[POINT_METRICS + LEVEL_METRICS] | None,  # type: ignore[valid-type]
+ScoreMetricFilter = Annotated[Literal[POINT_METRICS + DISTRIBUTION_METRICS + LEVEL_METRICS] | None,  # type: ignore[valid-type]
                               Query(description="one score's name")]
 SeriesKeyFilter = Annotated[str | None, Query(max_length=200, description="one series")]
 CandidateFilter = Annotated[str | None, Query(max_length=17, description="one candidate id")]

@@ -29,6 +29,15 @@ SPECS = [
     {"family": "benchmark", "method": "drift"},
     {"family": "benchmark", "method": "mean"},
     {"family": "arima_search", "max_order": {"p": 1, "q": 1, "P": 1, "Q": 1}},
+    {"family": "benchmark", "method": "drift", "intervals": {"kind": "empirical",
+                                                             "min_errors": 5}},
+    {"family": "arima", "order": [1, 0, 0], "deterministic": "constant",
+     "intervals": {"kind": "empirical", "min_errors": 5, "errors": "scaled"}},
+    {"family": "combination", "rule": "median", "intervals": {"kind": "empirical",
+                                                              "min_errors": 5},
+     "members": [{"family": "theta", "transform": "log"},
+                 {"family": "benchmark", "method": "naive"},
+                 {"family": "ets", "error": "additive", "trend": "damped"}]},
 ]
 N, M = 36, 4
 BASE = 50 + 0.8 * np.arange(N) + 6 * np.sin(np.arange(N) * np.pi / 2)

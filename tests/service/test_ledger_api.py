@@ -300,3 +300,23 @@ def test_the_flag_table_pages_by_series_and_the_pages_add_up_to_the_whole(any_ap
     assert "prefix=costs" in costs.json()["next"] and "offset=1" in costs.json()["next"]
     assert {r["series_key"] for r in csv.DictReader(io.StringIO(csv_page.text))} == {"costs/a"}
     assert csv_page.headers["Link"].startswith("</v1/monitoring?")
+
+
+def test_a_candidate_with_empirical_intervals_is_issued_with_them(any_api: Api):
+    empirical = {**CANDIDATES[0], "intervals": {"kind": "empirical", "min_errors": 5}}
+    candidate = parse_candidate(empirical)
+    assert any_api.post_series(SERIES).status_code == 201
+    run = any_api.submit([SERIES.key], candidates=[empirical],
+                         plan={"horizon": 3, "max_origins": 12})
+    result = any_api.complete(run.json()["id"])
+    folds = [f for f in result.series[0].folds if f.candidate_id == candidate.id]
+
+    created = _issue(any_api, candidate_id=candidate.id, levels=[80])
+    expected = issue_forecast(SERIES, candidate, horizon=3, levels=(80,), backtest_folds=folds)
+    own = issue_forecast(SERIES, parse_candidate(CANDIDATES[0]), horizon=3, levels=(80,))
+    body = created.json()
+    assert created.status_code == 201, body
+    assert [s["upper"]["80"] for s in body["steps"]] == pytest.approx(list(expected.upper[80]))
+    assert expected.upper[80] != own.upper[80]
+    assert body["params"]["empirical.horizons"] == 3  # the record says what was issued
+    assert body["candidate_spec"]["intervals"]["kind"] == "empirical"

@@ -188,8 +188,9 @@ def costly(tmp_path: Path) -> Iterator[Api]:
 
 def test_a_run_over_the_row_estimate_is_refused_with_estimate_and_limit(costly: Api):
     # naive, drift and the seasonal-naive benchmark, 10 origins: 30 folds. Rows: 30 x
-    # (1 + 6 x (1 + 3)) fold rows + 1 unit + 3 x ((6 + 1) x (6 + 3 x 3) + 2) per-candidate
-    # rows = 750 + 1 + 321 = 1,072; horizon 12 and 3 levels: 1,470 + 1 + 3 x 197 = 2,062.
+    # (1 + 6 x (1 + 3)) fold rows + 1 unit + 3 x ((6 + 1) x (7 + 3 + 3 x 4) + 2) per-candidate
+    # rows (7 point, 3 distribution and 4 level scores) = 750 + 1 + 468 = 1,219; horizon 12
+    # and 3 levels: 1,470 + 1 + 3 x 288 = 2,335.
     within = costly.submit(["a"], plan={"horizon": 6, "max_origins": 10, "levels": [50, 80, 95]})
     response = costly.submit(["a"], plan={"horizon": 12, "max_origins": 10,
                                           "levels": [50, 80, 95]})
@@ -197,9 +198,9 @@ def test_a_run_over_the_row_estimate_is_refused_with_estimate_and_limit(costly: 
     assert within.status_code == 202
     problem = response.json()
     assert response.status_code == 422 and problem["code"] == "limit_exceeded"
-    assert problem["estimate"]["rows"] == 2_062 and problem["limit"]["rows"] == 2_000
+    assert problem["estimate"]["rows"] == 2_335 and problem["limit"]["rows"] == 2_000
     assert problem["estimate"]["folds"] == 30
-    assert "2062 result rows" in problem["detail"] and "FOLDLINE_MAX_RUN_ROWS" in problem["detail"]
+    assert "2335 result rows" in problem["detail"] and "FOLDLINE_MAX_RUN_ROWS" in problem["detail"]
     assert costly.get("reader", "/v1/runs/2").status_code == 404
 
 

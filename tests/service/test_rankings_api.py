@@ -74,6 +74,10 @@ def _reference(api: Api, key: str, **score) -> list[tuple]:
     ("metric=mae", {"metric": "mae"}),
     ("metric=rmse&horizon=2", {"metric": "rmse", "horizon": 2}),
     ("metric=winkler&horizon=1&level=80", {"metric": "winkler", "horizon": 1, "level": 80}),
+    ("metric=crps", {"metric": "crps"}),
+    ("metric=scaled_pinball&horizon=2", {"metric": "scaled_pinball", "horizon": 2}),
+    ("metric=pinball&level=80", {"metric": "pinball", "level": 80}),
+    ("metric=pinball", {"metric": "pinball"}),
 ])
 def test_each_series_is_ranked_on_its_latest_successful_run(ranked: Api, query, score):
     items = ranked.get("reader", f"/v1/rankings?{query}").json()["items"]
@@ -124,7 +128,8 @@ def test_the_ranking_as_csv_is_a_flat_table(ranked: Api):
 
 
 @pytest.mark.parametrize("query", ["metric=winkler", "metric=mase&level=80",
-                                   "metric=coverage", "horizon=0"])
+                                   "metric=coverage", "horizon=0",
+                                   "metric=crps&level=80"])
 def test_a_score_that_cannot_rank_is_refused(api: Api, query):
     response = api.get("reader", f"/v1/rankings?{query}")
 

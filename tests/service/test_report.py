@@ -3,6 +3,7 @@ the ``foldline report`` command on a real store."""
 
 import dataclasses
 import re
+from html import unescape
 from html.parser import HTMLParser
 
 import numpy as np
@@ -109,12 +110,16 @@ def test_every_chart_is_embedded(run, report):
 
 def _row(report, label):
     """The cells of the ranking table row whose candidate cell is ``label``."""
-    rows = re.findall(r"<tr>(.*?)</tr>", report)
-    for row in rows:
-        cells = re.findall(r"<td[^>]*>(.*?)</td>", row)
-        if len(cells) == 9 and cells[1] == label:
-            return cells
-    raise AssertionError(f"no ranking row for {label}")
+    found = [cells for cells in _cells(report) if len(cells) == 9 and cells[1] == label]
+    if not found:
+        raise AssertionError(f"no ranking row for {label}")
+    return found[0]
+
+
+def _cells(html_text):
+    """The data cells of every table row in ``html_text``."""
+    return [re.findall(r"<td[^>]*>(.*?)</td>", row)
+            for row in re.findall(r"<tr>(.*?)</tr>", html_text)]
 
 
 def test_ranking_rows_show_rank_score_ratio_to_benchmark_and_tests(run, report):
@@ -300,3 +305,46 @@ def test_a_run_with_more_series_than_are_detailed_opens_with_every_series(tmp_pa
     # Provenance still names every version the run used, detailed or not.
     assert all(v["fingerprint"] in html for v in small.run_meta["versions"])
     assert len(small.run_meta["versions"]) == 3
+
+
+def _distribution_row(report, label):
+    """The cells of the distribution-score table row whose candidate cell is ``label``."""
+    table = report[report.index('class="distribution"'):]
+    found = [cells for cells in _cells(table[:table.index("</table>")])
+             if cells and cells[0] == label]
+    if not found:
+        raise AssertionError(f"no distribution row for {label}")
+    return found[0]
+
+
+def test_distribution_scores_of_every_candidate_are_reported(run, report):
+    result, _ = run
+    sr = result.series[0]
+    section = report[report.index(f"Series {sr.series['key']}"):]
+    pooled = {(s.candidate_id, s.metric): s.value for s in sr.scores
+              if s.horizon is None and s.level is None}
+    for r in sr.ranking:
+        cells = _distribution_row(section, r.label)
+        assert unescape(cells[1]) == "the model's"
+        assert cells[2:5] == [f"{pooled[r.candidate_id, m]:.3f}"
+                              for m in ("crps", "pinball", "scaled_pinball")]
+
+
+def test_a_run_with_a_combination_and_empirical_intervals_reports():
+    series = demo_series()[:1]
+    plan = parse_plan({"horizon": 2, "max_origins": 24, "seed": 1})
+    naive = {"family": "benchmark", "method": "naive"}
+    candidates = parse_candidates([
+        {**naive, "intervals": {"kind": "empirical", "min_errors": 10, "errors": "scaled"}},
+        {"family": "combination", "members": [naive, {"family": "benchmark",
+                                                      "method": "drift"}]}])
+    result = run_backtest(series, candidates, plan)
+    html = render_run_report(result, META)
+    labels = {c.candidate_id: c.label for c in result.series[0].candidates}
+    assert _distribution_row(html, labels[candidates[0].id])[1] == \
+        "empirical (scaled errors, at least 10)"
+    assert _distribution_row(html, labels[candidates[1].id])[1] == \
+        "empirical (raw errors, at least 20)"
+    parser = _Nesting()
+    parser.feed(html)
+    assert parser.problems == [] and parser.open == []
