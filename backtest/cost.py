@@ -8,8 +8,8 @@ The estimate is an upper bound built from the origins the engine would use
   assessment, and an order search may fit up to its ``max_models`` per estimation;
 - result rows written: per fold one fold row, ``horizon`` forecast rows and
   ``horizon x levels`` interval rows; per candidate its scores (every horizon and pooled,
-  each point and distribution metric and each level metric per level), one ranking and one candidate row;
-  one unit row per series.
+  each point and distribution metric, and each level metric per level), one ranking and
+  one candidate row; one unit row per series.
 """
 
 from __future__ import annotations
