@@ -114,10 +114,11 @@ def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candida
 def _with_benchmark(candidates: Sequence[Candidate], plan: Plan, season_length: int
                     ) -> tuple[list[Candidate], Candidate]:
     """The candidates of one series and its benchmark: the plan's benchmark, or a candidate
-    that forecasts the same (with m = 1 seasonal naive is naive), added if none does."""
+    that forecasts the same with the model's own intervals (with m = 1 seasonal naive is
+    naive), added if none does."""
     method = _benchmark_method(plan.benchmark, season_length)
     pool = list(candidates)
-    same = [c for c in pool if isinstance(c.spec, BenchmarkSpec)
+    same = [c for c in pool if isinstance(c.spec, BenchmarkSpec) and c.intervals is None
             and _benchmark_method(c.spec.method, season_length) == method]
     exact = [c for c in same if c.spec.method == plan.benchmark]
     if exact or same:
@@ -162,7 +163,9 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                 beats_benchmark=None if row.is_benchmark
                 else notes[row.candidate_id].beats_benchmark,
                 calibration_zone=notes[row.candidate_id].calibration_zone)
-        for row in rank_candidates(infos, scores, folds, benchmark.id, plan.rank_by,
-                                   plan.rank_horizon, plan.horizon))
+        for row in rank_candidates(
+            infos, scores, folds, benchmark.id, plan.rank_by, plan.rank_horizon, plan.horizon,
+            lambda cid, subset: score_candidate(cid, subset, plan.horizon, plan.levels,
+                                                series.filled, predictive[cid])))
     return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
                         to_jsonable(evidence))

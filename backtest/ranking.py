@@ -19,17 +19,24 @@ order never depends on input order.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 from backtest.results import CandidateInfo, FoldResult, RankRow, Score
 from backtest.scoring import FOLD_COUNTED, score_candidate
 
+Rescore = Callable[[str, list[FoldResult]], list[Score]]
+
 
 def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score],
                     folds: Sequence[FoldResult], benchmark_id: str, rank_by: str,
-                    rank_horizon: int | None, horizon: int) -> tuple[RankRow, ...]:
+                    rank_horizon: int | None, horizon: int,
+                    rescore: Rescore | None = None) -> tuple[RankRow, ...]:
     """Rank ``candidates`` by ``rank_by`` at ``rank_horizon`` (``None``: pooled over the
-    plan's ``horizon`` steps) on the origins every ranked candidate completed."""
+    plan's ``horizon`` steps) on the origins every ranked candidate completed.
+
+    ``rescore(candidate_id, folds)`` scores a candidate on a subset of its folds the way
+    its own scores were computed (levels, filled periods, predictive form); by default
+    with point scores alone."""
     own = {s.candidate_id: s for s in scores
            if s.metric == rank_by and s.horizon == rank_horizon and s.level is None}
     done = {c.candidate_id: {f.fold for f in folds
@@ -38,8 +45,9 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
     ranked = [c.candidate_id for c in candidates
               if own.get(c.candidate_id) is not None and own[c.candidate_id].value is not None]
     common = set.intersection(*(done[cid] for cid in ranked)) if ranked else set()
+    rescore = rescore or (lambda cid, subset: score_candidate(cid, subset, horizon, ()))
     common_score = {cid: _on_common(cid, own[cid], folds, common, done[cid], rank_by,
-                                    rank_horizon, horizon) for cid in ranked}
+                                    rank_horizon, rescore) for cid in ranked}
     value = {cid: s.value for cid, s in common_score.items()}
     reference = value.get(benchmark_id)
     ordered = sorted(candidates, key=lambda c: (value.get(c.candidate_id) is None,
@@ -67,11 +75,12 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
 
 
 def _on_common(cid: str, own: Score, folds: Sequence[FoldResult], common: set[int],
-               done: set[int], rank_by: str, rank_horizon: int | None, horizon: int) -> Score:
+               done: set[int], rank_by: str, rank_horizon: int | None,
+               rescore: Rescore) -> Score:
     """The candidate's ranking score over the common origins (its own score when those are
     all its completed folds)."""
     if common == done:
         return own
     subset = [f for f in folds if f.candidate_id == cid and f.fold in common]
-    return next(s for s in score_candidate(cid, subset, horizon, ())
-                if s.metric == rank_by and s.horizon == rank_horizon)
+    return next(s for s in rescore(cid, subset)
+                if s.metric == rank_by and s.horizon == rank_horizon and s.level is None)

@@ -44,6 +44,7 @@ LEVEL_METRICS = ("coverage", "winkler", "msis", "pinball")
 #: Scores whose count is of folds, not of points.
 FOLD_COUNTED = ("rmsse_fold_mean",)
 _SHORT_SEASONAL = "training window shorter than m + 1: no seasonal difference"
+NO_LEVELS = "undefined: the plan has no interval level to give the predictive spread"
 
 
 def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int,
@@ -61,7 +62,11 @@ def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int
         return [Score(candidate_id, h, name, level, None, 0, "no fold completed")
                 for h in columns for name, level in _names(levels)]
     arrays = _stack(done, levels, frozenset(filled))
-    arrays["crps"], crps_note = crps_by_fold(done, predictive, levels)
+    if levels:
+        arrays["crps"], crps_note = crps_by_fold(done, predictive, levels)
+    else:
+        arrays["crps"] = np.full(arrays["actual"].shape, np.nan)
+        crps_note = NO_LEVELS
     for level, losses in pinball_by_level(done, levels).items():
         arrays[f"pinball{level}"] = losses
     out = []
@@ -189,6 +194,10 @@ def _distribution_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
     if not defined.all():
         note = (f"{int((~defined).sum())} point(s) left out: {crps_note}" if defined.any()
                 else crps_note)
+    if not levels:
+        return [Score(cid, h, "crps", None, None, 0, _joined(unfilled, NO_LEVELS)),
+                *(Score(cid, h, name, None, None, 0, _joined(unfilled, NO_LEVELS))
+                  for name in ("pinball", "scaled_pinball"))]
     pinball = np.mean([a[f"pinball{level}"] for level in levels], axis=0)
     finite = np.isfinite(pinball)
     pinball_note = None if finite.all() else "undefined: an interval bound is infinite"
