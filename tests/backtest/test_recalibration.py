@@ -140,7 +140,7 @@ def test_a_model_and_its_recalibrated_twin_are_ranked_and_judged_side_by_side():
     rows = {r.candidate_id: r for r in sr.ranking}
     # the same point forecasts: the same MASE, one entry in the confidence set, one verdict
     assert rows[model.id].score == rows[recalibrated.id].score
-    assert sr.evidence["confidence_set"]["tied"] == {model.id: [recalibrated.id]}
+    assert sr.evidence["confidence_set"]["ties"] == [[model.id, recalibrated.id]]
     assert rows[model.id].in_confidence_set == rows[recalibrated.id].in_confidence_set
     # but not the same intervals: calibration is reported for each
     calibration = sr.evidence["calibration"]
