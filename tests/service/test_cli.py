@@ -36,7 +36,7 @@ def test_backtest_prints_rankings_and_writes_tidy_tables(inputs):
                 str(inputs / "candidates.json"), "--plan", str(inputs / "plan.json"),
                 "--out", str(out))
     assert done.returncode == 0, done.stderr
-    assert "sales/fresh-produce" in done.stdout and "Theta[12]" in done.stdout
+    assert "sales/fresh-produce" in done.stdout and "Theta, season 12 if tested" in done.stdout
     with (out / "folds.csv").open() as handle:
         folds = list(csv.DictReader(handle))
     assert len(folds) == 2 * 3 * 4 * 3  # series x candidates (with benchmark) x origins x h
