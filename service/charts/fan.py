@@ -80,10 +80,11 @@ def fan_chart(forecast: ForecastBands, history_periods: Sequence[str],
         ax.fill_between(ahead_x, forecast.lower[level], forecast.upper[level],
                         facecolor="none", edgecolor=BAND_EDGE, linestyle=style,
                         linewidth=1.0, label=f"{level} % interval")
-        for bound, va in ((forecast.upper[level], "bottom"), (forecast.lower[level], "top")):
+        for side, bound, va in (("upper", forecast.upper[level], "bottom"),
+                                ("lower", forecast.lower[level], "top")):
             ax.annotate(f"{level} %", (ahead_x[-1], bound[-1]), xytext=(4, 0),
                         textcoords="offset points", ha="left", va=va, fontsize=7.5,
-                        color=BAND_EDGE, gid=f"level-label-{level}"
+                        color=BAND_EDGE, gid=f"level-label-{level}-{side}"
                         ).set_in_layout(False)  # inside the axes: keeps the layout stable
     ax.plot(history_x, np.asarray(history_values, dtype=float)[:cut], color=HISTORY_COLOR,
             linewidth=1.3, label="history")

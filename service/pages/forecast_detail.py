@@ -4,13 +4,15 @@ every outcome set (one per later version with actuals), and a fan chart."""
 from __future__ import annotations
 
 from backtest.ledger import Outcome, realised_mase
+from backtest.parameter_names import seasonal_period
 from service.charts.fan import fan_chart
 from service.charts.render import DRAWING
 from service.pages.forecast_view import ForecastView, ScoredSet
 from service.pages.layout import series_href
 from service.pages.ledger_section import embed_figure
 from service.report.html import Html, element, join, link, table
-from service.report.numbers import MISSING, fixed
+from service.report.numbers import MISSING, fixed, interval
+from service.report.parameters import parameter_cell
 from service.report.provenance import shown
 
 SETS_HEADER = ["scored against version", "scored", "periods observed", "realised MASE",
@@ -32,8 +34,9 @@ def forecast_detail(view: ForecastView) -> Html:
         _facts(view), element("h2", "Forecast and actuals"), _steps(view, latest), chart,
         element("h2", "Outcomes by version"), _sets(view),
         element("h2", "Parameters"),
-        table(["parameter", "estimate"], [(k, fixed(v, 6)) for k, v in f.params.items()],
-              numeric=(1,)),
+        table(["parameter", "estimate"],
+              [(parameter_cell(k, seasonal_period(f.candidate_spec, f.season_length)),
+                fixed(v, 6)) for k, v in f.params.items()], numeric=(1,)),
         element("h2", "Warnings while fitting"),
         join([element("p", w) for w in f.warnings]) if f.warnings else element("p", "None."),
     ])
@@ -61,14 +64,13 @@ def _steps(view: ForecastView, latest: ScoredSet | None) -> Html:
     f = view.record.forecast
     by_period: dict[str, Outcome] = ({o.period: o for o in latest.outcomes.outcomes}
                                      if latest else {})
-    header = ["step", "period", "point",
-              *[f"{level} % {side}" for level in f.levels for side in ("lower", "upper")],
+    header = ["step", "period", "point", *[f"{level} % interval" for level in f.levels],
               "actual", "error", "scaled error", "inside"]
     rows = []
     for step, period in enumerate(f.periods):
         outcome = by_period.get(period)
-        bounds = [fixed(b[step]) for level in f.levels for b in (f.lower[level],
-                                                                  f.upper[level])]
+        bounds = [interval(level, f.lower[level][step], f.upper[level][step], 3)
+                  for level in f.levels]
         observed = ([fixed(outcome.actual), fixed(outcome.error), fixed(outcome.scaled_error),
                      ", ".join(f"{level} %: {'yes' if outcome.hits[level] else 'no'}"
                                for level in f.levels)]
@@ -77,7 +79,7 @@ def _steps(view: ForecastView, latest: ScoredSet | None) -> Html:
     note = (f"Actuals and errors from version {latest.version}, the newest scored; the error "
             "is actual minus point, the scaled error divides it by the MASE scale."
             if latest else "No period of this forecast has been observed yet.")
-    numeric = tuple(range(2, 3 + 2 * len(f.levels) + 3))
+    numeric = tuple(range(2, 3 + len(f.levels) + 3))
     return join([element("p", note, cls="note"), table(header, rows, numeric=numeric)])
 
 

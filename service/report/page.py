@@ -24,6 +24,7 @@ p { margin: 1mm 0 2mm; }
 .lede { color: var(--muted); margin-bottom: 4mm; }
 .mono { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 8.5pt;
         overflow-wrap: anywhere; }
+.mono.lib { color: var(--muted); font-size: 7.5pt; }
 table { border-collapse: collapse; width: 100%; margin: 1.5mm 0 3mm; font-size: 8.5pt;
         break-inside: auto; }
 th, td { border-bottom: 1px solid var(--rule); padding: 0.8mm 1.6mm; text-align: left;

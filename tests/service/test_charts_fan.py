@@ -86,7 +86,8 @@ def test_bands_are_outlined_neutral_and_named_at_the_right_edge(drawn):
     for level in (80, 95):
         faces = bands[f"{level} % interval"].get_facecolor()
         assert len(faces) == 0 or faces[0][3] == 0  # outline only
-        names = [t for t in ax.texts if t.get_gid() == f"level-label-{level}"]
+        names = [t for t in ax.texts if t.get_gid() in (f"level-label-{level}-upper",
+                                                        f"level-label-{level}-lower")]
         assert [t.get_text() for t in names] == [f"{level} %"] * 2
         last = _line(fig, "point forecast").get_xdata()[-1]
         assert {t.xy for t in names} == {(last, fold.upper[level][-1]),

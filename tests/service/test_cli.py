@@ -39,8 +39,8 @@ def test_backtest_prints_rankings_and_writes_tidy_tables(inputs):
     assert "sales/fresh-produce" in done.stdout and "Theta, season 12 if tested" in done.stdout
     with (out / "folds.csv").open() as handle:
         folds = list(csv.DictReader(handle))
-    assert len(folds) == 2 * 3 * 4 * 3  # series x candidates (with benchmark) x origins x h
-    assert {"lower_80", "upper_95", "actual", "point"} <= set(folds[0])
+    assert len(folds) == 2 * 3 * 4 * 3 * 2  # series x candidates x origins x h x levels
+    assert {"level", "lower", "upper", "actual", "point"} <= set(folds[0])
     with (out / "scores.csv").open() as handle:
         scores = list(csv.DictReader(handle))
     assert {r["metric"] for r in scores} >= {"mase", "rmsse", "smape", "coverage", "msis"}

@@ -14,6 +14,7 @@ import pytest
 from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.ledger import realised_mase, score_outcomes
+from backtest.parameter_names import readable
 from backtest.series import Series, make_series
 from service.monitoring import monitor_series
 from service.pages import ledger_view
@@ -242,11 +243,13 @@ def test_a_forecast_page_shows_each_step_beside_its_actual_and_every_outcome_set
         cells = _cells(first, str(step + 1))
         actual = float(actuals.values[actuals.labels().index(period)])
         assert cells[1:3] == [period, fixed(f.point[step])]
-        assert cells[3:5] == [fixed(f.lower[80][step]), fixed(f.upper[80][step])]
-        assert cells[7:9] == [fixed(actual), fixed(actual - f.point[step])]
+        assert cells[3:5] == [  # one cell per level, e.g. "80 %: 187.500 – 201.000"
+            f"{level} %: {fixed(f.lower[level][step])} – {fixed(f.upper[level][step])}"
+            for level in (80, 95)]
+        assert cells[5:7] == [fixed(actual), fixed(actual - f.point[step])]
     earlier, newest = view.sets
     assert earlier.version < newest.version == version.number
-    assert _cells(second, "1")[7] == fixed(corrected[36])  # steps use the newest set
+    assert _cells(second, "1")[5] == fixed(corrected[36])  # steps use the newest set
     expected = [fixed(realised_mase(s.outcomes.outcomes)) for s in view.sets]
     assert [_cells(second, str(s.version))[3] for s in view.sets] == expected
     assert "<svg" in second and 'id="forecast-fan-' in second
@@ -258,5 +261,7 @@ def test_a_forecast_not_yet_observed_says_so(sessions):
         page = forecast_detail(load_forecast_page(session, newest.forecast_id))
     assert page.count("not yet observed") == len(newest.forecast.periods)
     assert "No outcomes yet" in page
-    for name, value in newest.forecast.params.items():
-        assert f"<td>{html.escape(name)}</td><td class=\"num\">{value:.6f}</td>" in page
+    for name, value in newest.forecast.params.items():  # readable name, then the library's
+        shown = readable(name, 12)
+        assert (f'<td>{html.escape(shown)} <span class="mono lib">{html.escape(name)}</span>'
+                f'</td><td class="num">{value:.6f}</td>') in page
