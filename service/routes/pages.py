@@ -109,12 +109,16 @@ def series_page(key: str, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
 
 
 @router.get("/forecasts/{forecast_id}")
-def forecast_page(forecast_id: Id, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
+def forecast_page(forecast_id: Id, caller: Reviewer, sessions: Sessions,
+                  history: Annotated[int | None, Query(ge=0, le=100_000)] = None
+                  ) -> HTMLResponse:
     """An issued forecast: what it was fitted on, its steps beside the actuals, every outcome
-    set and a fan chart."""
+    set and a fan chart with ``history`` periods before the origin (default: in proportion
+    to the horizon; 0: all)."""
     with sessions.begin() as session:
         view = load_forecast_page(session, forecast_id)
-    return _page(reviewer_page(f"Forecast {forecast_id}", caller, forecast_detail(view)))
+    return _page(reviewer_page(f"Forecast {forecast_id}", caller,
+                               forecast_detail(view, history)))
 
 
 @router.get("/runs/{run_id}")

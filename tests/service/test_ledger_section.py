@@ -18,7 +18,7 @@ from backtest.parameter_names import readable
 from backtest.series import Series, make_series
 from service.monitoring import monitor_series
 from service.pages import ledger_view
-from service.pages.forecast_detail import forecast_detail
+from service.pages.forecast_detail import forecast_detail, history_window
 from service.pages.forecast_view import load_forecast_page
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
@@ -265,3 +265,16 @@ def test_a_forecast_not_yet_observed_says_so(sessions):
         shown = readable(name, 12)
         assert (f'<td>{html.escape(shown)} <span class="mono lib">{html.escape(name)}</span>'
                 f'</td><td class="num">{value:.6f}</td>') in page
+
+
+def test_the_forecast_chart_shows_history_in_proportion_to_the_horizon(sessions):
+    with sessions() as session:
+        view = load_forecast_page(session, load_ledger(session, KEY).issued[0].record.forecast_id)
+    f = view.record.forecast
+    available = view.history.labels().index(f.origin) + 1
+    default = history_window(len(f.periods), f.season_length)
+    assert default == max(4 * len(f.periods), 12) < available
+    assert f"The last {default} periods of history" in forecast_detail(view)
+    assert f"The last {available} periods of history" in forecast_detail(view, 0)
+    assert "The last 5 periods of history" in forecast_detail(view, 5)
+    assert f'href="/pages/forecasts/{view.record.forecast_id}?history=0"' in forecast_detail(view)
