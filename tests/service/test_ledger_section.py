@@ -22,8 +22,9 @@ from service.pages.forecast_detail import forecast_detail, history_window
 from service.pages.forecast_view import load_forecast_page
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
+from service.pages.series_list import STATES, monitoring_state, series_list
 from service.report.numbers import fixed
-from storage.champions import choose_champion
+from storage.champions import choose_champion, current_champion
 from storage.engine import make_engine, session_factory
 from storage.outcomes import record_outcomes
 from storage.series_store import load_series, save_series_version
@@ -278,3 +279,16 @@ def test_the_forecast_chart_shows_history_in_proportion_to_the_horizon(sessions)
     assert f"The last {available} periods of history" in forecast_detail(view, 0)
     assert "The last 5 periods of history" in forecast_detail(view, 5)
     assert f'href="/pages/forecasts/{view.record.forecast_id}?history=0"' in forecast_detail(view)
+
+
+def test_the_series_list_shows_the_champions_monitoring_state(sessions):
+    with sessions() as session:
+        flags = monitor_series(session, KEY).report.flags
+        state = monitoring_state(session, KEY, current_champion(session, KEY))
+        listed = series_list(session, state=state)
+        others = [series_list(session, state=s) for s in STATES if s != state]
+    expected = ("raised" if any(f.raised for f in flags) else
+                "not enough data" if all(f.p_value is None for f in flags) else "clear")
+    assert state == expected
+    assert f'<a href="/pages/series/{KEY}">' in listed
+    assert not any(f'<a href="/pages/series/{KEY}">' in page for page in others)
