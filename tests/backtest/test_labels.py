@@ -8,6 +8,7 @@ import pytest
 from backtest.candidates import parse_candidates
 from backtest.errors import CandidateError
 from backtest.models import FAMILIES
+from tests.conftest import BRACKETED_LABEL
 
 #: A bracketed seasonal period such as ``[12]``: not Foldline's notation.
 BRACKETED_PERIOD = re.compile(r"\[\d+\]")
@@ -113,3 +114,10 @@ def test_labels_have_no_bracketed_period_and_fit_a_column(m):
         {"family": "arima_search", "transform": "log"},
         {"family": "benchmark", "method": "seasonal_naive"}])]
     assert max(len(label) for label in common) <= 40, common
+
+
+def test_the_output_check_recognises_bracketed_labels():
+    """The pattern the demo and page tests grep for finds the old notation, not ours."""
+    old = ["ARIMA(0,1,1)(0,1,1)[12] log", "Theta[4]", "Seasonal naive[12]", "ARIMA search[12]"]
+    assert all(BRACKETED_LABEL.search(label) for label in old)
+    assert not any(BRACKETED_LABEL.search(_label(body)) for body in _variants())

@@ -21,6 +21,7 @@ import httpx
 import pytest
 
 from service.demo import _free_port, running_server
+from tests.conftest import BRACKETED_LABEL
 from tests.e2e.serving import bearer_client, cli, wait_for_run
 from tests.service.conftest import series_body
 from tests.storage.builders import monthly_series
@@ -36,8 +37,6 @@ CANDIDATES = [{"family": "benchmark", "method": "naive"},
 PLAN = {"horizon": 3, "max_origins": 4}
 A4_POINTS = (595.28, 841.89)  # 210 mm x 297 mm; Chromium rounds to whole pixels
 WIDTH = 1400
-#: A model label with its period in square brackets: not Foldline's notation.
-BRACKETED_LABEL = re.compile(r"(\)|Theta|naive|search)\[\d+\]")
 
 pytestmark = pytest.mark.skipif(not CHROMIUM.exists() and os.environ.get("CI") != "true",
                                 reason="no Chromium at /usr/bin/chromium (CI installs it)")

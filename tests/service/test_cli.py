@@ -9,6 +9,7 @@ from pathlib import Path
 import pytest
 
 from backtest.demo import demo_series
+from tests.conftest import BRACKETED_LABEL
 
 FOLDLINE = [sys.executable, "-m", "service.cli"]
 
@@ -100,3 +101,10 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     flagged = [line.split()[0] for line in done.stdout.splitlines() if "RAISED:" in line
                and line.split()[0].count("/") == 1]
     assert flagged == ["costs/cold-storage-energy"]
+    # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
+    outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
+                                         for path in (tmp_path / "demo").iterdir()
+                                         if path.suffix in (".csv", ".html", ".json", ".txt")}}
+    assert "Seasonal naive, season 12" in outputs["report.html"]
+    assert {name: BRACKETED_LABEL.findall(text) for name, text in outputs.items()
+            if BRACKETED_LABEL.search(text)} == {}
