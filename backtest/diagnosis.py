@@ -16,6 +16,7 @@ import numpy as np
 from backtest.assessment import fit_report, summarise_folds
 from backtest.candidates import Candidate
 from backtest.folds import Origin
+from backtest.models.base import Estimator
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.runner import run_candidate
@@ -40,8 +41,8 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
         refits = [f for f in folds if f.reestimated]
         stability = summarise_folds([f.fit_summary for f in refits],
                                     [_estimates(f) for f in refits])
-    diagnostics = (full_series_diagnostics(series, candidate) if plan.assessment == "full"
-                   else None)
+    diagnostics = (full_series_diagnostics(series, candidate, plan.estimator)
+                   if plan.assessment == "full" else None)
     return CandidateOutcome(folds, diagnostics, stability)
 
 
@@ -52,8 +53,10 @@ def _estimates(fold: FoldResult) -> dict | None:
     return fold.params
 
 
-def full_series_diagnostics(series: Series, candidate: Candidate) -> dict[str, Any]:
-    """Fit the candidate to every observation and report coefficients and residual tests.
+def full_series_diagnostics(series: Series, candidate: Candidate,
+                            estimator: Estimator = "reference") -> dict[str, Any]:
+    """Fit the candidate to every observation and report coefficients and residual tests;
+    ``estimator`` as in the plan (for ``fast_estimable`` families).
 
     This describes the model as it would be used today; it is not a forecast evaluation,
     so using all the data involves no look-ahead.
@@ -63,7 +66,8 @@ def full_series_diagnostics(series: Series, candidate: Candidate) -> dict[str, A
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            fit = spec.fit(z, m)
+            fit = (spec.fit(z, m, estimator=estimator) if spec.fast_estimable
+                   else spec.fit(z, m))
         except Exception as exc:  # a model that cannot be fitted is reported, not raised
             return {"error": f"{type(exc).__name__}: {exc}"}
     fit_warnings = [f"{w.category.__name__}: {w.message}" for w in caught]

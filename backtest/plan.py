@@ -7,6 +7,7 @@ JSON form (every field optional except ``horizon``)::
      "step": 1, "max_origins": 24,
      "window": "expanding" | {"kind": "sliding", "length": 60},
      "refit": 1 | 6 | "once", "warm_start": false, "assessment": "full" | "lean",
+     "estimator": "reference" | "fast",
      "levels": [80, 95], "seed": 0,
      "benchmark": "seasonal_naive", "rank_by": "mase", "rank_horizon": null}
 
@@ -26,6 +27,13 @@ construction, is not built either) and the diagnostics of the fit to the full se
 more fit). Forecasts, scores, calibration, comparisons, the confidence set and the ranking are
 those of ``"full"`` (the default); folds then carry no ``fit_summary``, the series'
 ``diagnostics`` are ``None`` per candidate and ``stability`` keeps only parameter paths.
+
+``estimator`` says how the ARIMA families (``arima``, ``arima_search``) estimate at a
+re-estimating origin: ``"reference"`` with statsmodels' own optimiser, ``"fast"`` with the
+compiled exact likelihood (:mod:`backtest.models.fast_arima`, same likelihood, same or
+better optimum). Forecasts come from the same statsmodels model either way. Folds
+estimated under ``"fast"`` record ``estimator`` among their parameters (1 fast, 0 when the
+fast estimator failed and the reference took over, with the reason among the warnings).
 """
 
 from __future__ import annotations
@@ -35,12 +43,13 @@ from dataclasses import dataclass
 from typing import Literal
 
 from backtest.errors import PlanError
+from backtest.models.base import ESTIMATORS, Estimator
 
 RANK_SCORES = ("mase", "rmsse", "smape", "mae", "rmse")
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
 _FIELDS = {"horizon", "first_origin", "step", "max_origins", "window", "refit", "warm_start",
-           "assessment", "levels", "seed", "benchmark", "rank_by", "rank_horizon"}
+           "assessment", "estimator", "levels", "seed", "benchmark", "rank_by", "rank_horizon"}
 
 
 @dataclass(frozen=True)
@@ -62,6 +71,7 @@ class Plan:
     rank_horizon: int | None = None
     warm_start: bool = False
     assessment: Literal["full", "lean"] = "full"
+    estimator: Estimator = "reference"
 
     def reestimates_at(self, origin_number: int) -> bool:
         """Whether parameters are re-estimated at the ``origin_number``-th origin (0-based)."""
@@ -78,6 +88,7 @@ class Plan:
         return {"horizon": self.horizon, "first_origin": first, "step": self.step,
                 "max_origins": self.max_origins, "window": window, "refit": self.refit,
                 "warm_start": self.warm_start, "assessment": self.assessment,
+                "estimator": self.estimator,
                 "levels": list(self.levels), "seed": self.seed,
                 "benchmark": self.benchmark, "rank_by": self.rank_by,
                 "rank_horizon": self.rank_horizon}
@@ -103,6 +114,10 @@ def parse_plan(body: object) -> Plan:
     if assessment not in ASSESSMENTS:
         raise PlanError(f"plan assessment must be one of {', '.join(ASSESSMENTS)}, "
                         f"got {assessment!r}")
+    estimator = body.get("estimator", "reference")
+    if estimator not in ESTIMATORS:
+        raise PlanError(f"plan estimator must be one of {', '.join(ESTIMATORS)}, "
+                        f"got {estimator!r}")
     levels = _levels(body.get("levels", [80, 95]))
     seed = body.get("seed", 0)
     if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**31:
@@ -121,7 +136,7 @@ def parse_plan(body: object) -> Plan:
     return Plan(horizon, first_size, first_period, _positive(body.get("step", 1), "step"),
                 _positive(body.get("max_origins"), "max_origins", optional=True),
                 window, length, refit, levels, seed, benchmark, rank_by, rank_horizon,
-                warm_start, assessment)
+                warm_start, assessment, estimator)
 
 
 def _positive(value: object, name: str, *, required: bool = False,

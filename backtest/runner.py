@@ -10,7 +10,8 @@ reason; warnings are captured per fold (those raised while forecasting a stretch
 parameters in one pass are recorded on each fold of the stretch). With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
-gets no fit summary, and a ``raw_optional`` family builds no results object for it.
+gets no fit summary, and a ``raw_optional`` family builds no results object for it. With
+``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator.
 """
 
 from __future__ import annotations
@@ -74,6 +75,8 @@ def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndar
     options: dict = {"start_params": previous.params} if warm else {}
     if plan.assessment == "lean" and spec.raw_optional:
         options["keep_raw"] = False
+    if plan.estimator == "fast" and spec.fast_estimable:
+        options["estimator"] = "fast"
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:

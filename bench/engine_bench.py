@@ -2,7 +2,8 @@
 
 Part "engine" runs, in this one process, the hand loop and the engine on the same data:
 
-A. log Series G with the airline model ARIMA(0,1,1)×(0,1,1), season 12 (REFERENCES.md section 6);
+A. log Series G (Box & Jenkins 1976, ``tests/data/series_g.csv``) with the airline model
+   ARIMA(0,1,1)×(0,1,1), season 12;
 B. a generated panel of monthly series with three candidates: the airline model (log),
    ARIMA(1,0,0)×(0,1,1), season 12, with drift (log) and ETS(A,A,A), season 12.
 
@@ -78,7 +79,7 @@ from backtest.series import Series, make_series  # noqa: E402
 HORIZON = 12
 LEVELS = (80, 95)
 CADENCES: tuple[int | str, ...] = (1, 12, "once")
-SERIES_G = Path(__file__).resolve().parents[2] / "shared" / "data" / "series_g.csv"
+SERIES_G = Path(__file__).resolve().parents[1] / "tests" / "data" / "series_g.csv"
 AIRLINE = {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
            "transform": "log"}
 PANEL = [AIRLINE,

@@ -12,7 +12,7 @@ from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from typing import Any
 
-from fastapi import FastAPI
+from fastapi import Depends, FastAPI
 from fastapi.exceptions import RequestValidationError
 from fastapi.openapi.utils import get_openapi
 from starlette.exceptions import HTTPException
@@ -23,10 +23,12 @@ from service.body_limit import BodyLimitMiddleware
 from service.errors import ServiceError
 from service.metrics import MetricsMiddleware, RequestMetrics
 from service.problems import MEDIA_TYPE, problem_response
+from service.query_check import reject_unknown_query
 from service.ranking_cache import RankingCache
 from service.request_guard import NulGuardMiddleware
 from service.routes import (
     champions,
+    dossier,
     forecasts,
     history,
     keys,
@@ -50,11 +52,11 @@ RFC 9457 problem details (`application/problem+json`). Tables are JSON, or CSV w
 `Accept: text/csv` or `?format=csv`; lists are paged with `limit` and `offset` and name the
 next page in `next` and a `Link` header.
 """
-# champions and monitoring first: their /series/{key}/... paths would otherwise be read as
-# series keys by GET /series/{key}
-ROUTERS = tuple(module.router for module in (champions, monitoring, series, runs, results,
-                                            reports, rankings, history, keys, operations,
-                                            forecasts))
+# champions, monitoring and dossier first: their /series/{key}/... paths would otherwise be
+# read as series keys by GET /series/{key}
+ROUTERS = tuple(module.router for module in (champions, monitoring, dossier, series, runs,
+                                            results, reports, rankings, history, keys,
+                                            operations, forecasts))
 ERROR_FAMILIES = (BacktestError, StorageError, ServiceError, RequestValidationError,
                   HTTPException, Exception)
 
@@ -77,7 +79,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.request_metrics = RequestMetrics()
     app.state.ranking_cache = RankingCache()
     for router in ROUTERS:
-        app.include_router(router)
+        app.include_router(router, dependencies=[Depends(reject_unknown_query)])
     app.include_router(pages.router)  # HTML for reviewers, not part of the API
     for family in ERROR_FAMILIES:
         app.add_exception_handler(family, problem_response)

@@ -29,6 +29,7 @@ from backtest.tidy import (
 from service import (
     cli_champion,
     cli_db,
+    cli_dossier,
     cli_forecast,
     cli_keys,
     cli_monitor,
@@ -126,6 +127,7 @@ def build_parser() -> argparse.ArgumentParser:
     cli_report.register(commands)
     cli_keys.register(commands)
     cli_champion.register(commands)
+    cli_dossier.register(commands)
     cli_forecast.register(commands)
     cli_monitor.register(commands)
     return parser

@@ -1,4 +1,4 @@
-"""Command-line subcommands for the store: ``db upgrade`` and ``audit verify``.
+"""Command-line subcommands for the store: ``db upgrade``, ``db bi-reader`` and ``audit verify``.
 
 :func:`register` adds them to the main parser's subparsers; each sets ``handler`` to a
 function ``handler(args) -> int`` returning the exit code: 0 done, 1 the audit found a
@@ -12,6 +12,7 @@ import sys
 
 from sqlalchemy.engine import make_url
 
+from storage.bi_views import BI_VIEWS, grant_bi_reader
 from storage.engine import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 from storage.migrate import upgrade
@@ -25,6 +26,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     upgrade_parser = db_commands.add_parser("upgrade", help="apply the schema migrations")
     _add_url_option(upgrade_parser)
     upgrade_parser.set_defaults(handler=db_upgrade)
+    reader_parser = db_commands.add_parser(
+        "bi-reader", help="let a PostgreSQL role read the BI views and nothing else")
+    reader_parser.add_argument("role", metavar="ROLE", help="created without login if missing")
+    _add_url_option(reader_parser)
+    reader_parser.set_defaults(handler=db_bi_reader)
 
     audit = subparsers.add_parser("audit", help="check the audit trail")
     audit_commands = audit.add_subparsers(dest="audit_command", required=True,
@@ -43,6 +49,24 @@ def db_upgrade(args: argparse.Namespace) -> int:
     except StorageError as exc:
         return _error(exc)
     print(f"database {_shown(url)} is at the latest schema")
+    return 0
+
+
+def db_bi_reader(args: argparse.Namespace) -> int:
+    """Grant a role SELECT on the BI views (PostgreSQL); print what was done."""
+    url = args.database_url or database_url()
+    try:
+        engine = make_engine(url)
+        try:
+            with session_factory(engine).begin() as session:
+                created = grant_bi_reader(session, args.role)
+        finally:
+            engine.dispose()
+    except StorageError as exc:
+        return _error(exc)
+    done = "created without login; it" if created else "already existed; it"
+    print(f"role {args.role} {done} may read {', '.join(BI_VIEWS)} in {_shown(url)} and "
+          "nothing else")
     return 0
 
 

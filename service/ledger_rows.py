@@ -30,7 +30,8 @@ def forecast_url(forecast_id: int) -> str:
 
 def champion_row(choice: ChampionChoice) -> ChampionRow:
     return ChampionRow(series_key=choice.series_key, choice_id=choice.choice_id,
-                       candidate_id=choice.candidate_id, run_id=choice.run_id,
+                       candidate_id=choice.candidate_id, candidate=choice.candidate_label,
+                       run_id=choice.run_id,
                        reason=choice.reason, chosen_by=choice.chosen_by,
                        chosen_at=choice.chosen_at)
 
@@ -101,7 +102,8 @@ def monitoring_out(monitored: Monitored) -> MonitoringOut:
     report = monitored.report
     return MonitoringOut(
         series_key=report.series_key, candidate_id=report.candidate_id,
-        is_champion=monitored.is_champion, forecasts=monitored.forecasts,
+        candidate=monitored.candidate_label, is_champion=monitored.is_champion,
+        forecasts=monitored.forecasts,
         realised=[RealisedOut(period=p.period, count=p.count, horizons=list(p.horizons),
                               mase=p.mase, expected_mase=p.expected_mase, smape=p.smape,
                               coverage=_by_level(p.coverage),
@@ -117,11 +119,12 @@ def flag_outs(report: MonitoringReport) -> list[FlagOut]:
                     detail=f.detail) for f in report.flags]
 
 
-def flag_rows(report: MonitoringReport) -> Iterator[dict[str, Any]]:
+def flag_rows(monitored: Monitored) -> Iterator[dict[str, Any]]:
     """The monitoring table's rows of one report: one per rule."""
+    report = monitored.report
     for flag in flag_outs(report):
         yield {"series_key": report.series_key, "candidate_id": report.candidate_id,
-               **flag.model_dump()}
+               "candidate": monitored.candidate_label, **flag.model_dump()}
 
 
 def realised_rows(out: MonitoringOut) -> Iterator[dict[str, Any]]:
@@ -130,7 +133,8 @@ def realised_rows(out: MonitoringOut) -> Iterator[dict[str, Any]]:
         levels = sorted(int(lv) for lv in point.coverage) or [None]
         for level in levels:
             yield {"series_key": out.series_key, "candidate_id": out.candidate_id,
-                   "period": point.period, "count": point.count, "mase": point.mase,
+                   "candidate": out.candidate, "period": point.period, "count": point.count,
+                   "mase": point.mase,
                    "expected_mase": point.expected_mase, "smape": point.smape, "level": level,
                    "coverage": None if level is None else point.coverage.get(str(level)),
                    "interval_score": None if level is None

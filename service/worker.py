@@ -17,6 +17,7 @@ import threading
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from backtest.models.fast_arima import warm_up
 from service.outcome_scoring import score_due_outcomes
 from service.report.prerender import prerender_report
 from service.settings import Settings
@@ -69,7 +70,10 @@ class Worker:
 
     def run_forever(self, stop: threading.Event) -> None:
         """Work on runs until ``stop`` is set, looking for new ones every ``poll_seconds``;
-        before each look, score the outcomes new actuals made due."""
+        before each look, score the outcomes new actuals made due. The compiled ARIMA
+        likelihood is loaded (or compiled) meanwhile in a background thread, so the first
+        run does not wait for it when it arrives later."""
+        threading.Thread(target=self._warm_up, name="warm-up", daemon=True).start()
         log.info("worker %s ready", self.id)
         while not stop.is_set():
             try:
@@ -84,6 +88,9 @@ class Worker:
             if not busy:
                 stop.wait(self.settings.poll_seconds)
         log.info("worker %s stopped", self.id)
+
+    def _warm_up(self) -> None:
+        log.info("worker %s: compiled estimator ready in %.2f s", self.id, warm_up())
 
     def close(self) -> None:
         """Release the database connections this worker opened."""

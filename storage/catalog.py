@@ -10,8 +10,10 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from backtest.candidates import parse_candidate
 from backtest.plan import Plan
 from storage.audit import lock_audit_log, record_event
 from storage.contents import (
@@ -23,7 +25,7 @@ from storage.contents import (
 )
 from storage.digest import canonical_json, sha256_text
 from storage.errors import ConflictError, translates_errors
-from storage.schema import CandidateRecord, PlanRecord
+from storage.schema import CandidateRecord, PlanRecord, SeriesRecord
 from storage.types import utc_now
 
 
@@ -71,3 +73,14 @@ def register_plan(session: Session, plan: Plan, *, actor: str) -> str:
         record_event(session, actor=actor, action="plan.registered",
                      subject=plan_subject(plan_id), digest=plan_digest([as_row(record)]))
     return plan_id
+
+
+@translates_errors
+def candidate_label(session: Session, series_key: str, candidate_id: str) -> str | None:
+    """The candidate's label at the series' season length; ``None`` if either is unknown."""
+    spec = session.scalar(select(CandidateRecord.spec).where(CandidateRecord.id == candidate_id))
+    season_length = session.scalar(select(SeriesRecord.season_length)
+                                   .where(SeriesRecord.key == series_key))
+    if spec is None or season_length is None:
+        return None
+    return parse_candidate(spec).label(season_length)

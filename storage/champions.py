@@ -10,9 +10,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime
 
-from sqlalchemy import Select, exists, func, select
+from sqlalchemy import ColumnElement, Select, exists, func, select
 from sqlalchemy.orm import Session
 
+from backtest.candidates import parse_candidate
 from storage.audit import lock_audit_log, record_event
 from storage.contents import as_row, champion_digest, champion_subject
 from storage.errors import ConflictError, NotFoundError, translates_errors
@@ -36,6 +37,7 @@ class ChampionChoice:
     choice_id: int
     series_key: str
     candidate_id: str
+    candidate_label: str
     run_id: int | None
     reason: str
     chosen_by: str
@@ -65,32 +67,39 @@ def choose_champion(session: Session, *, series_key: str, candidate_id: str,
     session.flush()
     record_event(session, actor=actor, action="champion.chosen",
                  subject=champion_subject(record.id), digest=champion_digest([as_row(record)]))
-    return _choice(record, series_key)
+    chosen = _choices().where(ChampionChoiceRecord.id == record.id)
+    return _choice(*session.execute(chosen).one())
 
 
 @translates_errors
-def current_champion(session: Session, series_key: str) -> ChampionChoice | None:
-    """The latest choice for a series, or ``None`` if none was made (or the key is unknown)."""
-    query = _choices().where(SeriesRecord.key == series_key)
+def current_champion(session: Session, series_key: str,
+                     as_of: datetime | None = None) -> ChampionChoice | None:
+    """The latest choice for a series (made by ``as_of``, if given), or ``None`` if none was
+    made (or the key is unknown)."""
+    query = _choices(as_of).where(SeriesRecord.key == series_key)
     row = session.execute(query.order_by(ChampionChoiceRecord.id.desc()).limit(1)).first()
     return None if row is None else _choice(*row)
 
 
 @translates_errors
-def champion_history(session: Session, series_key: str) -> list[ChampionChoice]:
-    """Every choice for a series, oldest first."""
-    query = _choices().where(SeriesRecord.key == series_key)
+def champion_history(session: Session, series_key: str,
+                     as_of: datetime | None = None) -> list[ChampionChoice]:
+    """Every choice for a series (made by ``as_of``, if given), oldest first."""
+    query = _choices(as_of).where(SeriesRecord.key == series_key)
     return [_choice(*row) for row in session.execute(query.order_by(ChampionChoiceRecord.id))]
 
 
 @translates_errors
-def current_champions(session: Session) -> dict[str, ChampionChoice]:
-    """The latest choice of every series that has one, by series key."""
-    latest = (select(func.max(ChampionChoiceRecord.id))
+def current_champions(session: Session,
+                      as_of: datetime | None = None) -> dict[str, ChampionChoice]:
+    """The latest choice (made by ``as_of``, if given) of every series that has one, by
+    series key."""
+    made = _made_by(as_of)
+    latest = (select(func.max(ChampionChoiceRecord.id)).where(*made)
               .group_by(ChampionChoiceRecord.series_id).scalar_subquery())
-    rows = session.execute(_choices().where(ChampionChoiceRecord.id.in_(latest))
+    rows = session.execute(_choices(as_of).where(ChampionChoiceRecord.id.in_(latest))
                            .order_by(SeriesRecord.key))
-    return {key: _choice(record, key) for record, key in rows}
+    return {row[1]: _choice(*row) for row in rows}
 
 
 def _series_id(session: Session, series_key: str) -> int:
@@ -118,11 +127,20 @@ def _check_run_backtested(session: Session, run_id: int, series_id: int, series_
                             f"{series_key!r}, so it cannot justify choosing it")
 
 
-def _choices() -> Select:
-    return select(ChampionChoiceRecord, SeriesRecord.key).join(
-        SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id)
+def _choices(as_of: datetime | None = None) -> Select:
+    return (select(ChampionChoiceRecord, SeriesRecord.key, SeriesRecord.season_length,
+                   CandidateRecord.spec)
+            .join(SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id)
+            .join(CandidateRecord, CandidateRecord.id == ChampionChoiceRecord.candidate_id)
+            .where(*_made_by(as_of)))
 
 
-def _choice(record: ChampionChoiceRecord, series_key: str) -> ChampionChoice:
-    return ChampionChoice(record.id, series_key, record.candidate_id, record.run_id,
+def _made_by(as_of: datetime | None) -> list[ColumnElement[bool]]:
+    return [] if as_of is None else [ChampionChoiceRecord.chosen_at <= as_of]
+
+
+def _choice(record: ChampionChoiceRecord, series_key: str, season_length: int,
+            spec: dict) -> ChampionChoice:
+    return ChampionChoice(record.id, series_key, record.candidate_id,
+                          parse_candidate(spec).label(season_length), record.run_id,
                           record.reason, record.chosen_by, record.chosen_at)

@@ -101,11 +101,12 @@ def get_issued(session: Session, forecast_id: int) -> IssuedRecord:
 @translates_errors
 def list_issued(session: Session, *, series_key: str | None = None,
                 candidate_id: str | None = None, issued_from: datetime | None = None,
-                issued_to: datetime | None = None, after_id: int = 0,
-                limit: int = 500) -> list[IssuedRecord]:
+                issued_to: datetime | None = None, as_of: datetime | None = None,
+                after_id: int = 0, limit: int = 500) -> list[IssuedRecord]:
     """Issued forecasts by id, from the first after ``after_id``, at most ``limit``.
 
-    Filters: the series key, the candidate, and issue times in ``[issued_from, issued_to)``.
+    Filters: the series key, the candidate, issue times in ``[issued_from, issued_to)``, and
+    ``as_of`` (the ledger as it stood then: issued at or before it).
     """
     f = IssuedForecastRecord
     conditions: list[ColumnElement[bool]] = [f.id > after_id]
@@ -118,6 +119,8 @@ def list_issued(session: Session, *, series_key: str | None = None,
         conditions.append(f.issued_at >= issued_from)
     if issued_to is not None:
         conditions.append(f.issued_at < issued_to)
+    if as_of is not None:
+        conditions.append(f.issued_at <= as_of)
     return issued_records(session, conditions, limit=limit)
 
 

@@ -119,18 +119,22 @@ def outcome_sets(session: Session, forecast_id: int) -> list[OutcomeSet]:
 
 
 @translates_errors
-def issued_with_outcomes(session: Session, series_key: str,
-                         candidate_id: str) -> list[IssuedOutcomes]:
+def issued_with_outcomes(session: Session, series_key: str, candidate_id: str,
+                         as_of: datetime | None = None) -> list[IssuedOutcomes]:
     """Every forecast issued for a series by a candidate, by issue time, each with its
-    current outcomes (none yet: an empty tuple)."""
+    current outcomes (none yet: an empty tuple); with ``as_of``, the forecasts issued by
+    then with the newest outcomes scored by then."""
     f = IssuedForecastRecord
     conditions = [f.candidate_id == candidate_id,
                   f.series_id == select(SeriesRecord.id)
                   .where(SeriesRecord.key == series_key).scalar_subquery()]
+    scored = [SETS.c.forecast_id.in_(select(f.id).where(*conditions))]
+    if as_of is not None:
+        conditions.append(f.issued_at <= as_of)
+        scored.append(SETS.c.scored_at <= as_of)
     records = issued_records(session, conditions, by_issue_time=True)
-    chosen = select(f.id).where(*conditions)
     current = {s.forecast_id: s.outcomes
-               for s in _outcome_sets(session, _newest_sets([SETS.c.forecast_id.in_(chosen)]))}
+               for s in _outcome_sets(session, _newest_sets(scored))}
     return [IssuedOutcomes(r.forecast_id, r.issued_at, r.forecast,
                            current.get(r.forecast_id, ()))
             for r in records]

@@ -153,9 +153,10 @@ def audit_events_between(session: Session, start: datetime, end: datetime) -> li
     return [AuditEntry(**row) for row in rows.mappings()]
 
 
-def latest_runs_query(series_key: str | None = None) -> Select:
+def latest_runs_query(series_key: str | None = None, as_of: datetime | None = None) -> Select:
     """Columns series_key, series_version_id, version_number, run_id, finished_at,
-    benchmark_id: the latest successful run of every series (or of one).
+    benchmark_id: the latest successful run of every series (or of one), among the runs
+    finished by ``as_of`` if given.
 
     It reads only key columns of ``series_result`` (a covering index), never its wide
     evidence rows."""
@@ -175,6 +176,8 @@ def latest_runs_query(series_key: str | None = None) -> Select:
     )
     if series_key is not None:
         ranked = ranked.where(SeriesRecord.key == series_key)
+    if as_of is not None:
+        ranked = ranked.where(Run.finished_at <= as_of)
     latest = ranked.subquery()
     return select(latest.c.series_key, latest.c.series_version_id, latest.c.version_number,
                   latest.c.run_id, latest.c.finished_at, latest.c.benchmark_id

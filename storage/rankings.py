@@ -10,6 +10,7 @@ SQL statement for all series at once.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import case, func, select
@@ -27,11 +28,11 @@ RANKABLE = ("mase", "rmsse", "smape", "mae", "rmse", "winkler", "msis")
 def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
                   level: int | None = None, prefix: str | None = None,
                   tags: Mapping[str, str] | None = None, limit: int | None = None,
-                  offset: int = 0) -> list[dict[str, Any]]:
+                  offset: int = 0, as_of: datetime | None = None) -> list[dict[str, Any]]:
     """Rows: series_key, series_version, run_id, run_finished_at, metric, horizon, level,
     rank, candidate_id, candidate, is_benchmark, value, count, note; by series key, rank,
-    candidate id."""
-    latest = latest_runs_query().subquery()
+    candidate id. With ``as_of``, each series' latest successful run finished by then."""
+    latest = latest_runs_query(as_of=as_of).subquery()
     s = ScoreRecord
     # the chosen score's row keys come from the score index alone; SQLite would otherwise
     # walk every score row of a unit by primary key

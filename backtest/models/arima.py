@@ -11,6 +11,12 @@ smoother, no default covariance): the estimates are the same, the results still 
 residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
 forecast from the estimation origin is read off that filter output. A stretch of origins
 with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
+
+``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
+same likelihood); forecasts and results still come from the statsmodels model at those
+estimates. The parameters then carry ``estimator`` (1 fast, 0 the fast estimator failed
+and the reference estimated the fold, with a :class:`~.fast_arima.EstimatorFallback`
+warning giving the reason).
 """
 
 from __future__ import annotations
@@ -26,6 +32,7 @@ from statsmodels.tsa.statespace.kalman_filter import MEMORY_NO_SMOOTHING
 from backtest.errors import CandidateError
 from backtest.labels import arima_label
 from backtest.models.base import (
+    Estimator,
     Fit,
     Forecast,
     ModelSpec,
@@ -36,6 +43,7 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
+from backtest.models.fast_arima import ESTIMATOR_KEY, fast_fit
 from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
@@ -57,6 +65,8 @@ class ArimaSpec(ModelSpec):
 
     family: ClassVar[str] = "arima"
     warm_startable: ClassVar[bool] = True
+    fast_estimable: ClassVar[bool] = True
+    raw_optional: ClassVar[bool] = True
     order: tuple[int, int, int] = (0, 1, 1)
     seasonal: tuple[int, int, int] | None = None
     period: int | None = None
@@ -98,31 +108,55 @@ class ArimaSpec(ModelSpec):
                      trend=_TREND[self.deterministic])
 
     def fit(self, y: np.ndarray, season_length: int, *,
-            start_params: Params | None = None) -> Fit:
+            start_params: Params | None = None, estimator: Estimator = "reference",
+            keep_raw: bool = True) -> Fit:
         """Estimate on ``y``; ``start_params`` (e.g. a previous estimate) seeds the optimiser
-        instead of statsmodels' default start values."""
+        instead of the default start values. ``keep_raw=False`` lets the fast estimator
+        skip building statsmodels' results object."""
+        if estimator == "fast":
+            return fast_fit(self, y, season_length, start_params, keep_raw)
+        return self.reference_fit(y, season_length, start_params=start_params)
+
+    def reference_fit(self, y: np.ndarray, season_length: int, *,
+                      start_params: Params | None = None) -> Fit:
+        """statsmodels' own estimation (the reference estimator)."""
         model = self.model(y, season_length)
         # With smoothing output switched off statsmodels' fit filters instead of smoothing;
         # the optimiser path, and so every estimate, is unchanged.
         model.ssm.set_conserve_memory(MEMORY_NO_SMOOTHING)
-        start = None if start_params is None else _vector(model, start_params)
+        start = None if start_params is None else vector(model, start_params)
         fitted = model.fit(start_params=start, cov_type="none")
         names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
         return Fit(dict(zip(names, map(float, fitted.params))), fitted)
 
+    def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
+        """The fit with its model parameters only (without the ``estimator`` record)."""
+        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw)
+
+    def results_at(self, y: np.ndarray, season_length: int, params: Params):
+        """statsmodels' results of a filter pass over ``y`` at ``params`` (no estimation)."""
+        model = self.model(y, season_length)
+        return model.filter(vector(model, params))
+
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
         model = self.model(y, season_length)
-        prediction = model.filter(_vector(model, params)).get_forecast(horizon)
+        prediction = model.filter(vector(model, params)).get_forecast(horizon)
         mean = np.asarray(prediction.predicted_mean, dtype=float)
         sd = np.sqrt(np.asarray(prediction.var_pred_mean, dtype=float))
         return normal_bounds(mean, sd, levels)
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
                      levels: tuple[int, ...], seed: int, *,
-                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
-        """Estimate on ``y``, then forecast from the estimation's own filter output."""
-        fit = self.fit(y, season_length, start_params=start_params)
+                     start_params: Params | None = None, estimator: Estimator = "reference",
+                     keep_raw: bool = True) -> tuple[Fit, Forecast]:
+        """Estimate on ``y``, then forecast from the estimation's own filter output (or,
+        without one, from a filter pass at the estimates)."""
+        fit = self.fit(y, season_length, start_params=start_params, estimator=estimator,
+                       keep_raw=keep_raw)
+        if fit.raw is None:
+            return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
+                                              levels, [seed])[0]
         states = states_at(fit.raw.filter_results, [len(y)])
         return fit, self._from_states(fit.raw.model, fit.params, states, [len(y)], horizon,
                                       levels)[0]
@@ -132,13 +166,13 @@ class ArimaSpec(ModelSpec):
                          seeds: Sequence[int]) -> list[Forecast]:
         """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``."""
         model = self.model(y, season_length)
-        states = filter_states(model, _vector(model, params), ends)
+        states = filter_states(model, vector(model, params), ends)
         return self._from_states(model, params, states, ends, horizon, levels)
 
     def _from_states(self, model: ARIMA, params: Params, states: OriginStates,
                      ends: Sequence[int], horizon: int, levels: tuple[int, ...]
                      ) -> list[Forecast]:
-        model.update(_vector(model, params), transformed=True)
+        model.update(vector(model, params), transformed=True)
         times = np.asarray(ends)[:, None] + np.arange(horizon)
         mean, var = propagate(LinearSystem.of(model), states, self._intercepts(params, times))
         return forecasts_by_origin(mean, np.sqrt(var), levels)
@@ -153,8 +187,9 @@ class ArimaSpec(ModelSpec):
         return np.zeros(times.shape)
 
 
-def _vector(model: ARIMA, params: Params) -> np.ndarray:
-    """``params`` in the order of the statsmodels model's parameters."""
+def vector(model: ARIMA, params: Params) -> np.ndarray:
+    """``params`` in the order of the statsmodels model's parameters (other entries, such
+    as ``estimator``, are left out)."""
     return np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names], dtype=float)
 
 

@@ -58,8 +58,10 @@ from backtest.labels import search_label
 
 # The arima family's parameter names, so that its forecast reads the chosen estimates.
 from backtest.models.arima import RENAMED_PARAMETERS, ArimaSpec, Deterministic
-from backtest.models.arima_trial import MAX_INVERSE_ROOT, Criterion, Trial, run_trial
+from backtest.models.arima_trial import MAX_INVERSE_ROOT, Criterion, Trial
+from backtest.models.arima_trial import run_trial as run_reference_trial
 from backtest.models.base import (
+    Estimator,
     Fit,
     Forecast,
     ModelSpec,
@@ -70,6 +72,8 @@ from backtest.models.base import (
     take_fields,
 )
 from backtest.models.differencing import STRONG_SEASONALITY, choose_differencing, difference
+from backtest.models.fast_arima import ESTIMATOR_KEY
+from backtest.models.fast_arima_trial import run_fast_trial
 from backtest.models.stepwise import STARTING_ORDERS, ArmaOrders, SearchBounds, stepwise_search
 from backtest.transforms import Transform, parse_transform
 
@@ -118,6 +122,8 @@ class ArimaSearchSpec(ModelSpec):
     """ARIMA whose orders are chosen afresh at every estimation."""
 
     family: ClassVar[str] = "arima_search"
+    fast_estimable: ClassVar[bool] = True
+    raw_optional: ClassVar[bool] = True
     limits: OrderLimits = OrderLimits()
     seasonal: bool = True
     criterion: Criterion = "aicc"
@@ -162,22 +168,34 @@ class ArimaSearchSpec(ModelSpec):
         simplest = ArimaSpec((0, self.limits.d, 0), seasonal, period)
         return simplest.min_train(season_length)
 
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+    def fit(self, y: np.ndarray, season_length: int, *, estimator: Estimator = "reference",
+            keep_raw: bool = True) -> Fit:
+        """Choose and estimate the order on ``y``. Under the fast estimator the fit carries
+        statsmodels' results of a filter pass at the estimates (none without
+        ``keep_raw``) and the estimates record ``estimator`` (1 fast, 0 reference)."""
         period = self.season_period(season_length)
         differencing = choose_differencing(y, period, self.limits.d, self.limits.seasonal_d,
                                            self.seasonal_strength_threshold)
         selection = search_orders(y, period, differencing.d, differencing.seasonal_d,
-                                  self.limits, self.criterion, self.max_models,
+                                  self.limits, self.criterion, self.max_models, estimator,
                                   self.max_inverse_root)
         chosen = selection.chosen
         for caught in chosen.caught:
             warnings.warn_explicit(caught.message, caught.category, caught.filename,
                                    caught.lineno)
-        params = {**encode_order(chosen.spec), **_estimates(chosen.results),
-                  **selection.summary()}
+        raw = chosen.results
+        if chosen.estimates is not None:
+            estimates = chosen.estimates
+            if keep_raw:
+                raw = chosen.spec.results_at(y, season_length, estimates)
+        else:
+            estimates = _estimates(chosen.results)
+            if estimator == "fast":
+                estimates[ESTIMATOR_KEY] = 0.0
+        params = {**encode_order(chosen.spec), **estimates, **selection.summary()}
         if differencing.seasonal_strength is not None:
             params["search.seasonal_strength"] = differencing.seasonal_strength
-        return Fit(params, chosen.results)
+        return Fit(params, raw)
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
@@ -206,14 +224,18 @@ class ArimaSearchSpec(ModelSpec):
         spec = ArimaSpec(order, seasonal if period else None, period or None,
                          _TERMS[int(params["deterministic"])], self.transform)
         estimates = {name: value for name, value in params.items()
-                     if name != "deterministic" and not name.startswith(("order.", "search."))}
+                     if name not in ("deterministic", ESTIMATOR_KEY)
+                     and not name.startswith(("order.", "search."))}
         return spec, estimates
 
 
 def search_orders(y: np.ndarray, period: int, d: int, seasonal_d: int, limits: OrderLimits,
                   criterion: Criterion, max_models: int,
+                  estimator: Estimator = "reference",
                   root_limit: float = MAX_INVERSE_ROOT) -> Selection:
-    """Stepwise search of p, q, P, Q and the deterministic term for fixed d and D.
+    """Stepwise search of p, q, P, Q and the deterministic term for fixed d and D, each
+    order fitted by ``estimator``; ``root_limit`` is the largest inverse-root modulus
+    accepted.
 
     Orders are screened as ARMA models of the differenced data (a constant in place of a
     drift): their exact likelihood is the ARIMA model's diffuse likelihood, at a fraction
@@ -230,6 +252,7 @@ def search_orders(y: np.ndarray, period: int, d: int, seasonal_d: int, limits: O
                           limits.seasonal_q if seasonal else 0, d + seasonal_d <= 1)
     differenced = difference(y, d, seasonal_d, period)
     screened: dict[ArmaOrders, Trial] = {}
+    run_trial = run_fast_trial if estimator == "fast" else run_reference_trial
 
     def score(orders: ArmaOrders) -> float:
         stationary = arima_spec(orders, 0, 0, period)

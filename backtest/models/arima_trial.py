@@ -27,6 +27,7 @@ import numpy as np
 from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
 from backtest.models.arima import ArimaSpec
+from backtest.models.base import Params
 
 #: Default largest modulus of an inverse AR or MA root a chosen model may have (common
 #: practice; measured in ``bench/search_thresholds.py``).
@@ -40,13 +41,15 @@ Verdict = Literal["accepted", "too_short", "failed", "not_converged", "near_unit
 
 @dataclass(frozen=True, eq=False)
 class Trial:
-    """One fitted order: verdict, criterion (``inf`` unless accepted), statsmodels results."""
+    """One fitted order: verdict, criterion (``inf`` unless accepted), statsmodels results
+    (``None`` from the fast estimator, which gives ``estimates`` instead)."""
 
     spec: ArimaSpec
     verdict: Verdict
     score: float
     results: Any
     caught: tuple[warnings.WarningMessage, ...]
+    estimates: Params | None = None
 
 
 def run_trial(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Criterion,

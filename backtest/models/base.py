@@ -11,7 +11,7 @@ from __future__ import annotations
 from abc import ABC, abstractmethod
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, ClassVar
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 from scipy import stats
@@ -20,6 +20,9 @@ from backtest.errors import CandidateError
 from backtest.transforms import Transform
 
 Params = dict[str, float]
+#: How a ``fast_estimable`` family estimates: its compiled estimator or the library's own.
+Estimator = Literal["fast", "reference"]
+ESTIMATORS: tuple[Estimator, ...] = ("fast", "reference")
 
 
 @dataclass(frozen=True, eq=False)
@@ -55,6 +58,8 @@ class ModelSpec(ABC):
     #: estimates and the forecast only (a lean assessment), so the family may skip building
     #: the library's results object (``Fit.raw`` is then ``None``).
     raw_optional: ClassVar[bool] = False
+    #: Families whose ``fit`` and ``fit_forecast`` take ``estimator`` (a plan's estimator).
+    fast_estimable: ClassVar[bool] = False
     transform: Transform
 
     @abstractmethod
@@ -82,11 +87,11 @@ class ModelSpec(ABC):
         """Forecast h = 1..horizon from the end of ``y`` with the given parameters."""
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
-                     levels: tuple[int, ...], seed: int, *,
-                     start_params: Params | None = None) -> tuple[Fit, Forecast]:
+                     levels: tuple[int, ...], seed: int, **options: Any
+                     ) -> tuple[Fit, Forecast]:
         """Estimate on ``y`` and forecast from its end; families may do both in one pass.
-        ``start_params`` is passed on to ``fit`` only when given."""
-        options = {} if start_params is None else {"start_params": start_params}
+        ``options`` (``start_params``, ``estimator``, ``keep_raw``, as the family takes
+        them) are passed on to ``fit``."""
         fit = self.fit(y, season_length, **options)
         return fit, self.forecast(y, season_length, fit.params, horizon, levels, seed)
 

@@ -12,8 +12,9 @@ from service.access import Caller, require
 from service.app_state import Sessions
 from service.champion_choice import choose, suggestions
 from service.ledger_rows import champion_row
+from service.moments import point_in_time
 from service.problems import problem_responses
-from service.routes.params import Id
+from service.routes.params import AsOfParam, Id
 from service.routes.series import series_url
 from service.schemas.champions import (
     ChampionHistory,
@@ -69,12 +70,14 @@ def choose_champion(key: str, body: ChampionIn, response: Response, caller: Writ
             responses={**csv_openapi(columns(ChampionRow)),
                        **problem_responses(*ERRORS, 404, 406)})
 def read_champion_history(key: str, request: Request, caller: Reader, sessions: Sessions,
-                          output: FormatParam = None) -> Any:
-    """Every champion choice of the series, oldest first: who chose what, when and why."""
+                          output: FormatParam = None, as_of: AsOfParam = None) -> Any:
+    """Every champion choice of the series (made by ``as_of``), oldest first: who chose
+    what, when and why."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
         get_series(session, key)
-        rows = [champion_row(c) for c in champion_history(session, key)]
+        rows = [champion_row(c) for c in champion_history(session, key, moment)]
     if chosen == "csv":
         return csv_response((r.model_dump() for r in rows), columns(ChampionRow), None)
     return ChampionHistory(series_key=key, items=rows, next=None)
@@ -82,13 +85,17 @@ def read_champion_history(key: str, request: Request, caller: Reader, sessions: 
 
 @router.get("/series/{key:path}/champion", response_model=ChampionRow,
             responses=problem_responses(*ERRORS, 404))
-def read_champion(key: str, caller: Reader, sessions: Sessions) -> ChampionRow:
-    """The series' current champion (404 if none was chosen)."""
+def read_champion(key: str, caller: Reader, sessions: Sessions,
+                  as_of: AsOfParam = None) -> ChampionRow:
+    """The series' current champion, or the one in force at ``as_of`` (404 if none was
+    chosen by then)."""
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
         get_series(session, key)
-        choice = current_champion(session, key)
+        choice = current_champion(session, key, moment)
     if choice is None:
-        raise NotFoundError(f"series {key!r} has no champion yet")
+        raise NotFoundError(f"series {key!r} has no champion yet" if moment is None else
+                            f"series {key!r} had no champion at {moment.isoformat()}")
     return champion_row(choice)
 
 
@@ -96,12 +103,14 @@ def read_champion(key: str, caller: Reader, sessions: Sessions) -> ChampionRow:
             responses={**csv_openapi(columns(ChampionRow)),
                        **problem_responses(401, 403, 406, 422, 500, 503)})
 def list_champions(request: Request, response: Response, caller: Reader, sessions: Sessions,
-                   output: FormatParam = None, limit: Limit = 1000,
-                   offset: Offset = 0) -> Any:
-    """The current champion of every series that has one, by series key."""
+                   output: FormatParam = None, as_of: AsOfParam = None,
+                   limit: Limit = 1000, offset: Offset = 0) -> Any:
+    """The current champion of every series that has one (or the one in force at
+    ``as_of``), by series key."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
-        found = current_champions(session)
+        found = current_champions(session, moment)
     keys = sorted(found)[offset:offset + limit + 1]
     link = next_link(request, offset, limit, len(keys) > limit)
     rows = [champion_row(found[key]) for key in keys[:limit]]

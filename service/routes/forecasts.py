@@ -21,8 +21,9 @@ from service.ledger_rows import (
     outcome_rows,
     outcome_set_out,
 )
+from service.moments import point_in_time
 from service.problems import problem_responses
-from service.routes.params import Id
+from service.routes.params import AsOfParam, Id
 from service.schemas.common import MAX_ID
 from service.schemas.forecasts import (
     MAX_HORIZON,
@@ -36,7 +37,7 @@ from service.schemas.forecasts import (
 from service.schemas.results import columns
 from service.tables import FormatParam, Limit, chosen_format, csv_openapi, csv_response
 from storage.ledger import IssuedRecord, get_issued, list_issued
-from storage.outcomes import current_outcomes, outcome_sets
+from storage.outcomes import outcome_sets
 from storage.series_store import get_version
 
 router = APIRouter(prefix="/v1", tags=["forecasts"])
@@ -80,14 +81,16 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
                        ge=1, le=MAX_HORIZON, description="only this step ahead")] = None,
                    after: Annotated[int, Query(ge=0, le=MAX_ID,
                                                description="forecast id to page after")] = 0,
-                   limit: Limit = 100) -> Any:
+                   as_of: AsOfParam = None, limit: Limit = 100) -> Any:
     """Issued forecasts, oldest first, filtered by series, candidate, issue time and step
-    ahead; CSV has one row per forecast, step and level. Paged with ``after``."""
+    ahead, as the ledger stood at ``as_of`` if given; CSV has one row per forecast, step and
+    level. Paged with ``after``."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
         records = list_issued(session, series_key=series_key, candidate_id=candidate_id,
-                              issued_from=issued_from, issued_to=issued_to, after_id=after,
-                              limit=limit + 1)
+                              issued_from=issued_from, issued_to=issued_to, as_of=moment,
+                              after_id=after, limit=limit + 1)
         items = _outs(session, records[:limit])
     if horizon is not None:
         items = [_only_step(item, horizon) for item in items if item.horizon >= horizon]
@@ -117,15 +120,20 @@ def read_forecast(forecast_id: Id, caller: Reader, sessions: Sessions) -> Foreca
 def read_outcomes(forecast_id: Id, request: Request, caller: Reader, sessions: Sessions,
                   output: FormatParam = None,
                   every: Annotated[bool, Query(alias="all", description="every set, one per "
-                                               "series version scored against")] = False
-                  ) -> Any:
+                                               "series version scored against")] = False,
+                  as_of: AsOfParam = None) -> Any:
     """What came true: the forecast's outcomes against the latest version scored so far, or
-    with ``all`` every set (earlier versions kept their own). Empty until actuals arrive."""
+    with ``all`` every set (earlier versions kept their own); with ``as_of``, only the sets
+    scored by then. Empty until actuals arrive."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
         forecast = _outs(session, [get_issued(session, forecast_id)])[0]
-        current = current_outcomes(session, forecast_id)
-        found = outcome_sets(session, forecast_id) if every else [s for s in [current] if s]
+        scored = [s for s in outcome_sets(session, forecast_id)
+                  if moment is None or s.scored_at <= moment]
+        current = max(scored, key=lambda s: get_version(session, s.series_version_id).number,
+                      default=None)
+        found = scored if every else [s for s in [current] if s]
         sets = [outcome_set_out(s, get_version(session, s.series_version_id).number,
                                 current is not None
                                 and s.series_version_id == current.series_version_id)

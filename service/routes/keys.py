@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, Path
+from fastapi import APIRouter, Depends, Path, Request
 
 from service.access import Caller, require
 from service.app_state import Sessions
+from service.flat_rows import flat_columns, flat_rows
 from service.key_admin import issue_key
 from service.problems import problem_responses
 from service.schemas.keys import KeyCreatedOut, KeyIn, KeyList, KeyOut
+from service.tables import FormatParam, chosen_format, csv_openapi, csv_response
 from service.transactions import write
 from storage.keys import KeyInfo, list_keys, revoke_key
 
@@ -28,11 +30,17 @@ def create(body: KeyIn, caller: Admin, sessions: Sessions) -> KeyCreatedOut:
     return KeyCreatedOut(key=key_out(key), token=token.text)
 
 
-@router.get("", response_model=KeyList, responses=problem_responses(*ERRORS))
-def list_all(caller: Admin, sessions: Sessions) -> KeyList:
+@router.get("", response_model=KeyList,
+            responses={**csv_openapi(flat_columns(KeyOut)), **problem_responses(*ERRORS, 406)})
+def list_all(request: Request, caller: Admin, sessions: Sessions,
+             output: FormatParam = None) -> Any:
     """Every key, revoked ones included."""
+    chosen = chosen_format(request, output)
     with sessions.begin() as session:
-        return KeyList(items=[key_out(k) for k in list_keys(session)])
+        items = [key_out(k) for k in list_keys(session)]
+    if chosen == "csv":
+        return csv_response(flat_rows(items), flat_columns(KeyOut), None)
+    return KeyList(items=items)
 
 
 @router.post("/{key_id}/revoke", response_model=KeyOut,

@@ -10,8 +10,10 @@ from fastapi import APIRouter, Depends, Query, Request, Response
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.ledger_rows import flag_rows, monitoring_out, realised_rows
+from service.moments import point_in_time
 from service.monitoring import monitor_champions, monitor_series
 from service.problems import problem_responses
+from service.routes.params import AsOfParam
 from service.schemas.monitoring import FlagPage, FlagRow, MonitoringOut, RealisedRow
 from service.schemas.results import columns
 from service.tables import (
@@ -35,14 +37,16 @@ MAX_SERIES = 1000
 def read_monitoring(key: str, request: Request, caller: Reader, sessions: Sessions,
                     output: FormatParam = None,
                     candidate_id: Annotated[str | None, Query(
-                        max_length=17, description="default: the series' champion")] = None
-                    ) -> Any:
+                        max_length=17, description="default: the series' champion")] = None,
+                    as_of: AsOfParam = None) -> Any:
     """Realised accuracy of the candidate's issued forecasts by target period, the
     backtest's expectation for the same horizons, and the coverage, accuracy and level
-    shift flags. CSV: the realised accuracy, one row per period and level."""
+    shift flags, as they stood at ``as_of`` if given. CSV: the realised accuracy, one row per
+    period and level."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
-        answer = monitoring_out(monitor_series(session, key, candidate_id))
+        answer = monitoring_out(monitor_series(session, key, candidate_id, moment))
     if chosen == "csv":
         return csv_response(realised_rows(answer), columns(RealisedRow), None)
     return answer
@@ -57,14 +61,17 @@ def list_flags(request: Request, response: Response, caller: Reader, sessions: S
                    description="true: only raised flags; false: only quiet ones")] = None,
                limit: Annotated[int, Query(ge=1, le=MAX_SERIES, description=(
                    "series per page (each gives one row per rule and level)"))] = 100,
-               offset: Offset = 0) -> Any:
+               offset: Offset = 0, as_of: AsOfParam = None) -> Any:
     """Every monitoring rule's verdict on every series' champion, by series key, a page of
-    ``limit`` series at a time (``next`` links the following page)."""
+    ``limit`` series at a time (``next`` links the following page); as they stood at
+    ``as_of`` if given."""
     chosen = chosen_format(request, output)
+    moment = point_in_time("as_of", as_of, day_end=True)
     with sessions.begin() as session:
-        reports, more = monitor_champions(session, prefix, offset=offset, limit=limit)
+        reports, more = monitor_champions(session, prefix, offset=offset, limit=limit,
+                                          as_of=moment)
     link = next_link(request, offset, limit, more)
-    rows = [row for m in reports for row in flag_rows(m.report)
+    rows = [row for m in reports for row in flag_rows(m)
             if raised is None or row["raised"] == raised]
     if chosen == "csv":
         return csv_response(rows, columns(FlagRow), link)

@@ -42,3 +42,8 @@ PooledByDefault = Annotated[str, Query(pattern=HORIZON,
 
 Id = Annotated[int, Path(ge=1, le=MAX_ID)]
 """A run id or version number in a path."""
+
+
+AsOfParam = Annotated[str | None, Query(description=(
+    "ISO 8601 date or time: the answer as it stood then (records are append-only). A date "
+    "means the end of that day; a time without an offset is UTC"))]

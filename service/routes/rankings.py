@@ -9,8 +9,9 @@ from fastapi import APIRouter, Depends, Query, Request, Response
 from service.access import Caller, require
 from service.app_state import Rankings, Sessions
 from service.errors import FieldError, InvalidInputError
+from service.moments import point_in_time
 from service.problems import problem_responses
-from service.routes.params import PooledByDefault, TagFilter, horizon_or_pooled
+from service.routes.params import AsOfParam, PooledByDefault, TagFilter, horizon_or_pooled
 from service.schemas.results import RankingPage, RankingRow, columns
 from service.tables import (
     FormatParam,
@@ -40,17 +41,20 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
              level: Annotated[int | None, Query(ge=1, le=99,
                                                 description="for winkler and msis")] = None,
              prefix: Annotated[str | None, Query(max_length=200)] = None,
-             limit: Limit = 1000, offset: Offset = 0) -> Any:
-    """For each series, its candidates ranked on its latest successful run by one score
-    (lower is better; ties share a rank; unscored candidates last). One row per series and
-    candidate, ordered by series key and rank: load it as it is."""
+             as_of: AsOfParam = None, limit: Limit = 1000, offset: Offset = 0) -> Any:
+    """For each series, its candidates ranked on its latest successful run (finished by
+    ``as_of``, if given) by one score (lower is better; ties share a rank; unscored
+    candidates last). One row per series and candidate, ordered by series key and rank:
+    load it as it is."""
     chosen = chosen_format(request, output)
     _check_level(metric, level)
     pooled = horizon_or_pooled(horizon)
-    key = (metric, pooled, level, prefix, tuple(sorted(tag.items())) if tag else ())
+    moment = point_in_time("as_of", as_of, day_end=True)
+    key = (metric, pooled, level, prefix, tuple(sorted(tag.items())) if tag else (), moment)
     with sessions.begin() as session:
         table = cache.table(key, succeeded_run_count(session), lambda: ranking_table(
-            session, metric=metric, horizon=pooled, level=level, prefix=prefix, tags=tag))
+            session, metric=metric, horizon=pooled, level=level, prefix=prefix, tags=tag,
+            as_of=moment))
     link = next_link(request, offset, limit, len(table) > offset + limit)
     rows = table[offset:offset + limit]
     if chosen == "csv":

@@ -6,11 +6,12 @@ While a run is running these show the series finished so far; once it has succee
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Annotated, Any
+from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 from pydantic import BaseModel
 
+from backtest.scoring import LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flatten import flatten
@@ -50,6 +51,8 @@ from storage.runs import get_run
 router = APIRouter(prefix="/v1/runs/{run_id}", tags=["results"])
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 404, 406, 422, 500, 503)
+ScoreMetricFilter = Annotated[Literal[POINT_METRICS + LEVEL_METRICS] | None,  # type: ignore[valid-type]
+                              Query(description="one score's name")]
 SeriesKeyFilter = Annotated[str | None, Query(max_length=200, description="one series")]
 CandidateFilter = Annotated[str | None, Query(max_length=17, description="one candidate id")]
 DIAGNOSTIC_SECTIONS = ("diagnostics", "stability")
@@ -64,7 +67,7 @@ def _responses(row: type[BaseModel], csv_columns: tuple[str, ...] | None = None)
 def run_scores(run_id: Id, request: Request, response: Response, caller: Reader,
                sessions: Sessions, output: FormatParam = None,
                series_key: SeriesKeyFilter = None, candidate_id: CandidateFilter = None,
-               metric: Annotated[str | None, Query(max_length=32)] = None,
+               metric: ScoreMetricFilter = None,
                horizon: HorizonParam = None, limit: Limit = 1000,
                offset: Offset = 0) -> Any:
     """Every score of every candidate on every series (filter by series, candidate, metric,

@@ -1,33 +1,43 @@
-"""Runs: submit (queued, answered 202), read status and progress, cancel."""
+"""Runs: submit (queued, answered 202), list, read status and progress, cancel."""
 
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Annotated
+from typing import Annotated, Any, Literal
 
-from fastapi import APIRouter, Depends, Header, Response
+from fastapi import APIRouter, Depends, Header, Query, Request, Response
 from sqlalchemy.orm import Session
 
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
+from service.flat_rows import flat_columns, flat_rows
 from service.problems import problem_responses
 from service.routes.params import Id
 from service.routes.series import series_url
 from service.run_requests import parse_request, prepare_run, selected_versions
 from service.schemas.runs import (
     ProgressOut,
+    RunCandidateOut,
     RunIn,
     RunLinks,
     RunOut,
+    RunPage,
     RunSeriesOut,
     TimingsOut,
 )
 from service.settings import Settings
+from service.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
 from service.transactions import write
 from storage.catalog import plan_id_of
 from storage.errors import ConflictError
 from storage.queue import cancel_requester, request_cancel
-from storage.run_index import run_versions, run_with_idempotency_key
+from storage.run_index import (
+    RunFilter,
+    list_runs,
+    run_candidate_labels,
+    run_versions,
+    run_with_idempotency_key,
+)
 from storage.runs import RunInfo, get_run, queue_run
 from storage.series_store import VersionInfo
 from storage.types import utc_now
@@ -36,6 +46,7 @@ router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 422, 500, 503)
+MAX_PAGE = 100
 IdempotencyKey = Annotated[str | None, Header(
     alias="Idempotency-Key", min_length=1, max_length=100, pattern=r"^[\x21-\x7e]+$",
     description="retrying a submission with the same key returns the original run")]
@@ -60,7 +71,44 @@ def submit_run(body: RunIn, response: Response, caller: Writer, sessions: Sessio
         # The same key submitted twice at once: the loser finds the winner's run.
         run, versions = _submit(sessions, body, caller, settings, scoped)
     response.headers["Location"] = run_url(run.id)
-    return run_out(run, versions, None)
+    with sessions.begin() as session:
+        return run_out(run, versions, None, run_candidate_labels(session, run.id))
+
+
+@router.get("/runs", response_model=RunPage,
+            responses={**csv_openapi(flat_columns(RunOut)), **problem_responses(*ERRORS, 406)})
+def list_all_runs(
+        request: Request, response: Response, caller: Reader, sessions: Sessions,
+        output: FormatParam = None,
+        status: Annotated[Literal["queued", "running", "succeeded", "failed", "cancelled"]
+                          | None, Query(description="only runs in this state")] = None,
+        series_key: Annotated[str | None, Query(
+            min_length=1, max_length=200, description="only runs that include this series")] = None,
+        requested_by: Annotated[str | None, Query(
+            min_length=1, max_length=200, description="only runs this key name queued")] = None,
+        finished_from: Annotated[datetime | None, Query(
+            description="only runs finished at or after this ISO 8601 time")] = None,
+        finished_to: Annotated[datetime | None, Query(
+            description="only runs finished before this ISO 8601 time")] = None,
+        before: Annotated[int | None, Query(ge=1, description=(
+            "cursor: only runs with a smaller id (the ``next`` link sets it)"))] = None,
+        limit: Annotated[int, Query(ge=1, le=MAX_PAGE)] = 50) -> Any:
+    """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive.
+    CSV: one row per run (lists as JSON cells)."""
+    chosen = chosen_format(request, output)
+    where = RunFilter(status=status, series_key=series_key, requested_by=requested_by,
+                      finished_from=finished_from, finished_to=finished_to)
+    with sessions.begin() as session:
+        runs, more = list_runs(session, where, before=before, limit=limit)
+        items = [_described(session, run) for run in runs]
+    link = None
+    if more:
+        query = request.url.include_query_params(before=runs[-1].id, limit=limit).query
+        link = f"{request.url.path}?{query}"
+    if chosen == "csv":
+        return csv_response(flat_rows(items), flat_columns(RunOut), link)
+    link_headers(response, link)
+    return RunPage(items=items, next=link)
 
 
 @router.get("/runs/{run_id}", response_model=RunOut, responses=problem_responses(*ERRORS, 404))
@@ -119,10 +167,12 @@ def _repeated(session: Session, run: RunInfo, body: RunIn,
 
 
 def _described(session: Session, run: RunInfo) -> RunOut:
-    return run_out(run, run_versions(session, run.id), cancel_requester(session, run.id))
+    return run_out(run, run_versions(session, run.id), cancel_requester(session, run.id),
+                   run_candidate_labels(session, run.id))
 
 
-def run_out(run: RunInfo, versions: list[VersionInfo], cancel_requested_by: str | None) -> RunOut:
+def run_out(run: RunInfo, versions: list[VersionInfo], cancel_requested_by: str | None,
+            labels: dict[str, str]) -> RunOut:
     """The answer describing a run."""
     url = run_url(run.id)
     return RunOut(
@@ -134,9 +184,10 @@ def run_out(run: RunInfo, versions: list[VersionInfo], cancel_requested_by: str 
         series=[RunSeriesOut(key=v.series_key, version=v.number, url=series_url(v.series_key))
                 for v in versions],
         candidate_ids=list(run.candidate_ids),
+        candidates=[RunCandidateOut(id=c, label=labels[c]) for c in run.candidate_ids],
         links=RunLinks(scores=f"{url}/scores", folds=f"{url}/folds",
                        ranking=f"{url}/ranking", diagnostics=f"{url}/diagnostics",
-                       evidence=f"{url}/evidence"))
+                       evidence=f"{url}/evidence", report=f"{url}/report"))
 
 
 def _progress(run: RunInfo) -> ProgressOut:

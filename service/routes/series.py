@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, Any, Literal
 from urllib.parse import quote
 
 from fastapi import APIRouter, Depends, Query, Request, Response
@@ -12,6 +12,7 @@ from starlette.concurrency import run_in_threadpool
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
 from service.errors import UnsupportedMediaTypeError
+from service.flat_rows import flat_columns, flat_rows
 from service.problems import problem_responses
 from service.routes.params import Id, TagFilter
 from service.schemas.series import (
@@ -27,7 +28,16 @@ from service.schemas.series import (
     VersionOut,
 )
 from service.series_input import series_from_csv, series_from_json, with_appended
-from service.tables import Limit, Offset, link_headers, next_link
+from service.tables import (
+    FormatParam,
+    Limit,
+    Offset,
+    chosen_format,
+    csv_openapi,
+    csv_response,
+    link_headers,
+    next_link,
+)
 from service.transactions import write
 from storage.errors import ConflictError
 from storage.series_catalog import SeriesInfo, find_series, get_series, version_by_number
@@ -87,16 +97,23 @@ async def upload_series(request: Request, response: Response, caller: Writer, se
     return outcome
 
 
-@router.get("/series", response_model=SeriesPage, responses=problem_responses(*ERRORS))
+@router.get("/series", response_model=SeriesPage,
+            responses={**csv_openapi(flat_columns(SeriesOut)),
+                       **problem_responses(*ERRORS, 406)})
 def list_series(request: Request, response: Response, caller: Reader, sessions: Sessions,
-                tag: TagFilter, prefix: Annotated[str | None, Query(max_length=200)] = None,
-                limit: Limit = 100, offset: Offset = 0) -> SeriesPage:
+                tag: TagFilter, output: FormatParam = None,
+                prefix: Annotated[str | None, Query(max_length=200)] = None,
+                limit: Limit = 100, offset: Offset = 0) -> Any:
     """Series whose key starts with ``prefix`` and that carry every ``tag``, by key."""
+    chosen = chosen_format(request, output)
     with sessions.begin() as session:
         found = find_series(session, prefix=prefix, tags=tag, limit=limit + 1, offset=offset)
     link = next_link(request, offset, limit, len(found) > limit)
+    items = [_series_out(s) for s in found[:limit]]
+    if chosen == "csv":
+        return csv_response(flat_rows(items), flat_columns(SeriesOut), link)
     link_headers(response, link)
-    return SeriesPage(items=[_series_out(s) for s in found[:limit]], next=link)
+    return SeriesPage(items=items, next=link)
 
 
 @router.get("/series/{key:path}/versions/{number}", response_model=VersionDataOut,

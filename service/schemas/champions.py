@@ -28,6 +28,7 @@ class ChampionRow(Row):
     series_key: str
     choice_id: int
     candidate_id: str
+    candidate: str = Field(description="the candidate's label at the series' season length")
     run_id: int | None
     reason: str
     chosen_by: str

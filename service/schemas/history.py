@@ -60,6 +60,8 @@ class AuditEventOut(BaseModel):
     actor: str
     action: str
     subject: str
+    subject_label: str = Field(description="the subject in words: series keys, version and "
+                               "run numbers, candidate specs (the subject keeps the ids)")
     digest: str = Field(description="SHA-256 of the content the event vouches for")
     prev_hash: str
     hash: str

@@ -48,6 +48,8 @@ class MonitoringOut(BaseModel):
 
     series_key: str
     candidate_id: str
+    candidate: str | None = Field(description="the candidate's label at the series' season "
+                                  "length (null for an unknown candidate id)")
     is_champion: bool
     forecasts: int = Field(description="issued forecasts of this candidate on the series")
     realised: list[RealisedOut]
@@ -62,6 +64,7 @@ class FlagRow(Row):
 
     series_key: str
     candidate_id: str
+    candidate: str | None
     rule: str
     raised: bool
     level: int | None
@@ -83,6 +86,7 @@ class RealisedRow(Row):
 
     series_key: str
     candidate_id: str
+    candidate: str | None
     period: str
     count: int
     mase: float | None

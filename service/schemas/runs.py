@@ -82,6 +82,14 @@ class RunLinks(BaseModel):
     ranking: str
     diagnostics: str
     evidence: str
+    report: str
+
+
+class RunCandidateOut(BaseModel):
+    """A candidate of a run: its id and its label at the run's season lengths."""
+
+    id: str
+    label: str
 
 
 class RunOut(BaseModel):
@@ -102,4 +110,13 @@ class RunOut(BaseModel):
     timings: TimingsOut
     series: list[RunSeriesOut]
     candidate_ids: list[str]
+    candidates: list[RunCandidateOut] = Field(description="the candidates with their labels, "
+                                              "in request order (numbered from 1 there)")
     links: RunLinks
+
+
+class RunPage(BaseModel):
+    """One page of the run listing, newest first; ``next`` links the following page."""
+
+    items: list[RunOut]
+    next: str | None

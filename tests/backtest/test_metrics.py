@@ -1,10 +1,11 @@
 """Accuracy measures against published definitions, on a small quarterly example.
 
-Check values: the toy data and results of the project's reference sheet, computed from
-the definitions in Hyndman & Koehler (2006) for MASE (and the M4 seasonal scaling,
-Makridakis, Spiliotis & Assimakopoulos 2020), the M5 guide for RMSSE (Makridakis et al.
-2022), the M4 sMAPE and MSIS, and Winkler (1972) / Gneiting & Raftery (2007, eq. 43) for
-the interval score. Each expected value is also re-derived by hand below where short.
+Check values: an invented quarterly toy series, results computed by hand and with numpy
+2.4.6 from the definitions (recalled) in Hyndman & Koehler (2006) for MASE (and the M4
+seasonal scaling, Makridakis, Spiliotis & Assimakopoulos 2020), the M5 guide for RMSSE
+(Makridakis et al. 2022), the M4 sMAPE and MSIS, and Winkler (1972) / Gneiting & Raftery
+(2007, eq. 43, equation number recalled) for the interval score. Each expected value is
+also re-derived by hand below where short.
 """
 
 import numpy as np

@@ -19,6 +19,15 @@ from backtest.models.kalman_stretch import states_at
 from backtest.plan import parse_plan
 from backtest.runner import run_candidate
 from backtest.series import make_series
+from tests.backtest.airline_reference import (
+    COEFFICIENT_TOLERANCE,
+    CSS_ESTIMATES,
+    LOGLIK_TOLERANCE,
+    MAX_LOGLIK,
+    PUBLISHED_SEASONAL_THETA,
+    PUBLISHED_THETA,
+    assert_exact_ml,
+)
 
 TOLERANCE = 1e-8
 HORIZON = 12
@@ -78,24 +87,39 @@ def test_estimation_equals_a_plain_statsmodels_fit(spec, log_air):
     _assert_same(forecast, hand.get_forecast(HORIZON))
 
 
+def _recording(fit):
+    """``fit()`` with the warnings it emits, as (result, [(category, message)])."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = fit()
+    return result, [(w.category, str(w.message)) for w in caught]
+
+
 def test_a_memory_saving_fit_is_refused_as_a_forecast_source(log_air):
     """statsmodels' ``low_memory=True`` fit drops the predicted covariances (its forecast
     variances are NaN); the one-pass method refuses such output, and the engine's own fit
-    keeps finite variances equal to the full fit's."""
+    keeps finite variances equal to the full fit's.
+
+    On this window the optimiser stops short of its convergence test under some BLAS
+    kernels (measured: Sandybridge, a ConvergenceWarning after 22 iterations, the
+    log-likelihood 5.5e-6 below the maximum): the engine's fit must then warn exactly as
+    statsmodels' own does, and still give the same forecasts."""
     spec, y = SPECS[0], log_air[:120]
-    lean = _statsmodels_model(spec, y).fit(low_memory=True)
+    lean, _ = _recording(lambda: _statsmodels_model(spec, y).fit(low_memory=True))
     with pytest.raises(ValueError, match="predicted states"):
         states_at(lean.filter_results, [len(y)])
-    _, forecast = spec.fit_forecast(y, 12, HORIZON, LEVELS, 0)
+    (_, forecast), ours = _recording(lambda: spec.fit_forecast(y, 12, HORIZON, LEVELS, 0))
+    hand, theirs = _recording(lambda: _statsmodels_model(spec, y).fit())
+    assert ours == theirs
     assert np.all(np.isfinite(forecast.upper[95]))
-    _assert_same(forecast, _statsmodels_model(spec, y).fit().get_forecast(HORIZON))
+    _assert_same(forecast, hand.get_forecast(HORIZON))
 
 
 def test_chandrasekhar_recursions_would_be_detected(log_air):
     """The Chandrasekhar recursions do not handle this model's diffuse initialisation (its
     likelihood comes out wrong); the reference comparison above would catch their use."""
     spec, y = SPECS[0], log_air[:120]
-    params = spec.fit(y, 12).params
+    params = _estimate(spec, y)
     model = _statsmodels_model(spec, y)
     model.ssm.filter_chandrasekhar = True
     vector = [params[n] for n in model.param_names]
@@ -106,19 +130,27 @@ def test_chandrasekhar_recursions_would_be_detected(log_air):
 
 
 def test_estimates_are_the_exact_likelihood_ones(log_air):
-    """REFERENCES.md section 6 [V]: statsmodels' exact diffuse likelihood on log Series G gives
-    ma.L1 = -0.40192455, ma.S.L12 = -0.55710137, sigma2 = 0.00134758;
-    ``simple_differencing=True`` (a conditional likelihood) gives -0.401812, -0.556947."""
+    """The engine maximises the exact Gaussian likelihood: for the airline model on log
+    Series G, statsmodels' exact (diffuse) log-likelihood evaluated at the engine's estimates
+    by a separate model reaches the reference maximum (``tests.backtest.airline_reference``);
+    the conditional-sum-of-squares estimates fall 0.085 short of it. The coefficients agree
+    with the published exact-ML theta = 0.4018, Theta = 0.5569 (Box & Jenkins 1976 as widely
+    reproduced; recalled) to the precision the flat likelihood allows."""
     params = SPECS[0].fit(log_air, 12).params
-    exact = [params["ma.L1"], params["ma.S.L12"], params["sigma2"]]
-    np.testing.assert_allclose(exact, [-0.40192455, -0.55710137, 0.00134758], atol=5e-8)
-    assert abs(params["ma.L1"] - -0.401812) > 1e-4 and abs(params["ma.S.L12"] - -0.556947) > 1e-4
+    model = _statsmodels_model(SPECS[0], log_air)
+    assert_exact_ml(model.loglike(np.array([params[n] for n in model.param_names])))
+    assert model.loglike(np.array(CSS_ESTIMATES)) < MAX_LOGLIK - 100 * LOGLIK_TOLERANCE
+    assert params["ma.L1"] == pytest.approx(-PUBLISHED_THETA, abs=COEFFICIENT_TOLERANCE)
+    assert params["ma.S.L12"] == pytest.approx(-PUBLISHED_SEASONAL_THETA,
+                                               abs=COEFFICIENT_TOLERANCE)
 
 
 def test_airline_interval_matches_psi_weights(log_air):
-    """REFERENCES.md section 11: for the airline model and h <= 12, Var(h) = sigma2 (1 + (h-1)
+    """psi-weights (Box, Jenkins, Reinsel & Ljung 2015, ch. 5; recalled): for the airline
+    model and h <= 12, psi_j = 1 + theta, so Var(h) = sigma2 (1 + (h-1)
     (1 + theta)^2) in statsmodels' sign convention, up to the Kalman state uncertainty
-    (statsmodels/psi ratio 1.0000004-1.0000008 there)."""
+    (standard-error ratio statsmodels/psi 1.0000004-1.0000008 there, computed with
+    statsmodels 0.15.0)."""
     spec = SPECS[0]
     params = spec.fit(log_air, 12).params
     (ours,) = spec.forecast_stretch(log_air, 12, params, [144], HORIZON, (95,), [0])

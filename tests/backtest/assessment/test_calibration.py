@@ -1,5 +1,10 @@
-"""Interval calibration tests against REFERENCES §3 (Kupiec 1995; Christoffersen 1998;
-Basel Committee 1996)."""
+"""Interval calibration tests against Kupiec (1995), Christoffersen (1998) and the Basel
+Committee (1996).
+
+Kupiec's LR_POF = -2 ln[(1-p)^(T-x) p^x] + 2 ln[(1-p_hat)^(T-x) p_hat^x] ~ chi2(1), and
+Christoffersen's LR_ind on the transition counts n_ij ~ chi2(1); both formulas recalled. The
+check values are computed with numpy 2.4.6 / scipy 1.17.1 from those formulas.
+"""
 
 from __future__ import annotations
 
@@ -17,7 +22,7 @@ from backtest.assessment.calibration import (
     zone_thresholds,
 )
 
-# REFERENCES §3: violations coded 1, T = 20, x = 5, nominal miss rate 0.10
+# Invented hit sequence: violations coded 1, T = 20, x = 5, nominal miss rate 0.10
 VIOLATIONS = [0, 0, 1, 1, 0, 0, 0, 1, 0, 0, 0, 0, 0, 1, 1, 0, 0, 0, 0, 0]
 HITS = [1 - v for v in VIOLATIONS]
 
@@ -62,7 +67,8 @@ def test_christoffersen_transitions_and_independence_match_reference():
 
 def test_christoffersen_conditional_coverage_uses_the_t_minus_one_transitions():
     # Our documented choice: LR_cc is the paper's single ratio on the T - 1 transitions,
-    # = LR_uc on observations 2..T (4.075249) + LR_ind, = 4.697593 [V].
+    # = LR_uc on observations 2..T (4.075249) + LR_ind, = 4.697593 (computed with
+    # scipy 1.17.1).
     out = christoffersen(HITS, 0.10)
     assert out["uc_observations"] == 19
     assert out["lr_uc"] == pytest.approx(4.075249, abs=1e-6)
@@ -73,8 +79,9 @@ def test_christoffersen_conditional_coverage_uses_the_t_minus_one_transitions():
 
 
 def test_the_alternative_with_kupiec_on_all_t_observations_gives_the_other_reference_value():
-    # REFERENCES §3 [V]: LR_uc on all 20 = 3.693261 (p 0.054633); + LR_ind = 4.315605
-    # (p 0.115579). Not what christoffersen() returns as lr_cc; kupiec_pof gives the part.
+    # Computed with scipy 1.17.1: LR_uc on all 20 = 3.693261 (p 0.054633); + LR_ind =
+    # 4.315605 (p 0.115579). Not what christoffersen() returns as lr_cc; kupiec_pof gives
+    # the part.
     uc = kupiec_pof(5, 20, 0.10)
     assert uc["lr"] == pytest.approx(3.693261, abs=1e-6)
     assert uc["p_value"] == pytest.approx(0.054633, abs=1e-6)
@@ -102,9 +109,10 @@ def test_christoffersen_rejects_values_other_than_zero_and_one():
 
 
 def test_zone_boundaries_reproduce_the_basel_table_for_250_days_at_99_percent():
-    # Basel Committee (1996): 0-4, 5-9, 10+ exceptions (recalled, checked [R✓]);
-    # REFERENCES §3 [V]: P(X<=4) = 0.892188, P(X<=5) = 0.958817, P(X<=9) = 0.999750,
-    # P(X<=10) = 0.999946, X ~ Binomial(250, 0.01)
+    # Basel Committee (1996), zone table: green 0-4, yellow 5-9, red 10+ exceptions
+    # (recalled; the binomial boundaries below agree). Computed with scipy 1.17.1:
+    # P(X<=4) = 0.892188, P(X<=5) = 0.958817, P(X<=9) = 0.999750, P(X<=10) = 0.999946,
+    # X ~ Binomial(250, 0.01)
     cdf = stats.binom.cdf([4, 5, 9, 10], 250, 0.01)
     np.testing.assert_allclose(cdf, [0.892188, 0.958817, 0.999750, 0.999946], atol=1e-6)
     assert zone_thresholds(250, 0.01) == (5, 10)

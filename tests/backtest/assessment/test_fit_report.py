@@ -1,4 +1,10 @@
-"""Fit reports against the airline model (Box & Jenkins 1976; REFERENCES §5, §6, §8)."""
+"""Fit reports against the airline model on log Series G (Box & Jenkins 1976).
+
+Values downstream of the estimates (standard errors, criteria, residual statistics, roots)
+are checked against the published precision, through the log-likelihood, or against
+statsmodels computing the same quantity from the report's own estimates in this process;
+see ``tests.backtest.airline_reference`` for why and for the tolerances.
+"""
 
 from __future__ import annotations
 
@@ -10,12 +16,27 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 from scipy import stats
+from statsmodels.stats.diagnostic import acorr_ljungbox
 
 from backtest.assessment.fit_report import arima_roots, fit_report, fold_fit_summary
 from backtest.models.base import Fit
 from backtest.models.benchmarks import BenchmarkSpec
 from backtest.models.ets import EtsSpec
 from backtest.models.theta import ThetaSpec
+from tests.backtest.airline_reference import (
+    COEFFICIENT_TOLERANCE,
+    PUBLISHED_LOGLIK,
+    PUBLISHED_SEASONAL_THETA,
+    PUBLISHED_SIGMA2,
+    PUBLISHED_STANDARD_ERRORS,
+    PUBLISHED_THETA,
+    SIGMA2_RELATIVE_TOLERANCE,
+    assert_exact_ml,
+)
+
+# Standard errors move with the optimiser's stopping point: by up to 5e-5 between the BLAS
+# kernels measured, by about 1.3e-4 across the coefficients' tolerance.
+STANDARD_ERROR_TOLERANCE = 2e-4
 
 
 @pytest.fixture(scope="module")
@@ -49,41 +70,52 @@ def _quiet_fit(spec, y, m):
 
 
 def test_airline_estimates_match_reference(report):
-    # REFERENCES §6 [V], statsmodels 0.15: ma.L1 = -0.40192455 (BJ theta = 0.4019),
-    # ma.S.L12 = -0.55710137 (Theta = 0.5571), sigma2 = 0.00134758
+    # Published exact-ML theta = 0.4018, Theta = 0.5569, sigma^2 = 0.001348 (Box & Jenkins
+    # 1976 as widely reproduced; recalled), opposite sign in statsmodels; the estimates at
+    # the precision the likelihood ridge allows, the log-likelihood at its maximum.
     rows = _rows(report)
-    assert rows["ma.L1"]["estimate"] == pytest.approx(-0.40192455, abs=1e-6)
-    assert rows["ma.S.L12"]["estimate"] == pytest.approx(-0.55710137, abs=1e-6)
-    assert rows["sigma2"]["estimate"] == pytest.approx(0.00134758, abs=1e-8)
+    assert rows["ma.L1"]["estimate"] == pytest.approx(-PUBLISHED_THETA,
+                                                      abs=COEFFICIENT_TOLERANCE)
+    assert rows["ma.S.L12"]["estimate"] == pytest.approx(-PUBLISHED_SEASONAL_THETA,
+                                                         abs=COEFFICIENT_TOLERANCE)
+    assert rows["sigma2"]["estimate"] == pytest.approx(PUBLISHED_SIGMA2,
+                                                       rel=SIGMA2_RELATIVE_TOLERANCE)
+    assert_exact_ml(report["information_criteria"]["loglik"])
     assert report["innovation_variance"]["value"] == rows["sigma2"]["estimate"]
 
 
 def test_airline_information_criteria_match_reference(report):
-    # REFERENCES §6 and §8 [V]: llf, AIC, AICc = AIC + 2*3*4/(131-3-1), BIC, N = 131
+    # Published log L = 244.7 (recalled); AIC = -2 log L + 2K (Akaike 1974), AICc = AIC +
+    # 2K(K+1)/(N-K-1) (Hurvich & Tsai 1989), BIC = -2 log L + K ln N (Schwarz 1978), with
+    # K = 3 (theta, Theta, sigma^2) and N = 144 - 13 = 131 after differencing.
     ic = report["information_criteria"]
-    assert ic["loglik"] == pytest.approx(244.696480, abs=1e-6)
-    assert ic["aic"] == pytest.approx(-483.392960, abs=1e-6)
-    assert ic["aicc"] == pytest.approx(-483.203984, abs=1e-6)
-    assert ic["bic"] == pytest.approx(-474.7674, abs=1e-4)
     assert (ic["n_parameters"], ic["nobs_effective"]) == (3, 131)
+    assert_exact_ml(ic["loglik"])
+    assert ic["loglik"] == pytest.approx(PUBLISHED_LOGLIK, abs=0.05)
+    assert ic["aic"] == pytest.approx(-2 * ic["loglik"] + 2 * 3, rel=1e-12)
+    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (131 - 3 - 1), rel=1e-12)
+    assert ic["bic"] == pytest.approx(-2 * ic["loglik"] + 3 * np.log(131), rel=1e-12)
 
 
 def test_airline_standard_errors_use_the_numerical_hessian(report):
-    # REFERENCES §6 [V]: approx (numerical Hessian) s.e. 0.08959 and 0.07308, matching the
-    # published 0.0896 / 0.0731 (recalled); statsmodels' default opg gives 0.07300 / 0.09627
+    # Published s.e. 0.0896 (theta) and 0.0731 (Theta) (recalled); the numerical Hessian
+    # reproduces them, statsmodels' default opg (0.0730 / 0.0963) does not.
     rows = _rows(report)
     assert report["covariance"]["estimator"] == "approx"
-    assert rows["ma.L1"]["std_error"] == pytest.approx(0.08959, abs=1e-5)
-    assert rows["ma.S.L12"]["std_error"] == pytest.approx(0.07308, abs=1e-5)
-    assert rows["ma.L1"]["std_error"] == pytest.approx(0.0896, abs=5e-5)
-    assert rows["ma.S.L12"]["std_error"] == pytest.approx(0.0731, abs=5e-5)
+    published_theta, published_seasonal = PUBLISHED_STANDARD_ERRORS
+    assert rows["ma.L1"]["std_error"] == pytest.approx(published_theta,
+                                                       abs=STANDARD_ERROR_TOLERANCE)
+    assert rows["ma.S.L12"]["std_error"] == pytest.approx(published_seasonal,
+                                                          abs=STANDARD_ERROR_TOLERANCE)
 
 
 def test_opg_covariance_is_available_on_request(airline):
+    # Computed with statsmodels 0.15.0 at its estimates: opg s.e. 0.0730 and 0.0963 (the
+    # kernels measured agree to 3e-5), clearly apart from the Hessian's 0.0896 / 0.0731.
     spec, fit, y, _ = airline
     rows = _rows(fit_report(spec, fit, y, 12, covariance="opg"))
-    assert rows["ma.L1"]["std_error"] == pytest.approx(0.07300, abs=1e-5)
-    assert rows["ma.S.L12"]["std_error"] == pytest.approx(0.09627, abs=1e-5)
+    assert rows["ma.L1"]["std_error"] == pytest.approx(0.0730, abs=STANDARD_ERROR_TOLERANCE)
+    assert rows["ma.S.L12"]["std_error"] == pytest.approx(0.0963, abs=STANDARD_ERROR_TOLERANCE)
 
 
 def test_wald_tests_for_coefficients_but_not_the_variance(report):
@@ -96,17 +128,21 @@ def test_wald_tests_for_coefficients_but_not_the_variance(report):
     assert "boundary" in rows["sigma2"]["note"]
 
 
-def test_airline_residual_tests_match_reference(report):
-    # REFERENCES §5 [V]: airline residuals resid[13:], n = 131, model_df = 2:
-    # Q(12) = 8.468366 (p = 0.583187), Q(24) = 23.619108 (p = 0.367507)
+def test_airline_residual_tests_match_reference(airline, report):
+    # Ljung & Box (1978) on the Kalman residuals after the 13-value burn-in, n = 131,
+    # model_df = 2. Same residuals, same process: statsmodels 0.15.0's acorr_ljungbox gives
+    # the same statistics. Across BLAS kernels (different stopping points) it gave
+    # Q(12) = 8.468-8.473 (p 0.5828-0.5832) and Q(24) = 23.617-23.620 (p 0.3675-0.3676).
     residuals = report["residuals"]
     assert (residuals["n"], residuals["model_df"]) == (131, 2)
     q12, q24 = residuals["ljung_box"]
     assert (q12["lag"], q12["df"], q24["lag"], q24["df"]) == (12, 10, 24, 22)
-    assert q12["q"] == pytest.approx(8.468366, abs=1e-6)
-    assert q12["p_value"] == pytest.approx(0.583187, abs=1e-6)
-    assert q24["q"] == pytest.approx(23.619108, abs=1e-6)
-    assert q24["p_value"] == pytest.approx(0.367507, abs=1e-6)
+    expected = acorr_ljungbox(airline[1].raw.resid[13:], lags=[12, 24], model_df=2)
+    np.testing.assert_allclose([q12["q"], q24["q"]], expected["lb_stat"], rtol=1e-10)
+    np.testing.assert_allclose([q12["p_value"], q24["p_value"]], expected["lb_pvalue"],
+                               rtol=1e-10)
+    assert q12["q"] == pytest.approx(8.47, abs=0.03)
+    assert q24["q"] == pytest.approx(23.62, abs=0.03)
     assert residuals["arch_lm"]["nlags"] == 12 and residuals["acf"]["nlags"] == 24
 
 
@@ -115,9 +151,14 @@ def test_airline_roots_are_outside_the_unit_circle(report):
     assert roots["ar"]["regular"] == [] and roots["ar"]["min_modulus_in_b"] is None
     (regular,) = roots["ma"]["regular"]
     (seasonal,) = roots["ma"]["seasonal"]
-    assert regular["modulus"] == pytest.approx(1 / 0.40192455, rel=1e-6)
-    assert seasonal["modulus"] == pytest.approx(1 / 0.55710137, rel=1e-6)
-    assert seasonal["modulus_in_b"] == pytest.approx((1 / 0.55710137) ** (1 / 12), rel=1e-6)
+    # 1 + theta B has its root at |B| = 1 / |theta|, for the report's own estimates
+    rows = _rows(report)
+    theta, seasonal_theta = abs(rows["ma.L1"]["estimate"]), abs(rows["ma.S.L12"]["estimate"])
+    assert regular["modulus"] == pytest.approx(1 / theta, rel=1e-10)
+    assert seasonal["modulus"] == pytest.approx(1 / seasonal_theta, rel=1e-10)
+    assert seasonal["modulus_in_b"] == pytest.approx((1 / seasonal_theta) ** (1 / 12),
+                                                     rel=1e-10)
+    assert regular["modulus"] == pytest.approx(1 / PUBLISHED_THETA, abs=0.01)
     assert not roots["ma"]["near_unit"] and not roots["ma"]["on_or_inside_unit_circle"]
 
 
@@ -165,7 +206,7 @@ def test_fold_summary_is_compact_and_consistent_with_the_report(airline, report)
         assert values["p_value"] == rows[name]["p_value"]
         assert values["std_error"] == rows[name]["std_error"]
     assert summary["ljung_box"]["lag"] == 12
-    assert summary["ljung_box"]["p_value"] == pytest.approx(0.583187, abs=1e-6)
+    assert summary["ljung_box"]["p_value"] == report["residuals"]["ljung_box"][0]["p_value"]
 
 
 def test_arima_without_results_object_reports_reasons(airline):

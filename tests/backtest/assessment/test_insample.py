@@ -63,7 +63,7 @@ def test_theta_rebuilt_forecast_from_the_last_origin_is_statsmodels_forecast(
     ("mean", lambda y: y - y.mean()),
 ])
 def test_benchmark_errors_are_closed_form(method, expected):
-    # REFERENCES toy data (quarterly)
+    # Invented quarterly toy series
     y = np.array([12, 15, 20, 14, 13, 17, 22, 15, 15, 18, 24, 17], dtype=float)
     spec = BenchmarkSpec(method)
     out = one_step_errors(spec, spec.fit(y, 4), y, 4)

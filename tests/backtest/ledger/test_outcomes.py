@@ -1,12 +1,13 @@
 """Outcome arithmetic on a small quarterly example worked out by hand.
 
-The data are the toy series of the project's reference sheet (REFERENCES.md §1-2):
+The data are an invented quarterly toy series (the one in tests/backtest/test_metrics.py):
 training y = 12 15 20 14 | 13 17 22 15 | 15 18 24 17 (quarterly, m = 4). The seasonal
 naive forecast repeats the last year: 15 18 24 17. Hand arithmetic:
 
 - MASE scale (issuing version): seasonal differences 1 2 2 1 2 1 2 2, mean 13/8 = 1.625
-  (REFERENCES §1 [V]: seasonal scale = 1.625); RMSSE scale: one-step differences
-  3 5 -6 -1 4 5 -7 0 3 6 -7, squares sum 255, /11 = 23.181818 (REFERENCES §1 [V]).
+  (the M4 seasonal scaling, Makridakis, Spiliotis & Assimakopoulos 2020); RMSSE scale:
+  one-step differences 3 5 -6 -1 4 5 -7 0 3 6 -7, squares sum 255, /11 = 23.181818
+  (M5 definition, Makridakis, Spiliotis & Assimakopoulos 2022).
 - Residual scale of the seasonal naive: sqrt(mean of squared seasonal differences)
   = sqrt(23/8); every h <= 4 has sd = s, so the 80 % half-width is 1.281552 s.
 - Actuals 16 21 25 13: errors 1 3 1 -4; scaled 1/1.625 = 0.615385, 1.846154,
@@ -73,9 +74,9 @@ def test_errors_hits_and_scores_by_hand(issued):
 
 
 def test_reference_sheet_interval_scores(issued):
-    # REFERENCES.md §2 [V]: forecast 15 19 26 17, 95 % bounds [14,18] [18,21] [21,24]
-    # [18.5,22], actuals 16 20 25 18 -> interval scores 4 3 43 23.5, coverage 0.5,
-    # MASE (m = 4) 0.615385.
+    # Invented toy forecast 15 19 26 17, 95 % bounds [14,18] [18,21] [21,24] [18.5,22],
+    # actuals 16 20 25 18 -> interval scores (Winkler 1972; Gneiting & Raftery 2007)
+    # 4 3 43 23.5 by hand, coverage 0.5, MASE (m = 4) = 1/1.625 = 0.615385.
     sheet = dataclasses.replace(issued, point=(15.0, 19, 26, 17), levels=(95,),
                                 lower={95: (14.0, 18, 21, 18.5)}, upper={95: (18.0, 21, 24, 22)})
     outcomes = score_outcomes(sheet, quarterly(TRAIN + [16, 20, 25, 18]))

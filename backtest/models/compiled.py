@@ -1,0 +1,39 @@
+"""numba compilation with an on-disk cache in a writable place.
+
+Compiled functions are cached by numba (``cache=True``) under ``NUMBA_CACHE_DIR``; when
+that is not set it defaults to ``foldline/numba`` in the user's cache directory
+(``$XDG_CACHE_HOME``, else ``~/.cache``), so a read-only installation still keeps its
+machine code between processes. The first process compiles (a few seconds), later ones
+load the cache; :func:`warm_up` in :mod:`.fast_arima` does it at worker start.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from pathlib import Path
+from typing import TypeVar
+
+F = TypeVar("F", bound=Callable)
+
+
+def cache_dir() -> Path:
+    """Where compiled functions are cached."""
+    chosen = os.environ.get("NUMBA_CACHE_DIR")
+    if chosen:
+        return Path(chosen)
+    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+    return Path(base) / "foldline" / "numba"
+
+
+os.environ.setdefault("NUMBA_CACHE_DIR", str(cache_dir()))
+
+import numba  # noqa: E402 - numba reads NUMBA_CACHE_DIR when imported
+
+if not numba.config.CACHE_DIR:  # numba was imported before this module
+    numba.config.CACHE_DIR = str(cache_dir())
+
+
+def njit(function: F) -> F:
+    """Compile ``function`` in nopython mode, cached on disk."""
+    return numba.njit(cache=True, nogil=True)(function)

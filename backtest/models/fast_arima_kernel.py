@@ -1,0 +1,261 @@
+"""Compiled exact Gaussian likelihood of a stationary ARMA model with a regression mean.
+
+The differenced series ``w`` of an ARIMA model is a stationary ARMA process around
+``X beta`` (``X``: the deterministic regressor differenced like the data, or no column).
+Its exact likelihood is computed by a Kalman filter over Harvey's state (dimension
+``r = max(p, q + 1)``, transition with the AR coefficients in the first column and ones
+above the diagonal, disturbance loading ``(1, theta_1, ..., theta_{r-1})``), started
+from the stationary covariance (Durbin & Koopman 2012, section 3.4; Harvey 1989,
+section 3.4). The observation carries no noise, so after each update the first row of
+the state covariance is zero and the prediction step is a shift plus ``R R'``. Once the
+covariance stops changing the filter continues with the steady gain. With the filter
+run at unit variance, ``beta`` (GLS) and the innovation variance are concentrated out
+(Harvey 1989, section 3.4.2): the profile log-likelihood is
+
+    -n/2 (log 2 pi + 1 + log sigma2_hat) - 1/2 sum log F_t.
+
+Parameters reach the filter through Monahan's (1984) map of unconstrained values to
+stationary (invertible) coefficients, the map statsmodels' SARIMAX uses.
+
+The functions are compiled by numba on first use and cached on disk (:mod:`.compiled`).
+
+References
+----------
+Durbin, J. and Koopman, S. J. (2012). *Time Series Analysis by State Space Methods*,
+2nd ed., Oxford University Press.
+Harvey, A. C. (1989). *Forecasting, Structural Time Series Models and the Kalman Filter*.
+Cambridge University Press.
+Monahan, J. F. (1984). A note on enforcing stationarity in autoregressive-moving average
+models. *Biometrika* 71(2), 403-404.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from backtest.models.compiled import njit
+
+#: Largest element change of the state covariance at which the filter turns steady.
+STEADY_TOLERANCE = 1e-13
+
+
+@njit
+def constrain(unconstrained: np.ndarray) -> np.ndarray:
+    """Monahan's map: ``c`` with ``1 - c_1 z - ... - c_k z^k`` stationary."""
+    n = unconstrained.shape[0]
+    y = np.zeros((n, n))
+    r = unconstrained / np.sqrt(1.0 + unconstrained ** 2)
+    for k in range(n):
+        for i in range(k):
+            y[k, i] = y[k - 1, i] + r[k] * y[k - 1, k - i - 1]
+        y[k, k] = r[k]
+    out = np.empty(n)
+    for i in range(n):
+        out[i] = -y[n - 1, i]
+    return out
+
+
+@njit
+def expand(x: np.ndarray, p: int, q: int, big_p: int, big_q: int, s: int
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """Full AR and MA coefficients of the multiplicative model at unconstrained ``x``
+    (p AR, q MA, P seasonal AR and Q seasonal MA values in that order)."""
+    return multiply(constrain(x[:p]), -constrain(x[p:p + q]),
+                    constrain(x[p + q:p + q + big_p]),
+                    -constrain(x[p + q + big_p:p + q + big_p + big_q]), s)
+
+
+@njit
+def multiply(phi: np.ndarray, theta: np.ndarray, big_phi: np.ndarray, big_theta: np.ndarray,
+             s: int) -> tuple[np.ndarray, np.ndarray]:
+    """Full AR and MA coefficients of ``(1 - phi(B))(1 - Phi(B^s)) y = (1 + theta(B))
+    (1 + Theta(B^s)) e``: ``y_t = sum ar_k y_{t-k} + e_t + sum ma_k e_{t-k}``."""
+    p, q, big_p, big_q = phi.shape[0], theta.shape[0], big_phi.shape[0], big_theta.shape[0]
+    ar = np.zeros(p + big_p * s)
+    ma = np.zeros(q + big_q * s)
+    for i in range(p + 1):
+        a = 1.0 if i == 0 else -phi[i - 1]
+        for j in range(big_p + 1):
+            b = 1.0 if j == 0 else -big_phi[j - 1]
+            k = i + j * s
+            if k > 0:
+                ar[k - 1] -= a * b
+    for i in range(q + 1):
+        a = 1.0 if i == 0 else theta[i - 1]
+        for j in range(big_q + 1):
+            b = 1.0 if j == 0 else big_theta[j - 1]
+            k = i + j * s
+            if k > 0:
+                ma[k - 1] += a * b
+    return ar, ma
+
+
+@njit
+def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
+    """Stationary covariance of Harvey's state at unit innovation variance.
+
+    ``phi`` and ``loading`` (``(1, theta_1, ...)``) have the state's length ``r``. The
+    first row comes from the autocovariances and the psi weights; the rest from the
+    element-wise Lyapunov equation ``P_ij = phi_i phi_j g0 + R_i R_j + phi_i P_1,j+1 +
+    phi_j P_1,i+1 + P_i+1,j+1`` filled from the bottom right corner.
+    """
+    r = phi.shape[0]
+    n_ar = 0
+    for k in range(r):
+        if phi[k] != 0.0:
+            n_ar = k + 1
+    psi = np.zeros(r + 1)
+    for j in range(r + 1):
+        value = 1.0 if j == 0 else (loading[j] if j < r else 0.0)
+        for k in range(1, min(j, n_ar) + 1):
+            value += phi[k - 1] * psi[j - k]
+        psi[j] = value
+    # right-hand sides sum_{j>=h} theta_j psi_{j-h}, theta_0 = 1
+    rhs = np.zeros(r + 1)
+    for h in range(r + 1):
+        total = 0.0
+        for j in range(h, r):
+            total += loading[j] * psi[j - h]
+        rhs[h] = total
+    gamma = np.zeros(r + 1)
+    m = n_ar + 1
+    a = np.zeros((m, m))
+    for h in range(m):
+        a[h, h] += 1.0
+        for k in range(1, n_ar + 1):
+            a[h, abs(h - k)] -= phi[k - 1]
+    solved = np.linalg.solve(a, rhs[:m].copy())
+    for h in range(m):
+        gamma[h] = solved[h]
+    for h in range(m, r + 1):
+        value = rhs[h]
+        for k in range(1, n_ar + 1):
+            value += phi[k - 1] * gamma[h - k]
+        gamma[h] = value
+    cov = np.zeros((r, r))
+    # first row: E[y_t alpha_{t,i}] = sum_{m>=i} phi_m g(m-i+1) + sum_{m>=i-1} theta_m psi_{m-i+1}
+    cov[0, 0] = gamma[0]
+    for i in range(1, r):
+        total = 0.0
+        for k in range(i, r):
+            total += phi[k] * gamma[k - i + 1]
+        for k in range(i, r):
+            total += loading[k] * psi[k - i]
+        cov[0, i] = total
+        cov[i, 0] = total
+    for i in range(r - 1, 0, -1):
+        for j in range(r - 1, i - 1, -1):
+            value = phi[i] * phi[j] * gamma[0] + loading[i] * loading[j]
+            value += phi[i] * (cov[0, j + 1] if j + 1 < r else 0.0)
+            value += phi[j] * (cov[0, i + 1] if i + 1 < r else 0.0)
+            value += cov[i + 1, j + 1] if j + 1 < r else 0.0
+            cov[i, j] = value
+            cov[j, i] = value
+    return cov
+
+
+@njit
+def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
+                ) -> tuple[float, float, float, float]:
+    """Kalman filter of ``w`` and of the regressor ``x`` at unit variance.
+
+    Returns ``sum log F_t``, ``sum v_w^2 / F``, ``sum v_w v_x / F`` and ``sum v_x^2 / F``
+    (``x`` of zeros gives zero regression sums). Non-finite output marks a failure.
+    """
+    n = w.shape[0]
+    r = max(ar.shape[0], ma.shape[0] + 1)
+    phi = np.zeros(r)
+    phi[:ar.shape[0]] = ar
+    loading = np.zeros(r)
+    loading[0] = 1.0
+    loading[1:ma.shape[0] + 1] = ma
+    cov = stationary_cov(phi, loading)
+    a_w = np.zeros(r)
+    a_x = np.zeros(r)
+    gain = np.zeros(r)
+    sum_log_f = 0.0
+    s_ww = 0.0
+    s_wx = 0.0
+    s_xx = 0.0
+    steady = False
+    f = 1.0
+    for t in range(n):
+        if not steady:
+            f = cov[0, 0]
+            if not f > 0.0:
+                return np.nan, np.nan, np.nan, np.nan
+            for i in range(r):
+                gain[i] = cov[i, 0] / f
+        v_w = w[t] - a_w[0]
+        v_x = x[t] - a_x[0]
+        sum_log_f += np.log(f)
+        s_ww += v_w * v_w / f
+        s_wx += v_w * v_x / f
+        s_xx += v_x * v_x / f
+        # update then predict: a_{t+1,i} = phi_i a_{t|t,0} + a_{t|t,i+1}
+        first_w = a_w[0] + gain[0] * v_w
+        first_x = a_x[0] + gain[0] * v_x
+        for i in range(r - 1):
+            a_w[i] = phi[i] * first_w + a_w[i + 1] + gain[i + 1] * v_w
+            a_x[i] = phi[i] * first_x + a_x[i + 1] + gain[i + 1] * v_x
+        a_w[r - 1] = phi[r - 1] * first_w
+        a_x[r - 1] = phi[r - 1] * first_x
+        if steady:
+            continue
+        # P_{t|t} = P - P e1 e1' P / F has a zero first row, so
+        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R'.
+        change = 0.0
+        for i in range(r):
+            for j in range(i, r):
+                value = loading[i] * loading[j]
+                if i + 1 < r and j + 1 < r:
+                    value += cov[i + 1, j + 1] - cov[i + 1, 0] * cov[j + 1, 0] / f
+                change = max(change, abs(value - cov[i, j]))
+                cov[i, j] = value
+        for i in range(r):
+            for j in range(i):
+                cov[i, j] = cov[j, i]
+        steady = change < STEADY_TOLERANCE * max(1.0, abs(cov[0, 0]))
+        if steady:
+            f = cov[0, 0]
+            for i in range(r):
+                gain[i] = cov[i, 0] / f
+    return sum_log_f, s_ww, s_wx, s_xx
+
+
+@njit
+def profile_loglike(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int,
+                    big_p: int, big_q: int, s: int) -> tuple[float, float, float]:
+    """Log-likelihood at unconstrained ``x`` with the mean (when ``reg`` is not all zero)
+    and the variance concentrated out; also returns ``beta`` and ``sigma2``."""
+    ar, ma = expand(x, p, q, big_p, big_q, s)
+    sum_log_f, s_ww, s_wx, s_xx = filter_sums(w, reg, ar, ma)
+    beta = s_wx / s_xx if s_xx > 0.0 else 0.0
+    sse = s_ww - beta * s_wx
+    n = w.shape[0]
+    sigma2 = sse / n
+    if not (sigma2 > 0.0 and np.isfinite(sum_log_f)):
+        return -np.inf, beta, sigma2
+    llf = -0.5 * n * (np.log(2.0 * np.pi) + 1.0 + np.log(sigma2)) - 0.5 * sum_log_f
+    return llf, beta, sigma2
+
+
+@njit
+def objective(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int, big_p: int,
+              big_q: int, s: int, step: float) -> tuple[float, np.ndarray]:
+    """Minus the profile log-likelihood per observation and its central-difference
+    gradient (step ``step`` in every unconstrained coordinate)."""
+    n = w.shape[0]
+    value = -profile_loglike(x, w, reg, p, q, big_p, big_q, s)[0] / n
+    grad = np.zeros(x.shape[0])
+    if not np.isfinite(value):
+        return 1e300, grad
+    for i in range(x.shape[0]):
+        up = x.copy()
+        up[i] += step
+        down = x.copy()
+        down[i] -= step
+        f_up = -profile_loglike(up, w, reg, p, q, big_p, big_q, s)[0] / n
+        f_down = -profile_loglike(down, w, reg, p, q, big_p, big_q, s)[0] / n
+        grad[i] = (f_up - f_down) / (2.0 * step)
+    return value, grad
