@@ -118,7 +118,7 @@ def corpus(size: str = "ci") -> list[CorpusSeries]:
                      (ArimaSpec((2, 1, 1), None, None, "drift"),)),
         CorpusSeries("generated ARIMA(0,2,2)", _generated(6, [], [-0.5, 0.2], 150, 2), 1,
                      (ArimaSpec((0, 2, 2)),)),
-        CorpusSeries("generated seasonal ARIMA(1,0,0)(0,1,1)[12] drift",
+        CorpusSeries("generated seasonal ARIMA(1,0,0)×(0,1,1), season 12, drift",
                      _seasonal(7, 0.5, -0.6, 12, 144, 0.02), 12,
                      (ArimaSpec((1, 0, 0), (0, 1, 1), 12, "drift"), _airline())),
         CorpusSeries("generated seasonal ARIMA(0,1,1)(1,0,0)[4]",
