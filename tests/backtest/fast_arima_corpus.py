@@ -121,7 +121,7 @@ def corpus(size: str = "ci") -> list[CorpusSeries]:
         CorpusSeries("generated seasonal ARIMA(1,0,0)×(0,1,1), season 12, drift",
                      _seasonal(7, 0.5, -0.6, 12, 144, 0.02), 12,
                      (ArimaSpec((1, 0, 0), (0, 1, 1), 12, "drift"), _airline())),
-        CorpusSeries("generated seasonal ARIMA(0,1,1)(1,0,0)[4]",
+        CorpusSeries("generated seasonal ARIMA(0,1,1)×(1,0,0), season 4",
                      _seasonal_ar(8, -0.4, 0.6, 4, 160), 4,
                      (ArimaSpec((0, 1, 1), (1, 0, 0), 4),)),
         CorpusSeries("generated airline", _seasonal_airline(9, -0.4, -0.6, 12, 168), 12,
