@@ -30,7 +30,8 @@ PLAIN_DECIMAL = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0
 REQUIRED = ("series_key", "period", "value")
 OPTIONAL = ("frequency", "season_length")
 FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "train_start",
-                "train_size", "reestimated", "status", "horizon", "period", "actual", "point")
+                "train_size", "reestimated", "status", "horizon", "period", "actual", "point",
+                "level", "lower", "upper")
 SCORE_COLUMNS = ("series_key", "candidate_id", "candidate", "horizon", "metric", "level",
                  "value", "count", "note")
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
@@ -113,7 +114,8 @@ def _build(key: str, group: dict, frequency: str | None, season_length: int | No
 
 
 def fold_rows(result: BacktestResult) -> Iterator[dict]:
-    """One row per fold x horizon, with ``lower_<level>`` / ``upper_<level>`` columns."""
+    """Long form: one row per fold x horizon x interval level (``level``, ``lower``,
+    ``upper``), the point forecast and actual repeated on each level's row."""
     levels = result.plan["levels"]
     for sr in result.series:
         labels = {c.candidate_id: c.label for c in sr.candidates}
@@ -125,10 +127,11 @@ def fold_rows(result: BacktestResult) -> Iterator[dict]:
                        "reestimated": f.reestimated, "status": f.status, "horizon": h,
                        "period": period, "actual": f.actuals[h - 1],
                        "point": f.point[h - 1] if f.point else None}
-                for level in levels:
-                    row[f"lower_{level}"] = f.lower[level][h - 1] if f.lower else None
-                    row[f"upper_{level}"] = f.upper[level][h - 1] if f.upper else None
-                yield row
+                for level in levels or [None]:  # a plan without levels: one row, no bounds
+                    known = level is not None and f.lower
+                    yield {**row, "level": level,
+                           "lower": f.lower[level][h - 1] if known else None,
+                           "upper": f.upper[level][h - 1] if known else None}
 
 
 def score_rows(result: BacktestResult) -> Iterator[dict]:

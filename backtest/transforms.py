@@ -50,11 +50,6 @@ class Transform:
     def canonical(self) -> dict:
         return {"kind": self.kind, "lambda": self.lam}
 
-    def suffix(self) -> str:
-        if self.kind == "boxcox":
-            return f" Box-Cox({self.lam:g})"
-        return " log" if self.kind == "log" else ""
-
 
 def parse_transform(body: object) -> Transform:
     """Read ``"none"``, ``"log"`` or ``{"kind": "boxcox", "lambda": x}``."""

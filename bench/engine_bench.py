@@ -3,9 +3,9 @@
 Part "engine" runs, in this one process, the hand loop and the engine on the same data:
 
 A. log Series G (Box & Jenkins 1976, ``tests/data/series_g.csv``) with the airline model
-   ARIMA(0,1,1)(0,1,1)[12];
+   ARIMA(0,1,1)×(0,1,1), season 12;
 B. a generated panel of monthly series with three candidates: the airline model (log),
-   ARIMA(1,0,0)(0,1,1)[12] with drift (log) and ETS(A,A,A)[12].
+   ARIMA(1,0,0)×(0,1,1), season 12, with drift (log) and ETS(A,A,A), season 12.
 
 For refit cadence 1, 12 and estimate-once it prints seconds, forecasts (origins x
 candidates) per second, the speed ratio to the hand loop at the same cadence and to the

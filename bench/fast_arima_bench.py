@@ -5,7 +5,7 @@ Parts (all by default; ``--part`` picks one):
 - ``compile``: the first-call cost of the compiled likelihood, in a fresh process with an
   empty numba cache (compiling) and again with the cache filled (loading).
 - ``fit``: one estimation of each model on log Series G (Box & Jenkins 1976, from
-  ``tests/data``): the airline model ARIMA(0,1,1)(0,1,1)[12] and ARIMA(1,0,0)(0,1,1)[12]
+  ``tests/data``): the airline model ARIMA(0,1,1)×(0,1,1) and ARIMA(1,0,0)×(0,1,1), season 12,
   with drift (the engine bench's panel models), fast and reference interleaved, with the
   log-likelihood of each.
 - ``search``: the order search of one fold (``arima_search`` defaults) on log Series G at
@@ -55,7 +55,7 @@ from tests.backtest.fast_arima_corpus import corpus, exact_loglike, origins  # n
 
 SERIES_G = ROOT / "tests" / "data" / "series_g.csv"
 MODELS = {"airline": ArimaSpec((0, 1, 1), (0, 1, 1), 12),
-          "ARIMA(1,0,0)(0,1,1)[12] drift": ArimaSpec((1, 0, 0), (0, 1, 1), 12, "drift")}
+          "ARIMA(1,0,0)×(0,1,1), season 12, drift": ArimaSpec((1, 0, 0), (0, 1, 1), 12, "drift")}
 
 
 def _series_g() -> np.ndarray:

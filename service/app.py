@@ -18,6 +18,7 @@ from fastapi.openapi.utils import get_openapi
 from starlette.exceptions import HTTPException
 
 from backtest.errors import BacktestError
+from service.api_docs import add_api_docs
 from service.body_limit import BodyLimitMiddleware
 from service.errors import ServiceError
 from service.metrics import MetricsMiddleware, RequestMetrics
@@ -70,7 +71,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         yield
         engine.dispose()
 
-    app = FastAPI(title="Foldline", version="1", description=DESCRIPTION, lifespan=lifespan)
+    app = FastAPI(title="Foldline", version="1", description=DESCRIPTION, lifespan=lifespan,
+                  docs_url=None, redoc_url=None)
+    add_api_docs(app)
     app.state.settings = settings
     app.state.sessions = session_factory(engine)
     app.state.request_metrics = RequestMetrics()

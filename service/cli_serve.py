@@ -11,6 +11,7 @@ import argparse
 import sys
 
 import uvicorn
+from sqlalchemy.engine import make_url
 
 from service.app import create_app
 from service.settings import InvalidSettingsError, Settings, checked_settings
@@ -45,11 +46,34 @@ def run_server(args: argparse.Namespace) -> int:
     return _serve(settings)
 
 
+class _AnnouncingServer(uvicorn.Server):
+    """A uvicorn server that says where it listens once its socket is bound."""
+
+    def __init__(self, config: uvicorn.Config, settings: Settings) -> None:
+        super().__init__(config)
+        self.settings = settings
+
+    async def startup(self, sockets=None) -> None:  # noqa: ANN001 - uvicorn's signature
+        await super().startup(sockets)
+        if self.started:
+            print(listening_line(self.settings), flush=True)
+
+
+def listening_line(settings: Settings) -> str:
+    """``listening on http://host:port``, the store (password hidden), the docs and pages."""
+    base = f"http://{settings.host}:{settings.port}"
+    store = make_url(settings.database_url).render_as_string(hide_password=True)
+    worker = "with an embedded worker" if settings.embedded_worker else "without a worker"
+    return (f"foldline: listening on {base} ({worker}); store {store}; API docs "
+            f"{base}/docs; reviewer pages {base}/pages/")
+
+
 def _serve(settings: Settings) -> int:
     worker = start_embedded(settings) if settings.embedded_worker else None
     try:
-        uvicorn.run(create_app(settings), host=settings.host, port=settings.port,
-                    log_level="warning")
+        config = uvicorn.Config(create_app(settings), host=settings.host, port=settings.port,
+                                log_level="warning")
+        _AnnouncingServer(config, settings).run()
     finally:
         if worker is not None:
             thread, stop = worker

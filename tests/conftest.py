@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import re
 from pathlib import Path
 
 import numpy as np
@@ -47,3 +48,8 @@ def series_g() -> pd.DataFrame:
 @pytest.fixture(scope="session")
 def log_air(series_g: pd.DataFrame) -> np.ndarray:
     return np.log(series_g.iloc[:, 1].to_numpy(float))
+
+
+#: A model label with its seasonal period in square brackets ("ARIMA(0,1,1)(0,1,1)[12]",
+#: "Theta[12]", "Seasonal naive[12]"): not Foldline's notation (backtest/labels.py).
+BRACKETED_LABEL = re.compile(r"(\)|Theta|naive|search)\[\d+\]")

@@ -34,6 +34,7 @@ from statsmodels.tsa.arima.model import ARIMA
 from statsmodels.tsa.statespace.kalman_filter import MEMORY_NO_SMOOTHING
 
 from backtest.errors import CandidateError
+from backtest.labels import arima_label
 from backtest.models.base import (
     Estimator,
     Fit,
@@ -64,7 +65,7 @@ RENAMED_PARAMETERS = {"const": "constant", "x1": "drift"}
 
 @dataclass(frozen=True)
 class ArimaSpec(ModelSpec):
-    """ARIMA(p,d,q)(P,D,Q)[period] with a deterministic term and a transform."""
+    """ARIMA(p,d,q)×(P,D,Q) with a seasonal period, a deterministic term and a transform."""
 
     family: ClassVar[str] = "arima"
     warm_startable: ClassVar[bool] = True
@@ -83,12 +84,8 @@ class ArimaSpec(ModelSpec):
                 "deterministic": self.deterministic, "transform": self.transform.canonical()}
 
     def label(self, season_length: int) -> str:
-        text = "ARIMA({},{},{})".format(*self.order)
-        if self.seasonal is not None:
-            text += "({},{},{})[{}]".format(*self.seasonal, self.season_period(season_length))
-        if self.deterministic != "none":
-            text += f" {self.deterministic}"
-        return text + self.transform.suffix()
+        return arima_label(self.order, self.seasonal, self.season_period(season_length),
+                           self.deterministic, self.transform)
 
     def season_period(self, season_length: int) -> int:
         """The seasonal period in use: the spec's own, else the series' season length."""

@@ -5,7 +5,8 @@ JSON form (every field optional)::
     {"family": "arima_search",
      "max_order": {"p": 3, "d": 2, "q": 3, "P": 1, "D": 1, "Q": 1},
      "seasonal": true, "criterion": "aicc" | "aic" | "bic", "max_models": 40,
-     "transform": "none" | "log" | {"kind": "boxcox", "lambda": x}, "period": null}
+     "transform": "none" | "log" | {"kind": "boxcox", "lambda": x}, "period": null,
+     "seasonal_strength_threshold": 0.64, "max_inverse_root": 0.99}
 
 ``max_order`` may name only some orders; the others keep their defaults (the upper limits
 are those of the ``arima`` family: 5, 2, 5, 2, 1, 2). ``seasonal: false`` searches
@@ -53,10 +54,11 @@ from typing import ClassVar
 import numpy as np
 
 from backtest.errors import CandidateError
+from backtest.labels import search_label
 
 # The arima family's parameter names, so that its forecast reads the chosen estimates.
 from backtest.models.arima import RENAMED_PARAMETERS, ArimaSpec, Deterministic
-from backtest.models.arima_trial import Criterion, Trial
+from backtest.models.arima_trial import MAX_INVERSE_ROOT, Criterion, Trial
 from backtest.models.arima_trial import run_trial as run_reference_trial
 from backtest.models.base import (
     Estimator,
@@ -69,7 +71,7 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
-from backtest.models.differencing import choose_differencing, difference
+from backtest.models.differencing import STRONG_SEASONALITY, choose_differencing, difference
 from backtest.models.fast_arima import ESTIMATOR_KEY
 from backtest.models.fast_arima_trial import run_fast_trial
 from backtest.models.stepwise import STARTING_ORDERS, ArmaOrders, SearchBounds, stepwise_search
@@ -77,10 +79,10 @@ from backtest.transforms import Transform, parse_transform
 
 _TERMS: tuple[Deterministic, ...] = ("none", "constant", "drift")
 _CRITERIA = ("aicc", "aic", "bic")
-_CRITERION_NAMES = {"aicc": "AICc", "aic": "AIC", "bic": "BIC"}
 #: Highest bound allowed per order, as for the ``arima`` family.
 _HIGHEST = {"p": 5, "d": 2, "q": 5, "P": 2, "D": 1, "Q": 2}
 _MAX_MODELS_HIGH = 200
+_DEFAULT_MAX_MODELS = 40
 
 
 @dataclass(frozen=True)
@@ -128,22 +130,36 @@ class ArimaSearchSpec(ModelSpec):
     max_models: int = 40
     period: int | None = None
     transform: Transform = Transform()
+    seasonal_strength_threshold: float = STRONG_SEASONALITY
+    max_inverse_root: float = MAX_INVERSE_ROOT
 
 
     def fits_per_estimate(self) -> int:
         return self.max_models
     def body(self) -> dict:
-        return {"max_order": self.limits.body(), "seasonal": self.seasonal,
-                "criterion": self.criterion, "max_models": self.max_models,
-                "period": self.period, "transform": self.transform.canonical()}
+        """The canonical body; the two thresholds appear only when not at their defaults,
+        so candidates written before they became fields keep their ids."""
+        out = {"max_order": self.limits.body(), "seasonal": self.seasonal,
+               "criterion": self.criterion, "max_models": self.max_models,
+               "period": self.period, "transform": self.transform.canonical()}
+        return out | self._changed_thresholds()
+
+    def _changed_thresholds(self) -> dict:
+        defaults = {"seasonal_strength_threshold": STRONG_SEASONALITY,
+                    "max_inverse_root": MAX_INVERSE_ROOT}
+        return {name: getattr(self, name) for name, default in defaults.items()
+                if getattr(self, name) != default}
 
     def label(self, season_length: int) -> str:
-        text = "ARIMA search"
-        if self.season_period(season_length) >= 2:
-            text += f"[{self.season_period(season_length)}]"
-        if self.criterion != "aicc":
-            text += f" {_CRITERION_NAMES[self.criterion]}"
-        return text + self.transform.suffix()
+        changed = self._changed_thresholds()
+        extras = [None if self.max_models == _DEFAULT_MAX_MODELS
+                  else f"at most {self.max_models} fits",
+                  f"strength ≥ {changed['seasonal_strength_threshold']:g}"
+                  if "seasonal_strength_threshold" in changed else None,
+                  f"roots ≤ {changed['max_inverse_root']:g}"
+                  if "max_inverse_root" in changed else None]
+        return search_label(self.criterion, self.season_period(season_length), self.seasonal,
+                            self.limits.body(), OrderLimits().body(), extras, self.transform)
 
     def season_period(self, season_length: int) -> int:
         """The seasonal period searched over; 1 when the search is non-seasonal."""
@@ -161,9 +177,11 @@ class ArimaSearchSpec(ModelSpec):
         statsmodels' results of a filter pass at the estimates (none without
         ``keep_raw``) and the estimates record ``estimator`` (1 fast, 0 reference)."""
         period = self.season_period(season_length)
-        differencing = choose_differencing(y, period, self.limits.d, self.limits.seasonal_d)
+        differencing = choose_differencing(y, period, self.limits.d, self.limits.seasonal_d,
+                                           self.seasonal_strength_threshold)
         selection = search_orders(y, period, differencing.d, differencing.seasonal_d,
-                                  self.limits, self.criterion, self.max_models, estimator)
+                                  self.limits, self.criterion, self.max_models, estimator,
+                                  self.max_inverse_root)
         chosen = selection.chosen
         for caught in chosen.caught:
             warnings.warn_explicit(caught.message, caught.category, caught.filename,
@@ -216,9 +234,11 @@ class ArimaSearchSpec(ModelSpec):
 
 def search_orders(y: np.ndarray, period: int, d: int, seasonal_d: int, limits: OrderLimits,
                   criterion: Criterion, max_models: int,
-                  estimator: Estimator = "reference") -> Selection:
+                  estimator: Estimator = "reference",
+                  root_limit: float = MAX_INVERSE_ROOT) -> Selection:
     """Stepwise search of p, q, P, Q and the deterministic term for fixed d and D, each
-    order fitted by ``estimator``.
+    order fitted by ``estimator``; ``root_limit`` is the largest inverse-root modulus
+    accepted.
 
     Orders are screened as ARMA models of the differenced data (a constant in place of a
     drift): their exact likelihood is the ARIMA model's diffuse likelihood, at a fraction
@@ -239,7 +259,7 @@ def search_orders(y: np.ndarray, period: int, d: int, seasonal_d: int, limits: O
 
     def score(orders: ArmaOrders) -> float:
         stationary = arima_spec(orders, 0, 0, period)
-        screened[orders] = run_trial(stationary, differenced, period, criterion)
+        screened[orders] = run_trial(stationary, differenced, period, criterion, root_limit)
         return screened[orders].score
 
     ranked = stepwise_search(score, bounds, max_models)
@@ -248,7 +268,7 @@ def search_orders(y: np.ndarray, period: int, d: int, seasonal_d: int, limits: O
     finals: list[Trial] = []
     for orders in ranked:
         finals.append(run_trial(arima_spec(orders, d, seasonal_d, period), y, period,
-                                criterion))
+                                criterion, root_limit))
         if finals[-1].verdict == "accepted":
             return Selection(finals[-1], (*screened.values(), *finals))
     raise RuntimeError(f"arima search found no acceptable model: screened "
@@ -290,7 +310,9 @@ def encode_order(spec: ArimaSpec) -> Params:
 def parse(body: Mapping) -> ArimaSearchSpec:
     """Read an ``arima_search`` candidate body."""
     fields = take_fields(body, "arima_search", {"max_order", "seasonal", "criterion",
-                                                "max_models", "transform", "period"})
+                                                "max_models", "transform", "period",
+                                                "seasonal_strength_threshold",
+                                                "max_inverse_root"})
     seasonal = fields.get("seasonal", True)
     if not isinstance(seasonal, bool):
         raise CandidateError(f"arima_search seasonal must be true or false; got {seasonal!r}")
@@ -300,8 +322,12 @@ def parse(body: Mapping) -> ArimaSearchSpec:
     criterion = choice(fields.get("criterion", "aicc"), _CRITERIA, "arima_search criterion")
     return ArimaSearchSpec(_limits(fields.get("max_order")), seasonal,
                            criterion,  # type: ignore[arg-type]
-                           _max_models(fields.get("max_models", 40)), period,
-                           parse_transform(fields.get("transform")))
+                           _max_models(fields.get("max_models", _DEFAULT_MAX_MODELS)), period,
+                           parse_transform(fields.get("transform")),
+                           _share(fields.get("seasonal_strength_threshold", STRONG_SEASONALITY),
+                                  "seasonal_strength_threshold", 0.0, 1.0),
+                           _share(fields.get("max_inverse_root", MAX_INVERSE_ROOT),
+                                  "max_inverse_root", 0.5, 1.0))
 
 
 def _limits(value: object) -> OrderLimits:
@@ -318,6 +344,14 @@ def _limits(value: object) -> OrderLimits:
                for k, high in _HIGHEST.items()}
     return OrderLimits(checked["p"], checked["d"], checked["q"], checked["P"], checked["D"],
                        checked["Q"])
+
+
+def _share(value: object, name: str, low: float, high: float) -> float:
+    """A number in [low, high] (JSON integers accepted), else a :class:`CandidateError`."""
+    if isinstance(value, bool) or not isinstance(value, int | float) or not low <= value <= high:
+        raise CandidateError(f"arima_search {name} must be a number from {low:g} to {high:g}; "
+                             f"got {value!r}")
+    return float(value)
 
 
 def _max_models(value: object) -> int:

@@ -29,7 +29,8 @@ from statsmodels.tools.sm_exceptions import ConvergenceWarning
 from backtest.models.arima import ArimaSpec
 from backtest.models.base import Params
 
-#: Largest modulus of an inverse AR or MA root a chosen model may have (common practice).
+#: Default largest modulus of an inverse AR or MA root a chosen model may have (common
+#: practice; measured in ``bench/search_thresholds.py``).
 MAX_INVERSE_ROOT = 0.99
 #: L-BFGS iterations allowed per fit.
 MAX_ITERATIONS = 200
@@ -51,8 +52,10 @@ class Trial:
     estimates: Params | None = None
 
 
-def run_trial(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Criterion) -> Trial:
-    """Fit ``spec`` on ``y`` and judge the fit."""
+def run_trial(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Criterion,
+              root_limit: float = MAX_INVERSE_ROOT) -> Trial:
+    """Fit ``spec`` on ``y`` and judge the fit (``root_limit``: largest inverse-root
+    modulus accepted)."""
     if spec.min_train(season_length) > len(y):
         return Trial(spec, "too_short", math.inf, None, ())
     with warnings.catch_warnings(record=True) as caught:
@@ -65,7 +68,7 @@ def run_trial(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Cri
     recorded = tuple(caught)
     if results is None:
         return Trial(spec, "failed", math.inf, None, recorded)
-    verdict = _verdict(results, recorded, criterion)
+    verdict = _verdict(results, recorded, criterion, root_limit)
     score = float(getattr(results, criterion)) if verdict == "accepted" else math.inf
     return Trial(spec, verdict, score, results, recorded)
 
@@ -82,7 +85,7 @@ def largest_inverse_root(lag_polynomial: np.ndarray) -> float:
 
 
 def _verdict(results, caught: tuple[warnings.WarningMessage, ...],
-             criterion: Criterion) -> Verdict:
+             criterion: Criterion, root_limit: float) -> Verdict:
     if not results.mle_retvals.get("converged", True) or any(
             issubclass(w.category, ConvergenceWarning) for w in caught):
         return "not_converged"
@@ -92,6 +95,6 @@ def _verdict(results, caught: tuple[warnings.WarningMessage, ...],
     # factors are polynomials in z^m, whose inverse roots are judged in that variable.
     factors = (np.r_[1.0, -results.arparams], np.r_[1.0, results.maparams],
                np.r_[1.0, -results.seasonalarparams], np.r_[1.0, results.seasonalmaparams])
-    if max(largest_inverse_root(f) for f in factors) > MAX_INVERSE_ROOT:
+    if max(largest_inverse_root(f) for f in factors) > root_limit:
         return "near_unit_root"
     return "accepted"

@@ -77,7 +77,8 @@ class ModelSpec(ABC):
 
     @abstractmethod
     def label(self, season_length: int) -> str:
-        """Short human-readable name, e.g. ``ARIMA(0,1,1)(0,1,1)[12] log``."""
+        """Short human-readable name, e.g. ``ARIMA(0,1,1)×(0,1,1), season 12, log``
+        (notation: :mod:`backtest.labels`)."""
 
     @abstractmethod
     def min_train(self, season_length: int) -> int:

@@ -22,6 +22,7 @@ from typing import ClassVar, Literal
 
 import numpy as np
 
+from backtest.labels import BENCHMARK_NAMES, benchmark_label
 from backtest.models.base import (
     Fit,
     Forecast,
@@ -36,8 +37,6 @@ from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform
 
 Method = Literal["naive", "seasonal_naive", "drift", "mean"]
-_LABEL = {"naive": "Naive", "seasonal_naive": "Seasonal naive", "drift": "Drift",
-          "mean": "Mean"}
 
 
 @dataclass(frozen=True)
@@ -53,9 +52,7 @@ class BenchmarkSpec(ModelSpec):
         return {"method": self.method}
 
     def label(self, season_length: int) -> str:
-        if self.method == "seasonal_naive":
-            return f"{_LABEL[self.method]}[{season_length}]"
-        return _LABEL[self.method]
+        return benchmark_label(self.method, season_length)
 
     def min_train(self, season_length: int) -> int:
         return {"naive": 2, "mean": 2, "drift": 3, "seasonal_naive": season_length + 1}[
@@ -121,5 +118,5 @@ class BenchmarkSpec(ModelSpec):
 def parse(body: Mapping) -> BenchmarkSpec:
     """Read a ``benchmark`` candidate body."""
     fields = take_fields(body, "benchmark", {"method"})
-    method = choice(fields.get("method"), tuple(_LABEL), "benchmark method")
+    method = choice(fields.get("method"), tuple(BENCHMARK_NAMES), "benchmark method")
     return BenchmarkSpec(method)  # type: ignore[arg-type]

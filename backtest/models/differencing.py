@@ -25,7 +25,8 @@ import numpy as np
 from statsmodels.tsa.seasonal import STL
 from statsmodels.tsa.stattools import kpss
 
-#: Seasonal-strength threshold for one seasonal difference (common practice).
+#: Default seasonal-strength threshold for one seasonal difference (common practice; the
+#: simulation in ``bench/search_thresholds.py`` measures why: see DEVELOPERS.md).
 STRONG_SEASONALITY = 0.64
 #: Fewest observations on which a KPSS test is run; shorter data is not differenced further.
 MIN_KPSS_LENGTH = 10
@@ -92,9 +93,10 @@ def seasonal_strength(x: np.ndarray, period: int) -> float:
     return float(max(0.0, 1.0 - np.var(remainder) / np.var(detrended)))
 
 
-def choose_differencing(x: np.ndarray, period: int, max_d: int,
-                        max_seasonal_d: int) -> Differencing:
-    """D from the seasonal strength, then d from KPSS tests on the seasonally differenced data.
+def choose_differencing(x: np.ndarray, period: int, max_d: int, max_seasonal_d: int,
+                        threshold: float = STRONG_SEASONALITY) -> Differencing:
+    """D from the seasonal strength (one seasonal difference at ``threshold`` or above),
+    then d from KPSS tests on the seasonally differenced data.
 
     The seasonal strength is only assessed when ``period >= 2``, ``max_seasonal_d >= 1`` and
     the data span at least :data:`MIN_SEASONS` seasons; otherwise D = 0.
@@ -102,7 +104,7 @@ def choose_differencing(x: np.ndarray, period: int, max_d: int,
     if period < 2 or max_seasonal_d < 1 or len(x) < MIN_SEASONS * period:
         return Differencing(ordinary_differences(x, max_d), 0, None)
     strength = seasonal_strength(x, period)
-    seasonal_d = int(strength >= STRONG_SEASONALITY)
+    seasonal_d = int(strength >= threshold)
     d = ordinary_differences(seasonal_difference(x, period, seasonal_d), max_d)
     return Differencing(d, seasonal_d, strength)
 

@@ -23,6 +23,7 @@ from statsmodels.tools.sm_exceptions import ConvergenceWarning
 from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 
 from backtest.errors import CandidateError
+from backtest.labels import ets_label
 from backtest.models.base import (
     Fit,
     Forecast,
@@ -42,7 +43,6 @@ from backtest.models.ets_stretch import (
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
 
-_CODE = {"none": "N", "additive": "A", "multiplicative": "M", "damped": "Ad"}
 _SHORT = {"none": None, "additive": "add", "multiplicative": "mul", "damped": "add"}
 _SIMULATIONS = 1000
 
@@ -65,10 +65,8 @@ class EtsSpec(ModelSpec):
                 "period": self.period, "transform": self.transform.canonical()}
 
     def label(self, season_length: int) -> str:
-        text = f"ETS({_CODE[self.error]},{_CODE[self.trend]},{_CODE[self.season]})"
-        if self.season != "none":
-            text += f"[{self.season_period(season_length)}]"
-        return text + self.transform.suffix()
+        return ets_label(self.error, self.trend, self.season, self.season_period(season_length),
+                         self.transform)
 
     def season_period(self, season_length: int) -> int:
         return self.period or season_length

@@ -34,8 +34,9 @@ from backtest.models.fast_arima import (
 
 
 def run_fast_trial(spec: ArimaSpec, y: np.ndarray, season_length: int,
-                   criterion: Criterion) -> Trial:
-    """Fit ``spec`` on ``y`` with the fast estimator and judge the fit."""
+                   criterion: Criterion, root_limit: float = MAX_INVERSE_ROOT) -> Trial:
+    """Fit ``spec`` on ``y`` with the fast estimator and judge the fit (``root_limit``:
+    largest inverse-root modulus accepted)."""
     if spec.min_train(season_length) > len(y):
         return Trial(spec, "too_short", math.inf, None, ())
     try:
@@ -44,11 +45,11 @@ def run_fast_trial(spec: ArimaSpec, y: np.ndarray, season_length: int,
             raise FastEstimationError(f"L-BFGS-B stopped after {estimate.iterations} "
                                       "iterations without converging")
     except (FastEstimationError, ValueError, np.linalg.LinAlgError) as exc:
-        return _fallback(spec, y, season_length, criterion, exc)
+        return _fallback(spec, y, season_length, criterion, root_limit, exc)
     value = information_criterion(estimate, criterion)
     if not math.isfinite(value):
         return Trial(spec, "failed", math.inf, None, (), estimate.params)
-    if largest_root(estimate.params) > MAX_INVERSE_ROOT:
+    if largest_root(estimate.params) > root_limit:
         return Trial(spec, "near_unit_root", math.inf, None, (), estimate.params)
     return Trial(spec, "accepted", value, None, (), {**estimate.params, ESTIMATOR_KEY: 1.0})
 
@@ -76,11 +77,11 @@ def largest_root(params: Params) -> float:
 
 
 def _fallback(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Criterion,
-              exc: Exception) -> Trial:
+              root_limit: float, exc: Exception) -> Trial:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         warnings.warn(f"fast estimator failed ({exc}); the reference estimator was used",
                       EstimatorFallback, stacklevel=2)
-    trial = run_trial(spec, y, season_length, criterion)
+    trial = run_trial(spec, y, season_length, criterion, root_limit)
     return Trial(trial.spec, trial.verdict, trial.score, trial.results,
                  (*caught, *trial.caught))

@@ -15,6 +15,7 @@ from typing import ClassVar, Literal
 import numpy as np
 from statsmodels.tsa.forecasting.theta import ThetaModel
 
+from backtest.labels import theta_label
 from backtest.models.base import (
     Fit,
     Forecast,
@@ -45,10 +46,8 @@ class ThetaSpec(ModelSpec):
                 "period": self.period, "transform": self.transform.canonical()}
 
     def label(self, season_length: int) -> str:
-        text = "Theta"
-        if self._seasonal(season_length):
-            text += f"[{self.period or season_length}]"
-        return text + self.transform.suffix()
+        return theta_label(self._seasonal(season_length), self.season, self.decomposition,
+                           self.period or season_length, self.transform)
 
     def _seasonal(self, season_length: int) -> bool:
         return self.season != "never" and (self.period or season_length) >= 2

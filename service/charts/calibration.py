@@ -27,6 +27,8 @@ from service.charts.style import (
 )
 
 LEVEL_LOOKS = (Look(BLUE, "o"), Look(VERMILLION, "s", (5, 2)), Look(GREEN, "^", (1.5, 1.5)))
+#: Horizontal shift between the levels' observed-coverage lines, in horizons.
+DODGE = 0.14
 #: Probability mass of the binomial range drawn around each nominal level.
 RANGE_MASS = 0.95
 
@@ -64,8 +66,8 @@ def calibration_chart(result: SeriesResult, candidate_id: str) -> Figure:
     label = next(c.label for c in result.candidates if c.candidate_id == candidate_id)
     fig = new_figure(4.4)
     coverage_ax, miss_ax = fig.subplots(2, 1, height_ratios=(3, 1.6))
-    for look, level_report in zip(LEVEL_LOOKS, report):
-        _draw_coverage(coverage_ax, level_report, look)
+    for i, (look, level_report) in enumerate(zip(LEVEL_LOOKS, report)):
+        _draw_coverage(coverage_ax, level_report, look, DODGE * (i - (len(report) - 1) / 2))
     coverage_ax.set_title("observed coverage by horizon")
     coverage_ax.set_xlabel(f"horizon ({step_word(result.series.get('frequency'))} ahead)")
     coverage_ax.set_ylabel("coverage (% of actuals inside)")
@@ -76,7 +78,9 @@ def calibration_chart(result: SeriesResult, candidate_id: str) -> Figure:
     return fig
 
 
-def _draw_coverage(ax: Axes, level_report: dict, look: Look) -> None:
+def _draw_coverage(ax: Axes, level_report: dict, look: Look, dodge: float) -> None:
+    """Observed coverage shifted by ``dodge`` along the horizon, so that levels with the
+    same coverage (often 100 %) stay visible side by side."""
     level, nominal = level_report["level"], level_report["nominal_coverage"]
     rows = level_report["by_horizon"]
     horizons = np.array([r["horizon"] for r in rows])
@@ -87,7 +91,7 @@ def _draw_coverage(ax: Axes, level_report: dict, look: Look) -> None:
                     linewidth=0, label=f"{level} %: range if calibrated")
     ax.axhline(100 * nominal, color=look.color, linewidth=0.9, linestyle=(0, (2, 2)),
                label=f"{level} %: nominal")
-    ax.plot(horizons, observed, label=f"{level} %: observed", **look.plot_kwargs())
+    ax.plot(horizons + dodge, observed, label=f"{level} %: observed", **look.plot_kwargs())
     ax.set_xticks(horizons)
 
 

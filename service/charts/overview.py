@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from backtest.results import SeriesResult
@@ -44,6 +45,39 @@ METRIC_AXES = {
 }
 
 
+#: Candidates that set the value axis: the best this many, and the benchmark.
+CONTENDERS = 3
+#: Lines are clipped only when they would stretch the axis by more than this factor.
+STRETCH = 1.5
+
+
+def _clip_outliers(ax: Axes, ranked: list, lines: dict[str, np.ndarray], benchmark_id: str,
+                   horizons: np.ndarray, colors: dict[str, str]) -> None:
+    """Scale the value axis to the contenders; mark lines that leave it at the top edge
+    and name them with their largest value."""
+    contenders = [r.candidate_id for r in ranked[:CONTENDERS]] + [benchmark_id]
+    shown = np.concatenate([lines[c] for c in contenders if c in lines])
+    everything = np.concatenate(list(lines.values()))
+    if not np.isfinite(shown).any():
+        return
+    top = float(np.nanmax(shown)) * 1.12
+    if not np.nanmax(everything) > STRETCH * top:
+        return
+    ax.set_ylim(min(0.0, float(np.nanmin(everything))), top)
+    off = []
+    for row in ranked:
+        ys = lines[row.candidate_id]
+        above = ys > top
+        if above.any():
+            ax.plot(horizons[above], np.full(above.sum(), top), linestyle="none", marker="^",
+                    color=colors[row.candidate_id], clip_on=False,
+                    markersize=5, gid=f"off-scale-{row.candidate_id}")
+            off.append(f"{row.label} (up to {np.nanmax(ys):.2f})")
+    ax.annotate("off scale, ▲ at the top edge: " + "; ".join(off), (0.99, 0.99),
+                xycoords="axes fraction", ha="right", va="top", fontsize=7.5,
+                color="#4D4D4D", gid="off-scale-note").set_in_layout(False)
+
+
 def metric_axis_label(metric: str, level: int | None, unit: str | None) -> str:
     """The value-axis label of a score, with its unit."""
     axis = METRIC_AXES[metric]
@@ -70,13 +104,25 @@ def score_by_horizon_chart(result: SeriesResult, *, metric: str = "mase",
     horizons = np.arange(1, max(h for _, h in values) + 1)
     fig = new_figure(3.3)
     ax = fig.subplots()
-    looks = candidate_looks([c.candidate_id for c in result.candidates], result.benchmark_id)
-    for row in result.ranking:
+    ranked = sorted(result.ranking, key=lambda r: (r.rank is None, r.rank or 0))
+    # looks in ranking order: the best-ranked candidate gets the first, strongest colour
+    looks = candidate_looks([r.candidate_id for r in ranked], result.benchmark_id)
+    best = next((r.candidate_id for r in ranked if not r.is_benchmark), None)
+    lines = {}
+    for row in ranked:
         ys = [values.get((row.candidate_id, int(h))) for h in horizons]
-        ys = np.array([np.nan if y is None else y * axis.factor for y in ys], dtype=float)
+        lines[row.candidate_id] = np.array([np.nan if y is None else y * axis.factor
+                                            for y in ys], dtype=float)
         label = f"{row.label} (benchmark)" if row.is_benchmark else row.label
-        ax.plot(horizons, ys, label=label, zorder=3 if row.is_benchmark else 2,
-                **looks[row.candidate_id].plot_kwargs())
+        kwargs = looks[row.candidate_id].plot_kwargs()
+        if row.candidate_id == best:
+            kwargs["linewidth"] = 2.0  # the benchmark keeps the thickest line
+        ax.plot(horizons, lines[row.candidate_id], label=label,
+                zorder=4 if row.candidate_id == best else 3 if row.is_benchmark else 2,
+                **kwargs)
+    if metric != "coverage":
+        _clip_outliers(ax, ranked, lines, result.benchmark_id, horizons,
+                       {c: look.color for c, look in looks.items()})
     ax.set_xticks(horizons)
     ax.set_xlabel(f"horizon ({step_word(result.series.get('frequency'))} ahead)")
     ax.set_ylabel(metric_axis_label(metric, level, unit))

@@ -11,6 +11,7 @@ import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
+from backtest.parameter_names import readable, seasonal_period
 from backtest.results import FoldResult, SeriesResult
 from service.charts.style import (
     BLUE,
@@ -79,8 +80,10 @@ def parameter_path_chart(result: SeriesResult, candidate_id: str, *,
     fig = new_figure(0.6 + 1.8 * rows)
     axes = fig.subplots(rows, columns, squeeze=False).ravel()
     all_origins = [f.origin for f in sorted(folds, key=lambda f: f.fold)]
+    candidate = next(c for c in result.candidates if c.candidate_id == candidate_id)
+    period = seasonal_period(candidate.spec, result.series.get("season_length"))
     for ax, path in zip(axes, paths):
-        _draw_path(ax, path, flagged=path.name in unstable)
+        _draw_path(ax, path, readable(path.name, period), flagged=path.name in unstable)
         label_periods(ax, all_origins, range(len(all_origins)), max_ticks=3)
     for ax in axes[len(paths):]:
         ax.set_visible(False)
@@ -89,8 +92,8 @@ def parameter_path_chart(result: SeriesResult, candidate_id: str, *,
     fig.supylabel("estimate (model scale)", fontsize=9)
     fullest = max(axes[:len(paths)], key=lambda a: len(a.get_legend_handles_labels()[1]))
     add_legend(fig, fullest, columns=2)
-    label = next(c.label for c in result.candidates if c.candidate_id == candidate_id)
-    set_title(fig, f"{result.series['key']}: parameter paths of {label} across origins")
+    set_title(fig, f"{result.series['key']}: parameter paths of {candidate.label} across "
+                   "origins")
     return fig
 
 
@@ -103,7 +106,9 @@ def _estimate(fold: FoldResult, name: str) -> tuple[float, float]:
     return (np.nan if estimate is None else estimate, np.nan if error is None else error)
 
 
-def _draw_path(ax: Axes, path: ParameterPath, *, flagged: bool) -> None:
+def _draw_path(ax: Axes, path: ParameterPath, title: str, *, flagged: bool) -> None:
+    """The path with its standard-error band; ``title`` is the readable name, the
+    library's name follows it."""
     x = np.asarray(path.positions)
     estimates, errors = np.asarray(path.estimates), np.asarray(path.std_errors)
     if np.isfinite(errors).any():
@@ -113,4 +118,5 @@ def _draw_path(ax: Axes, path: ParameterPath, *, flagged: bool) -> None:
         # Whiskers too: a fold whose neighbours lack standard errors has no band to show.
         ax.vlines(x, low, high, color=BLUE, linewidth=0.8)
     ax.plot(x, estimates, color=BLUE, marker="o", label="estimate")
-    ax.set_title(path.name + (" (flagged unstable)" if flagged else ""))
+    shown = title if title == path.name else f"{title} ({path.name})"
+    ax.set_title(shown + (" (flagged unstable)" if flagged else ""))

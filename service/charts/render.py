@@ -26,5 +26,14 @@ def render(fig: Figure, fmt: Format) -> bytes:
         raise ValueError(f"chart format must be 'svg' or 'png', got {fmt!r}")
     buffer = io.BytesIO()
     with matplotlib.rc_context(RC):
+        _settle_layout(fig)
         fig.savefig(buffer, format=fmt, dpi=PNG_DPI, metadata=_METADATA[fmt])
     return buffer.getvalue()
+
+
+def _settle_layout(fig: Figure) -> None:
+    """Run the constrained layout once and keep it: each further pass moves the axes by a
+    few hundredths of a point, which would make the same chart render to other bytes."""
+    if fig.get_layout_engine() is not None:
+        fig.draw_without_rendering()
+        fig.set_layout_engine("none")

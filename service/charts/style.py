@@ -154,8 +154,38 @@ def place_legend(fig: Figure, handles: Sequence[Artist], columns: int = 4) -> No
                ncols=min(columns, len(handles)))
 
 
+#: Calendar strides tried for time-axis ticks, in months (every month ... every 10 years).
+_MONTH_STRIDES = (1, 2, 3, 6, 12, 24, 60, 120)
+
+
 def label_periods(ax: Axes, labels: Sequence[str], positions: Sequence[float], *,
                   max_ticks: int = 8) -> None:
-    """Tick a time axis with period labels, thinned to at most ``max_ticks`` ticks."""
+    """Tick a time axis at regular calendar positions (every month, quarter, January,
+    second January ...), the finest stride that gives at most ``max_ticks`` ticks.
+
+    A tick goes on the first period of each calendar block of the stride, except a first
+    period that starts mid-block; labels that are not ``YYYY``, ``YYYY-MM`` or
+    ``YYYY-MM-DD`` are thinned to every n-th instead.
+    """
+    labels, positions = list(labels), list(positions)
+    months = [_month_index(label) for label in labels]
+    if labels and None not in months:
+        for stride in _MONTH_STRIDES:
+            ticks = [i for i, month in enumerate(months)
+                     if (month % stride == 0 if i == 0 else
+                         month // stride != months[i - 1] // stride)]
+            if 2 <= len(ticks) <= max_ticks:
+                ax.set_xticks([positions[i] for i in ticks], [labels[i] for i in ticks])
+                return
     every = max(1, math.ceil(len(labels) / max_ticks))
-    ax.set_xticks(list(positions)[::every], list(labels)[::every])
+    ax.set_xticks(positions[::every], labels[::every])
+
+
+def _month_index(label: str) -> int | None:
+    """Months since year 0 of a ``YYYY``, ``YYYY-MM`` or ``YYYY-MM-DD`` label (days fall
+    into their month), else ``None``."""
+    parts = label.split("-")
+    if not 1 <= len(parts) <= 3 or not all(p.isdigit() for p in parts):
+        return None
+    month = int(parts[1]) if len(parts) > 1 else 1
+    return int(parts[0]) * 12 + month - 1 if 1 <= month <= 12 else None

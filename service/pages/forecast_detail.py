@@ -4,39 +4,71 @@ every outcome set (one per later version with actuals), and a fan chart."""
 from __future__ import annotations
 
 from backtest.ledger import Outcome, realised_mase
+from backtest.parameter_names import seasonal_period
 from service.charts.fan import fan_chart
 from service.charts.render import DRAWING
 from service.pages.forecast_view import ForecastView, ScoredSet
-from service.pages.layout import series_href
+from service.pages.layout import forecast_href, series_href
 from service.pages.ledger_section import embed_figure
+from service.report.cautions import caution_block
 from service.report.html import Html, element, join, link, table
-from service.report.numbers import MISSING, fixed
+from service.report.numbers import MISSING, fixed, interval
+from service.report.parameters import parameter_cell
 from service.report.provenance import shown
 
 SETS_HEADER = ["scored against version", "scored", "periods observed", "realised MASE",
                "actuals inside interval"]
 
 
-def forecast_detail(view: ForecastView) -> Html:
-    """The page body, fan chart drawn."""
+#: History shown before a forecast, in multiples of its horizon (at least one season).
+HISTORY_PER_STEP = 4
+
+
+def history_window(horizon: int, season_length: int) -> int:
+    """Periods of history the fan chart shows by default: proportional to the horizon, at
+    least one whole season (and two periods)."""
+    return max(HISTORY_PER_STEP * horizon, season_length, 2)
+
+
+def forecast_detail(view: ForecastView, history: int | None = None) -> Html:
+    """The page body, fan chart drawn with the last ``history`` periods before the origin
+    (default :func:`history_window`; 0: all)."""
     f = view.record.forecast
     latest = view.sets[-1] if view.sets else None
+    default = history_window(len(f.periods), f.season_length)
+    shown_periods = default if history is None else history
+    labels, values = view.history.labels(), view.history.values
+    start = max(0, labels.index(f.origin) + 1 - shown_periods) if shown_periods else 0
     with DRAWING:
-        fig = fan_chart(view.bands, view.history.labels(), view.history.values,
+        fig = fan_chart(view.bands, labels[start:], values[start:],
                         series_key=f.series_key, candidate_label=f.label,
                         unit=view.series.unit, frequency=view.series.frequency)
         chart = embed_figure(fig, "forecast-fan-", (
-            f"The history version {view.version} held, the point forecast and intervals, "
-            "and the actuals of the series' latest version."))
+            f"The last {labels.index(f.origin) + 1 - start} periods of history version "
+            f"{view.version} held, the point forecast and intervals, and the actuals of the "
+            "series' latest version."))
     return join([
-        _facts(view), element("h2", "Forecast and actuals"), _steps(view, latest), chart,
+        _facts(view), caution_block(), element("h2", "Forecast and actuals"),
+        _steps(view, latest), chart, _history_links(view, default),
         element("h2", "Outcomes by version"), _sets(view),
         element("h2", "Parameters"),
-        table(["parameter", "estimate"], [(k, fixed(v, 6)) for k, v in f.params.items()],
-              numeric=(1,)),
+        table(["parameter", "estimate"],
+              [(parameter_cell(k, seasonal_period(f.candidate_spec, f.season_length)),
+                fixed(v, 6)) for k, v in f.params.items()], numeric=(1,)),
         element("h2", "Warnings while fitting"),
         join([element("p", w) for w in f.warnings]) if f.warnings else element("p", "None."),
     ])
+
+
+def _history_links(view: ForecastView, default: int) -> Html:
+    """Links to the same page with more (or all) history in the chart."""
+    href = forecast_href(view.record.forecast_id)
+    options = [(f"{default} periods (default)", href),
+               (f"{3 * default} periods", f"{href}?history={3 * default}"),
+               ("all history", f"{href}?history=0")]
+    return element("p", "History in the chart: ",
+                   Html(" · ".join(link(target, text) for text, target in options)),
+                   cls="note history")
 
 
 def _facts(view: ForecastView) -> Html:
@@ -61,14 +93,13 @@ def _steps(view: ForecastView, latest: ScoredSet | None) -> Html:
     f = view.record.forecast
     by_period: dict[str, Outcome] = ({o.period: o for o in latest.outcomes.outcomes}
                                      if latest else {})
-    header = ["step", "period", "point",
-              *[f"{level} % {side}" for level in f.levels for side in ("lower", "upper")],
+    header = ["step", "period", "point", *[f"{level} % interval" for level in f.levels],
               "actual", "error", "scaled error", "inside"]
     rows = []
     for step, period in enumerate(f.periods):
         outcome = by_period.get(period)
-        bounds = [fixed(b[step]) for level in f.levels for b in (f.lower[level],
-                                                                  f.upper[level])]
+        bounds = [interval(level, f.lower[level][step], f.upper[level][step], 3)
+                  for level in f.levels]
         observed = ([fixed(outcome.actual), fixed(outcome.error), fixed(outcome.scaled_error),
                      ", ".join(f"{level} %: {'yes' if outcome.hits[level] else 'no'}"
                                for level in f.levels)]
@@ -77,7 +108,7 @@ def _steps(view: ForecastView, latest: ScoredSet | None) -> Html:
     note = (f"Actuals and errors from version {latest.version}, the newest scored; the error "
             "is actual minus point, the scaled error divides it by the MASE scale."
             if latest else "No period of this forecast has been observed yet.")
-    numeric = tuple(range(2, 3 + 2 * len(f.levels) + 3))
+    numeric = tuple(range(2, 3 + len(f.levels) + 3))
     return join([element("p", note, cls="note"), table(header, rows, numeric=numeric)])
 
 

@@ -12,6 +12,7 @@ from backtest.results import SeriesResult
 from backtest.series import Series
 from service.charts.render import DRAWING
 from service.pages.layout import run_href
+from service.report.cautions import caution_block
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join, link, table
 from service.report.provenance import shown
@@ -56,7 +57,8 @@ def load_series_page(session: Session, key: str) -> SeriesPage:
 
 def series_detail(page: SeriesPage) -> Html:
     """The body of a series' page, charts drawn."""
-    return join([_facts(page.series), element("h2", "Versions"), _versions(page.versions),
+    return join([_facts(page.series), caution_block(), element("h2", "Versions"),
+                 _versions(page.versions),
                  element("h2", "Runs"), _runs(page.runs), _latest_ranking(page)])
 
 

@@ -24,6 +24,28 @@ GENERAL = (
 )
 
 
+#: The short block on the series and forecast pages.
+FORECAST_CAUTIONS = (
+    "Prediction intervals assume the model is right: they leave out the chance that the "
+    "model, its transform or its parameters are wrong, so real coverage is usually lower, "
+    "most of all at long horizons.",
+    "With a log or Box-Cox transform the point forecast is the median of the forecast "
+    "distribution, not its mean: summed over periods or series it understates the total.",
+    "A backtest is evidence, not a guarantee: a change in the process behind the data can "
+    "make the next periods unlike any the backtest saw.",
+)
+
+
+def caution_block(items: tuple[str, ...] = FORECAST_CAUTIONS) -> Html:
+    """A short "Read with care" box of ``items``."""
+    return _box(list(items))
+
+
+def _box(items: list[str]) -> Html:
+    return Html('<aside class="cautions">\n' + element("h2", "Read with care") + "\n<ul>\n"
+                + "\n".join(element("li", item) for item in items) + "\n</ul>\n</aside>")
+
+
 def cautions(result: BacktestResult) -> Html:
     """The cautions box, with a line on how few origins back the figures when that applies."""
     items = list(GENERAL)
@@ -32,5 +54,4 @@ def cautions(result: BacktestResult) -> Html:
         items.insert(2, f"Some series have only {min(origins)} forecast origins: every score, "
                         "test and ranking here rests on few independent errors and can "
                         "change with a few more periods of data.")
-    return Html('<aside class="cautions">\n' + element("h2", "Read with care") + "\n<ul>\n"
-                + "\n".join(element("li", item) for item in items) + "\n</ul>\n</aside>")
+    return _box(items)

@@ -5,12 +5,14 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
+from backtest.parameter_names import readable, seasonal_period
 from backtest.results import CandidateInfo, SeriesResult
 from service.charts import parameter_path_chart, residual_chart
 from service.charts.parameters import default_names
 from service.report.embed import ChartEmbedder
 from service.report.html import Html, element, join, table
 from service.report.numbers import MISSING, fixed, general, p_value, share, verdict
+from service.report.parameters import parameter_cell
 from service.report.residuals import FitResiduals, residual_scale
 from service.report.selection import charted_note
 
@@ -54,9 +56,11 @@ def _candidate(sr: SeriesResult, c: CandidateInfo, charts: ChartEmbedder | None,
         parts.append(element("p", f"The fit to the whole series failed: {diagnostics['error']}",
                              cls="alert"))
     elif diagnostics:
-        parts += [_estimation(diagnostics), _coefficients(diagnostics),
+        period = seasonal_period(c.spec, sr.series.get("season_length"))
+        parts += [_estimation(diagnostics), _coefficients(diagnostics, period),
                   _residual_tests(diagnostics), _roots(diagnostics)]
-    parts.append(_stability(sr.evidence.get("stability", {}).get(c.candidate_id)))
+    parts.append(_stability(sr.evidence.get("stability", {}).get(c.candidate_id),
+                            seasonal_period(c.spec, sr.series.get("season_length"))))
     for note in diagnostics.get("warnings") or ():
         parts.append(element("p", f"Warning from the full-series fit: {note}", cls="note"))
     for section, reason in (diagnostics.get("unavailable") or {}).items():
@@ -108,9 +112,10 @@ def _estimation(d: dict) -> Html:
     return element("p", text + ".")
 
 
-def _coefficients(d: dict) -> Html:
-    rows = [(r["name"], general(r.get("estimate")), general(r.get("std_error")),
-             fixed(r.get("z"), 2), p_value(r.get("p_value")), r.get("note") or "")
+def _coefficients(d: dict, period: int | None) -> Html:
+    rows = [(parameter_cell(r["name"], period), general(r.get("estimate")),
+             general(r.get("std_error")), fixed(r.get("z"), 2), p_value(r.get("p_value")),
+             r.get("note") or "")
             for r in d.get("coefficients") or ()]
     if not rows:
         return Html("")
@@ -176,7 +181,7 @@ def _roots(d: dict) -> Html:
     return element("p", "; ".join(notes) + ".", cls=cls)
 
 
-def _stability(stability: dict | None) -> Html:
+def _stability(stability: dict | None, period: int | None) -> Html:
     if not stability:
         return Html("")
     if "error" in stability:
@@ -184,7 +189,8 @@ def _stability(stability: dict | None) -> Html:
                             f"{stability['error']}", cls="alert")
     unstable = stability.get("unstable") or []
     box = stability.get("ljung_box") or {}
-    finding = ("flagged unstable: " + ", ".join(unstable) if unstable
+    finding = ("flagged unstable: " + ", ".join(readable(n, period) for n in unstable)
+               if unstable
                else "no coefficient flagged unstable")
     text = (f"Across {stability.get('n_folds')} re-estimating folds: {finding}; converged in "
             f"{share(stability.get('share_converged'), 0)}")

@@ -30,3 +30,8 @@ def general(value: float | None) -> str:
 def verdict(value: bool | None, yes: str, no: str) -> str:
     """``yes``/``no`` for a boolean verdict, a dash when there is none."""
     return MISSING if value is None else (yes if value else no)
+
+
+def interval(level: int, lower: float | None, upper: float | None, digits: int = 1) -> str:
+    """One level's interval in one cell, e.g. ``80 %: 187.5 – 201.0``."""
+    return f"{level} %: {fixed(lower, digits)} – {fixed(upper, digits)}"

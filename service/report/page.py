@@ -12,8 +12,8 @@ CSS = """
         --accent: #0072B2; --alert: #A33D00; }
 * { box-sizing: border-box; }
 body { font-family: "DejaVu Sans", "Helvetica Neue", Arial, sans-serif; font-size: 10pt;
-       line-height: 1.4; color: var(--ink); margin: 0 auto; max-width: 190mm;
-       padding: 8mm 6mm; }
+       line-height: 1.4; color: var(--ink); margin: 0 auto; max-width: 1360px;
+       padding: 8mm clamp(4mm, 2.5vw, 12mm); }
 h1 { font-size: 17pt; margin: 0 0 2mm; }
 h2 { font-size: 13.5pt; margin: 9mm 0 2mm; padding-bottom: 1mm;
      border-bottom: 2px solid var(--accent); }
@@ -24,6 +24,7 @@ p { margin: 1mm 0 2mm; }
 .lede { color: var(--muted); margin-bottom: 4mm; }
 .mono { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 8.5pt;
         overflow-wrap: anywhere; }
+.mono.lib { color: var(--muted); font-size: 7.5pt; }
 table { border-collapse: collapse; width: 100%; margin: 1.5mm 0 3mm; font-size: 8.5pt;
         break-inside: auto; }
 th, td { border-bottom: 1px solid var(--rule); padding: 0.8mm 1.6mm; text-align: left;
@@ -42,7 +43,10 @@ table.ranking td:nth-child(2) { min-width: 42mm; }
 .alert { color: var(--alert); font-weight: 600; }
 .candidate { break-inside: avoid-page; }
 figure.chart { margin: 2mm 0 4mm; break-inside: avoid; }
-figure.chart svg { display: block; width: 100%; height: auto; max-width: 170mm; }
+figure.chart svg { display: block; width: 100%; height: auto; max-width: 1000px; }
+p, li, figcaption { max-width: 120ch; }
+td { overflow-wrap: anywhere; }
+p.history a { margin: 0 1mm; }
 figcaption { color: var(--muted); font-size: 8.5pt; margin-top: 1mm; }
 section.series { break-before: page; }
 a { color: var(--accent); }
@@ -61,6 +65,8 @@ nav.pager { margin: 3mm 0; font-size: 9.5pt; }
 @media print {
   nav.site { display: none; }
   body { padding: 0; max-width: none; }
+  figure.chart svg { max-width: 170mm; }
+  p.history { display: none; }
   * { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
   a { color: inherit; text-decoration: none; }
 }

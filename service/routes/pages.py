@@ -8,7 +8,7 @@ send it back to the sign-in form.
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Literal
 from urllib.parse import parse_qs, urlsplit
 
 from fastapi import APIRouter, Depends, Query, Request
@@ -32,7 +32,7 @@ from service.pages.reviewer import (
     start_session,
 )
 from service.pages.series_detail import load_series_page, series_detail
-from service.pages.series_list import series_list
+from service.pages.series_list import STATES, series_list
 from service.report.html import join
 from service.report.prerender import settings_report_cache
 from service.report.stored import stored_run_report
@@ -49,6 +49,8 @@ PAGE_HEADERS = {"Content-Security-Policy": "default-src 'none'; style-src 'unsaf
 
 
 Reviewer = Annotated[Caller, Depends(reviewer)]
+#: A monitoring state of the series list, or "" (the form's "any").
+MonitoringState = Literal[("", *STATES)]  # type: ignore[valid-type] - the page's own list
 
 
 async def posted_key(request: Request) -> str:
@@ -108,11 +110,15 @@ def sign_out(request: Request, sessions: Sessions, settings: AppSettings) -> Red
 @router.get("/")
 def series_index(caller: Reviewer, sessions: Sessions,
                  prefix: Annotated[str | None, Query(max_length=200)] = None,
-                 offset: Annotated[int, Query(ge=0, le=MAX_ID)] = 0) -> HTMLResponse:
-    """Every series with its latest run's top candidate, score and champion, a page at a
-    time, optionally only the keys starting with ``prefix``."""
+                 offset: Annotated[int, Query(ge=0, le=MAX_ID)] = 0,
+                 state: Annotated[MonitoringState | None, Query()] = None
+                 ) -> HTMLResponse:
+    """Every series with its latest run's top candidate, score, champion and monitoring
+    state, a page at a time, optionally only the keys starting with ``prefix`` and only
+    the series in monitoring ``state``."""
     with sessions.begin() as session:
-        body = series_list(session, prefix=prefix or None, offset=offset)
+        body = series_list(session, prefix=prefix or None, offset=offset,
+                           state=state or None)
     return _page(reviewer_page("All series", caller, body))
 
 
@@ -128,12 +134,16 @@ def series_page(key: str, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
 
 
 @router.get("/forecasts/{forecast_id}")
-def forecast_page(forecast_id: Id, caller: Reviewer, sessions: Sessions) -> HTMLResponse:
+def forecast_page(forecast_id: Id, caller: Reviewer, sessions: Sessions,
+                  history: Annotated[int | None, Query(ge=0, le=100_000)] = None
+                  ) -> HTMLResponse:
     """An issued forecast: what it was fitted on, its steps beside the actuals, every outcome
-    set and a fan chart."""
+    set and a fan chart with ``history`` periods before the origin (default: in proportion
+    to the horizon; 0: all)."""
     with sessions.begin() as session:
         view = load_forecast_page(session, forecast_id)
-    return _page(reviewer_page(f"Forecast {forecast_id}", caller, forecast_detail(view)))
+    return _page(reviewer_page(f"Forecast {forecast_id}", caller,
+                               forecast_detail(view, history)))
 
 
 @router.get("/runs/{run_id}")

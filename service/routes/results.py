@@ -84,13 +84,14 @@ def run_scores(run_id: Id, request: Request, response: Response, caller: Reader,
 
 
 @router.get("/folds", response_model=FoldPage,
-            responses=_responses(FoldRow, (*columns(FoldRow)[:-2], "lower_<level>",
-                                           "upper_<level>")))
+            responses=_responses(FoldRow, (*columns(FoldRow)[:-2], "level", "lower",
+                                           "upper")))
 def run_folds(run_id: Id, request: Request, response: Response, caller: Reader,
               sessions: Sessions, output: FormatParam = None,
               series_key: SeriesKeyFilter = None, candidate_id: CandidateFilter = None,
               limit: Limit = 1000, offset: Offset = 0) -> Any:
-    """One row per fold and horizon, in series, candidate and origin order; paged."""
+    """One row per fold and horizon, in series, candidate and origin order; paged. As CSV,
+    one row per fold, horizon and interval level (``level``, ``lower``, ``upper``)."""
     chosen = chosen_format(request, output)
     with sessions.begin() as session:
         get_run(session, run_id)
@@ -100,8 +101,9 @@ def run_folds(run_id: Id, request: Request, response: Response, caller: Reader,
     link = next_link(request, offset, limit, len(rows) > limit)
     rows = [{"run_id": run_id, **row} for row in rows[:limit]]
     if chosen == "csv":
-        bounds = [f"{side}_{level}" for level in levels for side in ("lower", "upper")]
-        return csv_response(rows, (*columns(FoldRow)[:-2], *bounds), link)
+        long = ({**row, "level": level, "lower": row[f"lower_{level}"],
+                 "upper": row[f"upper_{level}"]} for row in rows for level in levels)
+        return csv_response(long, (*columns(FoldRow)[:-2], "level", "lower", "upper"), link)
     link_headers(response, link)
     return FoldPage(items=[FoldRow(**_with_bounds(row, levels)) for row in rows], next=link)
 

@@ -1,4 +1,4 @@
-"""Reference values for the airline model ARIMA(0,1,1)(0,1,1)[12] on log Series G.
+"""Reference values for the airline model ARIMA(0,1,1)×(0,1,1), season 12, on log Series G.
 
 Model (Box & Jenkins 1976, ch. 9; chapter recalled): (1-B)(1-B^12) ln z_t =
 (1 - theta B)(1 - Theta B^12) a_t. statsmodels writes MA terms as (1 + theta B), so its

@@ -35,7 +35,7 @@ from tests.conftest import series_g_path
 
 # Toy quarterly series x used for the KPSS check values.
 TOY = np.array([12, 15, 20, 14, 13, 17, 22, 15, 15, 18, 24, 17, 16, 20, 25, 18], dtype=float)
-# Airline model ARIMA(0,1,1)(0,1,1)[12] on log Series G (Box & Jenkins 1976, ch. 9, chapter
+# Airline model ARIMA(0,1,1)×(0,1,1), season 12, on log Series G (Box & Jenkins 1976, ch. 9, chapter
 # recalled) at the maximum of its exact likelihood: AICc = -2 log L + 2K + 2K(K+1)/(N-K-1)
 # (Hurvich & Tsai 1989), K = 3, N = 131; an optimiser's stopping point may lose up to
 # 2 * LOGLIK_TOLERANCE of it.
@@ -337,19 +337,20 @@ def test_defaults_fill_the_canonical_body_and_the_label():
         "max_order": {"p": 1, "d": 2, "q": 3, "P": 1, "D": 1, "Q": 1}, "seasonal": True,
         "criterion": "aicc", "max_models": 40, "period": None,
         "transform": {"kind": "log", "lambda": None}}
-    assert spec.label(12) == "ARIMA search[12] log"
-    assert parse({"family": "arima_search", "seasonal": False}).label(12) == "ARIMA search"
-    assert parse({"family": "arima_search", "criterion": "bic"}).label(1) == "ARIMA search BIC"
+    assert spec.label(12) == "ARIMA search by AICc, season 12, up to (1,2,3)×(1,1,1), log"
+    assert parse({"family": "arima_search", "seasonal": False}).label(12) == (
+        "ARIMA search by AICc, no season")
+    assert parse({"family": "arima_search", "criterion": "bic"}).label(1) == "ARIMA search by BIC"
 
 
 def test_registered_family_parses_through_the_candidate_list():
     candidate = parse_candidate({"family": "arima_search", "period": 4})
     assert isinstance(candidate.spec, ArimaSearchSpec)
-    assert candidate.label(12) == "ARIMA search[4]"
+    assert candidate.label(12) == "ARIMA search by AICc, season 4"
 
 
 def test_min_train_fits_the_simplest_model_with_the_most_differencing():
-    # (0,2,0)(0,1,0)[12]: 2 + 12 differences, sigma^2, two spare observations.
+    # (0,2,0)×(0,1,0), season 12: 2 + 12 differences, sigma^2, two spare observations.
     assert parse({"family": "arima_search"}).min_train(12) == 2 + 12 + 1 + 2
     assert parse({"family": "arima_search", "seasonal": False}).min_train(12) == 2 + 1 + 2
 
@@ -373,3 +374,34 @@ def test_min_train_fits_the_simplest_model_with_the_most_differencing():
 def test_bad_spec_fields_are_rejected(body, message):
     with pytest.raises(CandidateError, match=message):
         parse({"family": "arima_search", **body})
+
+
+def test_thresholds_are_spec_fields_that_keep_older_ids():
+    default = parse_candidate({"family": "arima_search"})
+    spelled = parse_candidate({"family": "arima_search", "seasonal_strength_threshold": 0.64,
+                               "max_inverse_root": 0.99})
+    changed = parse({"family": "arima_search", "seasonal_strength_threshold": 0.5,
+                     "max_inverse_root": 0.98})
+    assert spelled.id == default.id and "max_inverse_root" not in default.spec.body()
+    assert changed.body()["seasonal_strength_threshold"] == 0.5
+    assert changed.body()["max_inverse_root"] == 0.98
+    assert changed.label(12).endswith("strength ≥ 0.5, roots ≤ 0.98")
+    for field, bad in (("seasonal_strength_threshold", 1.5), ("max_inverse_root", "0.9"),
+                       ("max_inverse_root", True)):
+        with pytest.raises(CandidateError, match=field):
+            parse({"family": "arima_search", field: bad})
+
+
+def test_the_strength_threshold_decides_the_seasonal_difference(log_series_g):
+    strength = choose_differencing(log_series_g, 12, 2, 1).seasonal_strength
+    above = choose_differencing(log_series_g, 12, 2, 1, threshold=min(1.0, strength + 0.01))
+    assert above.seasonal_d == 0
+    assert choose_differencing(log_series_g, 12, 2, 1, threshold=strength).seasonal_d == 1
+
+
+def test_the_root_limit_decides_the_verdict():
+    w = np.diff(np.random.default_rng(1).standard_normal(150))  # as in the test above
+    strict = run_trial(ArimaSpec((0, 0, 1)), w, 1, "aicc")
+    loose = run_trial(ArimaSpec((0, 0, 1)), w, 1, "aicc", root_limit=1.0)
+    assert strict.verdict == "near_unit_root" and loose.verdict == "accepted"
+    assert abs(loose.results.maparams[0]) <= 1.0

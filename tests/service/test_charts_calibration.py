@@ -12,7 +12,7 @@ from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
 from service.charts import calibration_chart
-from service.charts.calibration import binomial_range, one_step_misses
+from service.charts.calibration import DODGE, binomial_range, one_step_misses
 
 
 @pytest.fixture(scope="module")
@@ -52,6 +52,9 @@ def test_coverage_panel_draws_evidence_nominal_and_range(sr, naive, level):
     observed = lines[f"{level} %: observed"]
     assert np.allclose(observed.get_ydata(), [100 * r["coverage"] for r in rows])
     assert np.allclose(lines[f"{level} %: nominal"].get_ydata(), level)
+    # the levels sit side by side around each horizon, so equal coverage stays visible
+    offset = observed.get_xdata() - np.array([r["horizon"] for r in rows])
+    assert np.allclose(offset, -DODGE / 2 if level == 80 else DODGE / 2)
     band = next(c for c in ax.collections if isinstance(c, PolyCollection)
                 and c.get_label() == f"{level} %: range if calibrated")
     vertices = band.get_paths()[0].vertices

@@ -5,6 +5,7 @@ import dataclasses
 import numpy as np
 import pytest
 from matplotlib.collections import PolyCollection
+from matplotlib.colors import to_hex
 
 from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
@@ -78,9 +79,32 @@ def test_each_band_spans_its_bounds(drawn, level):
         assert np.isclose(at_x.min(), low) and np.isclose(at_x.max(), high)
 
 
-def test_wider_band_is_paler(drawn):
-    bands = _bands(drawn[2])
-    assert bands["95 % interval"].get_alpha() < bands["80 % interval"].get_alpha()
+def test_bands_are_outlined_neutral_and_named_at_the_right_edge(drawn):
+    series, fold, fig = drawn
+    ax = fig.axes[0]
+    bands = _bands(fig)
+    for level in (80, 95):
+        faces = bands[f"{level} % interval"].get_facecolor()
+        assert len(faces) == 0 or faces[0][3] == 0  # outline only
+        names = [t for t in ax.texts if t.get_gid() in (f"level-label-{level}-upper",
+                                                        f"level-label-{level}-lower")]
+        assert [t.get_text() for t in names] == [f"{level} %"] * 2
+        last = _line(fig, "point forecast").get_xdata()[-1]
+        assert {t.xy for t in names} == {(last, fold.upper[level][-1]),
+                                         (last, fold.lower[level][-1])}
+        assert max(t.xy[0] for t in names) < ax.get_xlim()[1] - 1  # room for the text
+    assert bands["80 % interval"].get_linestyle() != bands["95 % interval"].get_linestyle()
+    fill = bands["_fan"].get_facecolor()[0]
+    assert abs(fill[0] - fill[1]) < 0.05 and abs(fill[1] - fill[2]) < 0.05  # neutral
+
+
+def test_the_point_forecast_has_its_own_colour(drawn):
+    fig = drawn[2]
+    point = to_hex(_line(fig, "point forecast").get_color())
+    others = {to_hex(_line(fig, name).get_color()) for name in ("history", "actual")}
+    edges = {to_hex(c.get_edgecolor()[0]) for label, c in _bands(fig).items()
+             if not label.startswith("_")}
+    assert point not in others | edges
 
 
 def test_labels_title_and_legend(drawn):
@@ -89,7 +113,7 @@ def test_labels_title_and_legend(drawn):
     assert ax.get_ylabel() == "value (kEUR)" and ax.get_xlabel() == "period (month)"
     assert "sales/bakery" in fig.get_suptitle() and fold.origin in fig.get_suptitle()
     legend = [t.get_text() for t in fig.legends[0].get_texts()]
-    assert legend == ["95 % interval", "80 % interval", "history", "point forecast", "actual"]
+    assert legend == ["80 % interval", "95 % interval", "history", "point forecast", "actual"]
     ticks = {t.get_text() for t in ax.get_xticklabels()}
     assert ticks and ticks <= set(series.labels())
 

@@ -1,5 +1,7 @@
 """The overview draws every candidate's score by horizon, the benchmark marked."""
 
+import dataclasses
+
 import numpy as np
 import pytest
 
@@ -8,7 +10,7 @@ from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
 from service.charts import score_by_horizon_chart
-from service.charts.style import BENCHMARK_LOOK
+from service.charts.style import BENCHMARK_LOOK, BLUE, CANDIDATE_LOOKS
 
 
 @pytest.fixture(scope="module")
@@ -27,7 +29,8 @@ def _scores(sr, candidate_id, metric, level=None):
 
 
 def _lines(fig):
-    return {line.get_label(): line for line in fig.axes[0].get_lines()}
+    return {line.get_label(): line for line in fig.axes[0].get_lines()
+            if not line.get_label().startswith("_")}
 
 
 def test_one_line_per_candidate_with_its_mase_by_horizon(sr):
@@ -73,3 +76,28 @@ def test_a_level_score_without_level_or_an_unknown_score_is_refused(sr):
         score_by_horizon_chart(sr, metric="msis")
     with pytest.raises(ValueError, match="unknown score"):
         score_by_horizon_chart(sr, metric="accuracy")
+
+
+def test_the_best_ranked_candidate_gets_the_strongest_colour(sr):
+    fig = score_by_horizon_chart(sr)
+    best = next(r for r in sorted(sr.ranking, key=lambda r: r.rank) if not r.is_benchmark)
+    assert _lines(fig)[best.label].get_color() == CANDIDATE_LOOKS[0].color == BLUE
+
+
+def test_a_far_worse_candidate_is_clipped_and_marked_off_scale(sr):
+    worst = max((r for r in sr.ranking if not r.is_benchmark), key=lambda r: r.rank)
+    inflated = dataclasses.replace(sr, scores=tuple(
+        dataclasses.replace(s, value=s.value * 20) if s.candidate_id == worst.candidate_id
+        and s.metric == "mase" and s.value is not None else s for s in sr.scores))
+    fig = score_by_horizon_chart(inflated)
+    ax = fig.axes[0]
+    others = [v for r in sr.ranking if r.candidate_id != worst.candidate_id
+              for v in _scores(sr, r.candidate_id, "mase")]
+    assert max(others) < ax.get_ylim()[1] < max(_scores(inflated, worst.candidate_id, "mase"))
+    marks = next(line for line in ax.get_lines()
+                 if line.get_gid() == f"off-scale-{worst.candidate_id}")
+    assert np.allclose(marks.get_ydata(), ax.get_ylim()[1])
+    note = next(t for t in ax.texts if t.get_gid() == "off-scale-note").get_text()
+    assert worst.label in note
+    unclipped = score_by_horizon_chart(sr).axes[0]
+    assert not any(t.get_gid() == "off-scale-note" for t in unclipped.texts)

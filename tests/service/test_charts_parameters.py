@@ -41,8 +41,10 @@ def test_one_panel_per_coefficient_with_its_path(sr):
     refits = _refits(sr, arima)
     assert [f.fold for f in refits] == [0, 2, 4]  # refit every second origin
     panels = _panels(parameter_path_chart(sr, arima))
-    assert set(panels) == {"ma.L1", "ma.S.L12", "sigma2"}
-    for name, ax in panels.items():
+    assert set(panels) == {"MA 1 (ma.L1)", "seasonal MA 1 (ma.S.L12)",
+                           "innovation variance (sigma2)"}
+    for title, ax in panels.items():
+        name = title.split("(")[-1].rstrip(")")  # the library's name, after the readable one
         line = ax.get_lines()[0]
         assert list(line.get_xdata()) == [0, 2, 4]
         assert np.allclose(line.get_ydata(),
@@ -51,7 +53,7 @@ def test_one_panel_per_coefficient_with_its_path(sr):
 
 def test_bands_span_196_standard_errors(sr):
     arima = _id(sr, "arima")
-    ax = _panels(parameter_path_chart(sr, arima))["ma.L1"]
+    ax = _panels(parameter_path_chart(sr, arima))["MA 1 (ma.L1)"]
     vertices = next(c for c in ax.collections if isinstance(c, PolyCollection)
                     ).get_paths()[0].vertices
     for f in _refits(sr, arima):
@@ -64,11 +66,12 @@ def test_bands_span_196_standard_errors(sr):
 def test_a_family_without_standard_errors_gets_paths_without_bands(sr):
     theta = _id(sr, "theta")
     panels = _panels(parameter_path_chart(sr, theta))
-    assert set(panels) == {"b0", "alpha", "sigma2"}
+    assert set(panels) == {"trend slope (b0)", "smoothing weight (alpha)",
+                           "innovation variance (sigma2)"}
     assert not any(isinstance(c, PolyCollection) for ax in panels.values()
                    for c in ax.collections)
     alpha = [f.params["alpha"] for f in _refits(sr, theta)]
-    assert np.allclose(panels["alpha"].get_lines()[0].get_ydata(), alpha)
+    assert np.allclose(panels["smoothing weight (alpha)"].get_lines()[0].get_ydata(), alpha)
 
 
 def test_coefficients_flagged_by_the_stability_rule_say_so(sr):
@@ -77,7 +80,8 @@ def test_coefficients_flagged_by_the_stability_rule_say_so(sr):
     flagged = dataclasses.replace(sr, evidence={**sr.evidence,
                                                 "stability": {arima: stability}})
     titles = set(_panels(parameter_path_chart(flagged, arima)))
-    assert titles == {"ma.L1", "ma.S.L12 (flagged unstable)", "sigma2"}
+    assert titles == {"MA 1 (ma.L1)", "seasonal MA 1 (ma.S.L12) (flagged unstable)",
+                      "innovation variance (sigma2)"}
 
 
 def test_initial_states_are_left_out_by_default(sr):
@@ -94,7 +98,7 @@ def test_axes_labels_and_title(sr):
     assert fig.get_supylabel() == "estimate (model scale)"
     assert all(ax.get_xlabel() == "origin (last training period)" for ax in fig.axes
                if ax.get_visible())
-    assert "parameter paths of ARIMA(0,1,1)(0,1,1)[12] log" in fig.get_suptitle().replace(
+    assert "parameter paths of ARIMA(0,1,1)×(0,1,1), season 12, log" in fig.get_suptitle().replace(
         "\n", " ")
     assert [t.get_text() for t in fig.legends[0].get_texts()] == [
         "estimate +/- 1.96 s.e.", "estimate"]

@@ -77,11 +77,32 @@ def test_axis_wording_names_steps_and_units():
     assert value_axis_label(None) == "value (series units)"
 
 
-def test_period_ticks_are_thinned_to_the_limit():
+def _ticks(labels, max_ticks=8):
     ax = new_figure(2).subplots()
-    labels = [f"2020-{m:02d}" for m in range(1, 13)] + [f"2021-{m:02d}" for m in range(1, 13)]
-    label_periods(ax, labels, range(24), max_ticks=6)
-    assert [t.get_text() for t in ax.get_xticklabels()] == labels[::4]
+    label_periods(ax, labels, range(len(labels)), max_ticks=max_ticks)
+    return [t.get_text() for t in ax.get_xticklabels()]
+
+
+def _months(first_year, first_month, count, step=1):
+    return [f"{first_year + (first_month - 1 + i) // 12}-{(first_month - 1 + i) % 12 + 1:02d}"
+            for i in range(0, count * step, step)]
+
+
+def test_period_ticks_sit_at_regular_calendar_positions():
+    two_years = _months(2020, 1, 24)
+    assert _ticks(two_years, 6) == ["2020-01", "2020-07", "2021-01", "2021-07"]
+    # 8 years from February: every January (not 2017-02, 2018-03, 2019-04 ...)
+    eight = _months(2017, 2, 96)
+    assert _ticks(eight) == [f"{y}-01" for y in range(2018, 2026)]
+    quarterly = _months(2015, 3, 40, step=3)  # Mar, Jun, Sep, Dec
+    assert _ticks(quarterly) == [f"{y}-03" for y in range(2016, 2025, 2)]
+    assert _ticks([str(y) for y in range(1990, 2031)]) == [str(y) for y in range(1990, 2031, 10)]
+    days = [f"2024-{m:02d}-{d:02d}" for m in range(1, 7) for d in (1, 8, 15, 22)]
+    assert _ticks(days) == [f"2024-{m:02d}-01" for m in range(1, 7)]
+
+
+def test_labels_without_a_calendar_are_thinned():
+    assert _ticks([f"w{i}" for i in range(24)], 6) == [f"w{i}" for i in range(0, 24, 4)]
 
 
 def test_long_titles_wrap_instead_of_running_off_the_figure():

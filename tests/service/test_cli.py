@@ -9,6 +9,7 @@ from pathlib import Path
 import pytest
 
 from backtest.demo import demo_series
+from tests.conftest import BRACKETED_LABEL
 
 FOLDLINE = [sys.executable, "-m", "service.cli"]
 
@@ -36,11 +37,11 @@ def test_backtest_prints_rankings_and_writes_tidy_tables(inputs):
                 str(inputs / "candidates.json"), "--plan", str(inputs / "plan.json"),
                 "--out", str(out))
     assert done.returncode == 0, done.stderr
-    assert "sales/fresh-produce" in done.stdout and "Theta[12]" in done.stdout
+    assert "sales/fresh-produce" in done.stdout and "Theta, season 12 if tested" in done.stdout
     with (out / "folds.csv").open() as handle:
         folds = list(csv.DictReader(handle))
-    assert len(folds) == 2 * 3 * 4 * 3  # series x candidates (with benchmark) x origins x h
-    assert {"lower_80", "upper_95", "actual", "point"} <= set(folds[0])
+    assert len(folds) == 2 * 3 * 4 * 3 * 2  # series x candidates x origins x h x levels
+    assert {"level", "lower", "upper", "actual", "point"} <= set(folds[0])
     with (out / "scores.csv").open() as handle:
         scores = list(csv.DictReader(handle))
     assert {r["metric"] for r in scores} >= {"mase", "rmsse", "smape", "coverage", "msis"}
@@ -101,3 +102,10 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     flagged = [line.split()[0] for line in done.stdout.splitlines() if "RAISED:" in line
                and line.split()[0].count("/") == 1]
     assert flagged == ["costs/cold-storage-energy"]
+    # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
+    outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
+                                         for path in (tmp_path / "demo").iterdir()
+                                         if path.suffix in (".csv", ".html", ".json", ".txt")}}
+    assert "Seasonal naive, season 12" in outputs["report.html"]
+    assert {name: BRACKETED_LABEL.findall(text) for name, text in outputs.items()
+            if BRACKETED_LABEL.search(text)} == {}

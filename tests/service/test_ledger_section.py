@@ -14,15 +14,17 @@ import pytest
 from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.ledger import realised_mase, score_outcomes
+from backtest.parameter_names import readable
 from backtest.series import Series, make_series
 from service.monitoring import monitor_series
 from service.pages import ledger_view
-from service.pages.forecast_detail import forecast_detail
+from service.pages.forecast_detail import forecast_detail, history_window
 from service.pages.forecast_view import load_forecast_page
 from service.pages.ledger_section import ledger_section
 from service.pages.ledger_view import load_ledger
+from service.pages.series_list import STATES, monitoring_state, series_list
 from service.report.numbers import fixed
-from storage.champions import choose_champion
+from storage.champions import choose_champion, current_champion
 from storage.engine import make_engine, session_factory
 from storage.outcomes import record_outcomes
 from storage.series_store import load_series, save_series_version
@@ -242,11 +244,13 @@ def test_a_forecast_page_shows_each_step_beside_its_actual_and_every_outcome_set
         cells = _cells(first, str(step + 1))
         actual = float(actuals.values[actuals.labels().index(period)])
         assert cells[1:3] == [period, fixed(f.point[step])]
-        assert cells[3:5] == [fixed(f.lower[80][step]), fixed(f.upper[80][step])]
-        assert cells[7:9] == [fixed(actual), fixed(actual - f.point[step])]
+        assert cells[3:5] == [  # one cell per level, e.g. "80 %: 187.500 – 201.000"
+            f"{level} %: {fixed(f.lower[level][step])} – {fixed(f.upper[level][step])}"
+            for level in (80, 95)]
+        assert cells[5:7] == [fixed(actual), fixed(actual - f.point[step])]
     earlier, newest = view.sets
     assert earlier.version < newest.version == version.number
-    assert _cells(second, "1")[7] == fixed(corrected[36])  # steps use the newest set
+    assert _cells(second, "1")[5] == fixed(corrected[36])  # steps use the newest set
     expected = [fixed(realised_mase(s.outcomes.outcomes)) for s in view.sets]
     assert [_cells(second, str(s.version))[3] for s in view.sets] == expected
     assert "<svg" in second and 'id="forecast-fan-' in second
@@ -258,5 +262,33 @@ def test_a_forecast_not_yet_observed_says_so(sessions):
         page = forecast_detail(load_forecast_page(session, newest.forecast_id))
     assert page.count("not yet observed") == len(newest.forecast.periods)
     assert "No outcomes yet" in page
-    for name, value in newest.forecast.params.items():
-        assert f"<td>{html.escape(name)}</td><td class=\"num\">{value:.6f}</td>" in page
+    for name, value in newest.forecast.params.items():  # readable name, then the library's
+        shown = readable(name, 12)
+        assert (f'<td>{html.escape(shown)} <span class="mono lib">{html.escape(name)}</span>'
+                f'</td><td class="num">{value:.6f}</td>') in page
+
+
+def test_the_forecast_chart_shows_history_in_proportion_to_the_horizon(sessions):
+    with sessions() as session:
+        view = load_forecast_page(session, load_ledger(session, KEY).issued[0].record.forecast_id)
+    f = view.record.forecast
+    available = view.history.labels().index(f.origin) + 1
+    default = history_window(len(f.periods), f.season_length)
+    assert default == max(4 * len(f.periods), 12) < available
+    assert f"The last {default} periods of history" in forecast_detail(view)
+    assert f"The last {available} periods of history" in forecast_detail(view, 0)
+    assert "The last 5 periods of history" in forecast_detail(view, 5)
+    assert f'href="/pages/forecasts/{view.record.forecast_id}?history=0"' in forecast_detail(view)
+
+
+def test_the_series_list_shows_the_champions_monitoring_state(sessions):
+    with sessions() as session:
+        flags = monitor_series(session, KEY).report.flags
+        state = monitoring_state(session, KEY, current_champion(session, KEY))
+        listed = series_list(session, state=state)
+        others = [series_list(session, state=s) for s in STATES if s != state]
+    expected = ("raised" if any(f.raised for f in flags) else
+                "not enough data" if all(f.p_value is None for f in flags) else "clear")
+    assert state == expected
+    assert f'<a href="/pages/series/{KEY}">' in listed
+    assert not any(f'<a href="/pages/series/{KEY}">' in page for page in others)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -86,3 +87,6 @@ def test_the_interactive_docs_are_served(api: Api):
     response = api.client.get("/docs")
 
     assert response.status_code == 200 and "openapi.json" in response.text
+    assert "http" not in response.text.replace("http-equiv", "")  # nothing from elsewhere
+    for asset in re.findall(r'(?:src|href)="(/docs-assets/[^"]+)"', response.text):
+        assert api.client.get(asset).status_code == 200, asset

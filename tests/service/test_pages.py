@@ -164,8 +164,9 @@ def test_the_series_list_shows_each_series_latest_run_and_top_candidate(site: Ap
     assert cells[5:8] == [label, f"{top['score']:.3f}", ratio]
     assert ">ratio to benchmark</th>" in page and "skill" not in page
     assert cells[8] == "Naive"  # the champion, chosen in the fixture
+    assert cells[9] == "not enough data"  # no forecast of it was issued yet
     south = re.search(r"<tr><td><a href=\"/pages/series/shop/south\">.*?</tr>", page)[0]
-    assert "none yet" in south
+    assert "none yet" in south and "<td>no champion</td>" in south
     assert "&lt;b&gt;kEUR&lt;/b&gt;" in page and UNIT not in page
     assert "fl_" not in page
 
@@ -193,6 +194,23 @@ def test_the_series_list_pages_by_key_and_filters_by_prefix(site: Api):
     assert '<a href="/pages/?offset=1">next page</a>' in first_of_one
     assert keys.findall(second_of_one) == ["shop/south"]
     assert "next page" not in second_of_one
+
+
+def test_the_series_list_filters_by_monitoring_state(site: Api):
+    cookie = _session(site)
+    keys = re.compile(r'<tr><td><a href="/pages/series/([^"]+)">')
+
+    unchosen = _page(site, "/pages/?state=no+champion", cookie).text
+    waiting = _page(site, "/pages/?state=not+enough+data&prefix=shop/", cookie).text
+    raised = _page(site, "/pages/?state=raised", cookie).text
+    refused = _page(site, "/pages/?state=alarming", cookie)
+
+    assert keys.findall(unchosen) == ["shop/south"]
+    assert '<option value="no champion" selected>' in unchosen
+    assert keys.findall(waiting) == ["shop/north"]
+    assert keys.findall(raised) == []
+    assert "No series is in monitoring state &#x27;raised&#x27;." in raised
+    assert refused.status_code == 422 and "state" in refused.text
 
 
 def test_the_series_page_shows_versions_runs_ranking_and_charts(site: Api):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import io
+import itertools
 import math
 from collections.abc import Iterator
 
@@ -63,12 +64,14 @@ def test_folds_page_through_every_fold_and_horizon_with_their_bounds(finished):
 
     items = _all_pages(api, f"/v1/runs/{run_id}/folds?limit=7")
 
-    expected = list(fold_rows(result))
-    assert len(items) == len(expected) == 2 * 3 * 4 * 3
-    for got, want in zip(items, expected):
+    expected = list(fold_rows(result))  # long: one row per level
+    levels = result.plan["levels"]
+    assert len(items) * len(levels) == len(expected) == 2 * 3 * 4 * 3 * len(levels)
+    for i, want in enumerate(expected):
+        got = items[i // len(levels)]
         for name, value in want.items():
-            side, _, level = name.partition("_")
-            actual = got[side][level] if side in ("lower", "upper") else got[name]
+            actual = (got[name][str(want["level"])] if name in ("lower", "upper")
+                      else want["level"] if name == "level" else got[name])
             assert _same(actual, value), (name, got, want)
 
 
@@ -112,10 +115,12 @@ def test_csv_has_the_documented_columns_and_the_same_rows(finished):
                                "note"]
     assert len(scores) == len(list(score_rows(result)))
     folds = list(csv.DictReader(io.StringIO(by_format.text)))
-    assert list(folds[0])[-4:] == ["lower_50", "upper_50", "lower_90", "upper_90"]
-    first = next(fold_rows(result))
-    assert float(folds[0]["point"]) == first["point"]
-    assert float(folds[0]["upper_90"]) == first["upper_90"]
+    assert list(folds[0])[-4:] == ["point", "level", "lower", "upper"]
+    assert [row["level"] for row in folds[:4]] == ["50", "90", "50", "90"]
+    first, second = list(itertools.islice(fold_rows(result), 2))
+    assert float(folds[0]["point"]) == first["point"] == float(folds[1]["point"])
+    assert float(folds[1]["upper"]) == second["upper"] and second["level"] == 90
+    assert len(folds) == len(list(fold_rows(result)))
 
 
 def test_evidence_as_csv_is_one_row_per_value(finished):
