@@ -21,7 +21,9 @@ import numpy as np
 
 from backtest.demo import demo_series
 from backtest.series import Series
+from service.cli_dossier import dossier_lines
 from service.ledger_text import monitoring_lines
+from service.schemas.dossier import DossierOut
 from service.schemas.monitoring import FlagOut, MonitoringOut
 
 MONTHS = 6
@@ -144,11 +146,27 @@ def _report(client: httpx.Client, out: Path, issued: int) -> int:
     drifting = MonitoringOut(**client.get(
         f"/v1/series/{quote(DRIFTING, safe='/')}/monitoring").json())
     print("\n" + "\n".join(monitoring_lines(drifting)))
+    _ask_the_auditors_question(client)
     print(f"\nledger CSV: {out / 'ledger.csv'}; flags CSV: {out / 'monitoring.csv'}")
     if not drifting.raised:
         print(f"foldline: error: the drift of {DRIFTING} raised no flag", file=sys.stderr)
         return 1
     return 0
+
+
+def _ask_the_auditors_question(client: httpx.Client) -> None:
+    """Which model did we trust for the drifting line in March, why, and how did the
+    forecasts for March fare? One request: the series dossier."""
+    url = f"/v1/series/{quote(DRIFTING, safe='/')}/dossier"
+    params = {"target_from": "2025-03", "target_to": "2025-03", "limit": "8"}
+    started = time.perf_counter()
+    answer = client.get(url, params=params)
+    elapsed = time.perf_counter() - started
+    answer.raise_for_status()
+    query = "&".join(f"{k}={v}" for k, v in params.items())
+    print(f"\nthe auditor's question, in one request: GET {url}?{query} "
+          f"({elapsed * 1000:.0f} ms)")
+    print("\n".join("  " + line for line in dossier_lines(DossierOut(**answer.json()))))
 
 
 def _design(t: np.ndarray, start: int) -> np.ndarray:

@@ -102,6 +102,10 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     flagged = [line.split()[0] for line in done.stdout.splitlines() if "RAISED:" in line
                and line.split()[0].count("/") == 1]
     assert flagged == ["costs/cold-storage-energy"]
+    # the auditor's question about that line, answered by one request: the dossier
+    assert ("the auditor's question, in one request: GET "
+            "/v1/series/costs/cold-storage-energy/dossier?target_from=2025-03") in done.stdout
+    assert "  champion: " in done.stdout and "  issued forecasts (3):" in done.stdout
     # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
     outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
                                          for path in (tmp_path / "demo").iterdir()
