@@ -108,7 +108,7 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     assert "  champion: " in done.stdout and "  issued forecasts (3):" in done.stdout
     # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
     outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
-                                         for path in (tmp_path / "demo").iterdir()
+                                         for path in (tmp_path / "demo" / "1").iterdir()
                                          if path.suffix in (".csv", ".html", ".json", ".txt")}}
     assert "Seasonal naive, season 12" in outputs["report.html"]
     assert {name: BRACKETED_LABEL.findall(text) for name, text in outputs.items()
