@@ -19,8 +19,8 @@ def test_recalibration_moves_the_fleet_fuel_verdict_to_consistent():
     rows = [{**asdict(r), "series_key": fuel.key, "candidate": r.label} for r in sr.ranking]
 
     assert remedy_lines(rows) == [
-        "costs/fleet-fuel: Theta[12] calibration at h = 1 suspect; with empirical "
-        "intervals consistent"]
+        f"costs/fleet-fuel: {candidates[0].label(12)} calibration at h = 1 suspect; with "
+        "empirical intervals consistent"]
 
 
 def test_a_combination_is_reported_with_its_rank():
