@@ -236,9 +236,10 @@ def _check_ranking_table(page, ranking: list[dict]) -> None:
     for row, expected in zip(rows.all(), ranking):
         cells = _cells(row)
         label = expected["candidate"] + (" (benchmark)" if expected["is_benchmark"] else "")
-        assert cells[:3] == [str(expected["rank"]), label, f"{expected['score']:.3f}"]
+        assert cells[:4] == [str(expected["rank"]), label, f"{expected['score']:.3f}",
+                             f"{expected['score_own_folds']:.3f}"]
         if not expected["is_benchmark"]:
-            assert cells[3] == f"{expected['ratio_to_benchmark']:.3f}"
+            assert cells[4] == f"{expected['ratio_to_benchmark']:.3f}"
 
 
 def _visited(page) -> list[str]:
