@@ -1,6 +1,6 @@
 """Errors the HTTP layer raises itself; each carries a stable ``code``.
 
-:mod:`service.problems` maps them, and the backtest and storage errors, to problem details.
+:mod:`service.http.problems` maps them, and the backtest and storage errors, to problem details.
 """
 
 from __future__ import annotations

@@ -26,16 +26,16 @@ from backtest.candidates import parse_candidate
 from backtest.engine import run_backtest
 from backtest.results import BacktestResult, SeriesResult
 from backtest.series import Series
-from service.app import create_app
-from service.jobs_request import stored_plan
-from service.key_admin import issue_key
+from service.http.app import create_app
 from service.settings import Settings
-from storage.engine import make_engine, session_factory
-from storage.queue import run_request
-from storage.results_store import write_series_result
-from storage.runs import finish_run, record_progress, start_run
-from storage.schema import ROLES
-from storage.series_store import load_series
+from service.usecases.keys import issue_key
+from service.worker.queued_specs import stored_plan
+from storage.db.engine import make_engine, session_factory
+from storage.db.schema import ROLES
+from storage.results.store import write_series_result
+from storage.runs.lifecycle import finish_run, record_progress, start_run
+from storage.runs.queue import run_request
+from storage.series.versions import load_series
 from tests.storage.conftest import BACKENDS, migrated_store
 
 if TYPE_CHECKING:

@@ -15,9 +15,9 @@ from sqlalchemy.exc import ProgrammingError
 
 from backtest.candidates import parse_candidate
 from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from storage.bi_views import BI_VIEWS
-from storage.engine import make_engine
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.db.bi_views import BI_VIEWS
+from storage.db.engine import make_engine
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

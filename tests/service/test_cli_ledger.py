@@ -12,9 +12,9 @@ import pytest
 from backtest.candidates import parse_candidate
 from backtest.series import make_series
 from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from storage.engine import make_engine, session_factory
-from storage.series_store import save_series_version
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.db.engine import make_engine, session_factory
+from storage.series.versions import save_series_version
 from tests.service.conftest import copied_store
 from tests.storage.builders import ACTOR, monthly_series, run_and_store
 

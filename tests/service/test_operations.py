@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from storage.migrate import upgrade
-from storage.status import head_revision
+from storage.db.migrate import upgrade
+from storage.db.status import head_revision
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 

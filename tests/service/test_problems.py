@@ -9,9 +9,9 @@ from starlette.requests import Request
 
 from backtest import errors as backtest_errors
 from service import errors as service_errors
-from service.problems import PROBLEMS, _problem, kind_of, pointer
+from service.http.problems import PROBLEMS, _problem, kind_of, pointer
 from storage import errors as storage_errors
-from storage.queue import LeaseLostError
+from storage.runs.queue import LeaseLostError
 from tests.service.conftest import Api
 
 BASES = [backtest_errors.BacktestError, storage_errors.StorageError, service_errors.ServiceError]

@@ -15,9 +15,12 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.engine import run_backtest
 from backtest.results import SeriesResult
-from storage.contents import run_subject
+from storage.audit.contents import run_subject
+from storage.audit.verify import verify_audit_log
 from storage.errors import ImmutableRecordError
-from storage.queue import (
+from storage.results.store import completed_units
+from storage.runs.lifecycle import fail_run, get_run
+from storage.runs.queue import (
     Claim,
     LeaseLostError,
     cancel_requester,
@@ -27,10 +30,7 @@ from storage.queue import (
     request_cancel,
     write_unit,
 )
-from storage.results_store import completed_units
-from storage.runs import fail_run, get_run
-from storage.series_store import load_series
-from storage.verify import verify_audit_log
+from storage.series.versions import load_series
 from tests.service.worker_helpers import FAST, FAST_PLAN, events, queue, sessions_on, some_series
 from tests.storage.conftest import BACKENDS, migrated_store
 

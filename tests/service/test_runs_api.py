@@ -8,8 +8,8 @@ from sqlalchemy import func, select
 from backtest.candidates import parse_candidates
 from backtest.engine import planned_fold_count, run_backtest
 from backtest.plan import parse_plan
-from storage.queue import claim_run
-from storage.schema import AuditEvent, Run, SeriesResultRecord
+from storage.db.schema import AuditEvent, Run, SeriesResultRecord
+from storage.runs.queue import claim_run
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 
@@ -66,7 +66,7 @@ def test_a_retried_submission_with_the_same_key_returns_the_original_run(two_ser
 def test_idempotency_keys_belong_to_the_key_that_used_them(two_series: Api):
     mine = two_series.submit(["a"], headers={"Idempotency-Key": "k1"})
     with two_series.sessions.begin() as session:
-        from service.key_admin import issue_key
+        from service.usecases.keys import issue_key
         token = issue_key(session, name="other-submitter", role="submitter", actor="t")[1]
     body = {"series": {"keys": ["a"]}, "candidates": [{"family": "theta"}],
             "plan": {"horizon": 2}}

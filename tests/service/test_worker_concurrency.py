@@ -7,9 +7,9 @@ from pathlib import Path
 
 import pytest
 
-from storage.contents import run_subject, unit_subject
-from storage.runs import get_run
-from storage.verify import verify_audit_log
+from storage.audit.contents import run_subject, unit_subject
+from storage.audit.verify import verify_audit_log
+from storage.runs.lifecycle import get_run
 from tests.service.worker_helpers import (
     SLOW,
     SLOW_PLAN,

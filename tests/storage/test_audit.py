@@ -13,10 +13,10 @@ import pytest
 from sqlalchemy import select, text
 from sqlalchemy.orm import Session
 
-from storage.audit import GENESIS_HASH
-from storage.queries import audit_events_between
-from storage.schema import AuditEvent
-from storage.verify import verify_audit_log
+from storage.audit.log import GENESIS_HASH
+from storage.audit.verify import verify_audit_log
+from storage.db.schema import AuditEvent
+from storage.results.queries import audit_events_between
 from tests.storage.builders import monthly_series, run_and_store
 
 

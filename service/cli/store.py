@@ -1,0 +1,48 @@
+"""Running a command-line command against the store: one engine, one-line errors.
+
+Commands that work on the store directly (champions, forecasts, monitoring) share this:
+they get a session factory, return what to print, and any storage, service or backtest
+error ends as ``foldline: error: ...`` on stderr with exit code 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import getpass
+import sys
+from collections.abc import Callable
+
+from sqlalchemy.orm import Session, sessionmaker
+
+from backtest.errors import BacktestError
+from service.errors import ServiceError
+from storage.db.engine import URL_SETTING, database_url, make_engine, session_factory
+from storage.errors import StorageError
+
+
+def add_store_option(parser: argparse.ArgumentParser) -> None:
+    """Add ``--database-url`` to a command."""
+    parser.add_argument("--database-url", metavar="URL",
+                        help=f"SQLAlchemy URL of the store (default: ${URL_SETTING})")
+
+
+def run_in_store(args: argparse.Namespace,
+                 work: Callable[[sessionmaker[Session]], str]) -> int:
+    """Print what ``work`` returns (0), or its error on one line of stderr (2)."""
+    try:
+        engine = make_engine(args.database_url or database_url())
+        try:
+            out = work(session_factory(engine))
+        finally:
+            engine.dispose()
+    except (StorageError, ServiceError, BacktestError) as exc:
+        print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
+        return 2
+    if out:
+        print(out)
+    return 0
+
+
+def operator() -> str:
+    """The actor named in the audit log for commands run by hand."""
+    return f"cli:{getpass.getuser()}"
