@@ -460,11 +460,9 @@ def storage_part(args: argparse.Namespace) -> None:
     series' results are stored in their own transaction as soon as they are complete."""
     from service.settings import Settings
     from service.worker.loop import Worker
-    from storage.db.engine import make_engine, session_factory
-    from storage.db.migrate import upgrade
-    from storage.db.schema import Run
-    from storage.runs.lifecycle import queue_run
-    from storage.series.versions import save_series_version
+    from storage.db import Run, make_engine, session_factory, upgrade
+    from storage.runs import queue_run
+    from storage.series import save_series_version
 
     series = panel(args.series or 1000)
     candidates = parse_candidates(STORE_CANDIDATES)

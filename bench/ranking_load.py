@@ -35,11 +35,10 @@ from backtest.plan import parse_plan
 from backtest.series import make_series
 from service.demo.run import _free_port, running_server
 from service.usecases.keys import issue_key
-from storage.db.engine import make_engine, session_factory
-from storage.db.migrate import upgrade
-from storage.results.store import write_series_result
-from storage.runs.lifecycle import finish_run, queue_run, start_run
-from storage.series.versions import save_series_version
+from storage.db import make_engine, session_factory, upgrade
+from storage.results import write_series_result
+from storage.runs import finish_run, queue_run, start_run
+from storage.series import save_series_version
 
 CANDIDATES = [{"family": "benchmark", "method": m} for m in ("naive", "drift", "mean")] + [
     {"family": "theta"}, {"family": "theta", "season": "never"},

@@ -78,18 +78,6 @@ class NotReadyError(ServiceError):
     code = "not_ready"
 
 
-class InvalidCandidateError(InvalidInputError):
-    """A candidate of a run submission is malformed, repeated or impossible for a series."""
-
-    code = "invalid_candidate_spec"
-
-
-class InvalidPlanError(InvalidInputError):
-    """A run's plan is malformed or cannot be laid over a selected series."""
-
-    code = "invalid_plan_spec"
-
-
 class InvalidSelectionError(InvalidInputError):
     """A run's series selection names no stored series, or a missing one."""
 

@@ -10,8 +10,8 @@ from service.cli.ledger_text import champion_lines, suggestion_lines
 from service.cli.store import add_store_option, operator, run_in_store
 from service.usecases.champions import choose, suggestions
 from service.usecases.transactions import write
-from storage.ledger.champions import champion_history, current_champion
-from storage.series.catalog import get_series
+from storage.ledger import champion_history, current_champion
+from storage.series import get_series
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

@@ -15,11 +15,22 @@ from pathlib import Path
 from sqlalchemy.engine import make_url
 
 from service.settings import InvalidSettingsError, checked_settings
-from storage.audit.checkpoint import CheckpointError, extends, make_checkpoint, read_checkpoint
-from storage.audit.verify import verify_audit_log
-from storage.db.bi_views import BI_VIEWS, grant_bi_reader
-from storage.db.engine import URL_SETTING, database_url, make_engine, session_factory
-from storage.db.migrate import upgrade
+from storage.audit import (
+    CheckpointError,
+    extends,
+    make_checkpoint,
+    read_checkpoint,
+    verify_audit_log,
+)
+from storage.db import (
+    BI_VIEWS,
+    URL_SETTING,
+    database_url,
+    grant_bi_reader,
+    make_engine,
+    session_factory,
+    upgrade,
+)
 from storage.errors import StorageError
 
 

@@ -14,8 +14,8 @@ from service.http.schemas.dossier import ChampionEntryOut, DossierOut, StepRow
 from service.http.schemas.results import columns
 from service.moments import point_in_time
 from service.views.dossier import dossier_out, step_rows
-from storage.db.types import utc_now
-from storage.ledger.dossier import ForecastWindow, series_dossier
+from storage.db import utc_now
+from storage.ledger import ForecastWindow, series_dossier
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

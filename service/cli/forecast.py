@@ -18,9 +18,8 @@ from service.http.schemas.results import columns
 from service.moments import MOMENT_HELP, point_in_time
 from service.usecases.issue_forecast import IssueRequest, issue
 from service.views.ledger_answers import forecast_out, forecast_rows, outcome_rows, outcome_set_out
-from storage.ledger.forecasts import IssuedRecord, get_issued, list_issued
-from storage.ledger.outcomes import current_outcomes, outcome_sets
-from storage.series.versions import get_version
+from storage.ledger import IssuedRecord, current_outcomes, get_issued, list_issued, outcome_sets
+from storage.series import get_version
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

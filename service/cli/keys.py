@@ -17,9 +17,8 @@ from sqlalchemy.orm import Session
 
 from service.errors import ServiceError
 from service.usecases.keys import issue_key
-from storage.access.keys import list_keys, revoke_key
-from storage.db.engine import URL_SETTING, database_url, make_engine, session_factory
-from storage.db.schema import ROLES
+from storage.access import list_keys, revoke_key
+from storage.db import ROLES, URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
 Output = tuple[str, str | None]

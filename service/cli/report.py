@@ -14,7 +14,7 @@ from service.errors import ServiceError
 from service.settings import InvalidSettingsError, checked_settings
 from service.views.report.cache import ReportCache, cache_directory
 from service.views.report.stored import stored_run_report
-from storage.db.engine import URL_SETTING, database_url, make_engine, session_factory
+from storage.db import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
 

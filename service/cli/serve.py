@@ -16,7 +16,7 @@ from sqlalchemy.engine import make_url
 from service.http.app import create_app
 from service.settings import InvalidSettingsError, Settings, checked_settings
 from service.worker.loop import start_embedded
-from storage.db.migrate import upgrade
+from storage.db import upgrade
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

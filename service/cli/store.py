@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.errors import BacktestError
 from service.errors import ServiceError
-from storage.db.engine import URL_SETTING, database_url, make_engine, session_factory
+from storage.db import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
 

@@ -29,7 +29,7 @@ from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
 from service.errors import NotAuthenticatedError, PermissionDeniedError
 from service.http.app_state import Sessions
 from service.usecases.key_tokens import parse_token, secret_matches
-from storage.access.keys import find_credentials
+from storage.access import find_credentials
 
 Permission = Literal["read", "write", "audit", "manage_keys"]
 GRANTS: dict[str, frozenset[Permission]] = {

@@ -42,7 +42,7 @@ from service.http.routes import (
     series,
 )
 from service.settings import Settings, get_settings
-from storage.db.engine import make_engine, session_factory
+from storage.db import make_engine, session_factory
 from storage.errors import StorageError
 
 DESCRIPTION = """Forecast backtesting and model audit.

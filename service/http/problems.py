@@ -32,9 +32,7 @@ from backtest.ledger import LedgerError
 from service.errors import (
     BodyTooLargeError,
     FieldError,
-    InvalidCandidateError,
     InvalidInputError,
-    InvalidPlanError,
     InvalidSelectionError,
     LimitExceededError,
     NotAcceptableError,
@@ -49,6 +47,7 @@ from storage.errors import (
     ConfigurationError,
     ConflictError,
     ImmutableRecordError,
+    LeaseLostError,
     NotFoundError,
     StorageError,
     StoreUnavailableError,
@@ -81,6 +80,7 @@ PROBLEMS: dict[type[Exception], Kind] = {
     StorageError: Kind(500, "Storage failure", hidden=True),
     NotFoundError: Kind(404, "Not found"),
     ConflictError: Kind(409, "Conflict with stored data"),
+    LeaseLostError: Kind(409, "Run no longer leased by this worker"),
     ImmutableRecordError: Kind(409, "Stored record cannot change"),
     StoreUnavailableError: Kind(503, "Store unavailable", hidden=True),
     ConfigurationError: Kind(500, "Store misconfigured", hidden=True),
@@ -94,8 +94,6 @@ PROBLEMS: dict[type[Exception], Kind] = {
     NotReadyError: Kind(503, "Not ready"),
     BodyTooLargeError: Kind(413, "Request body too large"),
     RunNotFinishedError: Kind(409, "Run not finished"),
-    InvalidCandidateError: Kind(422, "Invalid candidate"),
-    InvalidPlanError: Kind(422, "Invalid plan"),
     InvalidSelectionError: Kind(422, "Invalid series selection"),
     RequestValidationError: Kind(422, "Invalid request"),
     Exception: Kind(500, "Internal error", hidden=True),
@@ -213,6 +211,8 @@ def _field_errors(exc: Exception) -> list[FieldError]:
         return list(exc.errors)
     if isinstance(exc, RequestValidationError):
         return [_field_error(error) for error in exc.errors()]
+    if isinstance(exc, BacktestError) and exc.pointer:
+        return [FieldError("body", exc.pointer, _detail(exc))]
     return []
 
 

@@ -11,8 +11,7 @@ from dataclasses import dataclass
 from sqlalchemy.orm import Session
 
 from backtest.results import CandidateInfo, SeriesResult
-from storage.results.queries import score_history
-from storage.results.store import load_series_result
+from storage.results import load_series_result, score_history
 
 
 @dataclass(frozen=True)

@@ -14,11 +14,10 @@ from sqlalchemy.orm import Session
 
 from service.errors import FieldError, InvalidInputError
 from storage.errors import NotFoundError
-from storage.ledger.champions import ChampionChoice, choose_champion, current_champions
-from storage.results.tables import rank_table
-from storage.runs.index import run_versions
-from storage.runs.lifecycle import get_run
-from storage.series.catalog import get_series
+from storage.ledger import ChampionChoice, choose_champion, current_champions
+from storage.results import rank_table
+from storage.runs import get_run, run_versions
+from storage.series import get_series
 
 
 @dataclass(frozen=True)

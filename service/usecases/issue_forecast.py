@@ -21,10 +21,8 @@ from service.errors import FieldError, InvalidInputError
 from service.usecases.backtest_lookup import latest_backtest
 from service.usecases.transactions import write
 from storage.errors import ConflictError, NotFoundError
-from storage.ledger.champions import current_champion
-from storage.ledger.forecasts import IssuedRecord, record_issued_forecast
-from storage.series.catalog import get_series, version_by_number
-from storage.series.versions import load_series
+from storage.ledger import IssuedRecord, current_champion, record_issued_forecast
+from storage.series import get_series, load_series, version_by_number
 
 
 @dataclass(frozen=True)

@@ -8,7 +8,7 @@ from sqlalchemy.orm import Session
 
 from service.errors import FieldError, InvalidInputError
 from service.usecases.key_tokens import Token, new_token, secret_hash
-from storage.access.keys import KeyInfo, create_key
+from storage.access import KeyInfo, create_key
 
 KEY_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.@+-]{0,199}")
 """Key names: they appear as the actor in the audit log, so no spaces or markup."""

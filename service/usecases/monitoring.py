@@ -21,12 +21,10 @@ from backtest.ledger import (
     untested,
 )
 from service.errors import FieldError, InvalidInputError
-from storage.ledger.champions import current_champion, current_champions
-from storage.ledger.outcomes import issued_with_outcomes
-from storage.results.queries import score_history
-from storage.results.store import load_candidate_folds
-from storage.runs.specs import candidate_label
-from storage.series.catalog import get_series
+from storage.ledger import current_champion, current_champions, issued_with_outcomes
+from storage.results import load_candidate_folds, score_history
+from storage.series import get_series
+from storage.specs import candidate_label
 
 
 @dataclass(frozen=True)

@@ -16,9 +16,8 @@ from sqlalchemy.orm import Session, sessionmaker
 from backtest.ledger import LedgerError, score_outcomes
 from service.usecases.transactions import write
 from storage.errors import ConflictError
-from storage.ledger.forecasts import get_issued
-from storage.ledger.outcomes import due_outcomes, record_outcomes
-from storage.series.versions import load_series
+from storage.ledger import due_outcomes, get_issued, record_outcomes
+from storage.series import load_series
 
 log = logging.getLogger("foldline.worker")
 

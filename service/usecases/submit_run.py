@@ -23,17 +23,14 @@ from backtest.errors import CandidateError, PlanError, SeriesError
 from backtest.plan import Plan, parse_plan
 from service.errors import (
     FieldError,
-    InvalidCandidateError,
     InvalidInputError,
-    InvalidPlanError,
     InvalidSelectionError,
     LimitExceededError,
 )
 from service.http.schemas.runs import RunIn, SeriesSelection
 from service.settings import Settings
 from storage.errors import NotFoundError
-from storage.series.catalog import find_series, get_series
-from storage.series.versions import VersionInfo, load_series
+from storage.series import VersionInfo, find_series, get_series, load_series
 
 MAX_SEED = 2**31 - 1
 
@@ -59,16 +56,16 @@ def parse_request(body: RunIn, settings: Settings) -> tuple[tuple[Candidate, ...
     for index, spec in enumerate(body.candidates):
         candidate = _candidate(spec.model_dump(), index)
         if any(c.id == candidate.id for c in candidates):
-            raise _invalid(InvalidCandidateError, f"candidate {index} repeats an earlier one",
-                           f"/candidates/{index}")
+            raise CandidateError(f"candidate {index} repeats an earlier one").at(
+                f"/candidates/{index}")
         candidates.append(candidate)
     try:
         plan = parse_plan(body.plan)
     except PlanError as exc:
-        raise _invalid(InvalidPlanError, str(exc), "/plan") from None
+        raise PlanError(str(exc)).at("/plan") from None
     if plan.seed > MAX_SEED:
-        raise _invalid(InvalidPlanError, f"plan seed must be at most {MAX_SEED} (the store "
-                       f"keeps 32-bit signed seeds), got {plan.seed}", "/plan/seed")
+        raise PlanError(f"plan seed must be at most {MAX_SEED} (the store keeps 32-bit "
+                        f"signed seeds), got {plan.seed}").at("/plan/seed")
     check_horizon_and_levels(plan.horizon, len(plan.levels), settings, "/plan")
     return tuple(candidates), plan
 
@@ -98,9 +95,9 @@ def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRu
     try:
         cost = estimate_cost(series, candidates, plan)
     except CandidateError as exc:
-        raise _invalid(InvalidCandidateError, str(exc), "/candidates") from None
+        raise CandidateError(str(exc)).at("/candidates") from None
     except (PlanError, SeriesError) as exc:
-        raise _invalid(InvalidPlanError, str(exc), "/plan") from None
+        raise PlanError(str(exc)).at("/plan") from None
     check_cost(cost, settings)
     return PreparedRun(tuple(versions), candidates, plan, cost)
 
@@ -153,8 +150,7 @@ def _candidate(spec: dict, index: int) -> Candidate:
     try:
         return parse_candidate(spec)
     except CandidateError as exc:
-        raise _invalid(InvalidCandidateError, f"candidate {index}: {exc}",
-                       f"/candidates/{index}") from None
+        raise CandidateError(f"candidate {index}: {exc}").at(f"/candidates/{index}") from None
 
 
 def _invalid(kind: type[InvalidInputError], message: str, pointer: str) -> InvalidInputError:

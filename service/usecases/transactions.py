@@ -15,7 +15,7 @@ from typing import TypeVar
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from storage.db.write_lock import take_write_lock
+from storage.db import take_write_lock
 from storage.errors import StoreUnavailableError
 
 T = TypeVar("T")

@@ -18,7 +18,7 @@ from service.http.schemas.dossier import (
     VersionEntryOut,
 )
 from service.views.ledger_answers import forecast_url
-from storage.ledger.dossier import ChampionEntry, Dossier, DossierForecast
+from storage.ledger import ChampionEntry, Dossier, DossierForecast
 
 
 def dossier_out(dossier: Dossier) -> DossierOut:

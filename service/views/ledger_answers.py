@@ -18,9 +18,7 @@ from service.http.schemas.forecasts import (
 )
 from service.http.schemas.monitoring import ExpectationOut, FlagOut, MonitoringOut, RealisedOut
 from service.usecases.monitoring import Monitored
-from storage.ledger.champions import ChampionChoice
-from storage.ledger.forecasts import IssuedRecord
-from storage.ledger.outcomes import OutcomeSet
+from storage.ledger import ChampionChoice, IssuedRecord, OutcomeSet
 
 
 def forecast_url(forecast_id: int) -> str:

@@ -33,21 +33,22 @@ from backtest.software import software_versions
 from service.settings import Settings
 from service.worker.lease import LeaseKeeper
 from service.worker.queued_specs import stored_candidates, stored_plan
-from storage.db.types import utc_now
-from storage.errors import StoreUnavailableError
-from storage.results.store import completed_units
-from storage.runs.lifecycle import fail_run, finish_run, record_progress
-from storage.runs.queue import (
+from storage.db import utc_now
+from storage.errors import LeaseLostError, StoreUnavailableError
+from storage.results import completed_units
+from storage.runs import (
     Lease,
-    LeaseLostError,
     RunRequest,
     cancel_requester,
+    fail_run,
+    finish_run,
     hold_lease,
+    record_progress,
     release_lease,
     run_request,
     write_unit,
 )
-from storage.series.versions import load_series
+from storage.series import load_series
 
 log = logging.getLogger("foldline.worker")
 REASON_LENGTH = 1000

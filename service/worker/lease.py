@@ -14,8 +14,8 @@ from types import TracebackType
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from storage.errors import StorageError
-from storage.runs.queue import Lease, LeaseLostError, hold_lease
+from storage.errors import LeaseLostError, StorageError
+from storage.runs import Lease, hold_lease
 
 log = logging.getLogger("foldline.worker")
 

@@ -22,10 +22,10 @@ from service.settings import Settings
 from service.usecases.score_outcomes import score_due_outcomes
 from service.views.report.prerender import prerender_report
 from service.worker.job import RunJob
-from storage.db.engine import make_engine
-from storage.db.engine import session_factory as sessions_for
+from storage.db import make_engine
+from storage.db import session_factory as sessions_for
 from storage.errors import StorageError
-from storage.runs.queue import any_claimable, claim_run
+from storage.runs import any_claimable, claim_run
 
 log = logging.getLogger("foldline.worker")
 

@@ -13,10 +13,15 @@ from datetime import datetime
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from storage.audit.contents import as_row, key_digest, key_subject, revocation_digest
-from storage.audit.log import lock_audit_log, record_event
-from storage.db.schema import ROLES, ApiKey, ApiKeyRevocation, AuditEvent
-from storage.db.types import utc_now
+from storage.audit import (
+    as_row,
+    key_digest,
+    key_subject,
+    lock_audit_log,
+    record_event,
+    revocation_digest,
+)
+from storage.db import ROLES, ApiKey, ApiKeyRevocation, AuditEvent, utc_now
 from storage.errors import ConflictError, NotFoundError, translates_errors
 
 

@@ -5,9 +5,8 @@ from __future__ import annotations
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from storage.audit.digest import sha256_text
-from storage.db.schema import PageSignOut
-from storage.db.types import utc_now
+from storage.audit import sha256_text
+from storage.db import PageSignOut, utc_now
 from storage.errors import translates_errors
 
 

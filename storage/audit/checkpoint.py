@@ -22,8 +22,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from storage.audit.digest import canonical_json
-from storage.db.schema import AuditEvent
-from storage.db.types import utc_now
+from storage.db import AuditEvent, utc_now
 from storage.errors import NotFoundError, translates_errors
 
 

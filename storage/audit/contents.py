@@ -16,7 +16,7 @@ from sqlalchemy import Table, select
 from sqlalchemy.orm import Session
 
 from storage.audit.digest import Row, combine, table_digest
-from storage.db.schema import (
+from storage.db import (
     ApiKey,
     ApiKeyRevocation,
     Base,

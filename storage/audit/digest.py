@@ -19,13 +19,9 @@ from typing import Any
 
 from sqlalchemy import JSON, Column, Table
 
-from storage.db.types import UtcDateTime
+from storage.db import ADDED_LATER, UtcDateTime
 
 Row = Mapping[str, Any]
-#: ``Column.info`` key of a column added after rows were first written, holding the value
-#: older rows read back: a row's digest leaves the column out while it holds that value, so
-#: digests recorded before the column existed still verify.
-ADDED_LATER = "digest_omits"
 
 
 def sha256_text(text: str) -> str:

@@ -16,8 +16,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from storage.audit.digest import canonical_json, sha256_text
-from storage.db.schema import AuditEvent
-from storage.db.types import utc_now
+from storage.db import AuditEvent, utc_now
 from storage.errors import translates_errors
 
 GENESIS_HASH = "0" * 64

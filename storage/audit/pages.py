@@ -8,7 +8,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from storage.audit.log import AuditEntry, entry_of
-from storage.db.schema import AuditEvent
+from storage.db import AuditEvent
 from storage.errors import translates_errors
 
 

@@ -15,7 +15,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from storage.audit.digest import canonical_json
-from storage.db.schema import (
+from storage.db import (
     ApiKey,
     CandidateRecord,
     ChampionChoiceRecord,

@@ -36,7 +36,7 @@ from storage.audit.contents import (
     version_subject,
 )
 from storage.audit.log import GENESIS_HASH, event_hash
-from storage.db.schema import (
+from storage.db import (
     FINAL_STATUSES,
     ApiKey,
     ApiKeyRevocation,

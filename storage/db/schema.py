@@ -32,8 +32,7 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
-from storage.audit.digest import ADDED_LATER
-from storage.db.types import JsonType, UtcDateTime
+from storage.db.types import ADDED_LATER, JsonType, UtcDateTime
 
 NAMING_CONVENTION = {
     "ix": "ix_%(column_0_label)s",

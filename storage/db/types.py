@@ -1,4 +1,5 @@
-"""Column types shared by every table: UTC timestamps and portable JSON."""
+"""Column types shared by every table: UTC timestamps and portable JSON, and the marker of
+columns added after rows were first written."""
 
 from __future__ import annotations
 
@@ -8,6 +9,11 @@ from typing import Any
 from sqlalchemy import JSON, DateTime, Dialect
 from sqlalchemy.dialects.postgresql import JSONB
 from sqlalchemy.types import TypeDecorator
+
+#: ``Column.info`` key of a column added after rows were first written, holding the value
+#: older rows read back: a row's digest leaves the column out while it holds that value, so
+#: digests recorded before the column existed still verify.
+ADDED_LATER = "digest_omits"
 
 JsonType = JSON(none_as_null=True).with_variant(JSONB(none_as_null=True), "postgresql")
 

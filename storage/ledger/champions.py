@@ -14,9 +14,8 @@ from sqlalchemy import ColumnElement, Select, exists, func, select
 from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
-from storage.audit.contents import as_row, champion_digest, champion_subject
-from storage.audit.log import lock_audit_log, record_event
-from storage.db.schema import (
+from storage.audit import as_row, champion_digest, champion_subject, lock_audit_log, record_event
+from storage.db import (
     CandidateRecord,
     ChampionChoiceRecord,
     ResultCandidate,
@@ -25,8 +24,8 @@ from storage.db.schema import (
     RunSeries,
     SeriesRecord,
     SeriesVersion,
+    utc_now,
 )
-from storage.db.types import utc_now
 from storage.errors import ConflictError, NotFoundError, translates_errors
 
 

@@ -17,17 +17,18 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from backtest.ledger.outcomes import Outcome
-from storage.audit.contents import (
+from storage.audit import (
+    AuditEntry,
     champion_subject,
+    describe_subjects,
+    entry_of,
     issued_subject,
     outcomes_subject,
     series_subject,
     unit_subject,
     version_subject,
 )
-from storage.audit.log import AuditEntry, entry_of
-from storage.audit.subjects import describe_subjects
-from storage.db.schema import (
+from storage.db import (
     AuditEvent,
     IssuedForecastRecord,
     RankRecord,
@@ -40,8 +41,7 @@ from storage.errors import translates_errors
 from storage.ledger.champions import ChampionChoice, champion_history
 from storage.ledger.forecasts import IssuedRecord, issued_records
 from storage.ledger.outcomes import SETS, outcome_sets
-from storage.series.catalog import SeriesInfo, get_series
-from storage.series.versions import VersionInfo, list_versions
+from storage.series import SeriesInfo, VersionInfo, get_series, list_versions
 
 
 @dataclass(frozen=True)

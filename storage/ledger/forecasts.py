@@ -17,12 +17,23 @@ from sqlalchemy import ColumnElement, Select, Table, select
 from sqlalchemy.orm import Session
 
 from backtest.ledger import IssuedForecast
-from storage.audit.contents import ISSUED_TABLES, as_row, issued_digest, issued_subject
-from storage.audit.digest import Row
-from storage.audit.log import lock_audit_log, record_event
-from storage.db.bulk import insert_rows
-from storage.db.schema import CandidateRecord, IssuedForecastRecord, SeriesRecord, SeriesVersion
-from storage.db.types import utc_now
+from storage.audit import (
+    ISSUED_TABLES,
+    Row,
+    as_row,
+    issued_digest,
+    issued_subject,
+    lock_audit_log,
+    record_event,
+)
+from storage.db import (
+    CandidateRecord,
+    IssuedForecastRecord,
+    SeriesRecord,
+    SeriesVersion,
+    insert_rows,
+    utc_now,
+)
 from storage.errors import ConflictError, NotFoundError, translates_errors
 from storage.ledger.rows import (
     bound_rows,
@@ -31,7 +42,7 @@ from storage.ledger.rows import (
     levels_text,
     point_rows,
 )
-from storage.runs.specs import register_candidate
+from storage.specs import register_candidate
 
 HEADER, POINTS, BOUNDS = ISSUED_TABLES
 

@@ -23,19 +23,24 @@ from sqlalchemy.dialects import postgresql, sqlite
 from sqlalchemy.orm import Session, aliased
 
 from backtest.ledger import IssuedOutcomes, Outcome
-from storage.audit.contents import OUTCOME_TABLES, outcomes_digest, outcomes_subject
-from storage.audit.digest import Row
-from storage.audit.log import lock_audit_log, record_event
-from storage.db.bulk import insert_rows
-from storage.db.schema import (
+from storage.audit import (
+    OUTCOME_TABLES,
+    Row,
+    lock_audit_log,
+    outcomes_digest,
+    outcomes_subject,
+    record_event,
+)
+from storage.db import (
     IssuedForecastRecord,
     IssuedPoint,
     Observation,
     OutcomeSetRecord,
     SeriesRecord,
     SeriesVersion,
+    insert_rows,
+    utc_now,
 )
-from storage.db.types import utc_now
 from storage.errors import ConflictError, NotFoundError, translates_errors
 from storage.ledger.forecasts import issued_records
 from storage.ledger.rows import level_rows, outcome_of, outcome_rows

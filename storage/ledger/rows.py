@@ -15,7 +15,7 @@ from datetime import datetime
 from typing import Any
 
 from backtest.ledger import IssuedForecast, Outcome
-from storage.audit.digest import Row
+from storage.audit import Row
 
 
 def stored(value: float) -> float | None:

@@ -14,19 +14,15 @@ from typing import Literal
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
-from storage.audit.log import AuditEntry
-from storage.db.schema import (
-    AuditEvent,
+from storage.db import (
     ResultCandidate,
     Run,
-    RunSeries,
     ScoreRecord,
     SeriesRecord,
     SeriesResultRecord,
     SeriesVersion,
 )
 from storage.errors import translates_errors
-from storage.runs.lifecycle import RunInfo, get_run
 
 
 @dataclass(frozen=True)
@@ -132,25 +128,6 @@ def score_history(session: Session, series_key: str, candidate_id: str, *, metri
                *_score_filter(metric, horizon, level))
         .order_by(Run.finished_at, Run.id))
     return [ScorePoint(*row) for row in rows]
-
-
-@translates_errors
-def runs_using_version(session: Session, series_version_id: int) -> list[RunInfo]:
-    """Every run that asked for a series version, oldest first."""
-    run_ids = session.scalars(select(RunSeries.run_id)
-                              .where(RunSeries.series_version_id == series_version_id)
-                              .order_by(RunSeries.run_id))
-    return [get_run(session, run_id) for run_id in run_ids]
-
-
-@translates_errors
-def audit_events_between(session: Session, start: datetime, end: datetime) -> list[AuditEntry]:
-    """Audit events with ``start <= occurred_at < end``, in log order."""
-    table = AuditEvent.__table__
-    rows = session.execute(select(table).where(table.c.occurred_at >= start,
-                                               table.c.occurred_at < end)
-                           .order_by(table.c.seq))
-    return [AuditEntry(**row) for row in rows.mappings()]
 
 
 def latest_runs_query(series_key: str | None = None, as_of: datetime | None = None) -> Select:

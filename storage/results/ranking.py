@@ -17,7 +17,7 @@ from sqlalchemy import case, func, select
 from sqlalchemy.orm import Session
 
 from backtest.plan import RANK_SCORES
-from storage.db.schema import ResultCandidate, ScoreRecord, SeriesRecord
+from storage.db import ResultCandidate, ScoreRecord, SeriesRecord
 from storage.errors import translates_errors
 from storage.results.queries import latest_runs_query
 

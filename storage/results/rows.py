@@ -17,8 +17,8 @@ from typing import Any
 from sqlalchemy import Table
 
 from backtest.results import CandidateInfo, FoldResult, RankRow, Score, SeriesResult, to_jsonable
-from storage.audit.digest import Row
-from storage.db.schema import (
+from storage.audit import Row
+from storage.db import (
     FoldRecord,
     FoldWarning,
     ForecastBound,

@@ -13,10 +13,8 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from backtest.results import BacktestResult, FoldResult, SeriesResult
-from storage.audit.contents import UNIT_TABLES, unit_digest, unit_subject
-from storage.audit.log import record_event
-from storage.db.bulk import insert_rows
-from storage.db.schema import (
+from storage.audit import UNIT_TABLES, record_event, unit_digest, unit_subject
+from storage.db import (
     FINAL_STATUSES,
     CandidateRecord,
     PlanRecord,
@@ -26,11 +24,12 @@ from storage.db.schema import (
     SeriesRecord,
     SeriesResultRecord,
     SeriesVersion,
+    insert_rows,
+    utc_now,
 )
-from storage.db.types import utc_now
 from storage.errors import ConflictError, ImmutableRecordError, NotFoundError, translates_errors
 from storage.results.rows import FOLD_TABLES, folds_of, series_result_of, unit_rows
-from storage.runs.specs import register_candidate
+from storage.specs import register_candidate
 
 
 @translates_errors

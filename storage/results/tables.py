@@ -13,7 +13,7 @@ from typing import Any, Literal
 from sqlalchemy import Select, and_, select
 from sqlalchemy.orm import Session, aliased
 
-from storage.db.schema import (
+from storage.db import (
     FoldRecord,
     ForecastBound,
     ForecastRecord,

@@ -1,5 +1,5 @@
-"""Finding runs and what they used: by idempotency key, by filters (the run listing), the
-series versions and the candidates' labels of a run."""
+"""Finding runs and what they used: by idempotency key, by filters (the run listing), by the
+series version they asked for, the series versions and the candidates' labels of a run."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
-from storage.db.schema import (
+from storage.db import (
     CandidateRecord,
     Run,
     RunCandidate,
@@ -20,8 +20,7 @@ from storage.db.schema import (
 )
 from storage.errors import translates_errors
 from storage.runs.lifecycle import RunInfo, get_run
-from storage.series.catalog import version_info
-from storage.series.versions import VersionInfo
+from storage.series import VersionInfo, version_info
 
 
 @translates_errors
@@ -97,3 +96,12 @@ def run_candidate_labels(session: Session, run_id: int) -> dict[str, str]:
         candidate = parse_candidate(spec)
         labels[candidate_id] = " / ".join(dict.fromkeys(candidate.label(m) for m in lengths))
     return labels
+
+
+@translates_errors
+def runs_using_version(session: Session, series_version_id: int) -> list[RunInfo]:
+    """Every run that asked for a series version, oldest first."""
+    run_ids = session.scalars(select(RunSeries.run_id)
+                              .where(RunSeries.series_version_id == series_version_id)
+                              .order_by(RunSeries.run_id))
+    return [get_run(session, run_id) for run_id in run_ids]

@@ -19,20 +19,25 @@ from sqlalchemy.orm import Session
 
 from backtest.candidates import Candidate
 from backtest.plan import Plan
-from storage.audit.contents import as_row, run_final_digest, run_request_digest, run_subject
-from storage.audit.digest import canonical_json, sha256_text
-from storage.audit.log import record_event
-from storage.db.schema import FINAL_STATUSES, Run, RunCandidate, RunSeries
-from storage.db.types import utc_now
+from storage.audit import (
+    as_row,
+    canonical_json,
+    record_event,
+    run_final_digest,
+    run_request_digest,
+    run_subject,
+    sha256_text,
+)
+from storage.db import FINAL_STATUSES, Run, RunCandidate, RunSeries, utc_now
 from storage.errors import (
     ConflictError,
     ImmutableRecordError,
     NotFoundError,
     translates_errors,
 )
-from storage.results.store import pending_units
-from storage.runs.specs import plan_id_of, register_candidate, register_plan
-from storage.series.versions import get_version
+from storage.results import pending_units
+from storage.series import get_version
+from storage.specs import plan_id_of, register_candidate, register_plan
 
 
 @dataclass(frozen=True)

@@ -30,13 +30,15 @@ from sqlalchemy import and_, case, or_, select, update
 from sqlalchemy.orm import Session
 
 from backtest.results import SeriesResult
-from storage.audit.contents import run_subject
-from storage.audit.digest import canonical_json, sha256_text
-from storage.audit.log import record_event
-from storage.db.schema import FINAL_STATUSES, AuditEvent, CandidateRecord, PlanRecord, Run
-from storage.db.types import utc_now
-from storage.errors import ConflictError, ImmutableRecordError, NotFoundError, translates_errors
-from storage.results.store import write_series_result
+from storage.audit import canonical_json, record_event, run_subject, sha256_text
+from storage.db import FINAL_STATUSES, AuditEvent, CandidateRecord, PlanRecord, Run, utc_now
+from storage.errors import (
+    ImmutableRecordError,
+    LeaseLostError,
+    NotFoundError,
+    translates_errors,
+)
+from storage.results import write_series_result
 from storage.runs.lifecycle import RunInfo, fail_run, get_run, start_run
 
 CANCEL_REQUESTED = "run.cancel_requested"
@@ -45,12 +47,6 @@ RELEASED = "run.released"
 # A cancel request is looked for among events since its run was queued (occurred_at is
 # indexed, the subject is not); the margin covers clock differences between API servers.
 CLOCK_SKEW_MARGIN = timedelta(minutes=10)
-
-
-class LeaseLostError(ConflictError):
-    """The worker no longer holds the run's lease; its write was refused."""
-
-    code = "lease_lost"
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,7 @@ from datetime import datetime
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
-from storage.db.schema import SeriesRecord, SeriesVersion
+from storage.db import SeriesRecord, SeriesVersion
 from storage.errors import NotFoundError, translates_errors
 from storage.series.versions import VersionInfo
 

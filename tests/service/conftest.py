@@ -30,12 +30,10 @@ from service.http.app import create_app
 from service.settings import Settings
 from service.usecases.keys import issue_key
 from service.worker.queued_specs import stored_plan
-from storage.db.engine import make_engine, session_factory
-from storage.db.schema import ROLES
-from storage.results.store import write_series_result
-from storage.runs.lifecycle import finish_run, record_progress, start_run
-from storage.runs.queue import run_request
-from storage.series.versions import load_series
+from storage.db import ROLES, make_engine, session_factory
+from storage.results import write_series_result
+from storage.runs import finish_run, record_progress, run_request, start_run
+from storage.series import load_series
 from tests.storage.conftest import BACKENDS, migrated_store
 
 if TYPE_CHECKING:

@@ -13,8 +13,8 @@ from sqlalchemy import select
 from service.http.access import GRANTS
 from service.http.app import ROUTERS
 from service.usecases.key_tokens import new_token, parse_token, secret_hash, secret_matches
-from storage.access.keys import revoke_key
-from storage.db.schema import ROLES, ApiKey
+from storage.access import revoke_key
+from storage.db import ROLES, ApiKey
 from tests.service.conftest import Api, copied_store, series_body, serving
 from tests.storage.builders import monthly_series
 

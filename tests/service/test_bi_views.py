@@ -16,8 +16,7 @@ from sqlalchemy.exc import ProgrammingError
 from backtest.candidates import parse_candidate
 from service.cli import main
 from service.usecases.score_outcomes import score_due_outcomes
-from storage.db.bi_views import BI_VIEWS
-from storage.db.engine import make_engine
+from storage.db import BI_VIEWS, make_engine
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

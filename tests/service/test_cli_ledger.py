@@ -13,8 +13,8 @@ from backtest.candidates import parse_candidate
 from backtest.series import make_series
 from service.cli import main
 from service.usecases.score_outcomes import score_due_outcomes
-from storage.db.engine import make_engine, session_factory
-from storage.series.versions import save_series_version
+from storage.db import make_engine, session_factory
+from storage.series import save_series_version
 from tests.service.conftest import copied_store
 from tests.storage.builders import ACTOR, monthly_series, run_and_store
 

@@ -11,7 +11,7 @@ import pytest
 
 from service.demo.run import MARKER, OutputFolderError, demo_folder
 from service.usecases.keys import issue_key
-from storage.db.engine import make_engine, session_factory
+from storage.db import make_engine, session_factory
 from tests.storage.conftest import migrated_store
 
 

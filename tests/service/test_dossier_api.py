@@ -16,7 +16,7 @@ from sqlalchemy import select
 from backtest.candidates import parse_candidate
 from service.cli import main
 from service.usecases.score_outcomes import score_due_outcomes
-from storage.db.schema import SeriesRecord, SeriesVersion
+from storage.db import SeriesRecord, SeriesVersion
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

@@ -12,7 +12,7 @@ from backtest.candidates import parse_candidate
 from backtest.ledger import issue_forecast
 from backtest.series import make_series
 from service.usecases.score_outcomes import score_due_outcomes
-from storage.ledger.outcomes import due_outcomes
+from storage.ledger import due_outcomes
 from storage.series.versions import find_version, load_series
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series

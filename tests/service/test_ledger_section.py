@@ -24,10 +24,9 @@ from service.views.pages.ledger_section import ledger_section
 from service.views.pages.ledger_view import load_ledger
 from service.views.pages.series_list import STATES, monitoring_state, series_list
 from service.views.report.numbers import fixed
-from storage.db.engine import make_engine, session_factory
-from storage.ledger.champions import choose_champion, current_champion
-from storage.ledger.outcomes import record_outcomes
-from storage.series.versions import load_series, save_series_version
+from storage.db import make_engine, session_factory
+from storage.ledger import choose_champion, current_champion, record_outcomes
+from storage.series import load_series, save_series_version
 from tests.service.conftest import copied_store, serving
 from tests.storage.builders import (
     ACTOR,

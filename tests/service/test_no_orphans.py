@@ -11,7 +11,7 @@ import time
 from pathlib import Path
 
 from service.demo.run import _free_port
-from storage.runs.lifecycle import get_run
+from storage.runs import get_run
 from tests.service.worker_helpers import (
     FAST,
     REPO,

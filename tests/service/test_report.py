@@ -19,8 +19,7 @@ from service.cli.main import build_parser
 from service.cli.report import register
 from service.views.report import full_fit_residuals, load_report_inputs, render_run_report
 from service.views.report.selection import charted_candidates
-from storage.db.engine import make_engine, session_factory
-from storage.db.migrate import upgrade
+from storage.db import make_engine, session_factory, upgrade
 from tests.storage.builders import monthly_series, run_and_store
 
 AIRLINE = DEMO_CANDIDATES[3]  # log airline model: the Kalman residuals skip 13 periods

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from service.views.report.cache import ReportCache, cache_directory, renderer_digest, report_key
-from storage.runs.lifecycle import RunInfo
+from storage.runs import RunInfo
 
 RUN = RunInfo(id=7, plan_id="p" * 16, seed=0, requested_by="planner", idempotency_key=None,
               status="succeeded", queued_at=datetime(2026, 1, 5, 9, tzinfo=UTC),

@@ -8,8 +8,8 @@ from sqlalchemy import func, select
 from backtest.candidates import parse_candidates
 from backtest.engine import planned_fold_count, run_backtest
 from backtest.plan import parse_plan
-from storage.db.schema import AuditEvent, Run, SeriesResultRecord
-from storage.runs.queue import claim_run
+from storage.db import AuditEvent, Run, SeriesResultRecord
+from storage.runs import claim_run
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 
@@ -79,18 +79,18 @@ def test_idempotency_keys_belong_to_the_key_that_used_them(two_series: Api):
 
 @pytest.mark.parametrize(("candidates", "plan", "code", "pointer"), [
     ([{"family": "crystal_ball"}], {"horizon": 3}, "invalid_request", "/candidates/0/family"),
-    ([{"family": "arima", "order": [9, 0, 0]}], {"horizon": 3}, "invalid_candidate_spec",
+    ([{"family": "arima", "order": [9, 0, 0]}], {"horizon": 3}, "invalid_candidate",
      "/candidates/0"),
     ([{"family": "theta"}, {"family": "theta", "season": "test"}], {"horizon": 3},
-     "invalid_candidate_spec", "/candidates/1"),
-    ([{"family": "theta"}], {"horizon": 0}, "invalid_plan_spec", "/plan"),
-    ([{"family": "theta"}], {"horizon": 3, "frequency": "weekly"}, "invalid_plan_spec",
+     "invalid_candidate", "/candidates/1"),
+    ([{"family": "theta"}], {"horizon": 0}, "invalid_plan", "/plan"),
+    ([{"family": "theta"}], {"horizon": 3, "frequency": "weekly"}, "invalid_plan",
      "/plan"),
-    ([{"family": "theta"}], {"horizon": 40}, "invalid_plan_spec", "/plan"),
+    ([{"family": "theta"}], {"horizon": 40}, "invalid_plan", "/plan"),
     ([{"family": "theta"}], {"horizon": 3, "first_origin": {"period": "2001-01"}},
-     "invalid_plan_spec", "/plan"),
+     "invalid_plan", "/plan"),
     ([{"family": "ets", "season": "multiplicative"}], {"horizon": 3, "first_origin": {
-        "train_size": 5}}, "invalid_plan_spec", "/plan"),
+        "train_size": 5}}, "invalid_plan", "/plan"),
 ])
 def test_an_impossible_submission_is_refused_and_nothing_is_queued(two_series: Api, candidates,
                                                                    plan, code, pointer):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import threading
 
-from storage.audit.log import record_event
+from storage.audit import record_event
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 

@@ -6,11 +6,9 @@ import signal
 from pathlib import Path
 
 from backtest.engine import run_backtest
-from storage.audit.contents import run_subject
-from storage.audit.verify import verify_audit_log
-from storage.results.store import completed_units, load_run_result
-from storage.runs.lifecycle import get_run
-from storage.runs.queue import claim_run, request_cancel
+from storage.audit import run_subject, verify_audit_log
+from storage.results import completed_units, load_run_result
+from storage.runs import claim_run, get_run, request_cancel
 from tests.service.worker_helpers import (
     FAST,
     FAST_PLAN,

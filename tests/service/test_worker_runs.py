@@ -18,10 +18,9 @@ from service.views.report.prerender import prerender_report
 from service.views.report.stored import stored_run_report
 from service.worker.loop import Worker
 from service.worker.queued_specs import StoredSpecError, stored_candidates, stored_plan
-from storage.audit.contents import run_subject
-from storage.audit.verify import verify_audit_log
-from storage.results.store import load_run_result
-from storage.runs.lifecycle import get_run
+from storage.audit import run_subject, verify_audit_log
+from storage.results import load_run_result
+from storage.runs import get_run
 from tests.service.worker_helpers import FAST, FAST_PLAN, events, queue, sessions_on, some_series
 from tests.storage.conftest import BACKENDS, migrated_store
 

@@ -10,10 +10,9 @@ from pathlib import Path
 import pytest
 
 from backtest.engine import run_backtest
-from storage.audit.contents import run_subject, unit_subject
-from storage.audit.verify import verify_audit_log
-from storage.results.store import completed_units, load_run_result
-from storage.runs.lifecycle import get_run
+from storage.audit import run_subject, unit_subject, verify_audit_log
+from storage.results import completed_units, load_run_result
+from storage.runs import get_run
 from tests.service.worker_helpers import (
     SLOW,
     SLOW_PLAN,

@@ -22,11 +22,10 @@ from sqlalchemy.orm import Session, sessionmaker
 from backtest.candidates import Candidate, parse_candidates
 from backtest.plan import Plan, parse_plan
 from backtest.series import Series
-from storage.audit.log import AuditEntry, entry_of
-from storage.db.engine import make_engine, session_factory
-from storage.db.schema import AuditEvent
-from storage.runs.lifecycle import queue_run
-from storage.series.versions import save_series_version
+from storage.audit import AuditEntry, entry_of
+from storage.db import AuditEvent, make_engine, session_factory
+from storage.runs import queue_run
+from storage.series import save_series_version
 from tests.storage.builders import monthly_series
 
 REPO = Path(__file__).resolve().parents[2]

@@ -15,10 +15,10 @@ from backtest.ledger import issue_forecast
 from backtest.plan import Plan, parse_plan
 from backtest.results import BacktestResult
 from backtest.series import Series, make_series
-from storage.ledger.forecasts import IssuedRecord, record_issued_forecast
-from storage.results.store import write_series_result
-from storage.runs.lifecycle import finish_run, queue_run, start_run
-from storage.series.versions import save_series_version
+from storage.ledger import IssuedRecord, record_issued_forecast
+from storage.results import write_series_result
+from storage.runs import finish_run, queue_run, start_run
+from storage.series import save_series_version
 
 ACTOR = "analyst@example.org"
 

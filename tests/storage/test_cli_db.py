@@ -9,7 +9,7 @@ import pytest
 from sqlalchemy import inspect, text
 
 from service.cli.db import register
-from storage.db.engine import URL_SETTING, make_engine, session_factory
+from storage.db import URL_SETTING, make_engine, session_factory
 from tests.storage.builders import monthly_series, run_and_store
 
 

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 from sqlalchemy import text
 
-from storage.db.engine import (
+from storage.db import (
     URL_SETTING,
     database_url,
     default_sqlite_path,

@@ -7,9 +7,9 @@ from sqlalchemy import select, text
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
-from storage.access.keys import create_key, find_credentials, list_keys, revoke_key
-from storage.audit.verify import verify_audit_log
-from storage.db.schema import AuditEvent
+from storage.access import create_key, find_credentials, list_keys, revoke_key
+from storage.audit import verify_audit_log
+from storage.db import AuditEvent
 from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
 from tests.storage.builders import drop_guards
 

@@ -15,20 +15,26 @@ from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
 from backtest.ledger import IssuedForecast, issue_forecast
-from storage.audit.verify import verify_audit_log
+from storage.audit import verify_audit_log
+from storage.db import (
+    AuditEvent,
+    CandidateRecord,
+    IssuedBound,
+    IssuedForecastRecord,
+    make_engine,
+    session_factory,
+    take_write_lock,
+)
 from storage.db.bulk import FAST_MIN_ROWS
-from storage.db.engine import make_engine, session_factory
-from storage.db.schema import AuditEvent, CandidateRecord, IssuedBound, IssuedForecastRecord
-from storage.db.write_lock import take_write_lock
 from storage.errors import (
     IMMUTABLE_MARKER,
     ConflictError,
     ImmutableRecordError,
     NotFoundError,
 )
-from storage.ledger.forecasts import IssuedRecord, get_issued, list_issued, record_issued_forecast
+from storage.ledger import IssuedRecord, get_issued, list_issued, record_issued_forecast
 from storage.ledger.rows import bound_rows
-from storage.series.versions import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, drop_guards, issue_and_record, monthly_series
 
 THETA = parse_candidate({"family": "theta", "season": "always"})

@@ -6,7 +6,7 @@ import pytest
 from sqlalchemy.orm import Session
 
 from storage.errors import ConflictError, ImmutableRecordError, NotFoundError
-from storage.runs.lifecycle import (
+from storage.runs import (
     fail_run,
     finish_run,
     get_run,
@@ -14,8 +14,8 @@ from storage.runs.lifecycle import (
     record_progress,
     start_run,
 )
-from storage.runs.specs import plan_id_of
-from storage.series.versions import save_series_version
+from storage.series import save_series_version
+from storage.specs import plan_id_of
 from tests.storage.builders import ACTOR, benchmark_candidates, monthly_series, small_plan
 
 

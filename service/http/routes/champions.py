@@ -37,8 +37,8 @@ from service.usecases.champions import choose, suggestions
 from service.usecases.transactions import write
 from service.views.ledger_answers import champion_row
 from storage.errors import NotFoundError
-from storage.ledger.champions import champion_history, current_champion, current_champions
-from storage.series.catalog import get_series
+from storage.ledger import champion_history, current_champion, current_champions
+from storage.series import get_series
 
 router = APIRouter(prefix="/v1", tags=["champions"])
 Writer = Annotated[Caller, Depends(require("write"))]

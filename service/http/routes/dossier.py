@@ -14,8 +14,8 @@ from service.http.schemas.results import columns
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response
 from service.moments import point_in_time
 from service.views.dossier import dossier_out, step_rows
-from storage.db.types import utc_now
-from storage.ledger.dossier import ForecastWindow, series_dossier
+from storage.db import utc_now
+from storage.ledger import ForecastWindow, series_dossier
 
 router = APIRouter(prefix="/v1", tags=["dossier"])
 Reader = Annotated[Caller, Depends(require("read"))]

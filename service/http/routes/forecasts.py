@@ -35,9 +35,8 @@ from service.views.ledger_answers import (
     outcome_rows,
     outcome_set_out,
 )
-from storage.ledger.forecasts import IssuedRecord, get_issued, list_issued
-from storage.ledger.outcomes import outcome_sets
-from storage.series.versions import get_version
+from storage.ledger import IssuedRecord, get_issued, list_issued, outcome_sets
+from storage.series import get_version
 
 router = APIRouter(prefix="/v1", tags=["forecasts"])
 Writer = Annotated[Caller, Depends(require("write"))]

@@ -32,11 +32,10 @@ from service.http.tables import (
     link_headers,
 )
 from service.moments import MOMENT_HELP, point_in_time
-from storage.audit.pages import audit_page
-from storage.audit.subjects import describe_subjects
-from storage.audit.verify import verify_audit_log
-from storage.results.queries import runs_using_version, score_history
-from storage.series.catalog import get_series, version_by_number
+from storage.audit import audit_page, describe_subjects, verify_audit_log
+from storage.results import score_history
+from storage.runs import runs_using_version
+from storage.series import get_series, version_by_number
 
 router = APIRouter(prefix="/v1", tags=["history"])
 Auditor = Annotated[Caller, Depends(require("audit"))]

@@ -14,7 +14,7 @@ from service.http.schemas.keys import KeyCreatedOut, KeyIn, KeyList, KeyOut
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response
 from service.usecases.keys import issue_key
 from service.usecases.transactions import write
-from storage.access.keys import KeyInfo, list_keys, revoke_key
+from storage.access import KeyInfo, list_keys, revoke_key
 
 router = APIRouter(prefix="/v1/keys", tags=["keys"])
 Admin = Annotated[Caller, Depends(require("manage_keys"))]

@@ -10,7 +10,7 @@ from service.http.app_state import Sessions
 from service.http.problems import problem_responses
 from service.http.prometheus import CONTENT_TYPE, store_exposition
 from service.http.schemas.operations import Liveness, Readiness
-from storage.db.status import folds_computed, head_revision, run_counts, schema_revision
+from storage.db import folds_computed, head_revision, run_counts, schema_revision
 from storage.errors import StorageError
 
 router = APIRouter(tags=["operations"])

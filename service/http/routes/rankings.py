@@ -23,8 +23,7 @@ from service.http.tables import (
     next_link,
 )
 from service.moments import point_in_time
-from storage.results.queries import succeeded_run_count
-from storage.results.ranking import RANKABLE, ranking_table
+from storage.results import RANKABLE, ranking_table, succeeded_run_count
 
 router = APIRouter(prefix="/v1", tags=["rankings"])
 Reader = Annotated[Caller, Depends(require("read"))]

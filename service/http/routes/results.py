@@ -39,14 +39,14 @@ from service.http.tables import (
     link_headers,
     next_link,
 )
-from storage.results.tables import (
+from storage.results import (
     evidence_table,
     fold_table,
     plan_levels,
     rank_table,
     score_table,
 )
-from storage.runs.lifecycle import get_run
+from storage.runs import get_run
 
 router = APIRouter(prefix="/v1/runs/{run_id}", tags=["results"])
 Reader = Annotated[Caller, Depends(require("read"))]

@@ -28,19 +28,22 @@ from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_res
 from service.settings import Settings
 from service.usecases.submit_run import parse_request, prepare_run, selected_versions
 from service.usecases.transactions import write
-from storage.db.types import utc_now
+from storage.db import utc_now
 from storage.errors import ConflictError
-from storage.runs.index import (
+from storage.runs import (
     RunFilter,
+    RunInfo,
+    cancel_requester,
+    get_run,
     list_runs,
+    queue_run,
+    request_cancel,
     run_candidate_labels,
     run_versions,
     run_with_idempotency_key,
 )
-from storage.runs.lifecycle import RunInfo, get_run, queue_run
-from storage.runs.queue import cancel_requester, request_cancel
-from storage.runs.specs import plan_id_of
-from storage.series.versions import VersionInfo
+from storage.series import VersionInfo
+from storage.specs import plan_id_of
 
 router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]

@@ -40,9 +40,17 @@ from service.http.tables import (
 from service.usecases.series_input import series_from_csv, series_from_json, with_appended
 from service.usecases.transactions import write
 from storage.errors import ConflictError
-from storage.series.catalog import SeriesInfo, find_series, get_series, version_by_number
-from storage.series.versions import SaveOutcome, VersionInfo, list_versions, load_series
-from storage.series.versions import save_series_version as save
+from storage.series import (
+    SaveOutcome,
+    SeriesInfo,
+    VersionInfo,
+    find_series,
+    get_series,
+    list_versions,
+    load_series,
+    version_by_number,
+)
+from storage.series import save_series_version as save
 
 router = APIRouter(prefix="/v1", tags=["series"])
 Writer = Annotated[Caller, Depends(require("write"))]

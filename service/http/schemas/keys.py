@@ -9,7 +9,7 @@ from pydantic import BaseModel, Field, StringConstraints
 
 from service.http.schemas.common import Strict
 from service.usecases.keys import KEY_NAME
-from storage.db.schema import ROLES
+from storage.db import ROLES
 
 Role = Literal[ROLES]  # type: ignore[valid-type]
 KeyName = Annotated[str, StringConstraints(pattern=f"^{KEY_NAME.pattern}$")]

@@ -11,10 +11,8 @@ from sqlalchemy.orm import Session
 from backtest.series import Series
 from service.views.charts.fan import ForecastBands
 from service.views.pages.ledger_view import forecast_bands
-from storage.ledger.forecasts import IssuedRecord, get_issued
-from storage.ledger.outcomes import OutcomeSet, outcome_sets
-from storage.series.catalog import SeriesInfo, get_series
-from storage.series.versions import get_version, load_series
+from storage.ledger import IssuedRecord, OutcomeSet, get_issued, outcome_sets
+from storage.series import SeriesInfo, get_series, get_version, load_series
 
 
 @dataclass(frozen=True)

@@ -18,7 +18,7 @@ from service.views.report.embed import inline_svg
 from service.views.report.html import Html, element, esc, join, link, table
 from service.views.report.numbers import MISSING, fixed, p_value
 from service.views.report.provenance import shown
-from storage.ledger.champions import ChampionChoice
+from storage.ledger import ChampionChoice
 
 ISSUED_HEADER = ["forecast", "candidate", "fitted on version", "origin", "horizon (steps)",
                  "issued", "periods observed", "realised MASE", "actuals inside interval"]

@@ -11,11 +11,15 @@ from sqlalchemy.orm import Session
 from backtest.series import Series
 from service.usecases.monitoring import Monitored, monitor_series
 from service.views.charts.fan import ForecastBands
-from storage.ledger.champions import ChampionChoice, champion_history
-from storage.ledger.forecasts import IssuedRecord, list_issued
-from storage.ledger.outcomes import OutcomeSet, current_outcomes
-from storage.series.catalog import SeriesInfo, get_series
-from storage.series.versions import get_version, load_series
+from storage.ledger import (
+    ChampionChoice,
+    IssuedRecord,
+    OutcomeSet,
+    champion_history,
+    current_outcomes,
+    list_issued,
+)
+from storage.series import SeriesInfo, get_series, get_version, load_series
 
 #: Issued forecasts listed on the page, newest first.
 SHOWN_FORECASTS = 24

@@ -24,8 +24,7 @@ from service.views.pages.session import (
     session_secret,
     session_value,
 )
-from storage.access.keys import find_credentials
-from storage.access.sign_outs import record_sign_out, signed_out
+from storage.access import find_credentials, record_sign_out, signed_out
 
 
 class SignInRequired(Exception):

@@ -17,13 +17,10 @@ from service.views.report.embed import ChartEmbedder
 from service.views.report.html import Html, element, join, link, table
 from service.views.report.provenance import shown
 from service.views.report.ranking import ranking_section
-from storage.db.schema import FINAL_STATUSES
-from storage.results.queries import LatestRun, latest_successful_run, runs_using_version
-from storage.results.store import load_series_result
-from storage.runs.lifecycle import RunInfo
-from storage.runs.queue import run_request
-from storage.series.catalog import SeriesInfo, get_series
-from storage.series.versions import VersionInfo, list_versions, load_series
+from storage.db import FINAL_STATUSES
+from storage.results import LatestRun, latest_successful_run, load_series_result
+from storage.runs import RunInfo, run_request, runs_using_version
+from storage.series import SeriesInfo, VersionInfo, get_series, list_versions, load_series
 
 
 @dataclass(frozen=True)

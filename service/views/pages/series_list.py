@@ -18,11 +18,10 @@ from service.views.report.html import Html, element, esc, join, link, table
 from service.views.report.numbers import MISSING, fixed
 from service.views.report.provenance import shown
 from service.views.report.ranking import score_name
-from storage.ledger.champions import ChampionChoice, current_champions
-from storage.results.queries import LatestRun, latest_successful_runs
-from storage.results.tables import rank_table
-from storage.runs.queue import run_request
-from storage.series.catalog import SeriesInfo, find_series
+from storage.ledger import ChampionChoice, current_champions
+from storage.results import LatestRun, latest_successful_runs, rank_table
+from storage.runs import run_request
+from storage.series import SeriesInfo, find_series
 
 HEADER = ["series", "unit", "latest version", "latest successful run", "ranked by",
           "top candidate", "score", "ratio to benchmark", "champion", "monitoring"]

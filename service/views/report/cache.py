@@ -22,8 +22,8 @@ from pathlib import Path
 
 from sqlalchemy.engine import make_url
 
-from storage.db.engine import default_sqlite_path
-from storage.runs.lifecycle import RunInfo
+from storage.db import default_sqlite_path
+from storage.runs import RunInfo
 
 log = logging.getLogger("foldline.report")
 _SOURCES = ("report", "charts")

@@ -14,11 +14,9 @@ from sqlalchemy.orm import Session
 
 from backtest.results import BacktestResult
 from backtest.series import Series
-from storage.results.store import completed_units, load_run_result
-from storage.results.tables import rank_table
-from storage.runs.lifecycle import get_run
-from storage.series.catalog import get_series
-from storage.series.versions import get_version, load_series
+from storage.results import completed_units, load_run_result, rank_table
+from storage.runs import get_run
+from storage.series import get_series, get_version, load_series
 
 #: Series reported in full (ranking, calibration, diagnostics, charts); the rest of a larger
 #: run appear in the overview table.

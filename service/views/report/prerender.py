@@ -19,7 +19,7 @@ from sqlalchemy.orm import Session, sessionmaker
 from service.settings import Settings
 from service.views.report.cache import ReportCache, cache_directory
 from service.views.report.stored import stored_run_report
-from storage.runs.lifecycle import get_run
+from storage.runs import get_run
 
 log = logging.getLogger("foldline.worker")
 

@@ -14,8 +14,8 @@ from service.views.charts.render import DRAWING
 from service.views.report.builder import render_run_report
 from service.views.report.cache import ReportCache, report_key
 from service.views.report.inputs import load_report_inputs
-from storage.db.schema import FINAL_STATUSES
-from storage.runs.lifecycle import get_run
+from storage.db import FINAL_STATUSES
+from storage.runs import get_run
 
 
 def stored_run_report(sessions: sessionmaker[Session], run_id: int, cache: ReportCache) -> str:

@@ -15,17 +15,18 @@ from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
 from backtest.plan import Plan
-from storage.audit.contents import (
+from storage.audit import (
     as_row,
     candidate_digest,
     candidate_subject,
+    canonical_json,
+    lock_audit_log,
     plan_digest,
     plan_subject,
+    record_event,
+    sha256_text,
 )
-from storage.audit.digest import canonical_json, sha256_text
-from storage.audit.log import lock_audit_log, record_event
-from storage.db.schema import CandidateRecord, PlanRecord, SeriesRecord
-from storage.db.types import utc_now
+from storage.db import CandidateRecord, PlanRecord, SeriesRecord, utc_now
 from storage.errors import ConflictError, translates_errors
 
 
