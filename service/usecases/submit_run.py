@@ -1,4 +1,4 @@
-"""Checking a run submission completely before it is queued.
+"""Submitting a run: checked completely, then queued.
 
 A run that is queued will be computed, so every input error the engine would raise must be
 found here: candidates and plan are parsed, the series selection resolved to stored
@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.candidates import Candidate, parse_candidate
 from backtest.cost import RunCost, estimate_cost
@@ -29,7 +29,9 @@ from service.errors import (
 )
 from service.http.schemas.runs import RunIn, SeriesSelection
 from service.settings import Settings
-from storage.errors import NotFoundError
+from service.usecases.transactions import write
+from storage.errors import ConflictError, NotFoundError
+from storage.runs import RunInfo, queue_run
 from storage.series import VersionInfo, find_series, get_series, load_series
 
 MAX_SEED = 2**31 - 1
@@ -155,3 +157,25 @@ def _candidate(spec: dict, index: int) -> Candidate:
 
 def _invalid(kind: type[InvalidInputError], message: str, pointer: str) -> InvalidInputError:
     return kind(message, errors=[FieldError("body", pointer, message)])
+
+
+def submit_run(sessions: sessionmaker[Session], body: RunIn, settings: Settings, *,
+               actor: str, idempotency_key: str | None) -> RunInfo:
+    """Check a submission in a read transaction (parse, resolve the series, count each
+    series' folds, estimate the cost), then queue what was checked in a short write
+    transaction, so the store's write lock is never held while series are validated."""
+    with sessions.begin() as session:
+        prepared = prepare_run(session, body, settings)
+
+    def queue(session: Session) -> RunInfo:
+        return queue_run(session, series_version_ids=[v.id for v in prepared.versions],
+                         candidates=prepared.candidates, plan=prepared.plan, actor=actor,
+                         idempotency_key=idempotency_key, unit_folds=prepared.cost.unit_folds)
+
+    try:
+        return write(sessions, queue)
+    except ConflictError:
+        if idempotency_key is None:
+            raise
+        # The same key submitted twice at once: the loser finds the winner's run.
+        return write(sessions, queue)

@@ -27,7 +27,9 @@ from typing import Any
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from backtest.candidates import Candidate
 from backtest.engine import Progress, planned_fold_count, stream_backtest
+from backtest.plan import Plan
 from backtest.series import Series
 from backtest.software import software_versions
 from service.settings import Settings
@@ -92,8 +94,7 @@ class RunJob:
         candidates = stored_candidates(request.candidate_specs, request.run.candidate_ids)
         plan = stored_plan(request.plan_body)
         series = self._transact(_load_all, request.run.series_version_ids)
-        folds = {version: planned_fold_count([one], candidates, plan)
-                 for version, one in series.items()}
+        folds = _unit_folds(request, series, candidates, plan)
         done = set(self._transact(completed_units, self._lease.run_id))
         folds_done, folds_total = sum(folds[version] for version in done), sum(folds.values())
         self._transact(self._set_progress, folds_done, folds_total)
@@ -162,6 +163,15 @@ class RunJob:
     def _transact(self, step: Callable[..., Any], *args: Any, **values: Any) -> Any:
         with self._sessions.begin() as session:
             return step(session, *args, **values)
+
+
+def _unit_folds(request: RunRequest, series: dict[int, Series],
+                candidates: Sequence[Candidate], plan: Plan) -> dict[int, int]:
+    """Each unit's folds as counted at submission; counted here only for runs queued before
+    the counts were stored."""
+    counted = dict(zip(request.run.series_version_ids, request.unit_folds))
+    return {version: counted[version] if counted[version] is not None
+            else planned_fold_count([one], candidates, plan) for version, one in series.items()}
 
 
 def _load_all(session: Session, versions: Sequence[int]) -> dict[int, Series]:

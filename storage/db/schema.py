@@ -181,6 +181,8 @@ class RunSeries(Base):
     run_id: Mapped[RunKey]
     series_version_id: Mapped[VersionKey] = mapped_column(index=True)
     position: Mapped[int]
+    #: the unit's folds, counted when the run was checked at submission (null before 0008)
+    folds: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class RunCandidate(Base):

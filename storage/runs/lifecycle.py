@@ -28,7 +28,15 @@ from storage.audit import (
     run_subject,
     sha256_text,
 )
-from storage.db import FINAL_STATUSES, Run, RunCandidate, RunSeries, utc_now
+from storage.db import (
+    FINAL_STATUSES,
+    Run,
+    RunCandidate,
+    RunSeries,
+    SeriesRecord,
+    SeriesVersion,
+    utc_now,
+)
 from storage.errors import (
     ConflictError,
     ImmutableRecordError,
@@ -65,28 +73,39 @@ class RunInfo:
 @translates_errors
 def queue_run(session: Session, *, series_version_ids: Sequence[int],
               candidates: Sequence[Candidate], plan: Plan, actor: str,
-              idempotency_key: str | None = None) -> RunInfo:
+              idempotency_key: str | None = None,
+              unit_folds: Sequence[int] | None = None) -> RunInfo:
     """Record a requested run; the plan and candidates are registered if new.
 
-    With an ``idempotency_key`` already used for the same request, the existing run is
-    returned; used for a different request, :class:`ConflictError` is raised.
+    ``unit_folds`` are the fold counts of the series versions, counted when the request was
+    checked; they are stored so the worker need not count again.
+
+    Idempotency, the one rule: with an ``idempotency_key`` already used, the earlier run is
+    returned if it asked for the same series (compared by key, so a retry after new actuals
+    arrived still finds the run queued on the versions latest at the first try), the same
+    candidates and the same plan; otherwise :class:`ConflictError` is raised.
     """
     versions, candidate_ids = tuple(series_version_ids), tuple(c.id for c in candidates)
     if idempotency_key is not None:
         earlier = session.execute(
             select(Run.id).where(Run.idempotency_key == idempotency_key)).scalar_one_or_none()
         if earlier is not None:
-            return _same_request(get_run(session, earlier), versions, candidate_ids, plan)
+            return _same_request(session, get_run(session, earlier), versions, candidate_ids,
+                                 plan)
     _check_request(session, versions, candidate_ids)
+    folds = list(unit_folds) if unit_folds is not None else [None] * len(versions)
+    if len(folds) != len(versions):
+        raise ConflictError("a run needs one fold count per series version")
     run = Run(plan_id=register_plan(session, plan, actor=actor), seed=plan.seed,
               requested_by=actor, idempotency_key=idempotency_key, status="queued",
-              queued_at=utc_now(), folds_done=0, attempts=0)
+              queued_at=utc_now(), folds_done=0, attempts=0,
+              folds_total=sum(folds) if unit_folds is not None else None)
     session.add(run)
     for candidate in candidates:
         register_candidate(session, candidate.id, candidate.canonical, actor=actor)
     session.flush()
-    series_rows = [{"run_id": run.id, "series_version_id": v, "position": i}
-                   for i, v in enumerate(versions)]
+    series_rows = [{"run_id": run.id, "series_version_id": v, "position": i, "folds": n}
+                   for i, (v, n) in enumerate(zip(versions, folds))]
     candidate_rows = [{"run_id": run.id, "candidate_id": c, "position": i}
                       for i, c in enumerate(candidate_ids)]
     session.execute(insert(RunSeries), series_rows)
@@ -192,13 +211,21 @@ def _check_request(session: Session, versions: tuple[int, ...],
         raise ConflictError("a run lists a series version or candidate twice")
 
 
-def _same_request(run: RunInfo, versions: tuple[int, ...], candidate_ids: tuple[str, ...],
-                  plan: Plan) -> RunInfo:
-    if (run.series_version_ids, run.candidate_ids, run.plan_id) != (versions, candidate_ids,
-                                                                    plan_id_of(plan)):
-        raise ConflictError(f"idempotency key {run.idempotency_key!r} was used for run "
-                            f"{run.id}, which asked for something else")
+def _same_request(session: Session, run: RunInfo, versions: tuple[int, ...],
+                  candidate_ids: tuple[str, ...], plan: Plan) -> RunInfo:
+    asked = (_series_keys(session, versions), candidate_ids, plan_id_of(plan))
+    if asked != (_series_keys(session, run.series_version_ids), run.candidate_ids, run.plan_id):
+        key = (run.idempotency_key or "").split(":", 1)[-1]
+        raise ConflictError(f"idempotency key {key!r} was used for run {run.id}, which asked "
+                            "for other series, candidates or plan")
     return run
+
+
+def _series_keys(session: Session, versions: Sequence[int]) -> tuple[str, ...]:
+    keys = dict(session.execute(select(SeriesVersion.id, SeriesRecord.key)
+                                .join(SeriesRecord, SeriesRecord.id == SeriesVersion.series_id)
+                                .where(SeriesVersion.id.in_(versions))).tuples().all())
+    return tuple(keys.get(v, "") for v in versions)
 
 
 def _request(session: Session, run_id: int) -> tuple[tuple[int, ...], tuple[str, ...]]:

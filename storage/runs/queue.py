@@ -31,7 +31,15 @@ from sqlalchemy.orm import Session
 
 from backtest.results import SeriesResult
 from storage.audit import canonical_json, record_event, run_subject, sha256_text
-from storage.db import FINAL_STATUSES, AuditEvent, CandidateRecord, PlanRecord, Run, utc_now
+from storage.db import (
+    FINAL_STATUSES,
+    AuditEvent,
+    CandidateRecord,
+    PlanRecord,
+    Run,
+    RunSeries,
+    utc_now,
+)
 from storage.errors import (
     ImmutableRecordError,
     LeaseLostError,
@@ -73,11 +81,14 @@ class Claim:
 
 @dataclass(frozen=True)
 class RunRequest:
-    """What a run asked for, as stored: the run, its candidate specs and its plan body."""
+    """What a run asked for, as stored: the run, its candidate specs, its plan body and each
+    unit's fold count as counted at submission (``None`` for runs queued before counts were
+    kept)."""
 
     run: RunInfo
     candidate_specs: tuple[dict[str, Any], ...]
     plan_body: dict[str, Any]
+    unit_folds: tuple[int | None, ...]
 
 
 @translates_errors
@@ -199,7 +210,9 @@ def run_request(session: Session, run_id: int) -> RunRequest:
                            .where(CandidateRecord.id.in_(run.candidate_ids)))
     specs = dict(rows.tuples().all())
     plan = session.get_one(PlanRecord, run.plan_id)
-    return RunRequest(run, tuple(specs[c] for c in run.candidate_ids), plan.body)
+    folds = session.scalars(select(RunSeries.folds).where(RunSeries.run_id == run_id)
+                            .order_by(RunSeries.position))
+    return RunRequest(run, tuple(specs[c] for c in run.candidate_ids), plan.body, tuple(folds))
 
 
 def _lock_unfinished(session: Session, run_id: int) -> bool:

@@ -5,11 +5,12 @@ from __future__ import annotations
 import pytest
 from sqlalchemy import func, select
 
-from backtest.candidates import parse_candidates
+from backtest.candidates import parse_candidate, parse_candidates
 from backtest.engine import planned_fold_count, run_backtest
 from backtest.plan import parse_plan
 from storage.db import AuditEvent, Run, SeriesResultRecord
-from storage.runs import claim_run
+from storage.runs import claim_run, run_request
+from storage.series import load_series
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 
@@ -37,6 +38,19 @@ def test_a_submission_is_queued_and_answered_202_with_its_url(two_series: Api):
     assert run["requested_by"] == "submitter"
     assert _count(two_series, SeriesResultRecord) == 0
     assert two_series.get("reader", run["url"]).json()["status"] == "queued"
+
+
+def test_folds_are_counted_once_at_submission_and_handed_to_the_worker(two_series: Api):
+    run = two_series.submit(["a", "b"]).json()
+
+    with two_series.sessions.begin() as session:
+        request = run_request(session, run["id"])
+        series = [load_series(session, v) for v in request.run.series_version_ids]
+    candidates = [parse_candidate(s) for s in request.candidate_specs]
+    plan = parse_plan(request.plan_body)
+    engine_counts = tuple(planned_fold_count([one], candidates, plan) for one in series)
+    assert request.unit_folds == engine_counts
+    assert run["progress"]["folds_total"] == sum(engine_counts) > 0
 
 
 def test_a_tag_selection_takes_every_series_with_the_tags(two_series: Api):

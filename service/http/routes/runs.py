@@ -6,7 +6,6 @@ from datetime import datetime
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Header, Query, Request, Response
-from sqlalchemy.orm import Session
 
 from service.http.access import Caller, require
 from service.http.app_state import AppSettings, Sessions
@@ -25,25 +24,11 @@ from service.http.schemas.runs import (
     TimingsOut,
 )
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
-from service.settings import Settings
-from service.usecases.submit_run import parse_request, prepare_run, selected_versions
-from service.usecases.transactions import write
+from service.usecases import runs as run_cases
+from service.usecases import submit_run as submission
+from service.usecases.runs import RunView
 from storage.db import utc_now
-from storage.errors import ConflictError
-from storage.runs import (
-    RunFilter,
-    RunInfo,
-    cancel_requester,
-    get_run,
-    list_runs,
-    queue_run,
-    request_cancel,
-    run_candidate_labels,
-    run_versions,
-    run_with_idempotency_key,
-)
-from storage.series import VersionInfo
-from storage.specs import plan_id_of
+from storage.runs import RunInfo
 
 router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
@@ -66,16 +51,10 @@ def submit_run(body: RunIn, response: Response, caller: Writer, sessions: Sessio
                settings: AppSettings, idempotency_key: IdempotencyKey = None) -> RunOut:
     """Queue a backtest; a worker computes it. The answer names the run's URL."""
     scoped = f"{caller.key_id}:{idempotency_key}" if idempotency_key else None
-    try:
-        run, versions = _submit(sessions, body, caller, settings, scoped)
-    except ConflictError:
-        if scoped is None:
-            raise
-        # The same key submitted twice at once: the loser finds the winner's run.
-        run, versions = _submit(sessions, body, caller, settings, scoped)
+    run = submission.submit_run(sessions, body, settings, actor=caller.name,
+                                idempotency_key=scoped)
     response.headers["Location"] = run_url(run.id)
-    with sessions.begin() as session:
-        return run_out(run, versions, None, run_candidate_labels(session, run.id))
+    return run_out(run_cases.read_run(sessions, run.id))
 
 
 @router.get("/runs", response_model=RunPage,
@@ -99,14 +78,13 @@ def list_all_runs(
     """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive.
     CSV: one row per run (lists as JSON cells)."""
     chosen = chosen_format(request, output)
-    where = RunFilter(status=status, series_key=series_key, requested_by=requested_by,
-                      finished_from=finished_from, finished_to=finished_to)
-    with sessions.begin() as session:
-        runs, more = list_runs(session, where, before=before, limit=limit)
-        items = [_described(session, run) for run in runs]
+    views, more = run_cases.run_views(sessions, status=status, series_key=series_key,
+                            requested_by=requested_by, finished_from=finished_from,
+                            finished_to=finished_to, before=before, limit=limit)
+    items = [run_out(view) for view in views]
     link = None
     if more:
-        query = request.url.include_query_params(before=runs[-1].id, limit=limit).query
+        query = request.url.include_query_params(before=views[-1].run.id, limit=limit).query
         link = f"{request.url.path}?{query}"
     if chosen == "csv":
         return csv_response(flat_rows(items), flat_columns(RunOut), link)
@@ -117,8 +95,7 @@ def list_all_runs(
 @router.get("/runs/{run_id}", response_model=RunOut, responses=problem_responses(*ERRORS, 404))
 def read_run(run_id: Id, caller: Reader, sessions: Sessions) -> RunOut:
     """A run's status, progress, timings and an estimate of the time left."""
-    with sessions.begin() as session:
-        return _described(session, get_run(session, run_id))
+    return run_out(run_cases.read_run(sessions, run_id))
 
 
 @router.post("/runs/{run_id}/cancel", response_model=RunOut,
@@ -128,61 +105,20 @@ def read_run(run_id: Id, caller: Reader, sessions: Sessions) -> RunOut:
 def cancel_run(run_id: Id, response: Response, caller: Writer, sessions: Sessions) -> RunOut:
     """Cancel a run. A queued run (or one no worker holds) is cancelled at once (200); a
     running one when its worker finishes the current unit (202). Finished runs: 409."""
-    def cancel(session: Session) -> RunOut:
-        return _described(session, request_cancel(session, run_id, actor=caller.name))
-
-    answer = write(sessions, cancel)
+    answer = run_out(run_cases.cancel_run(sessions, run_id, actor=caller.name))
     response.status_code = 200 if answer.status == "cancelled" else 202
     return answer
 
 
-def _submit(sessions: Sessions, body: RunIn, caller: Caller, settings: Settings,
-            scoped_key: str | None) -> tuple[RunInfo, list[VersionInfo]]:
-    def queue(session: Session) -> tuple[RunInfo, list[VersionInfo]]:
-        earlier = run_with_idempotency_key(session, scoped_key) if scoped_key else None
-        if earlier is not None:
-            return _repeated(session, earlier, body, settings)
-        prepared = prepare_run(session, body, settings)
-        run = queue_run(session, series_version_ids=[v.id for v in prepared.versions],
-                        candidates=prepared.candidates, plan=prepared.plan, actor=caller.name,
-                        idempotency_key=scoped_key)
-        return run, list(prepared.versions)
-
-    return write(sessions, queue)
-
-
-def _repeated(session: Session, run: RunInfo, body: RunIn,
-              settings: Settings) -> tuple[RunInfo, list[VersionInfo]]:
-    """The earlier run of a retried submission, if the retry asks for the same thing.
-
-    Series are compared by key: a retry after new actuals arrived still returns the run
-    queued on the versions that were latest the first time.
-    """
-    candidates, plan = parse_request(body, settings)
-    keys = [v.series_key for v in selected_versions(session, body.series)]
-    versions = run_versions(session, run.id)
-    asked = (tuple(c.id for c in candidates), plan_id_of(plan), keys)
-    if asked != (run.candidate_ids, run.plan_id, [v.series_key for v in versions]):
-        key = (run.idempotency_key or "").split(":", 1)[-1]
-        raise ConflictError(f"idempotency key {key!r} was used for run {run.id}, which asked "
-                            "for other series, candidates or plan")
-    return run, versions
-
-
-def _described(session: Session, run: RunInfo) -> RunOut:
-    return run_out(run, run_versions(session, run.id), cancel_requester(session, run.id),
-                   run_candidate_labels(session, run.id))
-
-
-def run_out(run: RunInfo, versions: list[VersionInfo], cancel_requested_by: str | None,
-            labels: dict[str, str]) -> RunOut:
+def run_out(view: RunView) -> RunOut:
     """The answer describing a run."""
+    run, versions, labels = view.run, view.versions, view.labels
     url = run_url(run.id)
     return RunOut(
         id=run.id, url=url, status=run.status, requested_by=run.requested_by,  # type: ignore[arg-type]
         idempotency_key=run.idempotency_key.split(":", 1)[1] if run.idempotency_key else None,
         plan_id=run.plan_id, seed=run.seed, attempts=run.attempts,
-        failure_reason=run.failure_reason, cancel_requested_by=cancel_requested_by,
+        failure_reason=run.failure_reason, cancel_requested_by=view.cancel_requested_by,
         progress=_progress(run), timings=_timings(run),
         series=[RunSeriesOut(key=v.series_key, version=v.number, url=series_url(v.series_key))
                 for v in versions],
