@@ -13,9 +13,8 @@ from service.cli.store import add_store_option, run_in_store
 from service.http.schemas.dossier import ChampionEntryOut, DossierOut, StepRow
 from service.http.schemas.results import columns
 from service.moments import point_in_time
+from service.usecases.dossier import read_dossier_of
 from service.views.dossier import dossier_out, step_rows
-from storage.db import utc_now
-from storage.ledger import ForecastWindow, series_dossier
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -38,13 +37,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def dossier_command(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        window = ForecastWindow(issued_from=point_in_time("--issued-from", args.issued_from),
-                                issued_to=point_in_time("--issued-to", args.issued_to),
-                                target_from=args.target_from, target_to=args.target_to)
-        as_of = point_in_time("--as-of", args.as_of, day_end=True) or utc_now()
-        with sessions.begin() as session:
-            dossier = series_dossier(session, args.series, as_of=as_of, window=window,
-                                     limit=args.limit)
+        dossier = read_dossier_of(
+            sessions, args.series, as_of=point_in_time("--as-of", args.as_of, day_end=True),
+            limit=args.limit, issued_from=point_in_time("--issued-from", args.issued_from),
+            issued_to=point_in_time("--issued-to", args.issued_to),
+            target_from=args.target_from, target_to=args.target_to)
         if args.csv:
             out = io.StringIO()
             names = columns(StepRow)

@@ -9,16 +9,15 @@ done, 2 an error (one line on stderr).
 from __future__ import annotations
 
 import argparse
-import getpass
 import sys
 from collections.abc import Callable
 
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
+from service.cli.store import operator
 from service.errors import ServiceError
-from service.usecases.keys import issue_key
-from storage.access import list_keys, revoke_key
-from storage.db import ROLES, URL_SETTING, database_url, make_engine, session_factory
+from service.usecases.keys import ROLES, all_keys, create_api_key, revoke_api_key
+from service.usecases.store import URL_SETTING, open_store
 from storage.errors import StorageError
 
 Output = tuple[str, str | None]
@@ -46,8 +45,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def keys_create(args: argparse.Namespace) -> int:
     """Create a key and print its token."""
-    def create(session: Session) -> Output:
-        key, token = issue_key(session, name=args.name, role=args.role, actor=_operator())
+    def create(sessions: sessionmaker[Session]) -> Output:
+        key, token = create_api_key(sessions, name=args.name, role=args.role,
+                                    actor=operator())
         return token.text, (f"created key {key.id} for {key.name} ({key.role}); store it "
                             "now: it is not shown again")
     return _in_store(args, create)
@@ -55,9 +55,9 @@ def keys_create(args: argparse.Namespace) -> int:
 
 def keys_list(args: argparse.Namespace) -> int:
     """Print every key: id, role, name, created, state."""
-    def show(session: Session) -> Output:
+    def show(sessions: sessionmaker[Session]) -> Output:
         lines = []
-        for key in list_keys(session):
+        for key in all_keys(sessions):
             state = "active" if key.active else f"revoked {key.revoked_at:%Y-%m-%d %H:%M}Z"
             lines.append(f"{key.id}  {key.role:<9}  {key.name}  created "
                          f"{key.created_at:%Y-%m-%d} by {key.created_by}  {state}")
@@ -67,21 +67,17 @@ def keys_list(args: argparse.Namespace) -> int:
 
 def keys_revoke(args: argparse.Namespace) -> int:
     """Revoke a key."""
-    def revoke(session: Session) -> Output:
-        key = revoke_key(session, args.key_id, actor=_operator())
+    def revoke(sessions: sessionmaker[Session]) -> Output:
+        key = revoke_api_key(sessions, args.key_id, actor=operator())
         return f"key {key.id} of {key.name} is revoked", None
     return _in_store(args, revoke)
 
 
-def _in_store(args: argparse.Namespace, work: Callable[[Session], Output]) -> int:
-    """Run ``work`` in one transaction; print its output only once that is committed."""
+def _in_store(args: argparse.Namespace, work: Callable[[sessionmaker[Session]], Output]) -> int:
+    """Run ``work`` on the store; print its output only once its transaction is committed."""
     try:
-        engine = make_engine(args.database_url or database_url())
-        try:
-            with session_factory(engine).begin() as session:
-                out, note = work(session)
-        finally:
-            engine.dispose()
+        with open_store(args.database_url) as sessions:
+            out, note = work(sessions)
     except (StorageError, ServiceError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
@@ -91,6 +87,3 @@ def _in_store(args: argparse.Namespace, work: Callable[[Session], Output]) -> in
         print(note, file=sys.stderr)
     return 0
 
-
-def _operator() -> str:
-    return f"cli:{getpass.getuser()}"

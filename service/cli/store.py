@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.errors import BacktestError
 from service.errors import ServiceError
-from storage.db import URL_SETTING, database_url, make_engine, session_factory
+from service.usecases.store import URL_SETTING, open_store
 from storage.errors import StorageError
 
 
@@ -30,11 +30,8 @@ def run_in_store(args: argparse.Namespace,
                  work: Callable[[sessionmaker[Session]], str]) -> int:
     """Print what ``work`` returns (0), or its error on one line of stderr (2)."""
     try:
-        engine = make_engine(args.database_url or database_url())
-        try:
-            out = work(session_factory(engine))
-        finally:
-            engine.dispose()
+        with open_store(args.database_url) as sessions:
+            out = work(sessions)
     except (StorageError, ServiceError, BacktestError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2

@@ -14,7 +14,7 @@ from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ProgrammingError
 
 from backtest.candidates import parse_candidate
-from service.cli import main
+from service.cli.main import main
 from service.usecases.score_outcomes import score_due_outcomes
 from storage.db import BI_VIEWS, make_engine
 from tests.service.conftest import CANDIDATES, Api

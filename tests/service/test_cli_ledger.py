@@ -11,7 +11,7 @@ import pytest
 
 from backtest.candidates import parse_candidate
 from backtest.series import make_series
-from service.cli import main
+from service.cli.main import main
 from service.usecases.score_outcomes import score_due_outcomes
 from storage.db import make_engine, session_factory
 from storage.series import save_series_version

@@ -9,7 +9,7 @@ import io
 
 import pytest
 
-from service.cli import main
+from service.cli.main import main
 from service.usecases.monitoring import monitor_series
 from service.usecases.score_outcomes import score_due_outcomes
 from service.views.pages.ledger_section import ledger_section

@@ -13,9 +13,8 @@ from service.http.schemas.dossier import DossierOut, StepRow
 from service.http.schemas.results import columns
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response
 from service.moments import point_in_time
+from service.usecases.dossier import read_dossier_of
 from service.views.dossier import dossier_out, step_rows
-from storage.db import utc_now
-from storage.ledger import ForecastWindow, series_dossier
 
 router = APIRouter(prefix="/v1", tags=["dossier"])
 Reader = Annotated[Caller, Depends(require("read"))]
@@ -47,14 +46,12 @@ def read_dossier(
     forecasts issued in the window with realised accuracy beside the backtest's promise,
     and the audit events that touched the series. CSV: one row per forecast step."""
     chosen = chosen_format(request, output)
-    window = ForecastWindow(
+    dossier = read_dossier_of(
+        sessions, key, as_of=point_in_time("as_of", as_of, day_end=True), limit=limit,
         issued_from=point_in_time("issued_from", issued_from, day_end=False),
         issued_to=point_in_time("issued_to", issued_to, day_end=False),
         origin_from=origin_from, origin_to=origin_to, target_from=target_from,
         target_to=target_to)
-    moment = point_in_time("as_of", as_of, day_end=True) or utc_now()
-    with sessions.begin() as session:
-        dossier = series_dossier(session, key, as_of=moment, window=window, limit=limit)
     if chosen == "csv":
         return csv_response((row.model_dump() for row in step_rows(dossier)), columns(StepRow),
                             None)

@@ -12,9 +12,7 @@ from service.http.flat_rows import flat_columns, flat_rows
 from service.http.problems import problem_responses
 from service.http.schemas.keys import KeyCreatedOut, KeyIn, KeyList, KeyOut
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response
-from service.usecases.keys import issue_key
-from service.usecases.transactions import write
-from storage.access import KeyInfo, list_keys, revoke_key
+from service.usecases.keys import KeyInfo, all_keys, create_api_key, revoke_api_key
 
 router = APIRouter(prefix="/v1/keys", tags=["keys"])
 Admin = Annotated[Caller, Depends(require("manage_keys"))]
@@ -25,8 +23,7 @@ ERRORS = (401, 403, 422, 500, 503)
              responses=problem_responses(*ERRORS, 409, 413))
 def create(body: KeyIn, caller: Admin, sessions: Sessions) -> KeyCreatedOut:
     """Create a key; names are unique and never reused."""
-    key, token = write(sessions, lambda session: issue_key(session, name=body.name,
-                                                           role=body.role, actor=caller.name))
+    key, token = create_api_key(sessions, name=body.name, role=body.role, actor=caller.name)
     return KeyCreatedOut(key=key_out(key), token=token.text)
 
 
@@ -36,8 +33,7 @@ def list_all(request: Request, caller: Admin, sessions: Sessions,
              output: FormatParam = None) -> Any:
     """Every key, revoked ones included."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        items = [key_out(k) for k in list_keys(session)]
+    items = [key_out(k) for k in all_keys(sessions)]
     if chosen == "csv":
         return csv_response(flat_rows(items), flat_columns(KeyOut), None)
     return KeyList(items=items)
@@ -48,8 +44,7 @@ def list_all(request: Request, caller: Admin, sessions: Sessions,
 def revoke(key_id: Annotated[str, Path(max_length=32)], caller: Admin,
            sessions: Sessions) -> KeyOut:
     """Revoke a key: requests with it are refused from now on."""
-    return key_out(write(sessions, lambda session: revoke_key(session, key_id,
-                                                              actor=caller.name)))
+    return key_out(revoke_api_key(sessions, key_id, actor=caller.name))
 
 
 def key_out(key: KeyInfo) -> KeyOut:

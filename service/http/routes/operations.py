@@ -5,13 +5,11 @@ from __future__ import annotations
 from fastapi import APIRouter, Request
 from fastapi.responses import PlainTextResponse
 
-from service.errors import NotReadyError
 from service.http.app_state import Sessions
 from service.http.problems import problem_responses
 from service.http.prometheus import CONTENT_TYPE, store_exposition
 from service.http.schemas.operations import Liveness, Readiness
-from storage.db import folds_computed, head_revision, run_counts, schema_revision
-from storage.errors import StorageError
+from service.usecases.store_status import ready_revision, work_counts
 
 router = APIRouter(tags=["operations"])
 
@@ -25,16 +23,7 @@ def live() -> Liveness:
 @router.get("/health/ready", response_model=Readiness, responses=problem_responses(503))
 def ready(sessions: Sessions) -> Readiness:
     """The database answers and is migrated to this code's schema."""
-    try:
-        with sessions.begin() as session:
-            revision = schema_revision(session)
-    except StorageError as exc:
-        raise NotReadyError("the database cannot be reached") from exc
-    head = head_revision()
-    if revision != head:
-        raise NotReadyError(f"the database schema is at revision {revision or 'none'}, this "
-                            f"server needs {head}: run 'foldline db upgrade'")
-    return Readiness(status="ready", schema_revision=head)
+    return Readiness(status="ready", schema_revision=ready_revision(sessions))
 
 
 @router.get("/metrics", response_class=PlainTextResponse, responses={200: {
@@ -42,7 +31,6 @@ def ready(sessions: Sessions) -> Readiness:
     "description": "Prometheus text exposition format"}, **problem_responses(500, 503)})
 def metrics(request: Request, sessions: Sessions) -> PlainTextResponse:
     """Request counts of this process, and queue and run counts from the store."""
-    with sessions.begin() as session:
-        counts, folds = run_counts(session), folds_computed(session)
+    counts, folds = work_counts(sessions)
     lines = request.app.state.request_metrics.exposition() + store_exposition(counts, folds)
     return PlainTextResponse("\n".join(lines) + "\n", media_type=CONTENT_TYPE)

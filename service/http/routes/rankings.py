@@ -23,7 +23,7 @@ from service.http.tables import (
     next_link,
 )
 from service.moments import point_in_time
-from storage.results import RANKABLE, ranking_table, succeeded_run_count
+from service.usecases.results import RANKABLE, latest_ranking
 
 router = APIRouter(prefix="/v1", tags=["rankings"])
 Reader = Annotated[Caller, Depends(require("read"))]
@@ -51,11 +51,8 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
     _check_level(metric, level)
     pooled = horizon_or_pooled(horizon)
     moment = point_in_time("as_of", as_of, day_end=True)
-    key = (metric, pooled, level, prefix, tuple(sorted(tag.items())) if tag else (), moment)
-    with sessions.begin() as session:
-        table = cache.table(key, succeeded_run_count(session), lambda: ranking_table(
-            session, metric=metric, horizon=pooled, level=level, prefix=prefix, tags=tag,
-            as_of=moment))
+    table = latest_ranking(sessions, cache, metric=metric, horizon=pooled, level=level,
+                           prefix=prefix, tags=tag, as_of=moment)
     link = next_link(request, offset, limit, len(table) > offset + limit)
     rows = table[offset:offset + limit]
     if chosen == "csv":

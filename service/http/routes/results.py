@@ -39,14 +39,7 @@ from service.http.tables import (
     link_headers,
     next_link,
 )
-from storage.results import (
-    evidence_table,
-    fold_table,
-    plan_levels,
-    rank_table,
-    score_table,
-)
-from storage.runs import get_run
+from service.usecases import results
 
 router = APIRouter(prefix="/v1/runs/{run_id}", tags=["results"])
 Reader = Annotated[Caller, Depends(require("read"))]
@@ -75,10 +68,9 @@ def run_scores(run_id: Id, request: Request, response: Response, caller: Reader,
     horizon)."""
     chosen = chosen_format(request, output)
     horizons = "all" if horizon is None else horizon_or_pooled(horizon)
-    with sessions.begin() as session:
-        get_run(session, run_id)
-        rows = score_table(session, run_id, series_key=series_key, candidate_id=candidate_id,
-                           metric=metric, horizon=horizons, limit=limit + 1, offset=offset)
+    rows = results.score_rows(sessions, run_id, series_key=series_key,
+                              candidate_id=candidate_id, metric=metric, horizon=horizons,
+                              limit=limit + 1, offset=offset)
     return _answer(request, response, chosen, run_id, rows, limit, offset, ScoreRow,
                    ScorePage)
 
@@ -93,11 +85,8 @@ def run_folds(run_id: Id, request: Request, response: Response, caller: Reader,
     """One row per fold and horizon, in series, candidate and origin order; paged. As CSV,
     one row per fold, horizon and interval level (``level``, ``lower``, ``upper``)."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        get_run(session, run_id)
-        levels = plan_levels(session, run_id)
-        rows = fold_table(session, run_id, levels, series_key=series_key,
-                          candidate_id=candidate_id, limit=limit + 1, offset=offset)
+    levels, rows = results.fold_rows(sessions, run_id, series_key=series_key,
+                                     candidate_id=candidate_id, limit=limit + 1, offset=offset)
     link = next_link(request, offset, limit, len(rows) > limit)
     rows = [{"run_id": run_id, **row} for row in rows[:limit]]
     if chosen == "csv":
@@ -115,10 +104,8 @@ def run_ranking(run_id: Id, request: Request, response: Response, caller: Reader
                 offset: Offset = 0) -> Any:
     """Each series' candidates as the run ranked them by its plan's score and horizon."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        get_run(session, run_id)
-        rows = rank_table(session, run_id, series_key=series_key, limit=limit + 1,
-                          offset=offset)
+    rows = results.rank_rows(sessions, run_id, series_key=series_key, limit=limit + 1,
+                             offset=offset)
     return _answer(request, response, chosen, run_id, rows, limit, offset, RunRankRow,
                    RunRankPage)
 
@@ -149,10 +136,8 @@ def _sections(run_id: int, request: Request, response: Response, sessions: Sessi
               requested: FormatParam, series_key: str | None, limit: int, offset: int,
               sections: tuple[str, ...]) -> Any:
     chosen = chosen_format(request, requested)
-    with sessions.begin() as session:
-        get_run(session, run_id)
-        rows = evidence_table(session, run_id, series_key=series_key, limit=limit + 1,
-                              offset=offset)
+    rows = results.evidence_rows(sessions, run_id, series_key=series_key, limit=limit + 1,
+                                 offset=offset)
     link = next_link(request, offset, limit, len(rows) > limit)
     items = [EvidenceItem(series_key=row["series_key"], series_version=row["series_version"],
                           sections={name: row["evidence"].get(name) for name in sections})

@@ -8,8 +8,7 @@ from typing import Annotated, Literal
 from pydantic import BaseModel, Field, StringConstraints
 
 from service.http.schemas.common import Strict
-from service.usecases.keys import KEY_NAME
-from storage.db import ROLES
+from service.usecases.keys import KEY_NAME, ROLES
 
 Role = Literal[ROLES]  # type: ignore[valid-type]
 KeyName = Annotated[str, StringConstraints(pattern=f"^{KEY_NAME.pattern}$")]
