@@ -3,7 +3,34 @@ digests, verification, signed checkpoints, paging and subjects named in words.
 """
 
 from storage.audit.checkpoint import CheckpointError, extends, make_checkpoint, read_checkpoint
-from storage.audit.contents import ISSUED_TABLES, OUTCOME_TABLES, UNIT_TABLES, as_row, candidate_digest, candidate_subject, champion_digest, champion_subject, issued_digest, issued_subject, key_digest, key_subject, outcomes_digest, outcomes_subject, plan_digest, plan_subject, revocation_digest, run_final_digest, run_request_digest, run_subject, series_digest, series_subject, unit_digest, unit_subject, version_digest, version_subject
+from storage.audit.contents import (
+    ISSUED_TABLES,
+    OUTCOME_TABLES,
+    UNIT_TABLES,
+    as_row,
+    candidate_digest,
+    candidate_subject,
+    champion_digest,
+    champion_subject,
+    issued_digest,
+    issued_subject,
+    key_digest,
+    key_subject,
+    outcomes_digest,
+    outcomes_subject,
+    plan_digest,
+    plan_subject,
+    revocation_digest,
+    run_final_digest,
+    run_request_digest,
+    run_subject,
+    series_digest,
+    series_subject,
+    unit_digest,
+    unit_subject,
+    version_digest,
+    version_subject,
+)
 from storage.audit.digest import Row, canonical_json, sha256_text
 from storage.audit.log import AuditEntry, entry_of, lock_audit_log, record_event
 from storage.audit.pages import audit_page

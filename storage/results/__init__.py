@@ -2,9 +2,23 @@
 flat paged tables, the SQL ranking for BI tools and the questions asked of stored scores.
 """
 
-from storage.results.queries import LatestRun, ScorePoint, latest_successful_run, latest_successful_runs, score_history, succeeded_run_count
+from storage.results.queries import (
+    LatestRun,
+    ScorePoint,
+    latest_successful_run,
+    latest_successful_runs,
+    score_history,
+    succeeded_run_count,
+)
 from storage.results.ranking import RANKABLE, ranking_table
-from storage.results.store import completed_units, load_candidate_folds, load_run_result, load_series_result, pending_units, write_series_result
+from storage.results.store import (
+    completed_units,
+    load_candidate_folds,
+    load_run_result,
+    load_series_result,
+    pending_units,
+    write_series_result,
+)
 from storage.results.tables import evidence_table, fold_table, plan_levels, rank_table, score_table
 
 __all__ = [
