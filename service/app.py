@@ -42,6 +42,7 @@ from service.routes import (
     series,
 )
 from service.settings import Settings, get_settings
+from service.verification import Verifier
 from storage.engine import make_engine, session_factory
 from storage.errors import StorageError
 
@@ -75,7 +76,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
                   docs_url=None, redoc_url=None)
     add_api_docs(app)
     app.state.settings = settings
-    app.state.sessions = session_factory(engine)
+    app.state.sessions = session_factory(engine, settings.audit_key)
+    app.state.verifier = Verifier(app.state.sessions)
     app.state.request_metrics = RequestMetrics()
     app.state.ranking_cache = RankingCache()
     for router in ROUTERS:

@@ -17,6 +17,7 @@ from sqlalchemy.orm import Session
 
 from service.errors import ServiceError
 from service.key_admin import issue_key
+from service.settings import InvalidSettingsError, checked_settings
 from storage.engine import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 from storage.keys import list_keys, revoke_key
@@ -79,11 +80,11 @@ def _in_store(args: argparse.Namespace, work: Callable[[Session], Output]) -> in
     try:
         engine = make_engine(args.database_url or database_url())
         try:
-            with session_factory(engine).begin() as session:
+            with session_factory(engine, checked_settings().audit_key).begin() as session:
                 out, note = work(session)
         finally:
             engine.dispose()
-    except (StorageError, ServiceError) as exc:
+    except (StorageError, ServiceError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     if out:

@@ -38,7 +38,8 @@ def write_report(args: argparse.Namespace) -> int:
         cache = ReportCache(cache_directory(checked_settings().report_cache_dir, url))
         engine = make_engine(url)
         try:
-            html = stored_run_report(session_factory(engine), args.run_id, cache)
+            html = stored_run_report(session_factory(engine, checked_settings().audit_key),
+                                     args.run_id, cache)
         finally:
             engine.dispose()
     except (StorageError, ServiceError, InvalidSettingsError) as exc:

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.errors import BacktestError
 from service.errors import ServiceError
+from service.settings import InvalidSettingsError, checked_settings
 from storage.engine import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
@@ -32,10 +33,10 @@ def run_in_store(args: argparse.Namespace,
     try:
         engine = make_engine(args.database_url or database_url())
         try:
-            out = work(session_factory(engine))
+            out = work(session_factory(engine, checked_settings().audit_key))
         finally:
             engine.dispose()
-    except (StorageError, ServiceError, BacktestError) as exc:
+    except (StorageError, ServiceError, BacktestError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     if out:

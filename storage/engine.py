@@ -25,6 +25,7 @@ from sqlalchemy.engine import URL, make_url
 from sqlalchemy.exc import ArgumentError
 from sqlalchemy.orm import Session, sessionmaker
 
+from storage.audit import AUDIT_KEY_INFO
 from storage.errors import ConfigurationError
 from storage.guard import refuse_changes_to_frozen_records
 
@@ -55,9 +56,12 @@ def make_engine(url: str | URL, **options: Any) -> Engine:
     return create_engine(parsed, pool_pre_ping=True, **options)
 
 
-def session_factory(engine: Engine) -> sessionmaker[Session]:
-    """Sessions bound to ``engine`` that refuse ORM changes to append-only records."""
-    factory = sessionmaker(engine, expire_on_commit=False)
+def session_factory(engine: Engine, audit_key: str | None = None) -> sessionmaker[Session]:
+    """Sessions bound to ``engine`` that refuse ORM changes to append-only records; with
+    ``audit_key`` (``FOLDLINE_AUDIT_KEY``) their audit events are keyed (see
+    :mod:`storage.audit`)."""
+    info = {AUDIT_KEY_INFO: audit_key.encode()} if audit_key else {}
+    factory = sessionmaker(engine, expire_on_commit=False, info=info)
     event.listen(factory, "before_flush", refuse_changes_to_frozen_records)
     return factory
 

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Depends, Query, Request, Response
 
 from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
-from service.app_state import Sessions
+from service.app_state import Sessions, Verifications
 from service.flat_rows import flat_columns, flat_rows
 from service.moments import MOMENT_HELP, point_in_time
 from service.problems import problem_responses
@@ -36,7 +36,6 @@ from storage.audit_pages import audit_page
 from storage.queries import runs_using_version, score_history
 from storage.series_catalog import get_series, version_by_number
 from storage.subjects import describe_subjects
-from storage.verify import verify_audit_log
 
 router = APIRouter(prefix="/v1", tags=["history"])
 Auditor = Annotated[Caller, Depends(require("audit"))]
@@ -123,11 +122,13 @@ def audit_events(request: Request, response: Response, caller: Auditor, sessions
 
 @router.get("/audit/verification", response_model=VerificationOut,
             responses=problem_responses(*ERRORS))
-def verification(caller: Auditor, sessions: Sessions) -> VerificationOut:
-    """Check the whole hash chain and the stored content it vouches for (reads everything)."""
-    with sessions.begin() as session:
-        report = verify_audit_log(session)
-    return VerificationOut(ok=report.ok, events_checked=report.events_checked,
-                           head_hash=report.head_hash, broken_at=report.broken_at,
-                           problem=report.problem)
+def verification(caller: Auditor, verifier: Verifications) -> VerificationOut:
+    """Check the hash chain and the stored content it vouches for, from the last verified
+    head on; one verification at a time (a concurrent call gets the running one's answer).
+    The full pass over the whole store is ``foldline audit verify``."""
+    report = verifier.verify()
+    return VerificationOut(ok=report.ok, mode=report.mode, from_seq=report.from_seq,
+                           events_checked=report.events_checked, head_seq=report.head_seq,
+                           head_hash=report.head_hash, keyed_from=report.keyed_from,
+                           broken_at=report.broken_at, problem=report.problem)
 
