@@ -9,10 +9,10 @@ period, actual, point); prediction bounds are rows of ``forecast_bound``, one pe
 are stored the same way. A ``NULL`` float stands for NaN (SQLite cannot store NaN);
 ``fold_result.has_point`` tells a failed fold (no forecast at all) apart from a NaN point.
 
-Everything except ``run`` and ``audit_verification`` is append-only: database triggers
-created by the migrations refuse UPDATE and DELETE, and a ``run`` row is frozen once its
-status is final. On SQLite, tables with composite natural keys are ``WITHOUT ROWID``
-(stored once, in key order).
+Everything except ``run``, ``audit_verification`` and ``series_skeleton`` is append-only:
+database triggers created by the migrations refuse UPDATE and DELETE, and a ``run`` row is
+frozen once its status is final. On SQLite, tables with composite natural keys are
+``WITHOUT ROWID`` (stored once, in key order).
 """
 
 from __future__ import annotations
@@ -92,6 +92,16 @@ class SeriesRecord(Base):
     tags: Mapped[Json]
     created_at: Mapped[datetime]
     created_by: Mapped[Name]
+
+
+class SeriesSkeleton(Base):
+    """The skeleton of a series' key (:mod:`storage.key_skeleton`), looked up to refuse a new
+    key that looks like a stored one; derived from the key, so not audited."""
+
+    __tablename__ = "series_skeleton"
+
+    series_id: Mapped[int] = mapped_column(ForeignKey("series.id"), primary_key=True)
+    skeleton: Mapped[str] = mapped_column(Text, index=True)  # NFD: may outgrow the key
 
 
 class SeriesVersion(Base):

@@ -81,7 +81,7 @@ _PAGE = 1000
 _VERIFY_LOCK = 0x466F6C65
 #: how far before the last verification's start the incremental pass looks for records:
 #: longer than any write transaction (and any clock difference between writers)
-COVERAGE_OVERLAP = timedelta(hours=1)
+COVERAGE_OVERLAP = timedelta(minutes=10)
 Mode = Literal["full", "incremental"]
 
 
@@ -124,12 +124,14 @@ class AuditReport:
 @translates_errors
 def verify_audit_log(session: Session) -> AuditReport:
     """Check the whole log and every stored record; stop at the first problem."""
-    return _walk(session, LOG_START, "full", utc_now())
+    return _walk(session, LOG_START, "full", utc_now(), COVERAGE_OVERLAP)
 
 
 @translates_errors
-def verify_incrementally(session: Session) -> AuditReport:
-    """Check what came after the last trusted verified head (a full pass if there is none).
+def verify_incrementally(session: Session,
+                         overlap: timedelta = COVERAGE_OVERLAP) -> AuditReport:
+    """Check what came after the last trusted verified head (a full pass if there is none);
+    look for unvouched records stamped since that verification began, less ``overlap``.
 
     On PostgreSQL a transaction-level advisory lock lets one verification run at a time.
     """
@@ -138,14 +140,14 @@ def verify_incrementally(session: Session) -> AuditReport:
         session.execute(select(func.pg_advisory_xact_lock(_VERIFY_LOCK)))
     start = _trusted_head(session)
     if start is None:
-        return _walk(session, LOG_START, "full", started_at)
+        return _walk(session, LOG_START, "full", started_at, overlap)
     stored = session.scalar(select(AuditEvent.hash).where(AuditEvent.seq == start.seq))
     if start.seq > 0 and stored != start.hash:
         what = "is gone: the log was cut back" if stored is None else "was rewritten"
         return AuditReport(0, start.hash, start.seq,
                            f"event {start.seq}, verified before, {what}", start.seq,
                            start.keyed_from, start.seq, "incremental", started_at)
-    return _walk(session, start, "incremental", started_at)
+    return _walk(session, start, "incremental", started_at, overlap)
 
 
 @translates_errors
@@ -184,8 +186,8 @@ def _trusted_head(session: Session) -> VerifiedHead | None:
     return head if row.mac == _head_mac(key, head) else None
 
 
-def _walk(session: Session, start: VerifiedHead, mode: Mode,
-          started_at: datetime) -> AuditReport:
+def _walk(session: Session, start: VerifiedHead, mode: Mode, started_at: datetime,
+          overlap: timedelta) -> AuditReport:
     key = audit_key_of(session)
     previous, seq, keyed_from, checked = start.hash, start.seq, start.keyed_from, 0
     for event in _events(session, after=start.seq):
@@ -196,7 +198,7 @@ def _walk(session: Session, start: VerifiedHead, mode: Mode,
         if keyed and keyed_from is None:
             keyed_from = event.seq
         previous, seq, checked = event.hash, event.seq, checked + 1
-    since = None if start.started_at is None else start.started_at - COVERAGE_OVERLAP
+    since = None if start.started_at is None else start.started_at - overlap
     unrecorded = _first_unrecorded(session, since)
     return AuditReport(checked, previous, None, unrecorded, seq, keyed_from, start.seq, mode,
                        started_at)
