@@ -3,13 +3,15 @@
 from __future__ import annotations
 
 from datetime import timedelta
+from pathlib import Path
 
-from sqlalchemy import text
+from sqlalchemy import func, select, text
 
 from storage.queries import score_history
+from storage.schema import AuditEvent
 from storage.types import utc_now
 from storage.verify import verify_audit_log
-from tests.service.conftest import Api
+from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 
 
@@ -110,3 +112,15 @@ def test_verification_catches_tampering_after_the_verified_head(api: Api):
     assert broken["ok"] is False and broken["mode"] == "incremental"
     assert broken["from_seq"] == head
     assert "series_version/3" in broken["problem"]
+
+
+def test_an_app_with_the_audit_key_writes_keyed_events(sqlite_template: Path, tmp_path: Path):
+    with serving(copied_store(sqlite_template, tmp_path),
+                 audit_key="a-test-secret-of-enough-length") as api:
+        with api.sessions.begin() as session:  # the keys, made before the app ran
+            plain_prefix = session.scalar(select(func.max(AuditEvent.seq)))
+        api.post_series(monthly_series("a", seed=1))
+        report = api.get("auditor", "/v1/audit/verification").json()
+
+    assert report["ok"] is True and report["keyed_from"] == plain_prefix + 1
+    assert report["head_seq"] > plain_prefix + 1
