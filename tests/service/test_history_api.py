@@ -7,10 +7,10 @@ from pathlib import Path
 
 from sqlalchemy import func, select, text
 
-from storage.queries import score_history
-from storage.schema import AuditEvent
-from storage.types import utc_now
-from storage.verify import verify_audit_log
+from storage.audit.verify import verify_audit_log
+from storage.db.schema import AuditEvent
+from storage.db.types import utc_now
+from storage.results.queries import score_history
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 

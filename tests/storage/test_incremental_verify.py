@@ -16,12 +16,17 @@ import pytest
 from sqlalchemy import func, select, text
 from sqlalchemy.orm import Session, sessionmaker
 
-from service.verification import Verifier
-from storage.audit import event_hash
-from storage.contents import stored_digest
-from storage.engine import make_engine, session_factory
-from storage.schema import AuditEvent, AuditVerification
-from storage.verify import AuditReport, record_verified, verify_audit_log, verify_incrementally
+from service.usecases.audit_verification import Verifier
+from storage.audit.contents import stored_digest
+from storage.audit.log import event_hash
+from storage.audit.verify import (
+    AuditReport,
+    record_verified,
+    verify_audit_log,
+    verify_incrementally,
+)
+from storage.db.connection import make_engine, session_factory
+from storage.db.schema import AuditEvent, AuditVerification
 from tests.storage.builders import drop_guards, monthly_series, run_and_store
 from tests.storage.conftest import migrated_store
 
