@@ -58,8 +58,9 @@ class Settings(BaseSettings):
                                        "page sessions; unset: a random one per process, so "
                                        "sessions end when the server restarts")
     audit_key: str | None = Field(None, repr=False, min_length=16, description="secret that "
-                                  "signs audit checkpoints (`foldline audit checkpoint`); keep "
-                                  "it outside the database")
+                                  "keys each audit event's chain hash (HMAC-SHA256) and signs "
+                                  "audit checkpoints (`foldline audit checkpoint`); keep it "
+                                  "outside the database")
     session_minutes: int = Field(480, ge=1, le=10_080, description="how long a reviewer page "
                                  "session lasts after signing in")
 

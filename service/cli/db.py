@@ -51,7 +51,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     audit_commands = audit.add_subparsers(dest="audit_command", required=True,
                                           metavar="COMMAND")
     verify_parser = audit_commands.add_parser(
-        "verify", help="verify the audit log's hash chain and the content it vouches for")
+        "verify", help="verify the whole audit log: its hash chain (keyed under "
+                       "FOLDLINE_AUDIT_KEY), the content it vouches for, and every record")
     verify_parser.add_argument("--checkpoint", metavar="FILE",
                                help="also prove the store extends this signed checkpoint "
                                     "(needs FOLDLINE_AUDIT_KEY)")
@@ -93,16 +94,18 @@ def db_bi_reader(args: argparse.Namespace) -> int:
 
 
 def audit_verify(args: argparse.Namespace) -> int:
-    """Verify the audit log; print OK and the events checked, or the first broken link.
-    With ``--checkpoint``, the store must also still hold the checkpoint's head."""
+    """Verify the whole audit log (the full pass); print OK and the events checked, or the
+    first broken link. Keyed event hashes are checked under ``FOLDLINE_AUDIT_KEY``. With
+    ``--checkpoint``, the store must also still hold the checkpoint's head."""
     url = args.database_url or database_url()
     try:
         checkpoint = None
         if args.checkpoint is not None:
             checkpoint = read_checkpoint(Path(args.checkpoint).read_text(), _audit_key())
+        key = checked_settings().audit_key
         engine = make_engine(url)
         try:
-            with session_factory(engine).begin() as session:
+            with session_factory(engine, key).begin() as session:
                 report = verify_audit_log(session)
                 cut = extends(session, checkpoint) if checkpoint is not None else None
         finally:
@@ -113,7 +116,8 @@ def audit_verify(args: argparse.Namespace) -> int:
         print(f"BROKEN against the checkpoint: {cut}")
         return 1
     if report.ok:
-        print(f"OK: {report.events_checked} events checked, head {report.head_hash}")
+        keyed = "" if report.keyed_from is None else f", keyed from event {report.keyed_from}"
+        print(f"OK: {report.events_checked} events checked{keyed}, head {report.head_hash}")
         return 0
     where = f"event {report.broken_at}" if report.broken_at is not None else "stored records"
     print(f"BROKEN at {where}: {report.problem} "

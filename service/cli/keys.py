@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.cli.store import operator
 from service.errors import ServiceError
+from service.settings import InvalidSettingsError
 from service.usecases.keys import ROLES, all_keys, create_api_key, revoke_api_key
 from service.usecases.store import URL_SETTING, open_store
 from storage.errors import StorageError
@@ -78,7 +79,7 @@ def _in_store(args: argparse.Namespace, work: Callable[[sessionmaker[Session]], 
     try:
         with open_store(args.database_url) as sessions:
             out, note = work(sessions)
-    except (StorageError, ServiceError) as exc:
+    except (StorageError, ServiceError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     if out:

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.errors import BacktestError
 from service.errors import ServiceError
+from service.settings import InvalidSettingsError
 from service.usecases.store import URL_SETTING, open_store
 from storage.errors import StorageError
 
@@ -32,7 +33,7 @@ def run_in_store(args: argparse.Namespace,
     try:
         with open_store(args.database_url) as sessions:
             out = work(sessions)
-    except (StorageError, ServiceError, BacktestError) as exc:
+    except (StorageError, ServiceError, BacktestError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     if out:

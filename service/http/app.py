@@ -42,6 +42,7 @@ from service.http.routes import (
     series,
 )
 from service.settings import Settings, get_settings
+from service.usecases.audit_verification import Verifier
 from service.usecases.store import store_sessions
 from storage.errors import StorageError
 
@@ -64,7 +65,7 @@ ERROR_FAMILIES = (BacktestError, StorageError, ServiceError, RequestValidationEr
 def create_app(settings: Settings | None = None) -> FastAPI:
     """The API application for ``settings`` (default: from the environment)."""
     settings = settings or get_settings()
-    sessions, close_store = store_sessions(settings.database_url)
+    sessions, close_store = store_sessions(settings.database_url, settings.audit_key)
 
     @asynccontextmanager
     async def lifespan(_app: FastAPI) -> AsyncIterator[None]:
@@ -76,6 +77,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     add_api_docs(app)
     app.state.settings = settings
     app.state.sessions = sessions
+    app.state.verifier = Verifier(sessions)
     app.state.request_metrics = RequestMetrics()
     app.state.ranking_cache = RankingCache()
     for router in ROUTERS:

@@ -14,6 +14,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.http.ranking_cache import RankingCache
 from service.settings import Settings
+from service.usecases.audit_verification import Verifier
 
 
 def get_sessions(request: Request) -> sessionmaker[Session]:
@@ -26,6 +27,11 @@ def get_settings_of_app(request: Request) -> Settings:
     return request.app.state.settings
 
 
+def get_verifier(request: Request) -> Verifier:
+    """The application's audit verifier (one verification at a time)."""
+    return request.app.state.verifier
+
+
 def get_ranking_cache(request: Request) -> RankingCache:
     """The application's cache of whole ranking tables."""
     return request.app.state.ranking_cache
@@ -34,3 +40,4 @@ def get_ranking_cache(request: Request) -> RankingCache:
 Sessions = Annotated[sessionmaker[Session], Depends(get_sessions)]
 AppSettings = Annotated[Settings, Depends(get_settings_of_app)]
 Rankings = Annotated[RankingCache, Depends(get_ranking_cache)]
+Verifications = Annotated[Verifier, Depends(get_verifier)]

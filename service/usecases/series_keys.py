@@ -12,6 +12,10 @@ if it:
   read as another route (``a/champion``, ``a/versions/2``);
 - mixes Latin with Cyrillic or Greek letters inside one segment, the usual way a look-alike
   of another key is spelled (the mixed-script test of Unicode TS #39 in outline).
+
+A key spelled wholly in another script can still read as a stored key (Cyrillic "раураӏ"
+and Latin "paypal"): the store refuses a new key whose skeleton equals a stored key's
+(:mod:`storage.series.skeleton`), with 409.
 """
 
 from __future__ import annotations

@@ -7,6 +7,7 @@ from contextlib import contextmanager
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from service.settings import checked_settings
 from storage.db import URL_SETTING, database_url, make_engine, session_factory, upgrade
 
 __all__ = ["URL_SETTING", "migrate_store", "open_store", "store_sessions", "store_url"]
@@ -17,20 +18,23 @@ def store_url(url: str | None = None) -> str:
     return url or database_url()
 
 
-def store_sessions(url: str) -> tuple[sessionmaker[Session], Callable[[], None]]:
-    """Sessions on the store at ``url`` for a long-lived process, and the function that
-    closes its connections when the process stops."""
+def store_sessions(url: str, audit_key: str | None
+                   ) -> tuple[sessionmaker[Session], Callable[[], None]]:
+    """Sessions on the store at ``url`` for a long-lived process (keying audit events with
+    ``audit_key``), and the function that closes its connections when the process stops."""
     engine = make_engine(url)
-    return session_factory(engine), engine.dispose
+    return session_factory(engine, audit_key), engine.dispose
 
 
 @contextmanager
 def open_store(url: str | None = None) -> Iterator[sessionmaker[Session]]:
     """Sessions on the store at ``url`` (default: ``FOLDLINE_DATABASE_URL``, else the
-    embedded SQLite file); its connections are closed on exit."""
+    embedded SQLite file), keying audit events with ``FOLDLINE_AUDIT_KEY`` when set; its
+    connections are closed on exit. Raises ``InvalidSettingsError`` for invalid settings."""
+    audit_key = checked_settings().audit_key
     engine = make_engine(store_url(url))
     try:
-        yield session_factory(engine)
+        yield session_factory(engine, audit_key)
     finally:
         engine.dispose()
 

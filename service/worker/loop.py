@@ -44,7 +44,7 @@ class Worker:
         self.settings = settings
         self.id = worker_id or new_worker_id()
         self._engine = None if session_factory else make_engine(settings.database_url)
-        self._sessions = session_factory or sessions_for(self._engine)
+        self._sessions = session_factory or sessions_for(self._engine, settings.audit_key)
 
     def run_once(self, stop: threading.Event | None = None) -> bool:
         """Claim one run and work on it until it ends; ``False`` if none was waiting.

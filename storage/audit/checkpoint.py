@@ -43,8 +43,9 @@ class Checkpoint:
         return json.dumps(asdict(self), sort_keys=True)
 
 
-def _mac(key: bytes, seq: int, head: str, time: str) -> str:
-    return hmac.new(key, canonical_json([seq, head, time]).encode(), hashlib.sha256).hexdigest()
+def head_mac(key: bytes, *fields: object) -> str:
+    """HMAC-SHA256 under ``key`` of a head's fields (as canonical JSON)."""
+    return hmac.new(key, canonical_json(list(fields)).encode(), hashlib.sha256).hexdigest()
 
 
 @translates_errors
@@ -55,7 +56,7 @@ def make_checkpoint(session: Session, key: bytes) -> Checkpoint:
     if head is None:
         raise NotFoundError("the audit log is empty: there is no head to sign")
     time = utc_now().isoformat()
-    return Checkpoint(head.seq, head.hash, time, _mac(key, head.seq, head.hash, time))
+    return Checkpoint(head.seq, head.hash, time, head_mac(key, head.seq, head.hash, time))
 
 
 def read_checkpoint(text: str, key: bytes) -> Checkpoint:
@@ -66,7 +67,7 @@ def read_checkpoint(text: str, key: bytes) -> Checkpoint:
                                 str(body["mac"]))
     except (ValueError, KeyError, TypeError) as exc:
         raise CheckpointError(f"the checkpoint is not a Foldline checkpoint ({exc})") from None
-    expected = _mac(key, checkpoint.seq, checkpoint.hash, checkpoint.time)
+    expected = head_mac(key, checkpoint.seq, checkpoint.hash, checkpoint.time)
     if not hmac.compare_digest(expected, checkpoint.mac):
         raise CheckpointError("the checkpoint's MAC does not match under FOLDLINE_AUDIT_KEY: "
                               "it was altered, or made with another key")

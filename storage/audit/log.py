@@ -5,10 +5,19 @@ An event records who did what to which subject, when, and the digest of the cont
 the previous event's hash (``prev_hash``; the first event follows 64 zeros), so changing,
 removing or inserting an event breaks the chain at that point. Appends are serialised: on
 PostgreSQL by a transaction-level advisory lock, on SQLite by its single-writer lock.
+
+Keyed chain: when the session carries an audit key (``FOLDLINE_AUDIT_KEY``, given to
+:func:`storage.db.connection.session_factory`), each new event's hash is an HMAC-SHA256 of the same
+fields under that key instead of a plain SHA-256. Someone with write access to the database
+but not the key can then no longer alter an event and recompute the hashes after it.
+Events written before the key was set keep their plain hashes; verification accepts such a
+prefix but no plain event after a keyed one.
 """
 
 from __future__ import annotations
 
+import hashlib
+import hmac
 from dataclasses import dataclass
 from datetime import UTC, datetime
 
@@ -17,6 +26,7 @@ from sqlalchemy.orm import Session
 
 from storage.audit.digest import canonical_json, sha256_text
 from storage.db import AuditEvent, utc_now
+from storage.db.connection import AUDIT_KEY_INFO
 from storage.errors import translates_errors
 
 GENESIS_HASH = "0" * 64
@@ -38,11 +48,19 @@ class AuditEntry:
 
 
 def event_hash(seq: int, occurred_at: datetime, actor: str, action: str, subject: str,
-               digest: str, prev_hash: str) -> str:
-    """The chain hash of an event's fields and its predecessor's hash."""
-    fields = [seq, occurred_at.astimezone(UTC).isoformat(), actor, action, subject, digest,
-              prev_hash]
-    return sha256_text(canonical_json(fields))
+               digest: str, prev_hash: str, key: bytes | None = None) -> str:
+    """The chain hash of an event's fields and its predecessor's hash: SHA-256, or
+    HMAC-SHA256 under ``key`` when one is given."""
+    fields = canonical_json([seq, occurred_at.astimezone(UTC).isoformat(), actor, action,
+                             subject, digest, prev_hash])
+    if key is None:
+        return sha256_text(fields)
+    return hmac.new(key, fields.encode(), hashlib.sha256).hexdigest()
+
+
+def audit_key_of(session: Session) -> bytes | None:
+    """The audit key the session's writes are keyed with, if any."""
+    return session.info.get(AUDIT_KEY_INFO)
 
 
 def lock_audit_log(session: Session) -> None:
@@ -66,7 +84,7 @@ def record_event(session: Session, *, actor: str, action: str, subject: str,
     event = AuditEvent(seq=seq, occurred_at=occurred_at, actor=actor, action=action,
                        subject=subject, digest=digest, prev_hash=prev_hash,
                        hash=event_hash(seq, occurred_at, actor, action, subject, digest,
-                                       prev_hash))
+                                       prev_hash, audit_key_of(session)))
     session.add(event)
     session.flush()
     return entry_of(event)

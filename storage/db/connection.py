@@ -30,6 +30,8 @@ from storage.errors import ConfigurationError
 
 URL_SETTING = "FOLDLINE_DATABASE_URL"
 SQLITE_BUSY_TIMEOUT_MS = 5000
+#: ``Session.info`` entry holding the audit key (bytes) that keys new events' hashes
+AUDIT_KEY_INFO = "foldline.audit_key"
 
 
 def database_url(environ: Mapping[str, str] | None = None) -> str:
@@ -55,9 +57,12 @@ def make_engine(url: str | URL, **options: Any) -> Engine:
     return create_engine(parsed, pool_pre_ping=True, **options)
 
 
-def session_factory(engine: Engine) -> sessionmaker[Session]:
-    """Sessions bound to ``engine`` that refuse ORM changes to append-only records."""
-    factory = sessionmaker(engine, expire_on_commit=False)
+def session_factory(engine: Engine, audit_key: str | None = None) -> sessionmaker[Session]:
+    """Sessions bound to ``engine`` that refuse ORM changes to append-only records; with
+    ``audit_key`` (``FOLDLINE_AUDIT_KEY``) their audit events are keyed (see
+    :mod:`storage.audit.log`)."""
+    info = {AUDIT_KEY_INFO: audit_key.encode()} if audit_key else {}
+    factory = sessionmaker(engine, expire_on_commit=False, info=info)
     event.listen(factory, "before_flush", refuse_changes_to_frozen_records)
     return factory
 

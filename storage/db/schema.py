@@ -9,9 +9,10 @@ period, actual, point); prediction bounds are rows of ``forecast_bound``, one pe
 are stored the same way. A ``NULL`` float stands for NaN (SQLite cannot store NaN);
 ``fold_result.has_point`` tells a failed fold (no forecast at all) apart from a NaN point.
 
-Everything except ``run`` is append-only: database triggers created by the migrations
-refuse UPDATE and DELETE, and a ``run`` row is frozen once its status is final. On SQLite,
-tables with composite natural keys are ``WITHOUT ROWID`` (stored once, in key order).
+Everything except ``run``, ``audit_verification`` and ``series_skeleton`` is append-only:
+database triggers created by the migrations refuse UPDATE and DELETE, and a ``run`` row is
+frozen once its status is final. On SQLite, tables with composite natural keys are
+``WITHOUT ROWID`` (stored once, in key order).
 """
 
 from __future__ import annotations
@@ -90,6 +91,16 @@ class SeriesRecord(Base):
     tags: Mapped[Json]
     created_at: Mapped[datetime]
     created_by: Mapped[Name]
+
+
+class SeriesSkeleton(Base):
+    """The skeleton of a series' key (:mod:`storage.series.skeleton`), looked up to refuse a new
+    key that looks like a stored one; derived from the key, so not audited."""
+
+    __tablename__ = "series_skeleton"
+
+    series_id: Mapped[int] = mapped_column(ForeignKey("series.id"), primary_key=True)
+    skeleton: Mapped[str] = mapped_column(Text, index=True)  # NFD: may outgrow the key
 
 
 class SeriesVersion(Base):
@@ -401,6 +412,24 @@ class AuditEvent(Base):
     digest: Mapped[Digest]
     prev_hash: Mapped[Digest] = mapped_column(unique=True)
     hash: Mapped[Digest] = mapped_column(unique=True)
+
+
+class AuditVerification(Base):
+    """A verification of the audit log that passed: the head it reached, for the next one
+    to continue from. Operational state, not audited; ``mac`` (under ``FOLDLINE_AUDIT_KEY``
+    when set) lets the next verification trust it."""
+
+    __tablename__ = "audit_verification"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    seq: Mapped[int]
+    hash: Mapped[Digest]
+    keyed_from: Mapped[int | None]
+    started_at: Mapped[datetime]
+    finished_at: Mapped[datetime]
+    mode: Mapped[Label]
+    events_checked: Mapped[int]
+    mac: Mapped[Digest | None]
 
 
 class ApiKey(Base):

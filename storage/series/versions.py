@@ -21,16 +21,18 @@ from sqlalchemy.orm import Session
 
 from backtest.frequency import parse_frequency
 from backtest.series import Series
-from storage.audit import (
+from storage.audit import record_event
+from storage.audit.contents import (
     as_row,
-    record_event,
     series_digest,
     series_subject,
     version_digest,
     version_subject,
 )
-from storage.db import Observation, SeriesRecord, SeriesVersion, utc_now
+from storage.db.schema import Observation, SeriesRecord, SeriesSkeleton, SeriesVersion
+from storage.db.types import utc_now
 from storage.errors import ConflictError, NotFoundError, translates_errors
+from storage.series.skeleton import skeleton
 
 
 @dataclass(frozen=True)
@@ -142,16 +144,28 @@ def _series_record(session: Session, series: Series, actor: str, unit: str | Non
     record = session.execute(
         select(SeriesRecord).where(SeriesRecord.key == series.key)).scalar_one_or_none()
     if record is None:
+        look_alike = _stored_look_alike(session, series.key)
+        if look_alike is not None:
+            raise ConflictError(f"series key {series.key!r} looks like the stored key "
+                                f"{look_alike!r} (letters of another script that read alike); "
+                                "use the stored key or a distinct one")
         record = SeriesRecord(key=series.key, frequency=series.frequency.duration,
                               season_length=series.season_length, unit=unit,
                               tags=dict(tags or {}), created_at=utc_now(), created_by=actor)
         session.add(record)
         session.flush()
+        session.add(SeriesSkeleton(series_id=record.id, skeleton=skeleton(series.key)))
         record_event(session, actor=actor, action="series.created",
                      subject=series_subject(record.id), digest=series_digest([as_row(record)]))
         return record
     _check_same_series(record, series, unit, tags)
     return record
+
+
+def _stored_look_alike(session: Session, key: str) -> str | None:
+    return session.scalar(select(SeriesRecord.key).join(
+        SeriesSkeleton, SeriesSkeleton.series_id == SeriesRecord.id).where(
+        SeriesSkeleton.skeleton == skeleton(key)).limit(1))
 
 
 def _check_same_series(record: SeriesRecord, series: Series, unit: str | None,

@@ -3,12 +3,15 @@
 from __future__ import annotations
 
 from datetime import timedelta
+from pathlib import Path
 
-from sqlalchemy import text
+from sqlalchemy import func, select, text
 
-from storage.db import utc_now
-from storage.results import score_history
-from tests.service.conftest import Api
+from storage.audit.verify import verify_audit_log
+from storage.db.schema import AuditEvent
+from storage.db.types import utc_now
+from storage.results.queries import score_history
+from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 
 
@@ -73,14 +76,51 @@ def test_audit_events_in_a_time_range_page_in_log_order(api: Api):
     assert [e["action"] for e in empty["items"]] == ["api_key.created"] * 4
 
 
-def test_verification_reports_an_intact_chain_and_then_tampering(api: Api):
+def test_verification_continues_from_the_last_verified_head(api: Api):
     _two_runs(api)
 
-    intact = api.get("auditor", "/v1/audit/verification").json()
+    first = api.get("auditor", "/v1/audit/verification").json()
+    again = api.get("auditor", "/v1/audit/verification").json()
     with api.sessions.begin() as session:
         session.execute(text("DROP TRIGGER observation_no_update"))
         session.execute(text("UPDATE observation SET value = value + 1 WHERE position = 3"))
+    old_tamper = api.get("auditor", "/v1/audit/verification").json()
+    with api.sessions.begin() as session:
+        full = verify_audit_log(session)
+
+    assert first["ok"] is True and first["mode"] == "full" and first["from_seq"] == 0
+    assert first["events_checked"] == first["head_seq"] > 0
+    assert again["ok"] is True and again["mode"] == "incremental"
+    assert again["from_seq"] == first["head_seq"] and again["events_checked"] == 0
+    # content written before the verified head is the full pass's to re-read
+    assert old_tamper["ok"] is True and old_tamper["events_checked"] == 0
+    assert not full.ok and "series_version" in (full.problem or "")
+
+
+def test_verification_catches_tampering_after_the_verified_head(api: Api):
+    _two_runs(api)
+    head = api.get("auditor", "/v1/audit/verification").json()["head_seq"]
+    api.post("submitter", "/v1/series/a/observations",
+             json={"observations": [{"period": "2023-02", "value": 150.0}]})
+    with api.sessions.begin() as session:
+        session.execute(text("DROP TRIGGER observation_no_update"))
+        session.execute(text("UPDATE observation SET value = value + 1 WHERE position = 3 "
+                             "AND series_version_id = 3"))
+
     broken = api.get("auditor", "/v1/audit/verification").json()
 
-    assert intact["ok"] is True and intact["problem"] is None
-    assert broken["ok"] is False and "series_version" in broken["problem"]
+    assert broken["ok"] is False and broken["mode"] == "incremental"
+    assert broken["from_seq"] == head
+    assert "series_version/3" in broken["problem"]
+
+
+def test_an_app_with_the_audit_key_writes_keyed_events(sqlite_template: Path, tmp_path: Path):
+    with serving(copied_store(sqlite_template, tmp_path),
+                 audit_key="a-test-secret-of-enough-length") as api:
+        with api.sessions.begin() as session:  # the keys, made before the app ran
+            plain_prefix = session.scalar(select(func.max(AuditEvent.seq)))
+        api.post_series(monthly_series("a", seed=1))
+        report = api.get("auditor", "/v1/audit/verification").json()
+
+    assert report["ok"] is True and report["keyed_from"] == plain_prefix + 1
+    assert report["head_seq"] > plain_prefix + 1

@@ -28,6 +28,7 @@ from storage.db import make_engine, session_factory
 from storage.ledger import choose_champion, current_champion, record_outcomes
 from storage.series import load_series, save_series_version
 from tests.service.conftest import copied_store, serving
+from tests.service.test_pages import sign_in
 from tests.storage.builders import (
     ACTOR,
     benchmark_candidates,
@@ -201,8 +202,7 @@ def test_the_series_page_carries_the_section(sqlite_template: Path, tmp_path: Pa
             choose_champion(session, series_key=KEY, candidate_id=DRIFT, run_id=run_id,
                             reason="trend", actor=ACTOR)
             issued = issue_and_record(session, shifted(36))
-        signed_in = site.client.post("/pages/sign-in", data={"key": site.tokens["reader"]},
-                                     follow_redirects=False)
+        signed_in = sign_in(site, site.tokens["reader"])
         cookie = signed_in.headers["set-cookie"].split(";")[0]
         page = site.client.get(f"/pages/series/{KEY}", headers={"Cookie": cookie}).text
         forecast = site.client.get(f"/pages/forecasts/{issued.forecast_id}",

@@ -15,9 +15,9 @@ import pytest
 
 from service.cli.main import build_parser
 from service.views.pages.series_list import series_list
-from service.views.pages.session import COOKIE, session_value
-from storage.access import revoke_key
-from storage.ledger import choose_champion
+from service.views.pages.session import COOKIE, SIGN_IN_COOKIE, session_value
+from storage.access.keys import revoke_key
+from storage.ledger.champions import choose_champion
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 
@@ -41,13 +41,26 @@ def site(sqlite_template: Path, tmp_path_factory: pytest.TempPathFactory) -> Ite
         yield api
 
 
-def _sign_in(api: Api, key: str):
+def sign_in_form(api: Api) -> tuple[str, dict[str, str]]:
+    """The form's CSRF token and the pre-session cookie it is bound to (as a header)."""
     api.client.cookies.clear()
-    return api.client.post("/pages/sign-in", data={"key": key}, follow_redirects=False)
+    form = api.client.get("/pages/sign-in")
+    token = re.search(r'name="csrf" value="([^"]+)"', form.text)[1]
+    nonce = re.match(rf"{SIGN_IN_COOKIE}=([^;]+)", form.headers["set-cookie"])[1]
+    api.client.cookies.clear()
+    return token, {"Cookie": f"{SIGN_IN_COOKIE}={nonce}"}
+
+
+def sign_in(api: Api, key: str, **headers: str):
+    """Post the sign-in form as a browser would after showing it."""
+    token, cookie = sign_in_form(api)
+    return api.client.post("/pages/sign-in", data={"key": key, "csrf": token},
+                           headers=cookie | headers, follow_redirects=False)
+
 
 
 def _session(api: Api, role: str = "reader") -> dict[str, str]:
-    answer = _sign_in(api, api.tokens[role])
+    answer = sign_in(api, api.tokens[role])
     assert answer.status_code == 303
     value = re.match(rf"{COOKIE}=([^;]+)", answer.headers["set-cookie"])[1]
     return {"Cookie": f"{COOKIE}={value}"}
@@ -59,7 +72,7 @@ def _page(api: Api, url: str, cookie: dict[str, str]):
 
 
 def test_signing_in_sets_a_signed_http_only_strict_secure_cookie(site: Api):
-    answer = _sign_in(site, site.tokens["reader"])
+    answer = sign_in(site, site.tokens["reader"])
 
     assert answer.status_code == 303 and answer.headers["location"] == "/pages/"
     cookie = answer.headers["set-cookie"]
@@ -79,12 +92,50 @@ def test_signing_in_sets_a_signed_http_only_strict_secure_cookie(site: Api):
     ({"Origin": "http://testserver", "Sec-Fetch-Site": "cross-site"}, 403),
 ])
 def test_a_sign_in_posted_from_another_site_is_refused(site: Api, headers: dict, status: int):
-    site.client.cookies.clear()
-    answer = site.client.post("/pages/sign-in", data={"key": site.tokens["reader"]},
-                              headers=headers, follow_redirects=False)
+    answer = sign_in(site, site.tokens["reader"], **headers)
 
     assert answer.status_code == status
-    assert ("set-cookie" in answer.headers) == (status == 303)
+    assert (f"{COOKIE}=" in answer.headers.get("set-cookie", "")) == (status == 303)
+
+
+def test_a_sign_in_without_the_form_s_csrf_token_is_refused(site: Api):
+    token, cookie = sign_in_form(site)
+    other_token, other_cookie = sign_in_form(site)
+    key = site.tokens["reader"]
+    attempts = {
+        "no token": site.client.post("/pages/sign-in", data={"key": key}, headers=cookie,
+                                     follow_redirects=False),
+        "no cookie": site.client.post("/pages/sign-in", data={"key": key, "csrf": token},
+                                      follow_redirects=False),
+        "another browser's token": site.client.post(
+            "/pages/sign-in", data={"key": key, "csrf": other_token}, headers=cookie,
+            follow_redirects=False),
+        "forged token": site.client.post(
+            "/pages/sign-in", data={"key": key, "csrf": token[:-2] + "AA"}, headers=cookie,
+            follow_redirects=False),
+    }
+
+    assert token != other_token and cookie != other_cookie
+    for name, answer in attempts.items():
+        assert answer.status_code == 403, name
+        assert f"{COOKIE}=" not in answer.headers.get("set-cookie", ""), name
+        assert "had expired or did not come from this site" in answer.text, name
+        assert 'name="csrf"' in answer.text, name  # a fresh form to sign in from
+    assert sign_in(site, key).status_code == 303
+
+
+def test_the_pre_session_cookie_is_strict_http_only_and_kept_per_browser(site: Api):
+    site.client.cookies.clear()
+    first = site.client.get("/pages/sign-in")
+    cookie = first.headers["set-cookie"]
+    nonce = re.match(rf"{SIGN_IN_COOKIE}=([^;]+)", cookie)[1]
+    again = site.client.get("/pages/sign-in", headers={"Cookie": f"{SIGN_IN_COOKIE}={nonce}"})
+
+    assert {"httponly", "secure", "samesite=strict", "path=/pages/sign-in"} <= \
+        {part.strip().lower() for part in cookie.split(";")[1:]}
+    assert re.match(rf"{SIGN_IN_COOKIE}=([^;]+)", again.headers["set-cookie"])[1] == nonce
+    assert re.search(r'name="csrf" value="([^"]+)"', again.text)[1] == \
+        re.search(r'name="csrf" value="([^"]+)"', first.text)[1]
 
 
 def test_the_form_posts_the_key_in_the_body_and_a_key_in_the_url_is_ignored(site: Api):
@@ -93,21 +144,22 @@ def test_the_form_posts_the_key_in_the_body_and_a_key_in_the_url_is_ignored(site
     assert '<form class="sign-in" method="post" action="/pages/sign-in">' in form.text
     assert 'name="key" type="password"' in form.text
 
+    token, cookie = sign_in_form(site)
     in_url = site.client.post(f"/pages/sign-in?key={site.tokens['reader']}",
-                              follow_redirects=False)
-    assert in_url.status_code == 400 and "set-cookie" not in in_url.headers
+                              data={"csrf": token}, headers=cookie, follow_redirects=False)
+    assert in_url.status_code == 400 and f"{COOKIE}=" not in in_url.headers["set-cookie"]
 
 
 @pytest.mark.parametrize("key", ["fl_aaaaaaaaaaaa.wrongwrongwrongwrongwrongwrongwrongwrongwro",
                                  "not a key at all"])
 def test_a_bad_key_is_refused_without_a_cookie_or_an_echo(site: Api, key: str):
-    answer = _sign_in(site, key)
+    answer = sign_in(site, key)
 
-    assert answer.status_code == 401 and "set-cookie" not in answer.headers
+    assert answer.status_code == 401 and f"{COOKIE}=" not in answer.headers["set-cookie"]
     assert "not a valid API key" in answer.text and key not in answer.text
 
 
-def test_pages_without_a_valid_session_send_the_browser_to_sign_in(site: Api):
+def test_pages_without_a_valid_session_send_the_browser_tosign_in(site: Api):
     cookie = _session(site)
     key_id, expires, nonce, signature = cookie["Cookie"].split("=", 1)[1].split(".")
     stretched = {"Cookie": f"{COOKIE}={key_id}.{int(expires) + 3600}.{nonce}.{signature}"}
@@ -132,7 +184,7 @@ def test_a_key_revoked_after_signing_in_ends_its_session(site: Api):
     answer = _page(site, "/pages/", cookie)
 
     assert answer.status_code == 303 and answer.headers["location"] == "/pages/sign-in"
-    assert _sign_in(site, site.tokens["auditor"]).status_code == 401
+    assert sign_in(site, site.tokens["auditor"]).status_code == 401
 
 
 def test_signing_out_clears_the_cookie(site: Api):

@@ -51,6 +51,45 @@ def test_an_all_cyrillic_or_all_greek_key_is_a_key_like_any_other(api: Api):
     assert _post(api, "πωλήσεις").status_code == 201
 
 
+@pytest.mark.parametrize(("stored", "look_alike"), [
+    ("paypal", "раураӏ"),   # all Cyrillic: р а у р а ӏ
+    ("раураӏ", "paypal"),   # the Latin one second
+    ("shop/PAY", "shop/ΡΑΥ"),              # all Greek capitals: Ρ Α Υ
+    ("sales/café", "sales/саfе́"),  # Cyrillic с, а, е, and Latin f
+])
+def test_a_whole_script_look_alike_of_a_stored_key_is_refused(api: Api, stored: str,
+                                                              look_alike: str):
+    first = _post(api, stored)
+    second = _post(api, look_alike)
+
+    assert first.status_code == 201
+    assert second.status_code in (409, 422)  # 422: the mixed-script rule caught it first
+    assert [s["key"] for s in api.get("reader", "/v1/series").json()["items"]] == \
+        [unicodedata.normalize("NFC", stored)]
+    if second.status_code == 409:
+        assert "looks like the stored key" in second.json()["detail"]
+
+
+def test_the_same_key_again_and_distinct_cyrillic_keys_are_accepted(api: Api):
+    assert _post(api, "paypal").status_code == 201
+    again = api.post("submitter", "/v1/series", json=series_body(monthly_series("x", n=25))
+                     | {"key": "paypal"})
+    assert again.status_code == 201 and again.json()["version"]["number"] == 2
+    assert _post(api, "паупал").status_code == 201  # паупал
+
+
+def test_an_upload_of_two_look_alikes_stores_neither(api: Api):
+    rows = "series_key,period,value,frequency\n" + "".join(
+        f"{key},2020-{m:02d},{m},P1M\n" for key in ("paypal", "раураӏ")
+        for m in range(1, 4))
+
+    response = api.post("submitter", "/v1/series/upload", content=rows,
+                        headers={"Content-Type": "text/csv"})
+
+    assert response.status_code == 409 and "looks like" in response.json()["detail"]
+    assert api.get("reader", "/v1/series").json()["items"] == []
+
+
 def test_the_csv_upload_follows_the_same_rules(api: Api):
     rows = "series_key,period,value,frequency\n" + "".join(
         f"{key},2020-{m:02d},{m},P1M\n" for key in (f"a/{CAFE_DECOMPOSED}", f"a/{CAFE_COMPOSED}")

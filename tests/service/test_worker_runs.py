@@ -6,6 +6,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
+from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.candidates import parse_candidates
@@ -19,6 +20,7 @@ from service.views.report.stored import stored_run_report
 from service.worker.loop import Worker
 from service.worker.queued_specs import StoredSpecError, stored_candidates, stored_plan
 from storage.audit import run_subject, verify_audit_log
+from storage.db import AuditEvent, session_factory
 from storage.results import load_run_result
 from storage.runs import get_run
 from tests.service.worker_helpers import FAST, FAST_PLAN, events, queue, sessions_on, some_series
@@ -132,3 +134,27 @@ def test_without_rendering_ahead_or_success_the_report_waits_for_its_first_reade
     assert not prerender_report(sessions, waiting,
                                 _reporting(url, tmp_path / "reports", ahead=True))
     assert not (tmp_path / "reports").exists()
+
+
+def test_a_worker_with_the_audit_key_writes_keyed_events(tmp_path: Path):
+    key = "a-test-secret-of-enough-length"
+    with migrated_store("sqlite", tmp_path) as url, sessions_on(url) as sessions:
+        queue(sessions, some_series(1))  # written without the key: a plain prefix
+        before = len(events_of(sessions))
+        settings = Settings(database_url=url, worker_jobs=1, lease_seconds=30,
+                            poll_seconds=0.1, audit_key=key)
+        worker = Worker(settings, worker_id="worker-keyed")  # its own engine and sessions
+        assert worker.run_once()
+        worker.close()
+        with session_factory(sessions.kw["bind"], key).begin() as session:
+            keyed = verify_audit_log(session)
+        with sessions.begin() as session:
+            plain = verify_audit_log(session)
+
+    assert keyed.ok and keyed.keyed_from == before + 1  # the worker's first event on
+    assert not plain.ok and plain.broken_at == keyed.keyed_from
+
+
+def events_of(sessions: sessionmaker[Session]) -> list[int]:
+    with sessions.begin() as session:
+        return list(session.scalars(select(AuditEvent.seq)))

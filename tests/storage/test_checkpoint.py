@@ -129,3 +129,19 @@ def test_a_forged_checkpoint_or_a_missing_key_is_an_error(
     get_settings.cache_clear()
     assert _run("audit", "checkpoint", "--database-url", fresh_url) == 2
     assert "FOLDLINE_AUDIT_KEY is not set" in capsys.readouterr().err
+
+
+def test_the_cli_full_pass_checks_keyed_events_under_the_key(
+        fresh_url: str, keyed: None, capsys: pytest.CaptureFixture[str],
+        monkeypatch: pytest.MonkeyPatch):
+    engine = make_engine(fresh_url)
+    with session_factory(engine, KEY).begin() as session:
+        run_and_store(session, [monthly_series("sales/north")])
+    engine.dispose()
+
+    assert _run("audit", "verify", "--database-url", fresh_url) == 0
+    assert "keyed from event 1," in capsys.readouterr().out
+    monkeypatch.delenv("FOLDLINE_AUDIT_KEY")
+    get_settings.cache_clear()
+    assert _run("audit", "verify", "--database-url", fresh_url) == 1
+    assert "needs FOLDLINE_AUDIT_KEY" in capsys.readouterr().out

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Depends, Query, Request, Response
 
 from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.http.access import Caller, require
-from service.http.app_state import Sessions
+from service.http.app_state import Sessions, Verifications
 from service.http.flat_rows import flat_columns, flat_rows
 from service.http.problems import problem_responses
 from service.http.routes.params import PooledByDefault, horizon_or_pooled
@@ -114,10 +114,13 @@ def audit_events(request: Request, response: Response, caller: Auditor, sessions
 
 @router.get("/audit/verification", response_model=VerificationOut,
             responses=problem_responses(*ERRORS))
-def verification(caller: Auditor, sessions: Sessions) -> VerificationOut:
-    """Check the whole hash chain and the stored content it vouches for (reads everything)."""
-    report = audit_trail.verify_store(sessions)
-    return VerificationOut(ok=report.ok, events_checked=report.events_checked,
-                           head_hash=report.head_hash, broken_at=report.broken_at,
-                           problem=report.problem)
+def verification(caller: Auditor, verifier: Verifications) -> VerificationOut:
+    """Check the hash chain and the stored content it vouches for, from the last verified
+    head on; one verification at a time (a concurrent call gets the running one's answer).
+    The full pass over the whole store is ``foldline audit verify``."""
+    report = verifier.verify()
+    return VerificationOut(ok=report.ok, mode=report.mode, from_seq=report.from_seq,
+                           events_checked=report.events_checked, head_seq=report.head_seq,
+                           head_hash=report.head_hash, keyed_from=report.keyed_from,
+                           broken_at=report.broken_at, problem=report.problem)
 

@@ -21,6 +21,7 @@ from service.http.app_state import AppSettings, Sessions
 from service.http.routes.params import Id
 from service.http.routes.reports import report_response
 from service.http.schemas.common import MAX_ID
+from service.settings import Settings
 from service.views.pages.answers import PageRoute
 from service.views.pages.forecast_detail import forecast_detail
 from service.views.pages.forecast_view import load_forecast_page
@@ -36,6 +37,14 @@ from service.views.pages.reviewer import (
 )
 from service.views.pages.series_detail import load_series_page, series_detail
 from service.views.pages.series_list import STATES, series_list
+from service.views.pages.session import (
+    SIGN_IN_COOKIE,
+    SIGN_IN_COOKIE_SECONDS,
+    session_secret,
+    sign_in_nonce,
+    sign_in_token,
+    sign_in_token_matches,
+)
 from service.views.report.html import join
 from service.views.report.prerender import settings_report_cache
 from service.views.report.stored import stored_run_report
@@ -53,11 +62,11 @@ Reviewer = Annotated[Caller, Depends(reviewer)]
 MonitoringState = Literal[("", *STATES)]  # type: ignore[valid-type] - the page's own list
 
 
-async def posted_key(request: Request) -> str:
-    """The ``key`` field of a posted form, stripped of surrounding blanks."""
+async def posted_form(request: Request) -> dict[str, str]:
+    """The first value of each field of a posted form."""
     fields = parse_qs((await request.body()).decode("utf-8", errors="replace"),
                       max_num_fields=10)
-    return (fields.get("key") or [""])[0].strip()
+    return {name: values[0] for name, values in fields.items()}
 
 
 def same_origin(request: Request) -> bool:
@@ -75,29 +84,47 @@ def _page(html: str, status: int = 200) -> HTMLResponse:
     return HTMLResponse(html, status_code=status, headers=PAGE_HEADERS)
 
 
+def _sign_in_form(request: Request, settings: Settings, message: str | None = None,
+                  status: int = 200) -> HTMLResponse:
+    """The sign-in form with its CSRF token, and the pre-session cookie the token is bound
+    to (the browser's own nonce is kept, so several open forms all stay valid)."""
+    nonce = sign_in_nonce(request.cookies.get(SIGN_IN_COOKIE))
+    token = sign_in_token(nonce, session_secret(settings.session_secret))
+    answer = _page(sign_in_page(token, message), status)
+    answer.set_cookie(SIGN_IN_COOKIE, nonce, max_age=SIGN_IN_COOKIE_SECONDS, path=SIGN_IN,
+                      secure=True, httponly=True, samesite="strict")
+    return answer
+
+
 @router.get("/sign-in")
-def sign_in_form() -> HTMLResponse:
+def sign_in_form(request: Request, settings: AppSettings) -> HTMLResponse:
     """The sign-in form."""
-    return _page(sign_in_page())
+    return _sign_in_form(request, settings)
 
 
 @router.post("/sign-in", response_model=None)
-async def sign_in_with_key(request: Request, key: Annotated[str, Depends(posted_key)],
+async def sign_in_with_key(request: Request, form: Annotated[dict[str, str], Depends(posted_form)],
                            sessions: Sessions,
                            settings: AppSettings) -> HTMLResponse | RedirectResponse:
     """Check the posted key as the API would; on success start a session and go home.
 
-    A form posted from another site (its ``Origin`` names another host) is refused, so no
-    page elsewhere can sign a browser in under someone else's key (login CSRF)."""
+    A form posted from another site (its fetch metadata or ``Origin`` says so), or without
+    the CSRF token of this browser's pre-session cookie, is refused, so no page elsewhere
+    can sign a browser in under someone else's key (login CSRF)."""
     if not same_origin(request):
-        return _page(sign_in_page("Sign in from this site's own form."), 403)
+        return _sign_in_form(request, settings, "Sign in from this site's own form.", 403)
+    if not sign_in_token_matches(request.cookies.get(SIGN_IN_COOKIE), form.get("csrf", ""),
+                                 session_secret(settings.session_secret)):
+        return _sign_in_form(request, settings, "The sign-in form had expired or did not "
+                             "come from this site: please sign in again.", 403)
+    key = form.get("key", "").strip()
     if not key:
-        return _page(sign_in_page("Enter your API key."), 400)
+        return _sign_in_form(request, settings, "Enter your API key.", 400)
     try:
         caller = await run_in_threadpool(sign_in, sessions, key)
     except NotAuthenticatedError:
-        return _page(sign_in_page("That key is not a valid API key, or it has been revoked."),
-                     401)
+        return _sign_in_form(request, settings, "That key is not a valid API key, or it has "
+                             "been revoked.", 401)
     home = RedirectResponse(HOME, status_code=303)
     start_session(home, caller, settings)
     return home

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from datetime import datetime
+from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
@@ -72,10 +73,18 @@ class AuditEventPage(Page):
 
 
 class VerificationOut(BaseModel):
-    """The outcome of checking the whole chain and the content it vouches for."""
+    """The outcome of checking the chain and the content it vouches for, from the last
+    verified head on (``incremental``), or from the start (``full``: the first time, or
+    when the last verified head cannot be trusted)."""
 
     ok: bool
-    events_checked: int
+    mode: Literal["full", "incremental"]
+    from_seq: int = Field(description="the verified event this check continued from "
+                          "(0: the start of the log)")
+    events_checked: int = Field(description="events checked by this call (after from_seq)")
+    head_seq: int
     head_hash: str = Field(description="keep it elsewhere to detect truncation later")
+    keyed_from: int | None = Field(description="the first event whose hash is keyed with "
+                                   "FOLDLINE_AUDIT_KEY; null: none")
     broken_at: int | None
     problem: str | None

@@ -47,10 +47,12 @@ def with_navigation(report: str, caller: Caller) -> str:
     return report.replace("<body>\n", f"<body>\n{navigation(caller)}\n", 1)
 
 
-def sign_in_page(message: str | None = None) -> str:
-    """The sign-in form; ``message`` says why the last attempt failed."""
+def sign_in_page(token: str, message: str | None = None) -> str:
+    """The sign-in form with its CSRF ``token``; ``message`` says why the last attempt
+    failed."""
     notice = element("p", message, cls="alert") if message else Html("")
     form = Html(f'<form class="sign-in" method="post" action="{SIGN_IN}">'
+                f'<input type="hidden" name="csrf" value="{esc(token)}">'
                 '<label for="key">API key</label>'
                 '<input id="key" name="key" type="password" autocomplete="current-password" '
                 'required spellcheck="false">'

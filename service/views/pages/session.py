@@ -8,6 +8,13 @@ server's session secret (``FOLDLINE_SESSION_SECRET``; unset, a random secret mad
 process, so sessions end when the server restarts). The key's secret is never in it. A valid
 signature only says who signed in: each request still checks that the key exists and is not
 revoked (:mod:`service.views.pages.reviewer`).
+
+The sign-in form carries a CSRF token bound to a pre-session cookie (a signed double
+submit): showing the form sets ``foldline_sign_in`` to a random nonce (HttpOnly, Secure,
+SameSite=Strict, path of the form), and the form's hidden ``csrf`` field holds an HMAC of
+that nonce under the session secret. A sign-in is accepted only with both, matching, so a
+page on another site cannot post the form (it can neither read the cookie nor forge the
+field), in addition to the fetch-metadata and ``Origin`` check of the route.
 """
 
 from __future__ import annotations
@@ -22,6 +29,9 @@ import threading
 COOKIE = "foldline_session"
 COOKIE_PATH = "/pages"
 _VALUE = re.compile(r"([a-z2-7]{12})\.([0-9]{1,12})\.([A-Za-z0-9_-]{16})\.([A-Za-z0-9_-]{43})")
+SIGN_IN_COOKIE = "foldline_sign_in"
+SIGN_IN_COOKIE_SECONDS = 3600
+_NONCE = re.compile(r"[A-Za-z0-9_-]{22}")
 _PROCESS_SECRET: list[bytes] = []
 _PROCESS_SECRET_LOCK = threading.Lock()
 
@@ -57,3 +67,22 @@ def _signature(key_id: str, expires: int, nonce: str, secret: bytes) -> str:
     mac = hmac.new(secret, f"foldline-session:{key_id}:{expires}:{nonce}".encode(),
                    hashlib.sha256)
     return base64.urlsafe_b64encode(mac.digest()).decode().rstrip("=")
+
+
+def sign_in_nonce(cookie: str | None) -> str:
+    """The pre-session nonce: the browser's own if well-formed, else a new one."""
+    return cookie if cookie is not None and _NONCE.fullmatch(cookie) else \
+        secrets.token_urlsafe(16)
+
+
+def sign_in_token(nonce: str, secret: bytes) -> str:
+    """The form's CSRF token for ``nonce``."""
+    mac = hmac.new(secret, f"foldline-sign-in:{nonce}".encode(), hashlib.sha256)
+    return base64.urlsafe_b64encode(mac.digest()).decode().rstrip("=")
+
+
+def sign_in_token_matches(cookie: str | None, token: str, secret: bytes) -> bool:
+    """Whether a posted token belongs to the browser's pre-session cookie."""
+    if cookie is None or not _NONCE.fullmatch(cookie):
+        return False
+    return hmac.compare_digest(token.encode(), sign_in_token(cookie, secret).encode())
