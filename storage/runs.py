@@ -60,8 +60,11 @@ class RunInfo:
 @translates_errors
 def queue_run(session: Session, *, series_version_ids: Sequence[int],
               candidates: Sequence[Candidate], plan: Plan, actor: str,
-              idempotency_key: str | None = None) -> RunInfo:
+              idempotency_key: str | None = None,
+              estimated_fits: int | None = None) -> RunInfo:
     """Record a requested run; the plan and candidates are registered if new.
+    ``estimated_fits`` (the submission's fit estimate) is what the run costs its requester's
+    budget.
 
     With an ``idempotency_key`` already used for the same request, the existing run is
     returned; used for a different request, :class:`ConflictError` is raised.
@@ -75,7 +78,7 @@ def queue_run(session: Session, *, series_version_ids: Sequence[int],
     _check_request(session, versions, candidate_ids)
     run = Run(plan_id=register_plan(session, plan, actor=actor), seed=plan.seed,
               requested_by=actor, idempotency_key=idempotency_key, status="queued",
-              queued_at=utc_now(), folds_done=0, attempts=0)
+              queued_at=utc_now(), folds_done=0, attempts=0, estimated_fits=estimated_fits)
     session.add(run)
     for candidate in candidates:
         register_candidate(session, candidate.id, candidate.canonical, actor=actor)

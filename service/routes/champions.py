@@ -13,6 +13,7 @@ from service.app_state import Sessions
 from service.champion_choice import choose, suggestions
 from service.ledger_rows import champion_row
 from service.moments import point_in_time
+from service.ownership import check_writes
 from service.problems import problem_responses
 from service.routes.params import AsOfParam, Id
 from service.routes.series import series_url
@@ -57,6 +58,8 @@ def choose_champion(key: str, body: ChampionIn, response: Response, caller: Writ
                     sessions: Sessions) -> ChampionRow:
     """Choose a candidate as the series' champion, naming the succeeded run that
     backtested it and why; it joins the series' champion history (201)."""
+    check_writes(caller, [key])
+
     def store(session: Session) -> ChampionRow:
         return champion_row(choose(session, series_key=key, candidate_id=body.candidate_id,
                                    run_id=body.run_id, reason=body.reason, actor=caller.name))

@@ -21,6 +21,7 @@ from service.ledger_rows import (
     outcome_set_out,
 )
 from service.moments import MOMENT_HELP, point_in_time
+from service.ownership import check_writes
 from service.problems import problem_responses
 from service.routes.params import AsOfParam, Id
 from service.schemas.common import MAX_ID
@@ -54,6 +55,7 @@ def issue_forecast(body: ForecastIn, response: Response, caller: Writer,
     """Fit the series' champion (or the named candidate) on all data of a version (default:
     the latest) and record its forecast in the ledger (201). Identical inputs answer the
     forecast issued before (200)."""
+    check_writes(caller, [body.series_key])
     request = IssueRequest(series_key=body.series_key, horizon=body.horizon,
                            levels=tuple(body.levels), seed=body.seed, version=body.version,
                            candidate_id=body.candidate_id)

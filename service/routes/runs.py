@@ -11,7 +11,9 @@ from sqlalchemy.orm import Session
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
 from service.flat_rows import flat_columns, flat_rows
+from service.ownership import check_cancel, check_writes
 from service.problems import problem_responses
+from service.quotas import check_quotas
 from service.routes.params import Id
 from service.routes.series import series_url
 from service.run_requests import parse_request, prepare_run, selected_versions
@@ -44,6 +46,7 @@ from storage.types import utc_now
 
 router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
+Canceller = Annotated[Caller, Depends(require("cancel"))]
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 422, 500, 503)
 MAX_PAGE = 100
@@ -58,10 +61,12 @@ def run_url(run_id: int) -> str:
 
 
 @router.post("/runs", status_code=202, response_model=RunOut,
-             responses=problem_responses(*ERRORS, 409, 413))
+             responses=problem_responses(*ERRORS, 409, 413, 429))
 def submit_run(body: RunIn, response: Response, caller: Writer, sessions: Sessions,
                settings: AppSettings, idempotency_key: IdempotencyKey = None) -> RunOut:
-    """Queue a backtest; a worker computes it. The answer names the run's URL."""
+    """Queue a backtest; a worker computes it. The answer names the run's URL. A scoped key
+    selects only series under its scope (403); a key past one of its quotas (runs waiting,
+    fits per period) is answered 429 with Retry-After."""
     scoped = f"{caller.key_id}:{idempotency_key}" if idempotency_key else None
     try:
         run, versions = _submit(sessions, body, caller, settings, scoped)
@@ -120,12 +125,18 @@ def read_run(run_id: Id, caller: Reader, sessions: Sessions) -> RunOut:
 
 @router.post("/runs/{run_id}/cancel", response_model=RunOut,
              responses={202: {"model": RunOut, "description": "cancel requested: the worker "
-                              "stops the run after its current unit of work"},
+                              "stops the run after its task in progress"},
                         **problem_responses(*ERRORS, 404, 409)})
-def cancel_run(run_id: Id, response: Response, caller: Writer, sessions: Sessions) -> RunOut:
+def cancel_run(run_id: Id, response: Response, caller: Canceller,
+               sessions: Sessions) -> RunOut:
     """Cancel a run. A queued run (or one no worker holds) is cancelled at once (200); a
-    running one when its worker finishes the current unit (202). Finished runs: 409."""
+    running one when its worker finishes the task in progress, within seconds (202).
+    Finished runs: 409. Admins cancel any run; a submitter its own runs and those on series
+    under its scope (403 otherwise)."""
     def cancel(session: Session) -> RunOut:
+        run = get_run(session, run_id)
+        check_cancel(caller, run.requested_by,
+                     [v.series_key for v in run_versions(session, run_id)])
         return _described(session, request_cancel(session, run_id, actor=caller.name))
 
     answer = write(sessions, cancel)
@@ -140,9 +151,11 @@ def _submit(sessions: Sessions, body: RunIn, caller: Caller, settings: Settings,
         if earlier is not None:
             return _repeated(session, earlier, body, settings)
         prepared = prepare_run(session, body, settings)
+        check_writes(caller, (v.series_key for v in prepared.versions))
+        check_quotas(session, caller.name, prepared.cost, settings)
         run = queue_run(session, series_version_ids=[v.id for v in prepared.versions],
                         candidates=prepared.candidates, plan=prepared.plan, actor=caller.name,
-                        idempotency_key=scoped_key)
+                        idempotency_key=scoped_key, estimated_fits=prepared.cost.total_fits)
         return run, list(prepared.versions)
 
     return write(sessions, queue)
