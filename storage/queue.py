@@ -112,20 +112,26 @@ def claim_run(session: Session, *, owner: str, lease_seconds: float,
     lock_audit_log(session)
     now = utc_now()
     lease_expiry = now + timedelta(seconds=lease_seconds)
-    waiting, other, served = aliased(Run), aliased(Run), aliased(Run)
+    waiting, other, served, chosen = (aliased(Run) for _ in range(4))
+    # Each requester with a claimable run, once: a flood of one key's runs costs one group.
+    requesters = (select(waiting.requested_by, func.min(waiting.queued_at).label("oldest"))
+                  .where(_claimable(waiting, now)).group_by(waiting.requested_by).subquery())
     running = (select(func.count()).select_from(other)
-               .where(other.requested_by == waiting.requested_by, other.status == "running",
-                      other.lease_expires_at > now)
-               .correlate(waiting).scalar_subquery())
+               .where(other.requested_by == requesters.c.requested_by,
+                      other.status == "running", other.lease_expires_at > now)
+               .scalar_subquery())
     last_served = (select(func.max(served.started_at))
-                   .where(served.requested_by == waiting.requested_by)
-                   .correlate(waiting).scalar_subquery())
-    chosen = select(waiting.id).where(_claimable(waiting, now))
+                   .where(served.requested_by == requesters.c.requested_by).scalar_subquery())
+    next_requester = select(requesters.c.requested_by)
     if max_running is not None:
-        chosen = chosen.where(running < max_running)
-    fairest = (chosen.order_by(running, last_served.asc().nulls_first(), waiting.queued_at,
-                               waiting.id)
-               .limit(1).with_for_update(skip_locked=True).scalar_subquery())
+        next_requester = next_requester.where(running < max_running)
+    next_requester = next_requester.order_by(running, last_served.asc().nulls_first(),
+                                             requesters.c.oldest, requesters.c.requested_by)
+    fairest = (select(chosen.id)
+               .where(chosen.requested_by == next_requester.limit(1).scalar_subquery(),
+                      _claimable(chosen, now))
+               .order_by(chosen.queued_at, chosen.id).limit(1)
+               .with_for_update(skip_locked=True).scalar_subquery())
     taken = session.execute(
         update(Run).where(Run.id == fairest)
         .values(lease_owner=owner, lease_expires_at=lease_expiry)

@@ -71,7 +71,8 @@ def test_readers_auditors_and_admins_are_global_and_refuse_a_scope(api: Api, rol
     assert _count(api, ApiKey) == before
 
 
-@pytest.mark.parametrize("scope", ["a//b", "../x", "sales/champion/", "/", " x"])
+@pytest.mark.parametrize("scope", ["a//b", "../x", "sales/champion/", "/", " x", "a" * 200,
+                                   "x\u202e/"])
 def test_a_scope_is_a_series_key_prefix(api: Api, scope: str):
     refused = api.post("admin", "/v1/keys",
                        json={"name": "odd", "role": "submitter", "scope": scope})
