@@ -152,20 +152,47 @@ def test_a_cancel_stops_a_long_single_series_run_within_seconds(store, sessions,
         _wait_ready(worker)
         wait_until(lambda: _folds_done(sessions, run_id) > 0, "a first task to finish",
                    timeout=400, log=worker.log)
+        pool = _pool_processes(worker.process.pid)
         with sessions.begin() as session:
             request_cancel(session, run_id, actor=OTHER)
         asked = time.monotonic()
         wait_until(lambda: _status(sessions, run_id) == "cancelled", "the cancel to act",
                    timeout=120, log=worker.log)
         latency = time.monotonic() - asked
+        # the pool's tasks were ended with the run: its processes are gone
+        wait_until(lambda: not any(_alive(pid) for pid in pool), "the pool to end",
+                   timeout=10, log=worker.log)
         with sessions.begin() as session:
             run = get_run(session, run_id)
             stored = session.scalars(select(SeriesResultRecord.run_id)
                                      .where(SeriesResultRecord.run_id == run_id)).all()
     print(f"\ncancel latency {latency:.2f} s at {run.folds_done} of {run.folds_total} folds")
+    assert len(pool) == 2
     assert run.failure_reason == f"cancelled at the request of {OTHER}"
     assert run.folds_done < run.folds_total and stored == []
     assert latency < 10.0
+
+
+def _pool_processes(parent: int) -> set[int]:
+    """The loky pool processes among ``parent``'s children."""
+    found = set()
+    for entry in (e for e in Path("/proc").iterdir() if e.name.isdigit()):
+        try:
+            stat = (entry / "stat").read_text()
+            command = (entry / "cmdline").read_bytes()
+        except OSError:
+            continue
+        if int(stat.rsplit(")", 1)[1].split()[1]) == parent and b"popen_loky" in command:
+            found.add(int(entry.name))
+    return found
+
+
+def _alive(pid: int) -> bool:
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state not in ("Z", "X")
 
 
 def _wait_ready(worker: WorkerProcess) -> None:
