@@ -2,7 +2,7 @@
 
 The queue holds a flood: one key with ``--queued`` runs waiting and ``--history`` finished
 runs, a few other keys with a run each waiting. Each claim is made in a transaction that is
-rolled back, so every one sees the same queue; the fair claim (``storage.queue.claim_run``:
+rolled back, so every one sees the same queue; the fair claim (``storage.runs.queue.claim_run``:
 fewest running, least recently served, oldest waiting) and a first-in-first-out claim (the
 oldest claimable run, the order before) are timed side by side, and which run each takes
 is printed: the fair claim takes another key's run, FIFO the flood's oldest.
@@ -29,15 +29,16 @@ from sqlalchemy.orm import Session
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from storage.db.connection import make_engine, session_factory  # noqa: E402
+
 from backtest.plan import parse_plan  # noqa: E402
-from storage.audit import lock_audit_log  # noqa: E402
-from storage.catalog import register_plan  # noqa: E402
-from storage.engine import make_engine, session_factory  # noqa: E402
-from storage.migrate import upgrade  # noqa: E402
-from storage.queue import claim_run  # noqa: E402
-from storage.runs import start_run  # noqa: E402
-from storage.schema import Run  # noqa: E402
-from storage.types import utc_now  # noqa: E402
+from storage.audit.log import lock_audit_log  # noqa: E402
+from storage.db.migrate import upgrade  # noqa: E402
+from storage.db.schema import Run  # noqa: E402
+from storage.db.types import utc_now  # noqa: E402
+from storage.runs.lifecycle import start_run  # noqa: E402
+from storage.runs.queue import claim_run  # noqa: E402
+from storage.specs import register_plan  # noqa: E402
 
 SERVER_URL = "postgresql+psycopg://postgres@127.0.0.1:5432/test"
 FLOOD, OTHERS = "flood-key", ("team-a", "team-b", "team-c")

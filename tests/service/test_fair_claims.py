@@ -19,10 +19,10 @@ from sqlalchemy.orm import Session, sessionmaker
 from backtest.candidates import Candidate, parse_candidates
 from backtest.plan import Plan, parse_plan
 from backtest.series import Series
-from storage.queue import Claim, claim_run, request_cancel
+from storage.db.schema import Run, SeriesResultRecord
 from storage.runs import fail_run, get_run, queue_run
-from storage.schema import Run, SeriesResultRecord
-from storage.series_store import save_series_version
+from storage.runs.queue import Claim, claim_run, request_cancel
+from storage.series.versions import save_series_version
 from tests.service.worker_helpers import (
     FAST,
     FAST_PLAN,

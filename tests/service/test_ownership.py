@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from sqlalchemy import func, select
 
-from storage.schema import ApiKey, Run, SeriesRecord
+from storage.db.schema import ApiKey, Run, SeriesRecord
 from tests.service.conftest import CANDIDATES, PLAN, Api, series_body
 from tests.storage.builders import monthly_series
 
@@ -184,7 +184,7 @@ def test_a_run_over_two_teams_is_cancelled_by_neither_team(teams: Api):
 
 def test_the_cli_makes_and_lists_scoped_keys(api: Api, tmp_path: Path):
     def cli(*args: str) -> subprocess.CompletedProcess:
-        return subprocess.run([sys.executable, "-m", "service.cli", "keys", *args,
+        return subprocess.run([sys.executable, "-m", "service.cli.main", "keys", *args,
                                "--database-url", api.url], capture_output=True, text=True,
                               timeout=120)
 

@@ -12,8 +12,8 @@ from sqlalchemy import func, select
 from backtest.candidates import parse_candidates
 from backtest.cost import estimate_cost
 from backtest.plan import parse_plan
-from service.key_admin import issue_key
-from storage.schema import Run
+from service.usecases.keys import issue_key
+from storage.db.schema import Run
 from tests.service.conftest import CANDIDATES, PLAN, Api, serving
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store
