@@ -29,10 +29,9 @@ from sqlalchemy.orm import Session
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from storage.db.connection import make_engine, session_factory  # noqa: E402
-
 from backtest.plan import parse_plan  # noqa: E402
 from storage.audit.log import lock_audit_log  # noqa: E402
+from storage.db.engine import make_engine, session_factory  # noqa: E402
 from storage.db.migrate import upgrade  # noqa: E402
 from storage.db.schema import Run  # noqa: E402
 from storage.db.types import utc_now  # noqa: E402
