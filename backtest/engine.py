@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable, Generator, Sequence
+from contextlib import closing
 from dataclasses import replace
 
 from backtest.candidates import Candidate
@@ -96,19 +97,22 @@ def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candida
     outcomes: dict[int, CandidateOutcome] = {}
     if progress is not None:
         progress(0, total)
-    for index, outcome in iter_tasks(evaluate_candidate, tasks, n_jobs=n_jobs,
-                                     scheduler=scheduler):
-        done += len(outcome.folds)
-        if progress is not None:
-            progress(done, total)
-        outcomes[index] = outcome
-        i = owner[index]
-        span = range(first[i], first[i + 1])
-        if all(j in outcomes for j in span):
-            pool, benchmark = pools[i]
-            yield i, _series_result(series[i], pool, benchmark, plan,
-                                    [outcomes.pop(j) for j in span],
-                                    added=benchmark not in requested)
+    # Closed explicitly, so that leaving early (the caller closes this stream, or progress
+    # raises) stops the pool's tasks at once rather than when the garbage is collected.
+    with closing(iter_tasks(evaluate_candidate, tasks, n_jobs=n_jobs,
+                            scheduler=scheduler)) as finished:
+        for index, outcome in finished:
+            done += len(outcome.folds)
+            if progress is not None:
+                progress(done, total)
+            outcomes[index] = outcome
+            i = owner[index]
+            span = range(first[i], first[i + 1])
+            if all(j in outcomes for j in span):
+                pool, benchmark = pools[i]
+                yield i, _series_result(series[i], pool, benchmark, plan,
+                                        [outcomes.pop(j) for j in span],
+                                        added=benchmark not in requested)
 
 
 def _with_benchmark(candidates: Sequence[Candidate], plan: Plan, season_length: int

@@ -23,7 +23,7 @@ from __future__ import annotations
 import os
 import threading
 import time
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Callable, Generator, Iterable, Sequence
 from typing import Any, TypeVar
 
 from joblib import Parallel, delayed, parallel_config
@@ -51,7 +51,7 @@ def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int
 
 
 def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs: int = 1,
-               scheduler: str | None = None) -> Iterator[tuple[int, T]]:
+               scheduler: str | None = None) -> Generator[tuple[int, T], None, None]:
     """Call ``fn(*task)`` for every task; yield ``(index, result)`` as each one finishes.
 
     Parameters
@@ -62,7 +62,8 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
     scheduler : address of a dask.distributed scheduler, e.g. ``"tcp://10.0.0.5:8786"``;
         the tasks then run on its workers.
 
-    Closing the iterator early cancels the tasks not yet started.
+    Closing the generator early cancels the tasks not yet started; in the local pool it
+    also ends the tasks running (their processes are killed and replaced when next needed).
     """
     calls = (delayed(_single_threaded)(fn, i, t) for i, t in enumerate(tasks))
     if scheduler is not None:
@@ -73,7 +74,7 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
                          initializer=die_with_parent)(calls))
 
 
-def _on_cluster(scheduler: str, calls: Iterable) -> Iterator[tuple[int, Any]]:
+def _on_cluster(scheduler: str, calls: Iterable) -> Generator[tuple[int, Any], None, None]:
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 

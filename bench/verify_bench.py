@@ -43,18 +43,21 @@ from bench.storage_bench import (  # noqa: E402
     series_of,
     synthetic_result,
 )
-from storage.audit.verify import (  # noqa: E402
+from storage.audit import (  # noqa: E402
     COVERAGE_OVERLAP,
     AuditReport,
     record_verified,
     verify_audit_log,
     verify_incrementally,
 )
-from storage.db.connection import make_engine, session_factory  # noqa: E402
-from storage.db.migrate import upgrade  # noqa: E402
-from storage.results.store import write_series_result  # noqa: E402
-from storage.runs.lifecycle import queue_run, start_run  # noqa: E402
-from storage.series.versions import save_series_version  # noqa: E402
+from storage.db import (  # noqa: E402
+    make_engine,
+    session_factory,
+    upgrade,  # noqa: E402
+)
+from storage.results import write_series_result  # noqa: E402
+from storage.runs import queue_run, start_run  # noqa: E402
+from storage.series import save_series_version  # noqa: E402
 
 T = TypeVar("T")
 

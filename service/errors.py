@@ -60,6 +60,17 @@ class LimitExceededError(ServiceError):
         self.estimate, self.limit = estimate, limit
 
 
+class QuotaExceededError(ServiceError):
+    """The API key has used up a quota for now; ``retry_after`` seconds from now it may
+    succeed. ``usage`` and ``limit`` are shown in the problem document as they are."""
+
+    code = "quota_exceeded"
+
+    def __init__(self, detail: str, *, retry_after: int, usage: dict, limit: dict) -> None:
+        super().__init__(detail)
+        self.retry_after, self.usage, self.limit = retry_after, usage, limit
+
+
 class NotAcceptableError(ServiceError):
     """The client accepts none of the media types the resource is available in."""
 

@@ -48,6 +48,18 @@ class Settings(BaseSettings):
                              "forecast")
     max_levels: int = Field(10, ge=1, description="interval levels of a run's plan or an issued "
                             "forecast")
+    key_max_queued_runs: int = Field(100, ge=1, description="runs one API key may have waiting "
+                                     "in the queue; a submission beyond it is answered 429")
+    key_max_running_runs: int = Field(2, ge=1, description="runs of one API key computed at "
+                                      "once over all workers; its further runs wait their turn")
+    key_fits_per_period: int = Field(2_000_000, ge=1, description="model fits (by the estimate "
+                                     "made at submission) one API key may queue per quota "
+                                     "period; a submission beyond it is answered 429")
+    quota_period_seconds: int = Field(86_400, ge=1, description="length of the sliding window "
+                                      "FOLDLINE_KEY_FITS_PER_PERIOD is counted over")
+    cancel_poll_seconds: float = Field(1.0, gt=0, le=60, description="how often a worker looks "
+                                       "for a cancel request of the run it computes; the run "
+                                       "stops after the task in progress")
     report_cache_dir: str | None = Field(None, description="directory of rendered run reports "
                                          "(default: `reports` beside the SQLite store, else "
                                          "in the default data directory)")

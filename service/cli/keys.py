@@ -33,6 +33,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     create.add_argument("--role", required=True, choices=ROLES, help="what the key may do")
     create.add_argument("--name", required=True,
                         help="who holds it; names the actor in the audit log, never reused")
+    create.add_argument("--scope", metavar="PREFIX",
+                        help="submitter keys only: the series-key prefix the key's team owns "
+                        "(e.g. sales/north/); it writes only series under it. Default: global")
     create.set_defaults(handler=keys_create)
     listing = commands.add_parser("list", help="list keys, revoked ones included")
     listing.set_defaults(handler=keys_list)
@@ -48,20 +51,20 @@ def keys_create(args: argparse.Namespace) -> int:
     """Create a key and print its token."""
     def create(sessions: sessionmaker[Session]) -> Output:
         key, token = create_api_key(sessions, name=args.name, role=args.role,
-                                    actor=operator())
-        return token.text, (f"created key {key.id} for {key.name} ({key.role}); store it "
-                            "now: it is not shown again")
+                                    actor=operator(), scope=args.scope)
+        return token.text, (f"created key {key.id} for {key.name} ({key.role}, "
+                            f"{_scope_text(key.scope)}); store it now: it is not shown again")
     return _in_store(args, create)
 
 
 def keys_list(args: argparse.Namespace) -> int:
-    """Print every key: id, role, name, created, state."""
+    """Print every key: id, role, name, scope, created, state."""
     def show(sessions: sessionmaker[Session]) -> Output:
         lines = []
         for key in all_keys(sessions):
             state = "active" if key.active else f"revoked {key.revoked_at:%Y-%m-%d %H:%M}Z"
-            lines.append(f"{key.id}  {key.role:<9}  {key.name}  created "
-                         f"{key.created_at:%Y-%m-%d} by {key.created_by}  {state}")
+            lines.append(f"{key.id}  {key.role:<9}  {key.name}  {_scope_text(key.scope)}  "
+                         f"created {key.created_at:%Y-%m-%d} by {key.created_by}  {state}")
         return "\n".join(lines), None
     return _in_store(args, show)
 
@@ -88,3 +91,6 @@ def _in_store(args: argparse.Namespace, work: Callable[[sessionmaker[Session]], 
         print(note, file=sys.stderr)
     return 0
 
+
+def _scope_text(scope: str | None) -> str:
+    return f"scope {scope}" if scope else "global"

@@ -6,11 +6,14 @@ role       may
 reader     read series, runs, results, rankings, champions, the forecast ledger, outcomes
            and monitoring (what a BI tool gets)
 submitter  what a reader may, and post series, submit and cancel runs, choose champions
-           and issue forecasts
+           and issue forecasts, inside its scope if it has one
 auditor    what a reader may, and read score history, provenance, the audit log and its
            verification; never write
-admin      what a reader may, and create, list and revoke API keys
+admin      what a reader may, and create, list and revoke API keys, and cancel any run
 =========  ============================================================================
+
+A submitter key may carry a scope, the series-key prefix its team owns; which writes and
+cancels it allows is :mod:`service.usecases.ownership`'s business.
 
 Every route declares one permission with :func:`require`. A missing, malformed, unknown or
 revoked key is answered 401, a key whose role lacks the permission 403. Keys are never
@@ -31,12 +34,12 @@ from service.http.app_state import Sessions
 from service.usecases.key_tokens import parse_token, secret_matches
 from storage.access import find_credentials
 
-Permission = Literal["read", "write", "audit", "manage_keys"]
+Permission = Literal["read", "write", "cancel", "audit", "manage_keys"]
 GRANTS: dict[str, frozenset[Permission]] = {
     "reader": frozenset({"read"}),
-    "submitter": frozenset({"read", "write"}),
+    "submitter": frozenset({"read", "write", "cancel"}),
     "auditor": frozenset({"read", "audit"}),
-    "admin": frozenset({"read", "manage_keys"}),
+    "admin": frozenset({"read", "cancel", "manage_keys"}),
 }
 
 _bearer = HTTPBearer(auto_error=False, bearerFormat="fl_<key id>.<secret>",
@@ -50,6 +53,7 @@ class Caller:
     key_id: str
     name: str
     role: str
+    scope: str | None = None
 
     def may(self, permission: Permission) -> bool:
         return permission in GRANTS[self.role]
@@ -73,7 +77,7 @@ def authenticate(sessions: Sessions, credentials: Annotated[
     if not stored.audited:
         raise NotAuthenticatedError(f"API key {token.key_id} does not match its audit record; "
                                     "ask an admin to run the audit verification")
-    return Caller(stored.key.id, stored.key.name, stored.key.role)
+    return Caller(stored.key.id, stored.key.name, stored.key.role, stored.key.scope)
 
 
 def require(permission: Permission) -> Callable[..., Caller]:
@@ -90,7 +94,8 @@ def require(permission: Permission) -> Callable[..., Caller]:
 
 _ACTIONS: dict[Permission, str] = {
     "read": "read series, runs or results",
-    "write": "post series, submit and cancel runs, choose champions or issue forecasts",
+    "write": "post series, submit runs, choose champions or issue forecasts",
+    "cancel": "cancel runs",
     "audit": "read audit history",
     "manage_keys": "manage API keys",
 }

@@ -39,6 +39,7 @@ from service.errors import (
     NotAuthenticatedError,
     NotReadyError,
     PermissionDeniedError,
+    QuotaExceededError,
     RunNotFinishedError,
     ServiceError,
     UnsupportedMediaTypeError,
@@ -89,6 +90,7 @@ PROBLEMS: dict[type[Exception], Kind] = {
     PermissionDeniedError: Kind(403, "Permission denied"),
     InvalidInputError: Kind(422, "Invalid input"),
     LimitExceededError: Kind(422, "Limit exceeded"),
+    QuotaExceededError: Kind(429, "Quota exceeded"),
     NotAcceptableError: Kind(406, "Not acceptable"),
     UnsupportedMediaTypeError: Kind(415, "Unsupported media type"),
     NotReadyError: Kind(503, "Not ready"),
@@ -126,8 +128,12 @@ class Problem(BaseModel):
                                        description="field-level errors of invalid input")
     estimate: dict | None = Field(None, description="limit_exceeded: what the request would "
                                   "cost (e.g. a run's folds, fits by family, rows)")
-    limit: dict | None = Field(None, description="limit_exceeded: the configured limits it "
-                               "was measured against")
+    limit: dict | None = Field(None, description="limit_exceeded, quota_exceeded: the "
+                               "configured limits it was measured against")
+    usage: dict | None = Field(None, description="quota_exceeded: what the API key has used "
+                               "of each quota")
+    retry_after: int | None = Field(None, description="quota_exceeded: seconds until a retry "
+                                    "may succeed (also the Retry-After header)")
 
 
 def kind_of(exc: Exception) -> Kind:
@@ -162,6 +168,9 @@ def _problem(request: Request, exc: Exception) -> tuple[Problem, dict[str, str]]
     problem = _make(request, kind.status, kind.title, detail, code, _field_errors(exc))
     if isinstance(exc, LimitExceededError):
         problem.estimate, problem.limit = exc.estimate, exc.limit
+    if isinstance(exc, QuotaExceededError):
+        problem.usage, problem.limit, problem.retry_after = exc.usage, exc.limit, exc.retry_after
+        headers["Retry-After"] = str(exc.retry_after)
     return problem, headers
 
 

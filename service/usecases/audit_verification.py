@@ -16,7 +16,7 @@ from concurrent.futures import Future
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.usecases.transactions import write
-from storage.audit.verify import AuditReport, record_verified, verify_incrementally
+from storage.audit import AuditReport, record_verified, verify_incrementally
 
 
 class Verifier:

@@ -9,6 +9,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.errors import FieldError, InvalidInputError
 from service.usecases.key_tokens import Token, new_token, secret_hash
+from service.usecases.ownership import parsed_scope
 from service.usecases.transactions import write
 from storage.access import KeyInfo, create_key, list_keys, revoke_key
 from storage.db import ROLES
@@ -19,23 +20,28 @@ KEY_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.@+-]{0,199}")
 """Key names: they appear as the actor in the audit log, so no spaces or markup."""
 
 
-def issue_key(session: Session, *, name: str, role: str, actor: str) -> tuple[KeyInfo, Token]:
-    """Store a new key and return it with its token, whose text is shown only this once."""
+def issue_key(session: Session, *, name: str, role: str, actor: str,
+              scope: str | None = None) -> tuple[KeyInfo, Token]:
+    """Store a new key and return it with its token, whose text is shown only this once.
+
+    ``scope`` (submitter keys only) is the series-key prefix the key's team owns; see
+    :mod:`service.usecases.ownership`."""
     if not KEY_NAME.fullmatch(name):
         message = (f"key name {name!r} must start with a letter or digit and hold only "
                    "letters, digits and _ . @ + - (at most 200)")
         raise InvalidInputError(message, errors=[FieldError("body", "/name", message)])
+    stored_scope = parsed_scope(scope, role)
     token = new_token()
     key = create_key(session, key_id=token.key_id, name=name, role=role,
-                     secret_hash=secret_hash(token.secret), actor=actor)
+                     secret_hash=secret_hash(token.secret), actor=actor, scope=stored_scope)
     return key, token
 
 
-def create_api_key(sessions: sessionmaker[Session], *, name: str, role: str,
-                   actor: str) -> tuple[KeyInfo, Token]:
+def create_api_key(sessions: sessionmaker[Session], *, name: str, role: str, actor: str,
+                   scope: str | None = None) -> tuple[KeyInfo, Token]:
     """:func:`issue_key` in its own write transaction."""
     return write(sessions, lambda session: issue_key(session, name=name, role=role,
-                                                     actor=actor))
+                                                     actor=actor, scope=scope))
 
 
 def all_keys(sessions: sessionmaker[Session]) -> list[KeyInfo]:

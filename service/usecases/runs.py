@@ -8,6 +8,7 @@ from datetime import datetime
 
 from sqlalchemy.orm import Session, sessionmaker
 
+from service.usecases.ownership import KeyHolder, check_cancel
 from service.usecases.transactions import write
 from storage.runs import (
     RunFilter,
@@ -54,10 +55,16 @@ def run_views(sessions: sessionmaker[Session], *, status: str | None = None,
         return [_view(session, run) for run in runs], more
 
 
-def cancel_run(sessions: sessionmaker[Session], run_id: int, *, actor: str) -> RunView:
-    """Cancel a queued run at once, or ask a running run's worker to stop."""
-    return write(sessions, lambda session: _view(
-        session, request_cancel(session, run_id, actor=actor)))
+def cancel_run(sessions: sessionmaker[Session], run_id: int, *, caller: KeyHolder) -> RunView:
+    """Cancel a queued run at once, or ask a running run's worker to stop; refused unless
+    ``caller`` may cancel it (:func:`service.usecases.ownership.check_cancel`)."""
+    def cancel(session: Session) -> RunView:
+        run = get_run(session, run_id)
+        check_cancel(caller, run.requested_by,
+                     [v.series_key for v in run_versions(session, run_id)])
+        return _view(session, request_cancel(session, run_id, actor=caller.name))
+
+    return write(sessions, cancel)
 
 
 def _view(session: Session, run: RunInfo) -> RunView:

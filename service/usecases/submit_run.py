@@ -29,9 +29,11 @@ from service.errors import (
 )
 from service.http.schemas.runs import RunIn, SeriesSelection
 from service.settings import Settings
+from service.usecases.ownership import KeyHolder, check_writes
+from service.usecases.quotas import check_quotas
 from service.usecases.transactions import write
 from storage.errors import ConflictError, NotFoundError
-from storage.runs import RunInfo, queue_run
+from storage.runs import RunInfo, queue_run, run_with_idempotency_key
 from storage.series import VersionInfo, find_series, get_series, load_series
 
 MAX_SEED = 2**31 - 1
@@ -160,17 +162,26 @@ def _invalid(kind: type[InvalidInputError], message: str, pointer: str) -> Inval
 
 
 def submit_run(sessions: sessionmaker[Session], body: RunIn, settings: Settings, *,
-               actor: str, idempotency_key: str | None) -> RunInfo:
+               caller: KeyHolder, idempotency_key: str | None) -> RunInfo:
     """Check a submission in a read transaction (parse, resolve the series, count each
     series' folds, estimate the cost), then queue what was checked in a short write
-    transaction, so the store's write lock is never held while series are validated."""
+    transaction, so the store's write lock is never held while series are validated.
+
+    A scoped caller selects only series under its scope; the caller's quotas are checked in
+    the write transaction (a retry of a queued submission is not counted again)."""
     with sessions.begin() as session:
         prepared = prepare_run(session, body, settings)
+    check_writes(caller, (v.series_key for v in prepared.versions))
 
     def queue(session: Session) -> RunInfo:
+        if idempotency_key is None or run_with_idempotency_key(session,
+                                                                idempotency_key) is None:
+            check_quotas(session, caller.name, prepared.cost, settings)
         return queue_run(session, series_version_ids=[v.id for v in prepared.versions],
-                         candidates=prepared.candidates, plan=prepared.plan, actor=actor,
-                         idempotency_key=idempotency_key, unit_folds=prepared.cost.unit_folds)
+                         candidates=prepared.candidates, plan=prepared.plan,
+                         actor=caller.name, idempotency_key=idempotency_key,
+                         unit_folds=prepared.cost.unit_folds,
+                         estimated_fits=prepared.cost.total_fits)
 
     try:
         return write(sessions, queue)

@@ -4,9 +4,11 @@ Only the units not yet stored are computed, so a run taken over from a worker th
 resumes where that worker's last committed unit left it; each series' computation is
 seeded by the plan, so the stored results equal an uninterrupted run's. The pending series
 go through the pool together and each unit is stored as soon as its series is done, while
-the pool goes on with the others. After each stored unit the job looks for a cancel
-request; the worker being stopped or the lease lost is noticed as each task finishes.
-How a job ends:
+the pool goes on with the others. A cancel request is noticed as each task (one candidate
+on one series) finishes (:mod:`service.worker.cancel`), and looked for once more after each
+stored unit; the worker being stopped or the lease lost is noticed as each task finishes.
+Leaving the computation early closes the engine's stream, which stops the pool's running
+and pending tasks. How a job ends:
 
 - ``succeeded``, ``failed`` (any unexpected error, with a one-line reason) or ``cancelled``;
 - ``released``: the worker is stopping; the lease is given back so another worker resumes
@@ -33,6 +35,7 @@ from backtest.plan import Plan
 from backtest.series import Series
 from backtest.software import software_versions
 from service.settings import Settings
+from service.worker.cancel import CancelWatch
 from service.worker.lease import LeaseKeeper
 from service.worker.queued_specs import stored_candidates, stored_plan
 from storage.db import utc_now
@@ -60,6 +63,10 @@ class Abandoned(Exception):
     """The worker is stopping before the run is done."""
 
 
+class CancelRequested(Exception):
+    """Someone asked for the run to be cancelled; the message names them."""
+
+
 class RunJob:
     """One claimed run: compute its pending units, then end it."""
 
@@ -70,8 +77,10 @@ class RunJob:
     def run(self) -> str:
         """Work on the run until it ends or the worker lets go of it; return how it ended."""
         try:
-            with LeaseKeeper(self._sessions, self._lease) as keeper:
-                return self._compute(keeper)
+            with LeaseKeeper(self._sessions, self._lease) as keeper, \
+                    CancelWatch(self._sessions, self._lease.run_id,
+                                self._settings.cancel_poll_seconds) as watch:
+                return self._compute(keeper, watch)
         except LeaseLostError as exc:
             log.warning("%s; its new holder carries on", exc)
             return "lost"
@@ -89,7 +98,7 @@ class RunJob:
             log.exception("run %s failed", self._lease.run_id)
             return self._fail(exc)
 
-    def _compute(self, keeper: LeaseKeeper) -> str:
+    def _compute(self, keeper: LeaseKeeper, watch: CancelWatch) -> str:
         request = self._transact(run_request, self._lease.run_id)
         candidates = stored_candidates(request.candidate_specs, request.run.candidate_ids)
         plan = stored_plan(request.plan_body)
@@ -104,14 +113,18 @@ class RunJob:
         units = stream_backtest([series[v] for v in pending], candidates, plan,
                                 n_jobs=self._settings.worker_jobs,
                                 scheduler=self._settings.dask_scheduler,
-                                progress=self._progress(keeper, folds_done))
-        with closing(units):
-            for position, result in units:
-                folds_done += folds[pending[position]]
-                self._transact(write_unit, self._lease, pending[position], result,
-                               folds_done=folds_done)
-                if self._cancelled(keeper):
-                    return "cancelled"
+                                progress=self._progress(keeper, watch, folds_done))
+        try:
+            with closing(units):
+                for position, result in units:
+                    folds_done += folds[pending[position]]
+                    self._transact(write_unit, self._lease, pending[position], result,
+                                   folds_done=folds_done)
+                    if self._cancelled(keeper):
+                        return "cancelled"
+        except CancelRequested as exc:
+            self._end(fail_run, status="cancelled", reason=f"cancelled at the request of {exc}")
+            return "cancelled"
         self._end(finish_run, software=software_versions(), timing=_timing(request, folds_total))
         return "succeeded"
 
@@ -124,10 +137,13 @@ class RunJob:
                   reason=f"cancelled at the request of {requester}")
         return True
 
-    def _progress(self, keeper: LeaseKeeper, folds_before: int) -> Progress:
+    def _progress(self, keeper: LeaseKeeper, watch: CancelWatch,
+                  folds_before: int) -> Progress:
         def report(done: int, _total: int) -> None:
             keeper.folds_done = folds_before + done
             self._check(keeper)
+            if watch.requested.is_set():
+                raise CancelRequested(watch.requester)
         return report
 
     def _check(self, keeper: LeaseKeeper) -> None:

@@ -3,7 +3,8 @@
 ``foldline worker`` runs one as its own process (see :mod:`service.cli.worker`);
 ``foldline serve`` runs one in a thread beside the API with :func:`start_embedded`. Any
 number of workers may share a store: each run is claimed by one worker at a time under a
-lease (see :mod:`storage.runs.queue`). Inside a run the engine's process pool (``worker_jobs``
+lease (see :mod:`storage.runs.queue`), in a fair order across the keys that submitted
+them. Inside a run the engine's process pool (``worker_jobs``
 processes, or the dask cluster at ``dask_scheduler``) does the computation.
 """
 
@@ -55,7 +56,8 @@ class Worker:
             if not any_claimable(session):
                 return False
         with self._sessions.begin() as session:
-            claim = claim_run(session, owner=self.id, lease_seconds=self.settings.lease_seconds)
+            claim = claim_run(session, owner=self.id, lease_seconds=self.settings.lease_seconds,
+                              max_running=self.settings.key_max_running_runs)
         if claim is None:
             return False
         run_id = claim.lease.run_id

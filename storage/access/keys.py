@@ -1,4 +1,5 @@
-"""API keys as stored: a public id, the SHA-256 of the secret (never the secret), a name, a role.
+"""API keys as stored: a public id, the SHA-256 of the secret (never the secret), a name, a role
+and a scope (the series-key prefix the key's team owns; ``None``: every series).
 
 Keys are append-only like everything else: revoking one adds an ``api_key_revocation`` row.
 Creating and revoking are audited with the acting key's (or operator's) name. How a key's
@@ -36,6 +37,7 @@ class KeyInfo:
     created_by: str
     revoked_at: datetime | None
     revoked_by: str | None
+    scope: str | None = None
 
     @property
     def active(self) -> bool:
@@ -54,14 +56,15 @@ class KeyCredentials:
 
 @translates_errors
 def create_key(session: Session, *, key_id: str, name: str, role: str, secret_hash: str,
-               actor: str) -> KeyInfo:
-    """Store a new key; names are unique over all keys, revoked ones included."""
+               actor: str, scope: str | None = None) -> KeyInfo:
+    """Store a new key; names are unique over all keys, revoked ones included. The scope is
+    part of the row the creation event digests, so it cannot be widened unnoticed."""
     if role not in ROLES:
         raise ConflictError(f"role {role!r} is unknown; use one of {', '.join(ROLES)}")
     if session.scalar(select(ApiKey.id).where(ApiKey.name == name)) is not None:
         raise ConflictError(f"a key named {name!r} exists already; key names are never reused")
     record = ApiKey(id=key_id, name=name, role=role, secret_hash=secret_hash,
-                    created_at=utc_now(), created_by=actor)
+                    created_at=utc_now(), created_by=actor, scope=scope)
     session.add(record)
     session.flush()
     record_event(session, actor=actor, action="api_key.created", subject=key_subject(key_id),
@@ -134,4 +137,4 @@ def _with_revocation():
 def _info(key: ApiKey, revocation: ApiKeyRevocation | None) -> KeyInfo:
     return KeyInfo(key.id, key.name, key.role, key.created_at, key.created_by,
                    revocation.revoked_at if revocation else None,
-                   revocation.revoked_by if revocation else None)
+                   revocation.revoked_by if revocation else None, key.scope)

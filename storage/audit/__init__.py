@@ -35,11 +35,18 @@ from storage.audit.digest import Row, canonical_json, sha256_text
 from storage.audit.log import AuditEntry, entry_of, lock_audit_log, record_event
 from storage.audit.pages import audit_page
 from storage.audit.subjects import describe_subjects
-from storage.audit.verify import AuditReport, verify_audit_log
+from storage.audit.verify import (
+    COVERAGE_OVERLAP,
+    AuditReport,
+    record_verified,
+    verify_audit_log,
+    verify_incrementally,
+)
 
 __all__ = [
     "AuditEntry",
     "AuditReport",
+    "COVERAGE_OVERLAP",
     "CheckpointError",
     "ISSUED_TABLES",
     "OUTCOME_TABLES",
@@ -67,6 +74,7 @@ __all__ = [
     "plan_subject",
     "read_checkpoint",
     "record_event",
+    "record_verified",
     "revocation_digest",
     "run_final_digest",
     "run_request_digest",
@@ -77,6 +85,7 @@ __all__ = [
     "unit_digest",
     "unit_subject",
     "verify_audit_log",
+    "verify_incrementally",
     "version_digest",
     "version_subject",
 ]

@@ -45,7 +45,8 @@ from storage.db import (
     SeriesVersion,
 )
 
-RUN_REQUEST_COLUMNS = ("id", "plan_id", "seed", "requested_by", "idempotency_key", "queued_at")
+RUN_REQUEST_COLUMNS = ("id", "plan_id", "seed", "requested_by", "idempotency_key", "queued_at",
+                       "estimated_fits")
 UNIT_TABLES: tuple[Table, ...] = tuple(
     model.__table__ for model in (SeriesResultRecord, ResultCandidate, FoldRecord,
                                   ForecastRecord, ForecastBound, FoldWarning, ScoreRecord,
@@ -166,7 +167,7 @@ def key_subject(key_id: str) -> str:
 
 
 def key_digest(rows: Iterable[Row]) -> str:
-    """Digest of an API key's row: id, name, role, secret hash, creation."""
+    """Digest of an API key's row: id, name, role, secret hash, creation, scope."""
     return table_digest(ApiKey.__table__, rows)
 
 

@@ -25,8 +25,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from storage.audit.digest import canonical_json, sha256_text
-from storage.db import AuditEvent, utc_now
-from storage.db.connection import AUDIT_KEY_INFO
+from storage.db import AUDIT_KEY_INFO, AuditEvent, utc_now
 from storage.errors import translates_errors
 
 GENESIS_HASH = "0" * 64

@@ -1,4 +1,5 @@
-"""Audit subjects in words: ``series_version/13`` becomes ``sales/north version 2``.
+"""Audit subjects in words: ``series_version/13`` becomes ``sales/north version 2``, and
+``api_key/k1`` ``API key bi-north (submitter, scope sales/north/)``.
 
 The audit log names what an event touched by internal id (``storage.audit.contents``' subject
 names); a reader wants series keys, version and run numbers and candidate labels. This
@@ -41,8 +42,10 @@ def describe_subjects(session: Session, subjects: Iterable[str]) -> dict[str, st
                                      for p in parts[kind] if p[0].isdigit()})
     choices = _choices(session, {int(p[0]) for p in parts["champion_choice"] if p[0].isdigit()})
     specs = _candidate_specs(session, {p[0] for p in parts["candidate"]})
-    keys = dict(session.execute(select(ApiKey.id, ApiKey.name).where(
-        ApiKey.id.in_([p[0] for p in parts["api_key"]]))).all())
+    keys = {key_id: f"{name} ({role}, {'scope ' + scope if scope else 'global'})"
+            for key_id, name, role, scope in session.execute(
+                select(ApiKey.id, ApiKey.name, ApiKey.role, ApiKey.scope)
+                .where(ApiKey.id.in_([p[0] for p in parts["api_key"]])))}
     described = {
         "series": lambda p: f"series {series[int(p[0])]}",
         "series_version": lambda p: f"series {versions[int(p[0])]}",

@@ -58,7 +58,7 @@ from storage.audit.contents import (
     version_subject,
 )
 from storage.audit.log import GENESIS_HASH, audit_key_of, event_hash
-from storage.db.schema import (
+from storage.db import (
     FINAL_STATUSES,
     ApiKey,
     ApiKeyRevocation,
@@ -73,8 +73,8 @@ from storage.db.schema import (
     SeriesRecord,
     SeriesResultRecord,
     SeriesVersion,
+    utc_now,
 )
-from storage.db.types import utc_now
 from storage.errors import translates_errors
 
 _PAGE = 1000

@@ -6,6 +6,7 @@ read-only views for BI tools.
 from storage.db.bi_views import BI_VIEWS, grant_bi_reader
 from storage.db.bulk import insert_rows
 from storage.db.connection import (
+    AUDIT_KEY_INFO,
     URL_SETTING,
     database_url,
     default_sqlite_path,
@@ -19,6 +20,7 @@ from storage.db.schema import (
     ApiKey,
     ApiKeyRevocation,
     AuditEvent,
+    AuditVerification,
     Base,
     CandidateRecord,
     ChampionChoiceRecord,
@@ -43,6 +45,7 @@ from storage.db.schema import (
     ScoreRecord,
     SeriesRecord,
     SeriesResultRecord,
+    SeriesSkeleton,
     SeriesVersion,
 )
 from storage.db.status import folds_computed, head_revision, run_counts, schema_revision
@@ -51,9 +54,11 @@ from storage.db.write_lock import take_write_lock
 
 __all__ = [
     "ADDED_LATER",
+    "AUDIT_KEY_INFO",
     "ApiKey",
     "ApiKeyRevocation",
     "AuditEvent",
+    "AuditVerification",
     "BI_VIEWS",
     "Base",
     "CandidateRecord",
@@ -81,6 +86,7 @@ __all__ = [
     "ScoreRecord",
     "SeriesRecord",
     "SeriesResultRecord",
+    "SeriesSkeleton",
     "SeriesVersion",
     "URL_SETTING",
     "UtcDateTime",

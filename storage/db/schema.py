@@ -159,10 +159,17 @@ class PlanRecord(Base):
 
 
 class Run(Base):
-    """A requested backtest: what, by whom, and its lifecycle; frozen once final."""
+    """A requested backtest: what, by whom, and its lifecycle; frozen once final.
+
+    ``estimated_fits`` is the model-fit estimate made at submission, which per-key budgets
+    add up (null on runs queued before it was kept). The indexes by requester serve per-key
+    quotas and the fair claim order (a requester's running runs and its last start).
+    """
 
     __tablename__ = "run"
-    __table_args__ = (_in("status", RUN_STATUSES, "status"),)
+    __table_args__ = (_in("status", RUN_STATUSES, "status"),
+                      Index("ix_run_requested_by_status", "requested_by", "status"),
+                      Index("ix_run_requested_by_started_at", "requested_by", "started_at"))
 
     id: Mapped[int] = mapped_column(primary_key=True)
     plan_id: Mapped[Digest] = mapped_column(ForeignKey("plan.id"))
@@ -181,6 +188,7 @@ class Run(Base):
     lease_owner: Mapped[Name | None]
     lease_expires_at: Mapped[datetime | None]
     attempts: Mapped[int]
+    estimated_fits: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class RunSeries(Base):
@@ -433,7 +441,8 @@ class AuditVerification(Base):
 
 
 class ApiKey(Base):
-    """An API key: its public id, the SHA-256 of its secret, its holder's name and role."""
+    """An API key: its public id, the SHA-256 of its secret, its holder's name and role, and
+    its scope: the series-key prefix its team owns (null: every series)."""
 
     __tablename__ = "api_key"
     __table_args__ = (_in("role", ROLES, "role"),)
@@ -444,6 +453,7 @@ class ApiKey(Base):
     secret_hash: Mapped[Digest]
     created_at: Mapped[datetime]
     created_by: Mapped[Name]
+    scope: Mapped[Name | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class ApiKeyRevocation(Base):

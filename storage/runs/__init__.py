@@ -7,6 +7,7 @@ from storage.runs.index import (
     list_runs,
     run_candidate_labels,
     run_versions,
+    run_with_idempotency_key,
     runs_using_version,
 )
 from storage.runs.lifecycle import (
@@ -30,6 +31,7 @@ from storage.runs.queue import (
     run_request,
     write_unit,
 )
+from storage.runs.usage import requester_usage, typical_run_seconds
 
 __all__ = [
     "Lease",
@@ -48,10 +50,13 @@ __all__ = [
     "record_progress",
     "release_lease",
     "request_cancel",
+    "requester_usage",
     "run_candidate_labels",
     "run_request",
     "run_versions",
+    "run_with_idempotency_key",
     "runs_using_version",
     "start_run",
+    "typical_run_seconds",
     "write_unit",
 ]

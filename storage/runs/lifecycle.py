@@ -74,11 +74,13 @@ class RunInfo:
 def queue_run(session: Session, *, series_version_ids: Sequence[int],
               candidates: Sequence[Candidate], plan: Plan, actor: str,
               idempotency_key: str | None = None,
-              unit_folds: Sequence[int] | None = None) -> RunInfo:
+              unit_folds: Sequence[int] | None = None,
+              estimated_fits: int | None = None) -> RunInfo:
     """Record a requested run; the plan and candidates are registered if new.
 
     ``unit_folds`` are the fold counts of the series versions, counted when the request was
-    checked; they are stored so the worker need not count again.
+    checked; they are stored so the worker need not count again. ``estimated_fits`` (the
+    submission's fit estimate) is what the run costs its requester's budget.
 
     Idempotency, the one rule: with an ``idempotency_key`` already used, the earlier run is
     returned if it asked for the same series (compared by key, so a retry after new actuals
@@ -99,7 +101,8 @@ def queue_run(session: Session, *, series_version_ids: Sequence[int],
     run = Run(plan_id=register_plan(session, plan, actor=actor), seed=plan.seed,
               requested_by=actor, idempotency_key=idempotency_key, status="queued",
               queued_at=utc_now(), folds_done=0, attempts=0,
-              folds_total=sum(folds) if unit_folds is not None else None)
+              folds_total=sum(folds) if unit_folds is not None else None,
+              estimated_fits=estimated_fits)
     session.add(run)
     for candidate in candidates:
         register_candidate(session, candidate.id, candidate.canonical, actor=actor)

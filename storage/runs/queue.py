@@ -1,21 +1,29 @@
 """The run queue: claiming runs with a lease, holding it, giving it back, and cancelling.
 
-A worker claims the oldest run that is queued or running under an expired lease, becoming
-its ``lease_owner`` until ``lease_expires_at``. On PostgreSQL the claim locks the row and
-skips rows other transactions hold (``FOR UPDATE SKIP LOCKED``), so workers on several
-machines take different runs; on SQLite it is one ``UPDATE`` statement, which holds the
-file's write lock from choosing the run to taking it, so processes sharing the file cannot
-both win. Every later write of the worker starts with :func:`hold_lease`, which renews the
-lease only if the worker still owns it: a worker that lost its lease (expired and claimed
-by another, or the run was cancelled) can write nothing more, so no unit is stored twice.
-Because that ``UPDATE`` is the transaction's first statement, on SQLite it also takes the
-write lock before any read, which keeps concurrent writers from failing on a stale snapshot.
+A worker claims a run that is queued or running under an expired lease, becoming its
+``lease_owner`` until ``lease_expires_at``. Claims are fair across requesters (the API
+keys' names), not first-in-first-out: the next run is taken from the requester with the
+fewest runs running now, then from the one served least recently (whose last run started
+longest ago, or never), then the oldest waiting run; a requester already running
+``max_running`` runs waits. So the requesters with waiting runs take turns, and one key's
+flood holds back another key's run only by the runs in progress. On PostgreSQL the claim
+locks the row and skips rows other transactions hold (``FOR UPDATE SKIP LOCKED``), so
+workers on several machines take different runs, and claims take the audit log's append
+lock first, so each counts the running runs the others just claimed; on SQLite it is one
+``UPDATE`` statement, which holds the file's write lock from choosing the run to taking it,
+so processes sharing the file cannot both win. Every later write of the worker starts with
+:func:`hold_lease`, which renews the lease only if the worker still owns it: a worker that
+lost its lease (expired and claimed by another, or the run was cancelled) can write nothing
+more, so no unit is stored twice. Because that ``UPDATE`` is the transaction's first
+statement, on SQLite it also takes the write lock before any read, which keeps concurrent
+writers from failing on a stale snapshot.
 
 Cancellation is recorded in the audit log (``run.cancel_requested``), which is durable and
-names who asked, without a column for it: a run whose worker is alive honours it between
-units of work; a queued run, or a running one nobody holds a live lease on, is cancelled
-at once. Claims of expired leases (``run.reclaimed``) and leases given back
-(``run.released``) are audited too; renewals and progress are operational state and are not.
+names who asked, without a column for it: a run whose worker is alive honours it after the
+task in progress (one candidate on one series), within seconds; a queued run, or a running
+one nobody holds a live lease on, is cancelled at once. Claims of expired leases
+(``run.reclaimed``) and leases given back (``run.released``) are audited too; renewals and
+progress are operational state and are not.
 Lease times come from the clock of the machine writing them, so machines sharing a store
 need synchronised clocks (NTP), far closer than the lease length.
 """
@@ -26,11 +34,11 @@ from dataclasses import dataclass
 from datetime import datetime, timedelta
 from typing import Any
 
-from sqlalchemy import and_, case, or_, select, update
-from sqlalchemy.orm import Session
+from sqlalchemy import and_, case, func, or_, select, update
+from sqlalchemy.orm import Session, aliased
 
 from backtest.results import SeriesResult
-from storage.audit import canonical_json, record_event, run_subject, sha256_text
+from storage.audit import canonical_json, lock_audit_log, record_event, run_subject, sha256_text
 from storage.db import (
     FINAL_STATUSES,
     AuditEvent,
@@ -94,21 +102,45 @@ class RunRequest:
 @translates_errors
 def any_claimable(session: Session) -> bool:
     """Whether a run waits to be claimed: a plain read, so that idle workers lock nothing."""
-    return session.scalar(select(Run.id).where(_claimable()).limit(1)) is not None
+    return session.scalar(select(Run.id).where(_claimable(Run, utc_now())).limit(1)) is not None
 
 
 @translates_errors
-def claim_run(session: Session, *, owner: str, lease_seconds: float) -> Claim | None:
-    """Claim the oldest claimable run for ``owner``; ``None`` if there is none.
+def claim_run(session: Session, *, owner: str, lease_seconds: float,
+              max_running: int | None = None) -> Claim | None:
+    """Claim the next claimable run for ``owner``; ``None`` if there is none.
 
+    The next run belongs to the requester with the fewest running runs (live leases), then
+    to the one whose last run started longest ago (or never), then is the oldest waiting;
+    requesters already running ``max_running`` runs are passed over.
     A queued run is started (``run.started``); a run taken over from an expired lease gets
     one more attempt (``run.reclaimed``). Commit promptly: the row stays locked until then.
     """
-    lease_expiry = utc_now() + timedelta(seconds=lease_seconds)
-    oldest = (select(Run.id).where(_claimable()).order_by(Run.queued_at, Run.id).limit(1)
-              .with_for_update(skip_locked=True).scalar_subquery())
+    lock_audit_log(session)
+    now = utc_now()
+    lease_expiry = now + timedelta(seconds=lease_seconds)
+    waiting, other, served, chosen = (aliased(Run) for _ in range(4))
+    # Each requester with a claimable run, once: a flood of one key's runs costs one group.
+    requesters = (select(waiting.requested_by, func.min(waiting.queued_at).label("oldest"))
+                  .where(_claimable(waiting, now)).group_by(waiting.requested_by).subquery())
+    running = (select(func.count()).select_from(other)
+               .where(other.requested_by == requesters.c.requested_by,
+                      other.status == "running", other.lease_expires_at > now)
+               .scalar_subquery())
+    last_served = (select(func.max(served.started_at))
+                   .where(served.requested_by == requesters.c.requested_by).scalar_subquery())
+    next_requester = select(requesters.c.requested_by)
+    if max_running is not None:
+        next_requester = next_requester.where(running < max_running)
+    next_requester = next_requester.order_by(running, last_served.asc().nulls_first(),
+                                             requesters.c.oldest, requesters.c.requested_by)
+    fairest = (select(chosen.id)
+               .where(chosen.requested_by == next_requester.limit(1).scalar_subquery(),
+                      _claimable(chosen, now))
+               .order_by(chosen.queued_at, chosen.id).limit(1)
+               .with_for_update(skip_locked=True).scalar_subquery())
     taken = session.execute(
-        update(Run).where(Run.id == oldest)
+        update(Run).where(Run.id == fairest)
         .values(lease_owner=owner, lease_expires_at=lease_expiry)
         .returning(Run.id, Run.status).execution_options(synchronize_session=False)).first()
     if taken is None:
@@ -225,9 +257,9 @@ def _lock_unfinished(session: Session, run_id: int) -> bool:
     return locked.rowcount == 1
 
 
-def _claimable() -> Any:
-    lapsed = or_(Run.lease_expires_at.is_(None), Run.lease_expires_at <= utc_now())
-    return or_(Run.status == "queued", and_(Run.status == "running", lapsed))
+def _claimable(run: Any, now: datetime) -> Any:
+    lapsed = or_(run.lease_expires_at.is_(None), run.lease_expires_at <= now)
+    return or_(run.status == "queued", and_(run.status == "running", lapsed))
 
 
 def _audit(session: Session, actor: str, action: str, run_id: int, **state: Any) -> None:

@@ -9,6 +9,7 @@ from storage.series.catalog import (
     version_by_number,
     version_info,
 )
+from storage.series.skeleton import skeleton
 from storage.series.versions import (
     SaveOutcome,
     VersionInfo,
@@ -28,6 +29,7 @@ __all__ = [
     "list_versions",
     "load_series",
     "save_series_version",
+    "skeleton",
     "version_by_number",
     "version_info",
 ]

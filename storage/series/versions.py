@@ -21,16 +21,15 @@ from sqlalchemy.orm import Session
 
 from backtest.frequency import parse_frequency
 from backtest.series import Series
-from storage.audit import record_event
-from storage.audit.contents import (
+from storage.audit import (
     as_row,
+    record_event,
     series_digest,
     series_subject,
     version_digest,
     version_subject,
 )
-from storage.db.schema import Observation, SeriesRecord, SeriesSkeleton, SeriesVersion
-from storage.db.types import utc_now
+from storage.db import Observation, SeriesRecord, SeriesSkeleton, SeriesVersion, utc_now
 from storage.errors import ConflictError, NotFoundError, translates_errors
 from storage.series.skeleton import skeleton
 

@@ -36,7 +36,7 @@ ENDPOINTS = [
     ("POST", "/v1/runs", "/v1/runs", "write", {"json": RUN}),
     ("GET", "/v1/runs", "/v1/runs", "read", {}),
     ("GET", "/v1/runs/{run_id}", "/v1/runs/1", "read", {}),
-    ("POST", "/v1/runs/{run_id}/cancel", "/v1/runs/1/cancel", "write", {}),
+    ("POST", "/v1/runs/{run_id}/cancel", "/v1/runs/1/cancel", "cancel", {}),
     ("GET", "/v1/runs/{run_id}/scores", "/v1/runs/1/scores", "read", {}),
     ("GET", "/v1/runs/{run_id}/folds", "/v1/runs/1/folds", "read", {}),
     ("GET", "/v1/runs/{run_id}/ranking", "/v1/runs/1/ranking", "read", {}),
@@ -121,9 +121,9 @@ def test_each_role_and_no_key_is_allowed_or_refused(stocked: Api, method, url, n
 def test_roles_grant_what_the_access_rules_say():
     assert set(GRANTS) == set(ROLES)
     assert GRANTS["reader"] == {"read"}
-    assert GRANTS["submitter"] == {"read", "write"}
+    assert GRANTS["submitter"] == {"read", "write", "cancel"}
     assert GRANTS["auditor"] == {"read", "audit"}
-    assert GRANTS["admin"] == {"read", "manage_keys"}
+    assert GRANTS["admin"] == {"read", "cancel", "manage_keys"}
 
 
 @pytest.mark.parametrize("authorization", [

@@ -29,7 +29,7 @@ from hypothesis import strategies as st
 from schemathesis import GenerationMode
 from sqlalchemy import func, select, text
 
-from storage.db.schema import ROLES, Base
+from storage.db import ROLES, Base
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 

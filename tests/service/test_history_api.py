@@ -7,10 +7,9 @@ from pathlib import Path
 
 from sqlalchemy import func, select, text
 
-from storage.audit.verify import verify_audit_log
-from storage.db.schema import AuditEvent
-from storage.db.types import utc_now
-from storage.results.queries import score_history
+from storage.audit import verify_audit_log
+from storage.db import AuditEvent, utc_now
+from storage.results import score_history
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 

@@ -16,8 +16,8 @@ import pytest
 from service.cli.main import build_parser
 from service.views.pages.series_list import series_list
 from service.views.pages.session import COOKIE, SIGN_IN_COOKIE, session_value
-from storage.access.keys import revoke_key
-from storage.ledger.champions import choose_champion
+from storage.access import revoke_key
+from storage.ledger import choose_champion
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 

@@ -17,16 +17,15 @@ from sqlalchemy import func, select, text
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.usecases.audit_verification import Verifier
-from storage.audit.contents import stored_digest
-from storage.audit.log import event_hash
-from storage.audit.verify import (
+from storage.audit import (
     AuditReport,
     record_verified,
     verify_audit_log,
     verify_incrementally,
 )
-from storage.db.connection import make_engine, session_factory
-from storage.db.schema import AuditEvent, AuditVerification
+from storage.audit.contents import stored_digest
+from storage.audit.log import event_hash
+from storage.db import AuditEvent, AuditVerification, make_engine, session_factory
 from tests.storage.builders import drop_guards, monthly_series, run_and_store
 from tests.storage.conftest import migrated_store
 

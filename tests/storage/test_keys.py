@@ -129,3 +129,39 @@ def test_a_key_inserted_behind_the_api_breaks_verification_and_the_key(session: 
 
     assert not find_credentials(session, "k9").audited
     assert "api_key/k9 is stored but no api_key.created event" in _verification(session)
+
+
+def test_a_key_s_scope_is_stored_and_listed(session: Session):
+    create_key(session, key_id="k1", name="north-team", role="submitter", secret_hash=HASH,
+               actor="ops", scope="sales/north/")
+    _create(session, "k2", "bi-tool")
+
+    assert [(k.name, k.scope) for k in list_keys(session)] == [
+        ("north-team", "sales/north/"), ("bi-tool", None)]
+    assert find_credentials(session, "k1").key.scope == "sales/north/"
+
+
+@pytest.mark.parametrize("widened", ["NULL", "'sales/'"])
+def test_a_scope_widened_behind_the_api_breaks_verification_and_the_key(session: Session,
+                                                                       widened: str):
+    create_key(session, key_id="k1", name="north-team", role="submitter", secret_hash=HASH,
+               actor="ops", scope="sales/north/")
+    assert find_credentials(session, "k1").audited and _verification(session) is None
+
+    drop_guards(session, "api_key")
+    session.execute(text(f"UPDATE api_key SET scope = {widened} WHERE id = 'k1'"))
+    session.expire_all()
+
+    assert not find_credentials(session, "k1").audited
+    assert "api_key/k1" in _verification(session)
+
+
+def test_a_scope_given_to_a_global_key_behind_the_api_is_caught_too(session: Session):
+    _create(session, "k1", "bi-tool", role="submitter")
+
+    drop_guards(session, "api_key")
+    session.execute(text("UPDATE api_key SET scope = 'sales/' WHERE id = 'k1'"))
+    session.expire_all()
+
+    assert not find_credentials(session, "k1").audited
+    assert "api_key/k1" in _verification(session)

@@ -33,6 +33,7 @@ from service.http.tables import (
 )
 from service.moments import point_in_time
 from service.usecases import champions
+from service.usecases.ownership import check_writes
 from service.views.ledger_answers import champion_row
 from storage.errors import NotFoundError
 
@@ -53,6 +54,7 @@ def choose_champion(key: str, body: ChampionIn, response: Response, caller: Writ
                     sessions: Sessions) -> ChampionRow:
     """Choose a candidate as the series' champion, naming the succeeded run that
     backtested it and why; it joins the series' champion history (201)."""
+    check_writes(caller, [key])
     answer = champion_row(champions.choose(sessions, series_key=key,
                                            candidate_id=body.candidate_id, run_id=body.run_id,
                                            reason=body.reason, actor=caller.name))

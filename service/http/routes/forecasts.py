@@ -28,6 +28,7 @@ from service.http.schemas.results import columns
 from service.http.tables import FormatParam, Limit, chosen_format, csv_openapi, csv_response
 from service.moments import MOMENT_HELP, point_in_time
 from service.usecases.issue_forecast import IssueRequest, issue
+from service.usecases.ownership import check_writes
 from service.views.ledger_answers import (
     forecast_out,
     forecast_rows,
@@ -53,6 +54,7 @@ def issue_forecast(body: ForecastIn, response: Response, caller: Writer,
     """Fit the series' champion (or the named candidate) on all data of a version (default:
     the latest) and record its forecast in the ledger (201). Identical inputs answer the
     forecast issued before (200)."""
+    check_writes(caller, [body.series_key])
     request = IssueRequest(series_key=body.series_key, horizon=body.horizon,
                            levels=tuple(body.levels), seed=body.seed, version=body.version,
                            candidate_id=body.candidate_id)

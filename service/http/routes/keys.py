@@ -22,8 +22,10 @@ ERRORS = (401, 403, 422, 500, 503)
 @router.post("", status_code=201, response_model=KeyCreatedOut,
              responses=problem_responses(*ERRORS, 409, 413))
 def create(body: KeyIn, caller: Admin, sessions: Sessions) -> KeyCreatedOut:
-    """Create a key; names are unique and never reused."""
-    key, token = create_api_key(sessions, name=body.name, role=body.role, actor=caller.name)
+    """Create a key; names are unique and never reused. A submitter key may be given a
+    scope: the series-key prefix its team owns."""
+    key, token = create_api_key(sessions, name=body.name, role=body.role, actor=caller.name,
+                                scope=body.scope)
     return KeyCreatedOut(key=key_out(key), token=token.text)
 
 
@@ -51,4 +53,4 @@ def key_out(key: KeyInfo) -> KeyOut:
     """The public view of a key."""
     return KeyOut(id=key.id, name=key.name, role=key.role,  # type: ignore[arg-type]
                   created_at=key.created_at, created_by=key.created_by,
-                  revoked_at=key.revoked_at, revoked_by=key.revoked_by)
+                  revoked_at=key.revoked_at, revoked_by=key.revoked_by, scope=key.scope)

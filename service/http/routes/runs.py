@@ -30,6 +30,7 @@ from service.usecases.runs import RunInfo, RunView
 
 router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
+Canceller = Annotated[Caller, Depends(require("cancel"))]
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 422, 500, 503)
 MAX_PAGE = 100
@@ -44,12 +45,14 @@ def run_url(run_id: int) -> str:
 
 
 @router.post("/runs", status_code=202, response_model=RunOut,
-             responses=problem_responses(*ERRORS, 409, 413))
+             responses=problem_responses(*ERRORS, 409, 413, 429))
 def submit_run(body: RunIn, response: Response, caller: Writer, sessions: Sessions,
                settings: AppSettings, idempotency_key: IdempotencyKey = None) -> RunOut:
-    """Queue a backtest; a worker computes it. The answer names the run's URL."""
+    """Queue a backtest; a worker computes it. The answer names the run's URL. A scoped key
+    selects only series under its scope (403); a key past one of its quotas (runs waiting,
+    fits per period) is answered 429 with Retry-After."""
     scoped = f"{caller.key_id}:{idempotency_key}" if idempotency_key else None
-    run = submission.submit_run(sessions, body, settings, actor=caller.name,
+    run = submission.submit_run(sessions, body, settings, caller=caller,
                                 idempotency_key=scoped)
     response.headers["Location"] = run_url(run.id)
     return run_out(run_cases.read_run(sessions, run.id))
@@ -98,12 +101,15 @@ def read_run(run_id: Id, caller: Reader, sessions: Sessions) -> RunOut:
 
 @router.post("/runs/{run_id}/cancel", response_model=RunOut,
              responses={202: {"model": RunOut, "description": "cancel requested: the worker "
-                              "stops the run after its current unit of work"},
+                              "stops the run after its task in progress"},
                         **problem_responses(*ERRORS, 404, 409)})
-def cancel_run(run_id: Id, response: Response, caller: Writer, sessions: Sessions) -> RunOut:
+def cancel_run(run_id: Id, response: Response, caller: Canceller,
+               sessions: Sessions) -> RunOut:
     """Cancel a run. A queued run (or one no worker holds) is cancelled at once (200); a
-    running one when its worker finishes the current unit (202). Finished runs: 409."""
-    answer = run_out(run_cases.cancel_run(sessions, run_id, actor=caller.name))
+    running one when its worker finishes the task in progress, within seconds (202).
+    Finished runs: 409. Admins cancel any run; a submitter its own runs and those on series
+    under its scope (403 otherwise)."""
+    answer = run_out(run_cases.cancel_run(sessions, run_id, caller=caller))
     response.status_code = 200 if answer.status == "cancelled" else 202
     return answer
 

@@ -37,6 +37,7 @@ from service.http.tables import (
     link_headers,
     next_link,
 )
+from service.usecases.ownership import check_writes
 from service.usecases.series_input import series_from_csv, series_from_json, with_appended
 from service.usecases.transactions import write
 from storage.errors import ConflictError
@@ -70,6 +71,7 @@ def post_series(body: SeriesIn, response: Response, caller: Writer, sessions: Se
                 settings: AppSettings) -> SeriesWriteOut:
     """Create a series, or store a new version of it (201); identical data answers 200."""
     series = series_from_json(body, settings)
+    check_writes(caller, [series.key])
 
     def store(session: Session) -> SaveOutcome:
         return save(session, series, actor=caller.name, unit=body.unit, tags=body.tags)
@@ -143,6 +145,8 @@ def read_version(key: str, number: Id, caller: Reader, sessions: Sessions) -> Ve
 def append_observations(key: str, body: AppendIn, response: Response, caller: Writer,
                         sessions: Sessions, settings: AppSettings) -> SeriesWriteOut:
     """Append new actuals as a new version (201); nothing new answers 200."""
+    check_writes(caller, [key])
+
     def append(session: Session) -> SaveOutcome:
         stored = load_series(session, get_series(session, key).latest.id)
         return save(session, with_appended(stored, body.observations, settings),
@@ -167,6 +171,7 @@ def _store_upload(data: bytes, caller: Caller, sessions: Sessions, settings: App
                   fill: Literal["reject", "linear"]) -> UploadOut:
     parsed = series_from_csv(data, settings, frequency=frequency,
                              season_length=season_length, fill=fill)
+    check_writes(caller, (s.key for s in parsed))
     outcomes = write(sessions, lambda session: [
         save(session, s, actor=caller.name, tags=tags or None) for s in parsed])
     written = [_write_out(o) for o in outcomes]

@@ -19,6 +19,10 @@ class KeyIn(Strict):
 
     name: KeyName = Field(examples=["bi-dashboard"])
     role: Role
+    scope: str | None = Field(None, min_length=1, max_length=200, examples=["sales/north/"],
+                              description="submitter keys only: the series-key prefix the "
+                              "key's team owns; it writes only series under it (a closing "
+                              "/ is added). Omitted: global")
 
 
 class KeyOut(BaseModel):
@@ -31,6 +35,8 @@ class KeyOut(BaseModel):
     created_by: str
     revoked_at: datetime | None
     revoked_by: str | None
+    scope: str | None = Field(description="the series-key prefix the key writes under; "
+                              "null: global")
 
 
 class KeyCreatedOut(BaseModel):

@@ -75,7 +75,7 @@ def reviewer(request: Request, sessions: Sessions, settings: AppSettings) -> Cal
         ended = signed_out(session, cookie)
     if ended or stored is None or not stored.key.active or not stored.audited:
         raise SignInRequired
-    caller = Caller(stored.key.id, stored.key.name, stored.key.role)
+    caller = Caller(stored.key.id, stored.key.name, stored.key.role, stored.key.scope)
     if not caller.may("read"):
         raise SignInRequired
     return caller

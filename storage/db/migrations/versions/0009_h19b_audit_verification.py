@@ -2,7 +2,7 @@
 the skeletons of series keys, so a look-alike of a stored key is refused.
 
 Revision ID: 0009_h19b
-Revises: 0008_h17
+Revises: 0009_h19a
 Create Date: 2026-12-03
 """
 
@@ -11,10 +11,10 @@ from collections.abc import Sequence
 import sqlalchemy as sa
 from alembic import op
 
-from storage.series.skeleton import skeleton
+from storage.series import skeleton
 
 revision: str = "0009_h19b"
-down_revision: str | Sequence[str] | None = "0008_h17"
+down_revision: str | Sequence[str] | None = "0009_h19a"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
