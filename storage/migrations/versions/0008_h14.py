@@ -11,7 +11,9 @@ on it: its ``value``, ``count`` and ``note`` are the common-ground figures, and 
 are appended, ``common_folds`` and ``value_own_folds`` (the candidate's own-folds value).
 Rows written before this revision have no common-ground figures; the view shows their
 own-folds figures with ``common_folds`` null. On PostgreSQL the view is replaced in place,
-so roles granted it keep their grant.
+so roles granted it keep their grant. Downgrading drops the figures, and with them content
+the audit log recorded for runs stored at this revision: ``audit verify`` then reports
+those runs.
 """
 
 from collections.abc import Sequence
