@@ -379,3 +379,12 @@ def test_the_overview_and_the_lede_count_folds_that_did_not_converge():
     assert "folds ok / failed / not converged" in table
     line = re.search(r"<tr><td>flat-start</td>.*?</tr>", table)[0]
     assert re.findall(r"<td[^>]*>(.*?)</td>", line)[7] == f"{ok} / 0 / {not_converged}"
+
+
+def test_the_report_names_the_ratio_and_defines_skill_as_one_minus_it(report):
+    """Item 15 of the audit: the ratio to the benchmark is named for what it is; "skill"
+    appears only in its definition, 1 minus the ratio."""
+    assert ">ratio to benchmark</th>" in report
+    assert re.findall(r"[^.]*\bskill\b[^.]*", report) == [
+        " It is not a skill score, which is 1 minus this ratio (Murphy 1988), higher being "
+        "better"] * len(re.findall(r"<h3>Ranking</h3>", report))
