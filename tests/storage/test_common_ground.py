@@ -1,5 +1,5 @@
 """The ranking's common ground survives storage: own-folds figure and common origins; the
-stored scores' common-ground figures and the BI view over them across migration 0008_h14."""
+stored scores' common-ground figures and the BI view over them across migration 0009_h14."""
 
 from __future__ import annotations
 
@@ -15,14 +15,13 @@ from sqlalchemy.orm import Session
 from backtest.engine import run_backtest
 from backtest.ranking import on_common_ground, rank_candidates
 from backtest.scoring import score_candidate
-from storage.bi_views import grant_bi_reader
-from storage.engine import make_engine, session_factory
-from storage.migrate import alembic_config, upgrade
-from storage.result_tables import rank_table
-from storage.results_store import load_series_result, write_series_result
+from storage.audit.verify import verify_audit_log
+from storage.db.bi_views import grant_bi_reader
+from storage.db.connection import make_engine, session_factory
+from storage.db.migrate import alembic_config, upgrade
+from storage.results import load_series_result, rank_table, write_series_result
 from storage.runs import finish_run, queue_run, start_run
-from storage.series_store import save_series_version
-from storage.verify import verify_audit_log
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, benchmark_candidates, monthly_series, small_plan
 from tests.storage.conftest import BACKENDS, migrated_store
 
@@ -108,9 +107,9 @@ def _view(url: str) -> dict[str, dict]:
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_the_view_ranks_on_common_ground_and_older_rows_on_their_own_folds(backend: str,
                                                                            tmp_path: Path):
-    """At head the view ranks on the common origins; at 0007_h19 (before) it ranked each
+    """At head the view ranks on the common origins; at 0008_h17 (before) it ranked each
     candidate's own folds; rows without common-ground figures (as after a downgrade, or
-    written before 0008_h14) read back their own-folds figures with common_folds null. On
+    written before 0009_h14) read back their own-folds figures with common_folds null. On
     PostgreSQL a BI role's grant on the view survives the upgrade (the view is replaced in
     place)."""
     with migrated_store(backend, tmp_path) as url:
@@ -122,7 +121,7 @@ def test_the_view_ranks_on_common_ground_and_older_rows_on_their_own_folds(backe
         assert head[fragile]["value"] == head[fragile]["value_own_folds"]
         own = {cid: row["value_own_folds"] for cid, row in head.items()}
 
-        _downgrade(url, "0007_h19")
+        _downgrade(url, "0008_h17")
         before = _view(url)
         assert "common_folds" not in before[other]
         assert {cid: row["value"] for cid, row in before.items()} == own
