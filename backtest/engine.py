@@ -16,8 +16,15 @@ from backtest.models.benchmarks import BenchmarkSpec
 from backtest.parallel import iter_tasks
 from backtest.plan import Plan
 from backtest.predictive import predictive_of
-from backtest.ranking import rank_candidates
-from backtest.results import BacktestResult, CandidateInfo, SeriesResult, to_jsonable
+from backtest.ranking import on_common_ground, rank_candidates
+from backtest.results import (
+    BacktestResult,
+    CandidateInfo,
+    FoldResult,
+    Score,
+    SeriesResult,
+    to_jsonable,
+)
 from backtest.scoring import score_candidate
 from backtest.series import Series
 from backtest.software import software_versions
@@ -155,9 +162,13 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                                 added and c.id == benchmark.id) for c in pool)
     folds = tuple(f for o in outcomes for f in o.folds)
     predictive = {c.id: predictive_of(c, plan.step) for c in pool}
-    scores = tuple(s for c, o in zip(pool, outcomes)
-                   for s in score_candidate(c.id, o.folds, plan.horizon, plan.levels,
-                                            series.filled, predictive[c.id]))
+    def rescore(cid: str, subset: list[FoldResult]) -> list[Score]:
+        return score_candidate(cid, subset, plan.horizon, plan.levels, series.filled,
+                               predictive[cid])
+
+    scores = on_common_ground(infos, [s for c, o in zip(pool, outcomes)
+                                      for s in rescore(c.id, list(o.folds))],
+                              folds, plan.horizon, rescore)
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
                                       benchmark.id, plan, predictive, series.filled)
     evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
@@ -169,7 +180,6 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                 calibration_zone=notes[row.candidate_id].calibration_zone)
         for row in rank_candidates(
             infos, scores, folds, benchmark.id, plan.rank_by, plan.rank_horizon, plan.horizon,
-            lambda cid, subset: score_candidate(cid, subset, plan.horizon, plan.levels,
-                                                series.filled, predictive[cid])))
+            rescore))
     return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
                         to_jsonable(evidence))

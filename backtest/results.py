@@ -50,7 +50,13 @@ class FoldResult:
 
 @dataclass(frozen=True)
 class Score:
-    """One score of one candidate: at a horizon (1..H) or pooled over horizons (``None``)."""
+    """One score of one candidate: at a horizon (1..H) or pooled over horizons (``None``).
+
+    ``value``, ``count`` and ``note`` are over the candidate's own completed folds. The
+    ``common_*`` fields are the same score over the ``common_folds`` origins that every
+    candidate with a defined ``value`` of this score completed, the ground rankings compare
+    candidates on (:func:`backtest.ranking.on_common_ground`); ``None`` until computed.
+    """
 
     candidate_id: str
     horizon: int | None
@@ -59,6 +65,10 @@ class Score:
     value: float | None
     count: int
     note: str | None = None
+    common_value: float | None = None
+    common_count: int | None = None
+    common_note: str | None = None
+    common_folds: int | None = None
 
 
 @dataclass(frozen=True)

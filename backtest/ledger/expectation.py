@@ -3,12 +3,13 @@
 Built from the candidate's successful backtest folds: per horizon, the scaled absolute
 errors |actual - point| / fold scale (the fold's MASE denominator) and their mean (the
 backtest MASE at that horizon); per level, the empirical coverage pooled over folds and
-horizons.
+horizons. Target periods a fill policy made (never observed) are no actuals: they are left
+out, as the backtest's own scores leave them out (:func:`backtest.scoring.score_candidate`).
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -29,25 +30,30 @@ class Expectation:
 
 
 def expectation_from_folds(folds: Sequence[FoldResult], candidate_id: str,
-                           run_id: int | None = None) -> Expectation:
+                           run_id: int | None = None,
+                           filled: Collection[str] = ()) -> Expectation:
     """The :class:`Expectation` of ``candidate_id`` from a series' backtest folds.
 
     Folds of other candidates, failed folds and folds without a positive MASE scale are
-    left out; :class:`LedgerError` if none is left.
+    left out, and so are target periods in ``filled`` (the backtested version's filled
+    periods); :class:`LedgerError` if nothing is left.
     """
+    left_out = frozenset(filled)
     usable = [f for f in folds if f.candidate_id == candidate_id and f.status == "ok"
               and f.point is not None and f.scale is not None and f.scale > 0]
-    if not usable:
-        raise LedgerError(f"the backtest has no successful fold of candidate {candidate_id!r} "
-                          "with a positive MASE scale")
     errors: dict[int, list[float]] = {}
     hits: dict[int, list[bool]] = {}
     for fold in usable:
-        for h, (actual, point) in enumerate(zip(fold.actuals, fold.point), start=1):
-            errors.setdefault(h, []).append(abs(actual - point) / fold.scale)
+        observed = [h for h, period in enumerate(fold.periods) if period not in left_out]
+        for h in observed:
+            errors.setdefault(h + 1, []).append(abs(fold.actuals[h] - fold.point[h])
+                                                / fold.scale)
         for level, lower in fold.lower.items():
             hits.setdefault(level, []).extend(
-                lo <= a <= hi for lo, a, hi in zip(lower, fold.actuals, fold.upper[level]))
+                lower[h] <= fold.actuals[h] <= fold.upper[level][h] for h in observed)
+    if not errors:
+        raise LedgerError(f"the backtest has no successful fold of candidate {candidate_id!r} "
+                          "with a positive MASE scale and an observed target period")
     return Expectation(
         candidate_id=candidate_id, run_id=run_id,
         mase_by_horizon={h: float(np.mean(e)) for h, e in sorted(errors.items())},

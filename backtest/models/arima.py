@@ -138,10 +138,7 @@ class ArimaSpec(ModelSpec):
             powers = _scale_powers(model)
             estimate = scaled.fit(start_params=None if start is None else start * factor**powers,
                                   cov_type="none")
-            # the results on the original data at the estimate mapped back: likelihood,
-            # residuals, covariances and forecasts are those of the unscaled model
-            fitted = model.filter(estimate.params / factor**powers, cov_type="none")
-            fitted.mle_retvals, fitted.mle_settings = estimate.mle_retvals, estimate.mle_settings
+            fitted = self.unscaled(estimate, y, season_length, factor)
         names = [RENAMED_PARAMETERS.get(n, n) for n in model.param_names]
         converged = (fitted.mle_retvals or {}).get("converged")
         return Fit(dict(zip(names, map(float, fitted.params))), fitted,
@@ -162,6 +159,15 @@ class ArimaSpec(ModelSpec):
         if not np.isfinite(spread) or spread == 0.0 or 1e-2 <= spread <= 1e3:
             return 1.0
         return 2.0 ** -round(float(np.log2(spread)))
+
+    def unscaled(self, estimate, y: np.ndarray, season_length: int, factor: float):
+        """statsmodels' results on the original data ``y`` at an estimate made on
+        ``factor * y``, mapped back: likelihood, residuals, covariances and forecasts are
+        those of the unscaled model; the optimiser's report is the estimate's."""
+        model = self.model(y, season_length)
+        fitted = model.filter(estimate.params / factor**_scale_powers(model), cov_type="none")
+        fitted.mle_retvals, fitted.mle_settings = estimate.mle_retvals, estimate.mle_settings
+        return fitted
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         """The fit with its model parameters only (without the ``estimator`` record)."""

@@ -8,7 +8,11 @@ Warnings raised while fitting are kept with the trial, not emitted.
 
 Fits are statsmodels' exact maximum likelihood, as in the ``arima`` family, but allowed
 :data:`MAX_ITERATIONS` optimiser iterations: with statsmodels' default of 50, many seasonal
-fits stop short of the optimum and would be rejected as non-converged.
+fits stop short of the optimum and would be rejected as non-converged. Data of extreme
+scale are rescaled before estimating by the family's rule
+(:meth:`~.arima.ArimaSpec.rescaling`), and the results are those of the original data at
+the estimate mapped back, so criteria compare across orders on the original scale (on log
+data of a smooth series every order would otherwise stop short and be rejected).
 
 References
 ----------
@@ -60,9 +64,12 @@ def run_trial(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Cri
         return Trial(spec, "too_short", math.inf, None, ())
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
+        factor = spec.rescaling(y, season_length)
         try:
-            results = spec.model(y, season_length).fit(
+            results = spec.model(np.asarray(y, dtype=float) * factor, season_length).fit(
                 method_kwargs={"maxiter": MAX_ITERATIONS})
+            if factor != 1.0:
+                results = spec.unscaled(results, y, season_length, factor)
         except (ValueError, np.linalg.LinAlgError):
             results = None
     recorded = tuple(caught)

@@ -13,6 +13,15 @@ else zero and a Hannan-Rissanen regression (Hannan & Rissanen 1982: a long
 autoregression's residuals as regressors of the moving-average terms): both for models
 mixing AR and MA terms, whose likelihood is often multimodal, else the better of the two.
 
+Data of extreme scale are rescaled by the reference path's rule
+(:meth:`~.arima.ArimaSpec.rescaling`: a power of two, when the differenced data's spread
+lies outside [1e-2, 1e3]): the estimate is made on the rescaled data and mapped back
+exactly, the constant or drift divided by the factor, the variance by its square, and the
+log-likelihood, over ``n`` differenced observations, raised by ``n log(factor)``. The
+profile likelihood changes by a constant under rescaling, but the optimiser's relative
+stopping rule and its difference quotients do not, so the same data in other units get
+the same coefficients only this way.
+
 Parameters come back under the ``arima`` family's names, so forecasts, intervals and
 assessments are computed by the reference path with them.
 
@@ -59,7 +68,8 @@ class FastEstimationError(RuntimeError):
 @dataclass(frozen=True)
 class FastFit:
     """Estimates under the arima family's names, the log-likelihood and the optimiser's
-    report."""
+    report, all on the original scale; ``rescaled_by`` is the factor the data were
+    multiplied by for the search."""
 
     params: Params
     llf: float
@@ -67,6 +77,7 @@ class FastFit:
     converged: bool
     iterations: int
     evaluations: int
+    rescaled_by: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -114,7 +125,8 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
     FastEstimationError
         If the likelihood is not finite at the start or at the optimum.
     """
-    problem = _Problem.of(spec, y, season_length)
+    factor = spec.rescaling(y, season_length)
+    problem = _Problem.of(spec, np.asarray(y, dtype=float) * factor, season_length)
     p, q, big_p, big_q, s = problem.orders
     k = p + q + big_p + big_q
     if k == 0:
@@ -135,8 +147,10 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
     llf, beta, sigma2 = problem.loglike(x)
     if not (math.isfinite(llf) and sigma2 > 0):
         raise FastEstimationError("the log-likelihood is not finite at the optimum")
-    return FastFit(_named(spec, x, beta, sigma2, season_length), float(llf), len(problem.w),
-                   converged, iterations, evaluations)
+    n = len(problem.w)
+    return FastFit(_named(spec, x, beta / factor, sigma2 / factor**2, season_length),
+                   float(llf + n * math.log(factor)), n, converged, iterations, evaluations,
+                   factor)
 
 
 def fast_loglike(spec: ArimaSpec, y: np.ndarray, season_length: int, params: Params) -> float:
@@ -256,8 +270,9 @@ class EstimatorFallback(UserWarning):
 
 def fast_fit(spec: ArimaSpec, y: np.ndarray, season_length: int,
              start_params: Params | None, keep_raw: bool) -> Fit:
-    """The fast estimate as a :class:`Fit` marked ``estimator = 1``; if it fails or does
-    not converge, a warning with the reason and the reference fit marked ``estimator = 0``.
+    """The fast estimate as a :class:`Fit` marked ``estimator = 1`` (converged, with its
+    rescaling factor); if it fails or does not converge, a warning with the reason and the
+    reference fit marked ``estimator = 0``, with the reference's own verdict and factor.
 
     With ``keep_raw`` the fit carries statsmodels' results of a filter pass at the
     estimates, with the optimiser's report as ``mle_retvals``.
@@ -271,10 +286,10 @@ def fast_fit(spec: ArimaSpec, y: np.ndarray, season_length: int,
         warnings.warn(f"fast estimator failed ({exc}); the reference estimator was used",
                       EstimatorFallback, stacklevel=2)
         fit = spec.reference_fit(y, season_length, start_params=start_params)
-        return Fit({**fit.params, ESTIMATOR_KEY: 0.0}, fit.raw)
+        return Fit({**fit.params, ESTIMATOR_KEY: 0.0}, fit.raw, fit.converged, fit.rescaled_by)
     raw = None
     if keep_raw:
         raw = spec.results_at(y, season_length, estimate.params)
         raw.mle_retvals = {"converged": True, "iterations": estimate.iterations,
                            "fcalls": estimate.evaluations, "warnflag": 0}
-    return Fit({**estimate.params, ESTIMATOR_KEY: 1.0}, raw)
+    return Fit({**estimate.params, ESTIMATOR_KEY: 1.0}, raw, True, estimate.rescaled_by)

@@ -1,8 +1,9 @@
 """Monitoring a series' candidate: its outcomes so far beside what its backtest promised.
 
 The expectation comes from the candidate's folds in the latest succeeded run that
-backtested it on the series (read alone, not the whole stored unit); the candidate is the
-series' current champion unless one is named.
+backtested it on the series (read alone, not the whole stored unit), without the target
+periods the backtested version's fill policy made; the candidate is the series' current
+champion unless one is named.
 """
 
 from __future__ import annotations
@@ -24,6 +25,7 @@ from service.errors import FieldError, InvalidInputError
 from storage.ledger import current_champion, current_champions, issued_with_outcomes
 from storage.results import load_candidate_folds, score_history
 from storage.series import get_series
+from storage.series.versions import filled_periods
 from storage.specs import candidate_label
 
 
@@ -67,7 +69,8 @@ def _expectation(session: Session, series_key: str, candidate_id: str,
     latest = runs[-1]
     folds = load_candidate_folds(session, latest.run_id, latest.series_version_id, candidate_id)
     try:
-        return expectation_from_folds(folds, candidate_id, latest.run_id)
+        return expectation_from_folds(folds, candidate_id, latest.run_id,
+                                      filled_periods(session, latest.series_version_id))
     except LedgerError:  # every fold of the candidate failed: nothing was promised
         return None
 

@@ -372,6 +372,12 @@ class ScoreRecord(Base):
     value: Mapped[float | None]
     count: Mapped[int]
     note: Mapped[str | None] = mapped_column(Text)
+    # the score over the origins every candidate with a defined value completed
+    # (backtest.ranking.on_common_ground); NULL on rows written before migration 0009_h14
+    common_value: Mapped[float | None] = mapped_column(info={ADDED_LATER: None})
+    common_count: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
+    common_note: Mapped[str | None] = mapped_column(Text, info={ADDED_LATER: None})
+    common_folds: Mapped[int | None] = mapped_column(info={ADDED_LATER: None})
 
 
 class RankRecord(Base):

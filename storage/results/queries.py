@@ -9,9 +9,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Literal
+from typing import Any, Literal
 
-from sqlalchemy import Select, func, select
+from sqlalchemy import Select, case, func, select
 from sqlalchemy.orm import Session
 
 from storage.db import (
@@ -88,15 +88,17 @@ def ranked_candidates(session: Session, series_key: str, *, metric: str,
     """Candidates of a series' latest successful run, ordered by one score.
 
     ``horizon=None`` selects the pooled score, ``level`` the interval level of interval
-    scores. Candidates without a value come last, unranked; ties share the best rank
-    (1, 1, 3), and are listed by candidate id.
+    scores. Candidates are compared on common ground (:func:`common_ground`): over the
+    origins every candidate with a defined value completed. Candidates without a value come
+    last, unranked; ties share the best rank (1, 1, 3), and are listed by candidate id.
     """
     latest = latest_successful_run(session, series_key)
     if latest is None:
         return []
+    value, count, note = common_ground(ScoreRecord)
     rows = session.execute(
-        select(ScoreRecord.candidate_id, ResultCandidate.label, ScoreRecord.value,
-               ScoreRecord.count, ScoreRecord.note)
+        select(ScoreRecord.candidate_id, ResultCandidate.label, value.label("value"),
+               count.label("count"), note.label("note"))
         .join(ResultCandidate, (ResultCandidate.run_id == ScoreRecord.run_id)
               & (ResultCandidate.series_version_id == ScoreRecord.series_version_id)
               & (ResultCandidate.candidate_id == ScoreRecord.candidate_id))
@@ -164,3 +166,12 @@ def latest_runs_query(series_key: str | None = None, as_of: datetime | None = No
 def _score_filter(metric: str, horizon: int | None, level: int | None) -> list:
     return [ScoreRecord.metric == metric, ScoreRecord.horizon.is_not_distinct_from(horizon),
             ScoreRecord.level.is_not_distinct_from(level)]
+
+
+def common_ground(score: type[ScoreRecord]) -> tuple[Any, Any, Any]:
+    """The value, count and note a ranking reads from score rows: the common-ground
+    figures, or the own-folds ones on rows stored before those existed."""
+    stored = score.common_count.is_not(None)
+    return (case((stored, score.common_value), else_=score.value),
+            case((stored, score.common_count), else_=score.count),
+            case((stored, score.common_note), else_=score.note))

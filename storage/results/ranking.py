@@ -1,10 +1,14 @@
 """The ranking table for BI tools: every series' candidates on its latest successful run.
 
 One row per series x candidate, ranked by one stored score (a metric at one horizon, or
-pooled, and an interval level for interval scores); lower values rank first for every
-rankable metric. Ties share the best rank (1, 1, 3); candidates without a value come last,
-unranked. This is the rule of :func:`storage.results.queries.ranked_candidates`, computed in one
-SQL statement for all series at once.
+pooled, and an interval level for interval scores) on common ground: over the origins every
+candidate with a defined value completed, as the run's own ranking compares them
+(:func:`backtest.ranking.on_common_ground`), with the candidate's own-folds value beside it.
+Rows stored before the common-ground figures existed show their own-folds figures, with
+``common_folds`` null. Lower values rank first for every rankable metric. Ties share the
+best rank (1, 1, 3); candidates without a value come last, unranked. This is the rule of
+:func:`storage.results.queries.ranked_candidates`, computed in one SQL statement for all series at
+once, and of the view ``bi_latest_ranking``.
 """
 
 from __future__ import annotations
@@ -19,7 +23,7 @@ from sqlalchemy.orm import Session
 from backtest.plan import RANK_SCORES
 from storage.db import ResultCandidate, ScoreRecord, SeriesRecord
 from storage.errors import translates_errors
-from storage.results.queries import latest_runs_query
+from storage.results.queries import common_ground, latest_runs_query
 
 RANKABLE = (*RANK_SCORES, "winkler", "msis")
 """Metrics where lower is better: the plan's rankable scores, and the interval scores
@@ -33,8 +37,9 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
                   tags: Mapping[str, str] | None = None, limit: int | None = None,
                   offset: int = 0, as_of: datetime | None = None) -> list[dict[str, Any]]:
     """Rows: series_key, series_version, run_id, run_finished_at, metric, horizon, level,
-    rank, candidate_id, candidate, is_benchmark, value, count, note; by series key, rank,
-    candidate id. With ``as_of``, each series' latest successful run finished by then."""
+    rank, candidate_id, candidate, is_benchmark, value, count, note (on common ground),
+    common_folds, value_own_folds; by series key, rank, candidate id. With ``as_of``, each
+    series' latest successful run finished by then."""
     latest = latest_runs_query(as_of=as_of).subquery()
     s = ScoreRecord
     # the chosen score's row keys come from the score index alone; SQLite would otherwise
@@ -42,16 +47,18 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
     chosen = (select(s.run_id, s.series_version_id, s.position)
               .where(s.metric == metric, _equal(s.horizon, horizon), _equal(s.level, level))
               .subquery())
-    unscored = s.value.is_(None)
+    value, count, note = common_ground(s)
+    unscored = value.is_(None)
     place = func.rank().over(partition_by=(s.run_id, s.series_version_id, unscored),
-                             order_by=s.value)
+                             order_by=value)
     inner = (
         select(latest.c.series_key, latest.c.version_number.label("series_version"),
                latest.c.run_id, latest.c.finished_at.label("run_finished_at"), s.metric,
                s.horizon, s.level, place.label("place"), unscored.label("unscored"),
                s.candidate_id, ResultCandidate.label.label("candidate"),
-               (s.candidate_id == latest.c.benchmark_id).label("is_benchmark"), s.value,
-               s.count, s.note)
+               (s.candidate_id == latest.c.benchmark_id).label("is_benchmark"),
+               value.label("value"), count.label("count"), note.label("note"),
+               s.common_folds, s.value.label("value_own_folds"))
         .select_from(latest)
         .join(chosen, (chosen.c.run_id == latest.c.run_id)
               & (chosen.c.series_version_id == latest.c.series_version_id))
@@ -70,7 +77,8 @@ def ranking_table(session: Session, *, metric: str, horizon: int | None = None,
     c = ranked.c
     query = (select(c.series_key, c.series_version, c.run_id, c.run_finished_at, c.metric,
                     c.horizon, c.level, case((c.unscored, None), else_=c.place).label("rank"),
-                    c.candidate_id, c.candidate, c.is_benchmark, c.value, c.count, c.note)
+                    c.candidate_id, c.candidate, c.is_benchmark, c.value, c.count, c.note,
+                    c.common_folds, c.value_own_folds)
              .order_by(c.series_key, c.unscored, c.place, c.candidate_id)
              .limit(limit).offset(offset))
     return [dict(row) for row in session.execute(query).mappings()]

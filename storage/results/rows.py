@@ -101,7 +101,9 @@ def _add_fold(rows: Rows, key: dict[str, Any], fold: FoldResult, position: int) 
 def _score_row(score: Score) -> dict[str, Any]:
     return {"candidate_id": score.candidate_id, "metric": score.metric, "level": score.level,
             "horizon": score.horizon, "value": _number(score.value), "count": int(score.count),
-            "note": score.note}
+            "note": score.note, "common_value": _number(score.common_value),
+            "common_count": None if score.common_count is None else int(score.common_count),
+            "common_note": score.common_note, "common_folds": score.common_folds}
 
 
 def _rank_row(row: RankRow) -> dict[str, Any]:
@@ -150,7 +152,8 @@ def folds_of(series_key: str, rows: Mapping[Table, Sequence[Row]]) -> tuple[Fold
 
 def _scores(rows: Sequence[Row]) -> tuple[Score, ...]:
     return tuple(Score(r["candidate_id"], r["horizon"], r["metric"], r["level"], r["value"],
-                       r["count"], r["note"])
+                       r["count"], r["note"], r["common_value"], r["common_count"],
+                       r["common_note"], r["common_folds"])
                  for r in sorted(rows, key=lambda r: r["position"]))
 
 

@@ -105,6 +105,15 @@ def load_series(session: Session, version_id: int) -> Series:
 
 
 @translates_errors
+def filled_periods(session: Session, version_id: int) -> tuple[str, ...]:
+    """The periods of a stored version that its fill policy made (never observed)."""
+    return tuple(session.scalars(
+        select(Observation.period).where(Observation.series_version_id == version_id,
+                                         Observation.filled.is_(True))
+        .order_by(Observation.position)))
+
+
+@translates_errors
 def get_version(session: Session, version_id: int) -> VersionInfo:
     """A stored version by id; raise :class:`NotFoundError` if there is none."""
     version = _version(session, version_id)

@@ -16,6 +16,9 @@ from backtest.candidates import parse_candidates
 from backtest.engine import run_backtest
 from backtest.errors import PlanError
 from backtest.models.arima import ArimaSpec
+from backtest.models.arima_search import ArimaSearchSpec
+from backtest.models.arima_trial import run_trial
+from backtest.models.fast_arima_trial import run_fast_trial
 from backtest.plan import parse_plan
 from backtest.series import make_series
 
@@ -55,6 +58,35 @@ def test_rescaled_estimate_reaches_a_higher_likelihood_on_log_co2(log_co2):
     vector = [fit.params[n] for n in model.param_names]
     assert fit.raw.llf == pytest.approx(model.loglike(vector), abs=1e-9)
     assert fit.raw.llf > plain.llf + 10
+
+
+@pytest.mark.parametrize("order", [(0, 1, 1), (1, 1, 1)])
+def test_the_order_search_rescales_as_the_family_does(log_co2, order):
+    """A search trial follows the family's rule: on log co2 every trial stopped short
+    before and the search rejected the order as not converged (computed with statsmodels
+    0.15.0, even with 200 iterations); rescaled, the reference and the fast trials accept
+    it. Through the objective: the trial's results are the original data's at its
+    estimate, 10 or more log-likelihood points above the unscaled fit's."""
+    window = log_co2[:490]
+    spec = ArimaSpec(order, (0, 1, 1), 12)
+    assert spec.rescaling(window, 12) > 1
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        plain = spec.model(window, 12).fit(method_kwargs={"maxiter": 200})
+    assert plain.mle_retvals["converged"] is False
+    trial = run_trial(spec, window, 12, "aicc")
+    assert trial.verdict == "accepted" and trial.results.mle_retvals["converged"] is True
+    assert trial.results.llf == pytest.approx(
+        spec.model(window, 12).loglike(trial.results.params), abs=1e-9)
+    assert trial.results.llf > plain.llf + 10
+    assert trial.score == pytest.approx(trial.results.aicc, rel=1e-12)
+    assert run_fast_trial(spec, window, 12, "aicc").verdict == "accepted"
+
+
+def test_a_search_on_extreme_scale_data_rejects_no_order_as_not_converged(log_co2):
+    fit = ArimaSearchSpec().fit(log_co2[:490], 12)
+    assert fit.params["search.not_converged"] == 0 and fit.params["search.failed"] == 0
+    assert fit.params["search.fitted"] > 1
 
 
 def test_the_mapping_back_is_exact(nile_flow):

@@ -7,6 +7,7 @@ import warnings
 import numpy as np
 import pytest
 from scipy.linalg import solve_discrete_lyapunov
+from statsmodels.datasets import co2
 from statsmodels.tsa.statespace.tools import constrain_stationary_univariate
 
 from backtest.candidates import parse_candidate, parse_candidates
@@ -173,3 +174,38 @@ def test_a_run_records_the_estimator_in_its_plan_and_diagnoses_the_fast_fit(airl
     assert rows["ma.L1"]["std_error"] > 0
     assert all(f.params["estimator"] == 1.0 for f in result.series[0].folds
                if f.candidate_id == arima)
+
+
+@pytest.fixture(scope="module")
+def log_co2():
+    """Mauna Loa CO2 (statsmodels' ``co2``, weekly, ppm) as monthly means, logged, first
+    490 months: the differenced spread is far below 1e-2."""
+    weekly = co2.load_pandas().data["co2"]
+    return np.log(weekly.resample("MS").mean().interpolate().to_numpy(float))[:490]
+
+
+def test_the_fast_estimator_rescales_extreme_data_as_the_reference_does(log_co2):
+    """The reference path's rule (a power of two where the scale is extreme, undone
+    exactly) holds for the fast estimator: the factor is the reference's, the likelihood is
+    the original data's at the returned parameters, the same data in other units give the
+    same coefficients bit for bit with the variance scaled exactly, and the optimum is at
+    least the (rescaled) reference estimate's, through the objective."""
+    spec = ArimaSpec((0, 1, 1), (0, 1, 1))
+    factor = spec.rescaling(log_co2, 12)
+    assert factor > 1
+    estimate = fast_estimate(spec, log_co2, 12)
+    assert estimate.rescaled_by == factor and estimate.converged
+    assert estimate.llf == pytest.approx(fast_loglike(spec, log_co2, 12, estimate.params),
+                                         abs=1e-8)
+    # times 8 (a power of two): the rescaled data are the same numbers, so is the search
+    other = fast_estimate(spec, log_co2 * 8.0, 12)
+    assert other.rescaled_by == factor / 8.0
+    for name in ("ma.L1", "ma.S.L12"):
+        assert other.params[name] == estimate.params[name]
+    assert other.params["sigma2"] == estimate.params["sigma2"] * 64.0
+    assert other.llf == pytest.approx(estimate.llf - estimate.nobs * math.log(8.0), abs=1e-8)
+    fit = spec.fit(log_co2, 12, estimator="fast")
+    reference = spec.fit(log_co2, 12)
+    assert fit.params["estimator"] == 1.0 and fit.converged is True
+    assert fit.rescaled_by == reference.rescaled_by == factor
+    assert fast_loglike(spec, log_co2, 12, reference.params) <= estimate.llf + LOGLIKE_TOLERANCE

@@ -69,3 +69,25 @@ def test_filled_periods_are_left_out_of_the_scores(gappy):
     assert coverage.count == len(folds) - 1 and "1 filled period" in coverage.note
     level = sr.evidence["calibration"][sr.candidates[0].candidate_id][0]
     assert level["by_horizon"][0]["trials"] == len(folds) - 1
+
+
+def test_the_ledgers_promise_leaves_filled_periods_out_like_the_scores(gappy):
+    """The monitoring yardstick (backtest MASE per horizon, coverage per level) is the
+    backtest's own scores: the filled 1900 is no actual there either."""
+    from backtest.ledger import expectation_from_folds
+
+    series, _ = gappy
+    sr = _run(series, [{"family": "benchmark", "method": "naive"}], levels=[80])
+    cid = sr.candidates[0].candidate_id
+    promise = expectation_from_folds(sr.folds, cid, filled=series.filled)
+    score = {(s.metric, s.horizon, s.level): s for s in sr.scores}
+    for h in (1, 2):
+        assert promise.mase_by_horizon[h] == pytest.approx(score["mase", h, None].value,
+                                                           rel=1e-12)
+        assert len(promise.scaled_abs_errors[h]) == score["mase", h, None].count
+    assert promise.coverage_by_level[80] == pytest.approx(score["coverage", None, 80].value,
+                                                          rel=1e-12)
+    counted = expectation_from_folds(sr.folds, cid)  # as before the fix: 1900 scored
+    assert sum(map(len, counted.scaled_abs_errors.values())) == (
+        sum(map(len, promise.scaled_abs_errors.values())) + 2)
+    assert counted.mase_by_horizon[1] != pytest.approx(promise.mase_by_horizon[1])

@@ -65,3 +65,29 @@ def test_a_score_resting_on_a_minority_of_its_points_carries_the_count():
     scores = score_candidate("bench", folds, 1, ())
     row = rank_candidates(INFOS[:1], scores, folds, "bench", "mase", None, 1)[0]
     assert (row.score, row.score_count, row.score_possible) == (1.0, 1, 4)
+
+
+def test_every_score_carries_its_figure_on_common_ground_as_the_ranking_reads_it():
+    """The common ground of each score (metric, horizon, level), which the BI ranking
+    ranks stored scores on, is the ranking's own: here origins 2 and 3."""
+    from backtest.ranking import on_common_ground
+
+    scores = on_common_ground(INFOS, SCORES, FOLDS, 1)
+    rows = {r.candidate_id: r for r in rank_candidates(INFOS, SCORES, FOLDS, "bench", "mae",
+                                                       None, 1)}
+    defined = {(s.metric, s.horizon, s.level) for s in SCORES if s.value is not None}
+    for s in scores:  # a score nobody has (here: distribution scores without levels) has none
+        assert s.common_folds == (2 if (s.metric, s.horizon, s.level) in defined else None), s
+        if s.metric == "mae":
+            assert s.common_value == pytest.approx(rows[s.candidate_id].score, rel=1e-15)
+            assert s.value == rows[s.candidate_id].score_own_folds
+    by = {(s.candidate_id, s.metric, s.horizon): s for s in scores}
+    assert by["steady", "mae", None].common_value == 1.5  # origins 2, 3
+    assert by["steady", "mae", None].value == 2.75  # all four
+    assert by["steady", "rmse", 1].common_value == pytest.approx(1.5)
+    fragile = by["fragile", "mae", None]
+    assert (fragile.common_value, fragile.common_count) == (fragile.value, fragile.count)
+    # read back, the ranking takes the stored figures instead of rescoring
+    assert rank_candidates(INFOS, scores, FOLDS, "bench", "mae", None, 1) == tuple(
+        rows[r.candidate_id] for r in rank_candidates(INFOS, SCORES, FOLDS, "bench", "mae",
+                                                      None, 1))

@@ -8,12 +8,14 @@ import io
 import uuid
 from datetime import UTC, datetime
 
+import numpy as np
 import pytest
 from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ProgrammingError
 
 from backtest.candidates import parse_candidate
+from backtest.series import make_series
 from service.cli.main import main
 from service.usecases.score_outcomes import score_due_outcomes
 from storage.db import BI_VIEWS, make_engine
@@ -82,7 +84,8 @@ def _from_view(api: Api, query: str, columns: list[str]) -> list[tuple]:
 
 
 RANKING = ["series_key", "series_version", "run_id", "run_finished_at", "metric", "horizon",
-           "level", "rank", "candidate_id", "candidate", "is_benchmark", "value", "count", "note"]
+           "level", "rank", "candidate_id", "candidate", "is_benchmark", "value", "count", "note",
+           "common_folds", "value_own_folds"]
 
 
 @pytest.mark.parametrize(("params", "where"), [
@@ -95,6 +98,68 @@ def test_the_ranking_view_equals_the_rankings_csv(filled: Api, params, where):
 
     assert view and view == _from_csv(filled, "/v1/rankings", RANKING, **params)
     assert {row[2] for row in view} == {1.0, 2.0}  # north from run 2, south from run 1
+
+
+@pytest.fixture
+def uneven(any_api: Api):
+    """A store where candidates completed different folds: Theta's smoothing estimate does
+    not converge on the flat windows of this invented series (statsmodels warns so,
+    tests/backtest/test_convergence.py), and the plan counts those folds as failed."""
+    rng = np.random.default_rng(7)
+    values = np.r_[np.full(16, 50.0), 50 + np.cumsum(rng.normal(0, 1, 24))]
+    series = make_series("flat-start", "P1Y",
+                         [(str(1980 + i), v) for i, v in enumerate(values)])
+    any_api.post_series(series)
+    candidates = [{"family": "theta"}, {"family": "benchmark", "method": "naive"},
+                  {"family": "benchmark", "method": "drift"}]
+    plan = {"horizon": 2, "first_origin": {"train_size": 8}, "benchmark": "naive",
+            "levels": [80], "not_converged": "fail"}
+    run_id = any_api.submit(["flat-start"], candidates=candidates, plan=plan).json()["id"]
+    return any_api, any_api.complete(run_id).series[0]
+
+
+@pytest.mark.parametrize(("params", "key"), [
+    ({}, ("mase", None, None)),
+    ({"metric": "rmse", "horizon": "2"}, ("rmse", 2, None)),
+    ({"metric": "winkler", "level": "80"}, ("winkler", None, 80)),
+])
+def test_the_bi_ranking_ranks_on_the_runs_common_ground(uneven, params, key):
+    """View and CSV agree and rank as the engine does: on the origins every candidate
+    completed, with the own-folds value beside it (before, they ranked own-folds values,
+    which average the candidates over different origins)."""
+    api, sr = uneven
+    view = _from_view(api, "SELECT * FROM bi_latest_ranking WHERE metric = '{}' AND {} AND {}"
+                      .format(key[0], "horizon IS NULL" if key[1] is None
+                              else f"horizon = {key[1]}",
+                              "level IS NULL" if key[2] is None else f"level = {key[2]}"),
+                      RANKING)
+    assert view == _from_csv(api, "/v1/rankings", RANKING, **params)
+    rows = sorted((dict(zip(RANKING, row)) for row in view),
+                  key=lambda r: (r["rank"] is None, r["rank"]))
+    folds = {r.candidate_id: (r.folds_ok, r.folds_failed) for r in sr.ranking}
+    theta = sr.candidates[0].candidate_id
+    assert folds[theta][1] > 0 and all(failed == 0 for cid, (_, failed) in folds.items()
+                                       if cid != theta)
+    scores = {s.candidate_id: s for s in sr.scores
+              if (s.metric, s.horizon, s.level) == key}
+    common = folds[theta][0]
+    expected = sorted(scores, key=lambda cid: scores[cid].common_value)
+    assert [r["candidate_id"] for r in rows] == expected
+    assert [r["rank"] for r in rows] == [1.0, 2.0, 3.0]
+    for r in rows:
+        score = scores[r["candidate_id"]]
+        assert r["common_folds"] == common
+        assert r["value"] == pytest.approx(score.common_value, rel=1e-12)
+        assert r["value_own_folds"] == pytest.approx(score.value, rel=1e-12)
+        assert r["count"] == score.common_count
+    naive = next(r for r in rows if r["candidate_id"] != theta and r["is_benchmark"])
+    assert naive["value"] != pytest.approx(naive["value_own_folds"])  # fewer origins
+    if key == ("mase", None, None):  # the plan's own ranking score
+        engine = [(r.candidate_id, r.score, r.score_own_folds, r.common_folds)
+                  for r in sr.ranking]
+        assert [(r["candidate_id"], pytest.approx(r["value"], rel=1e-12),
+                 pytest.approx(r["value_own_folds"], rel=1e-12), r["common_folds"])
+                for r in rows] == engine
 
 
 def test_the_scores_view_equals_each_runs_scores_csv(filled: Api):

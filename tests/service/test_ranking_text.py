@@ -29,3 +29,12 @@ def test_a_score_on_a_minority_of_its_points_shows_the_count():
     lines = _table(INFOS[:1], score_candidate("bench", folds, 1, ()), folds, "mase")
     assert "1.000 (1 of 4 points)" in lines[2]
     assert lines[0] == "s"
+
+
+def test_the_table_counts_folds_that_did_not_converge_beside_failed_ones():
+    from dataclasses import replace
+
+    folds = [replace(_fold("bench", i, 1.0), converged=i != 1) for i in range(3)]
+    lines = _table(INFOS[:1], score_candidate("bench", folds, 1, ()), folds, "mae")
+    assert lines[1].split()[-3:] == ["failed", "not", "conv."]
+    assert lines[2].split()[-2:] == ["0", "1"]

@@ -30,10 +30,12 @@ def _tie_and_gap(unit: SeriesResult) -> SeriesResult:
     def changed(score):
         if score.metric != "mae" or score.horizon is not None:
             return score
+        # no fold failed, so the common-ground figures are the own-folds ones
         if score.candidate_id == drift:
-            return replace(score, value=pooled[naive].value)
+            return replace(score, value=pooled[naive].value, common_value=pooled[naive].value)
         if score.candidate_id == theta:
-            return replace(score, value=None, note="no value on purpose")
+            return replace(score, value=None, note="no value on purpose", common_value=None,
+                           common_note="no value on purpose")
         return score
 
     return replace(unit, scores=tuple(changed(s) for s in unit.scores))
@@ -120,7 +122,8 @@ def test_the_ranking_as_csv_is_a_flat_table(ranked: Api):
     rows = list(csv.DictReader(io.StringIO(response.text)))
     assert list(rows[0]) == ["series_key", "series_version", "run_id", "run_finished_at",
                              "metric", "horizon", "level", "rank", "candidate_id",
-                             "candidate", "is_benchmark", "value", "count", "note"]
+                             "candidate", "is_benchmark", "value", "count", "note",
+                             "common_folds", "value_own_folds"]
     assert len(rows) == 8
     assert datetime.fromisoformat(rows[0]["run_finished_at"]).tzinfo is not None
     assert "T" in rows[0]["run_finished_at"]

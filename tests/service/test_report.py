@@ -300,6 +300,9 @@ def test_a_run_with_more_series_than_are_detailed_opens_with_every_series(tmp_pa
         cells = re.findall(r"<td[^>]*>(.*?)</td>", line)
         label = top.label + (" (benchmark)" if top.is_benchmark else "")
         assert cells[2:4] == [label, f"{top.score:.3f}"]
+        counts = [sum(getattr(r, n) for r in sr.ranking)
+                  for n in ("folds_ok", "folds_failed", "folds_not_converged")]
+        assert cells[7] == " / ".join(map(str, counts))
     assert [h for h in re.findall(r"<h2>Series (.*?)</h2>", html)] == keys[:2]
     # Provenance still names every version the run used, detailed or not.
     assert all(v["fingerprint"] in html for v in small.run_meta["versions"])
@@ -347,3 +350,40 @@ def test_a_run_with_a_combination_and_empirical_intervals_reports():
     parser = _Nesting()
     parser.feed(html)
     assert parser.problems == [] and parser.open == []
+
+
+def test_the_overview_and_the_lede_count_folds_that_did_not_converge():
+    """Theta's smoothing estimate does not converge on flat windows (statsmodels warns so,
+    tests/backtest/test_convergence.py): the report's overview line and its opening line
+    say how many folds stopped short, beside the failed ones."""
+    from backtest.series import make_series
+
+    rng = np.random.default_rng(7)
+    values = np.r_[np.full(16, 50.0), 50 + np.cumsum(rng.normal(0, 1, 24))]
+    series = make_series("flat-start", "P1Y", [(str(1980 + i), v) for i, v in enumerate(values)])
+    plan = parse_plan({"horizon": 2, "first_origin": {"train_size": 8}, "benchmark": "naive"})
+    result = run_backtest([series], parse_candidates([{"family": "theta"}]), plan)
+    sr = result.series[0]
+    not_converged = sum(r.folds_not_converged for r in sr.ranking)
+    ok = sum(r.folds_ok for r in sr.ranking)
+    assert not_converged > 0
+    overview = [{**vars(r), "candidate": r.label, "series_key": "flat-start",
+                 "series_version": 1}
+                for r in sr.ranking]
+
+    html = render_run_report(result, META, overview=overview)
+
+    assert f"folds completed {ok}, failed 0, completed but not converged {not_converged}" in html
+    table = html[html.index("<h2>Every series</h2>"):html.index('<section class="series">')]
+    assert "folds ok / failed / not converged" in table
+    line = re.search(r"<tr><td>flat-start</td>.*?</tr>", table)[0]
+    assert re.findall(r"<td[^>]*>(.*?)</td>", line)[7] == f"{ok} / 0 / {not_converged}"
+
+
+def test_the_report_names_the_ratio_and_defines_skill_as_one_minus_it(report):
+    """Item 15 of the audit: the ratio to the benchmark is named for what it is; "skill"
+    appears only in its definition, 1 minus the ratio."""
+    assert ">ratio to benchmark</th>" in report
+    assert re.findall(r"[^.]*\bskill\b[^.]*", report) == [
+        " It is not a skill score, which is 1 minus this ratio (Murphy 1988), higher being "
+        "better"] * len(re.findall(r"<h3>Ranking</h3>", report))

@@ -183,3 +183,20 @@ def test_digests_of_rows_written_before_the_convergence_columns_still_verify():
         before = [c.name for c in table.columns if c.name != column]
         assert table_digest(table, [{**row, column: old}]) == table_digest(table, [row], before)
         assert table_digest(table, [{**row, column: new}]) != table_digest(table, [row], before)
+
+
+def test_digests_of_score_rows_written_before_the_common_ground_columns_still_verify():
+    """Migration 0009_h14 added the score rows' ``common_*`` columns: a row stored before
+    (all four null) digests as it did without them; a common-ground figure is digested."""
+    from storage.audit.digest import table_digest
+    from storage.db.schema import ScoreRecord
+
+    table = ScoreRecord.__table__
+    added = ("common_value", "common_count", "common_note", "common_folds")
+    row = {name: f"v{i}" for i, name in enumerate(table.columns.keys()) if name not in added}
+    before = [c.name for c in table.columns if c.name not in added]
+    old = table_digest(table, [row], before)
+    assert table_digest(table, [{**row, **dict.fromkeys(added)}]) == old
+    for column, value in zip(added, (0.5, 3, "note", 2)):
+        changed = {**row, **dict.fromkeys(added), column: value}
+        assert table_digest(table, [changed]) != old

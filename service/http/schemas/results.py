@@ -108,7 +108,10 @@ class EvidenceRow(Row):
 
 
 class RankingRow(Row):
-    """A candidate's rank on a series' latest successful run, by the chosen score."""
+    """A candidate's rank on a series' latest successful run, by the chosen score over the
+    ``common_folds`` origins every candidate with a defined value completed (``value``,
+    ``count``, ``note``), with its value over its own completed folds beside it; runs stored
+    before common ground was recorded show own-folds figures and no ``common_folds``."""
 
     series_key: str
     series_version: int
@@ -124,6 +127,8 @@ class RankingRow(Row):
     value: float | None
     count: int
     note: str | None
+    common_folds: int | None
+    value_own_folds: float | None
 
 
 class ScorePage(Page):

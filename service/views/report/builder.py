@@ -56,7 +56,8 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
         about = f"{count} series, the first {len(detailed)} in full"
     body = [element("h1", f"Foldline run report: run {run}"),
             element("p", f"{about}; horizon {result.plan.get('horizon')}; ranked by "
-                         f"{score_name(result.plan)}.", cls="lede"),
+                         f"{score_name(result.plan)}; {_fold_counts(result, overview)}.",
+                    cls="lede"),
             cautions(result), what_was_run(result, run_meta)]
     if overview is not None:
         body.append(overview_section(overview, result.plan, detailed))
@@ -67,6 +68,18 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
         body.append(_series_section(sr, result.plan, charts, units.get(sr.series["key"]),
                                     series, residuals))
     return page(f"Foldline run {run}", join(body))
+
+
+def _fold_counts(result: BacktestResult,
+                 overview: Sequence[Mapping[str, Any]] | None) -> str:
+    """Folds completed, failed and not converged over every series and candidate of the
+    run (from the overview's stored ranking rows when the report details only some)."""
+    rows = overview if overview is not None else [
+        vars(r) for sr in result.series for r in sr.ranking]
+    ok, failed, not_converged = (sum(r[name] or 0 for r in rows) for name in
+                                 ("folds_ok", "folds_failed", "folds_not_converged"))
+    return (f"folds completed {ok}, failed {failed}, completed but not converged "
+            f"{not_converged}")
 
 
 def _series_section(sr: SeriesResult, plan: Mapping[str, Any], charts: ChartEmbedder,

@@ -1,6 +1,7 @@
 """The overview of a run with more series than the report details: every series' top
 candidate, score and ratio to the benchmark from the stored ranking rows, with each
-series' page named."""
+series' page named, and its folds completed, failed and not converged over all candidates
+(a ranking does not hide estimates that stopped short of the optimum)."""
 
 from __future__ import annotations
 
@@ -12,7 +13,7 @@ from service.views.report.numbers import MISSING, fixed
 from service.views.report.ranking import score_name
 
 HEADER = ["series", "version", "top candidate", "score", "ratio to benchmark",
-          "in confidence set", "calibration at h = 1", "folds ok / failed"]
+          "in confidence set", "calibration at h = 1", "folds ok / failed / not converged"]
 
 
 def overview_section(rows: Sequence[Mapping[str, Any]], plan: Mapping[str, Any],
@@ -38,12 +39,13 @@ def _line(key: str, ranking: Sequence[Mapping[str, Any]]) -> list[object]:
     top = next((r for r in ranking if r["rank"] == 1), None)
     failed = sum(r["folds_failed"] for r in ranking)
     ok = sum(r["folds_ok"] for r in ranking)
+    not_converged = sum(r["folds_not_converged"] or 0 for r in ranking)
+    folds = f"{ok} / {failed} / {not_converged}"
     in_set = sum(bool(r["in_confidence_set"]) for r in ranking)
     if top is None:
         return [key, ranking[0]["series_version"], "no candidate ranked", MISSING, MISSING,
-                f"{in_set} of {len(ranking)}", MISSING, f"{ok} / {failed}"]
+                f"{in_set} of {len(ranking)}", MISSING, folds]
     label = top["candidate"] + (" (benchmark)" if top["is_benchmark"] else "")
     return [key, top["series_version"], label, fixed(top["score"]),
             MISSING if top["is_benchmark"] else fixed(top["ratio_to_benchmark"]),
-            f"{in_set} of {len(ranking)}", top["calibration_zone"] or MISSING,
-            f"{ok} / {failed}"]
+            f"{in_set} of {len(ranking)}", top["calibration_zone"] or MISSING, folds]

@@ -74,7 +74,8 @@ class Ar1:
         return FoldResult(
             series_key="sim", candidate_id="car1", fold=number, origin=str(end),
             train_start="0", train_size=end, reestimated=True, status="ok", reason=None,
-            params={"phi": self.phi}, warnings=(), periods=(),
+            params={"phi": self.phi}, warnings=(),
+            periods=tuple(str(end + i) for i in range(self.horizon)),
             actuals=floats(y[end:end + self.horizon]), point=floats(point),
             lower={lv: floats(b) for lv, b in lower.items()},
             upper={lv: floats(b) for lv, b in upper.items()},
