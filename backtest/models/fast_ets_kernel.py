@@ -40,8 +40,6 @@ from backtest.models.compiled import njit
 
 #: Index of each smoothing parameter and initial state in the internal vector.
 ALPHA, BETA_STAR, GAMMA_STAR, PHI, LEVEL, TREND, SEASONS = 0, 1, 2, 3, 4, 5, 6
-#: statsmodels' replacement of a zero prediction in the multiplicative-error likelihood.
-_ZERO_PREDICTION = 1e-32
 
 
 @njit
@@ -51,8 +49,9 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
     """The log-likelihood at the internal vector ``theta`` (length ``6 + m``); its partial
     derivatives with respect to ``theta[free]`` are written to ``gradient``. ``free``
     lists the smoothing parameters (indices below :data:`LEVEL`) before the initial
-    states. Returns NaN where the recursions break down (a zero season or level in a
-    multiplicative class, a zero error sum)."""
+    states. Returns NaN where the recursions break down: a division by a zero season,
+    level or prediction in a multiplicative class (statsmodels' likelihood is then not
+    finite either), a zero or non-finite error sum."""
     k = free.shape[0]
     alpha, beta, gamma, phi = theta[ALPHA], theta[BETA_STAR], theta[GAMMA_STAR], theta[PHI]
     dl = np.zeros(k)
@@ -85,6 +84,8 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
         # each derivative below is linear in those of the previous states, with these
         # coefficients: d_yhat = y_base d_base + y_old d_old, d_level = level_old d_old +
         # (1 - alpha) d_base, d_season = season_level d_level + (1 - gamma) d_old
+        if multiplicative_season and old == 0.0:
+            return _broken(gradient)
         if multiplicative_season:
             yhat = base * old
             new_level = alpha * (yt / old) + (1 - alpha) * base
@@ -94,16 +95,18 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
             new_level = alpha * (yt - old) + (1 - alpha) * base
             y_base, y_old, level_old = 1.0, 1.0, -alpha
         new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
+        if multiplicative_season and new_level == 0.0:
+            return _broken(gradient)
         if multiplicative_season:
             new_season = gamma * yt / new_level + (1 - gamma) * old
             season_level = -gamma * yt / (new_level * new_level)
         else:
             new_season = gamma * (yt - new_level) + (1 - gamma) * old
             season_level = -gamma
+        if multiplicative_error and yhat == 0.0:
+            return _broken(gradient)
         if multiplicative_error:
             e = (yt - yhat) / yhat
-            if yhat == 0.0:
-                yhat = _ZERO_PREDICTION
             sum_log += math.log(abs(yhat))
             sse_yhat = -2.0 * e * yt / (yhat * yhat)
             log_yhat = 1.0 / yhat
@@ -149,12 +152,18 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
         level, trend = new_level, new_trend
         ring[r] = new_season
     if not (sse > 0.0 and math.isfinite(sse) and math.isfinite(sum_log)):
-        for j in range(k):
-            gradient[j] = math.nan
-        return math.nan
+        return _broken(gradient)
     for j in range(k):
         gradient[j] = -0.5 * n * d_sse[j] / sse - d_log[j]
     return -0.5 * n * (math.log(2 * math.pi * sse / n) + 1) - sum_log
+
+
+@njit
+def _broken(gradient: np.ndarray) -> float:
+    """The value (NaN) and gradient (NaN) where the recursions break down."""
+    for j in range(gradient.shape[0]):
+        gradient[j] = math.nan
+    return math.nan
 
 
 @njit

@@ -18,8 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import _lbfgsb
 
-#: Stored correction pairs and line-search steps (scipy's defaults).
-CORRECTIONS = 10
+#: Line-search steps (scipy's default).
 LINE_SEARCH_STEPS = 20
 #: ``task`` codes of the routine: evaluate f and g, a new iterate, converged, stopped, failed.
 _EVALUATE, _NEW_ITERATE, _CONVERGED, _STOP, _ABNORMAL = 3, 1, 4, 5, 8
@@ -41,9 +40,10 @@ class Minimum:
 
 def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarray,
                      lower: np.ndarray, upper: np.ndarray, args: tuple, *, ftol: float,
-                     gtol: float, max_iterations: int) -> Minimum:
+                     gtol: float, max_iterations: int, corrections: int = 10) -> Minimum:
     """Minimise ``fun(x, *args) -> (value, gradient)`` over ``lower <= x <= upper``
-    (infinite bounds allowed), with scipy's ``ftol`` and ``gtol`` meaning."""
+    (infinite bounds allowed), with scipy's ``ftol``, ``gtol`` and ``maxcor``
+    (``corrections``, the stored correction pairs) meaning."""
     n = len(x0)
     finite_low, finite_up = np.isfinite(lower), np.isfinite(upper)
     low = np.where(finite_low, lower, 0.0)
@@ -54,7 +54,7 @@ def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarra
     x = np.clip(np.asarray(x0, dtype=float), lower, upper)
     f = np.array(0.0)
     g = np.zeros(n)
-    m = CORRECTIONS
+    m = corrections
     work = np.zeros(2 * m * n + 5 * n + 11 * m * m + 8 * m)
     iwork = np.zeros(3 * n, dtype=np.int32)
     task, ln_task = np.zeros(2, dtype=np.int32), np.zeros(2, dtype=np.int32)

@@ -53,7 +53,7 @@ def simulated(code: str, params: dict[str, float], n: int, m: int, seed: int) ->
     vector = np.array([params[name] for name in model.param_names])
     results = model.smooth(vector)
     path = results.simulate(n, anchor="start", repetitions=1,
-                            random_state=np.random.default_rng(seed))
+                            rng=np.random.default_rng(seed))
     return np.asarray(path, dtype=float).ravel()
 
 
