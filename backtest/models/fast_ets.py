@@ -30,7 +30,7 @@ import numpy as np
 from backtest.models import fast_ets_kernel as kernel
 from backtest.models.base import Fit, Params
 from backtest.models.fast_arima import ESTIMATOR_KEY, EstimatorFallback, FastEstimationError
-from backtest.models.lbfgsb_driver import minimize_bounded
+from backtest.models.lbfgsb_driver import Minimum, minimize_bounded
 
 if TYPE_CHECKING:
     from backtest.models.ets import EtsSpec
@@ -47,6 +47,10 @@ FTOL, GTOL = 1e-12, 1e-8
 #: Correction pairs L-BFGS-B keeps: more than any class has parameters (17 at season 12),
 #: which halves the iterations of the seasonal classes against scipy's default of 10.
 CORRECTIONS = 30
+#: The smoothing level of the second start, and the second search's stopping rule
+#: (statsmodels' own: scipy's ``factr=1e7`` and ``pgtol=1e-5``).
+SECOND_START_LEVEL = 0.5
+SCREEN_FTOL, SCREEN_GTOL = 1e7 * float(np.finfo(float).eps), 1e-5
 #: Largest projected gradient (of minus the log-likelihood per observation, in the
 #: optimiser's coordinates) accepted when the line search stops without a verdict:
 #: statsmodels' own stopping threshold (scipy's ``pgtol`` default).
@@ -211,7 +215,11 @@ def _heuristic_states(y: np.ndarray, form: EtsClass) -> tuple[float, float, np.n
 
 def fast_estimate(spec: EtsSpec, y: np.ndarray, season_length: int,
                   start_params: Params | None = None) -> FastEtsFit:
-    """Maximum likelihood estimates of ``spec`` on ``y``.
+    """Maximum likelihood estimates of ``spec`` on ``y``, from ``start_params`` if given,
+    else from statsmodels' start values and, as a second start, the same with
+    :data:`SECOND_START_LEVEL` as the smoothing level (the likelihood has several modes,
+    and statsmodels' path and ours may reach different ones). The second search stops at
+    statsmodels' own tolerance and is refined only if it beats the first.
 
     Raises
     ------
@@ -224,26 +232,53 @@ def fast_estimate(spec: EtsSpec, y: np.ndarray, season_length: int,
         raise FastEstimationError("the window holds missing or non-finite values")
     if ((form.multiplicative_error or form.season == "mul") and np.any(y <= 0)):
         raise FastEstimationError("a multiplicative class needs strictly positive data")
-    start = start_params if start_params is not None else start_values(y, form)
-    theta = form.internal(start)
-    free = form.free
-    bounds = [_bounds(f) for f in free]
-    theta[free] = [min(max(v, lo), hi) for v, (lo, hi) in zip(theta[free], bounds)]
-    if not math.isfinite(form.loglike(theta, y)):
-        raise FastEstimationError("the log-likelihood is not finite at the start values")
-    lower, upper = np.array(bounds).T
-    args = (theta, y, form.m, form.multiplicative_error, form.season == "mul", free)
-    result = minimize_bounded(kernel.objective, theta[free], lower, upper, args,
-                              ftol=FTOL, gtol=GTOL, max_iterations=MAX_ITERATIONS,
-                              corrections=CORRECTIONS)
-    theta[free] = result.x
+    search = _Search(form, y)
+    if start_params is not None:
+        best, theta = search.run(start_params, FTOL, GTOL)
+        iterations, evaluations = best.iterations, best.evaluations
+    else:
+        start = start_values(y, form)
+        best, theta = search.run(start, FTOL, GTOL)
+        second, second_theta = search.run({**start, "smoothing_level": SECOND_START_LEVEL},
+                                          SCREEN_FTOL, SCREEN_GTOL)
+        iterations, evaluations = (best.iterations + second.iterations,
+                                   best.evaluations + second.evaluations)
+        if second.fun < best.fun:
+            refined, refined_theta = search.run(form.named(second_theta), FTOL, GTOL)
+            iterations += refined.iterations
+            evaluations += refined.evaluations
+            if refined.fun < best.fun:
+                best, theta = refined, refined_theta
     llf = form.loglike(theta, y)
     if not math.isfinite(llf):
         raise FastEstimationError("the log-likelihood is not finite at the optimum")
-    converged = result.converged or (result.line_search_failed
-                                     and _stationary(result.x, result.jac, lower, upper))
-    return FastEtsFit(form.named(theta), float(llf), converged, result.iterations,
-                      result.evaluations)
+    converged = best.converged or (best.line_search_failed
+                                   and _stationary(best.x, best.jac, search.lower,
+                                                   search.upper))
+    return FastEtsFit(form.named(theta), float(llf), converged, iterations, evaluations)
+
+
+class _Search:
+    """L-BFGS-B over the free parameters of one class on one window."""
+
+    def __init__(self, form: EtsClass, y: np.ndarray) -> None:
+        self.form, self.y, self.free = form, y, form.free
+        self.lower, self.upper = np.array([_bounds(f) for f in self.free]).T
+
+    def run(self, start: Params, ftol: float, gtol: float) -> tuple[Minimum, np.ndarray]:
+        """The optimiser's report and the internal vector where it stopped."""
+        theta = self.form.internal(start)
+        theta[self.free] = np.clip(theta[self.free], self.lower, self.upper)
+        if not math.isfinite(self.form.loglike(theta, self.y)):
+            raise FastEstimationError("the log-likelihood is not finite at the start values")
+        form = self.form
+        args = (theta, self.y, form.m, form.multiplicative_error, form.season == "mul",
+                self.free)
+        result = minimize_bounded(kernel.objective, theta[self.free], self.lower, self.upper,
+                                  args, ftol=ftol, gtol=gtol, max_iterations=MAX_ITERATIONS,
+                                  corrections=CORRECTIONS)
+        theta[self.free] = result.x
+        return result, theta
 
 
 def _bounds(index: int) -> tuple[float, float]:

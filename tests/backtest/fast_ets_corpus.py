@@ -45,15 +45,17 @@ def _ets(code: str) -> EtsSpec:
     return EtsSpec(kinds[error], kinds[trend], kinds[season])  # type: ignore[arg-type]
 
 
-def simulated(code: str, params: dict[str, float], n: int, m: int, seed: int) -> np.ndarray:
+def simulated(code: str, params: dict[str, float], n: int, m: int, seed: int,
+              sigma: float) -> np.ndarray:
     """A series simulated from the ETS class ``code`` with ``params`` (statsmodels' names)
-    from its initial states."""
+    from its initial states, with Gaussian errors of standard deviation ``sigma``
+    (relative for a multiplicative error)."""
     spec = _ets(code)
     model = spec.model(np.ones(max(n, 2 * m + 2)), m)
     vector = np.array([params[name] for name in model.param_names])
     results = model.smooth(vector)
-    path = results.simulate(n, anchor="start", repetitions=1,
-                            rng=np.random.default_rng(seed))
+    errors = sigma * np.random.default_rng(seed).standard_normal((n, 1))
+    path = results.simulate(n, anchor="start", repetitions=1, random_errors=errors)
     return np.asarray(path, dtype=float).ravel()
 
 
@@ -102,29 +104,29 @@ def corpus(size: str = "ci") -> list[CorpusSeries]:
                      (_ets("AAA"), _ets("MAM"))),
         CorpusSeries("El Nino", elnino[-180:], 12, (_ets("ANA"), _ets("MNA"))),
         CorpusSeries("simulated ANN", simulated(
-            "ANN", {"smoothing_level": 0.3, "initial_level": 50.0}, 120, 1, 11), 1,
+            "ANN", {"smoothing_level": 0.3, "initial_level": 50.0}, 120, 1, 11, 5.0), 1,
             (_ets("ANN"), _ets("AAdN"))),
         CorpusSeries("simulated AAdN", simulated(
             "AAdN", {"smoothing_level": 0.5, "smoothing_trend": 0.1, "damping_trend": 0.9,
-                     "initial_level": 100.0, "initial_trend": 2.0}, 120, 1, 12), 1,
+                     "initial_level": 100.0, "initial_trend": 2.0}, 120, 1, 12, 3.0), 1,
             (_ets("AAdN"), _ets("AAN"))),
         CorpusSeries("simulated MNN", simulated(
-            "MNN", {"smoothing_level": 0.4, "initial_level": 200.0}, 120, 1, 13) / 10.0, 1,
+            "MNN", {"smoothing_level": 0.4, "initial_level": 200.0}, 120, 1, 13, 0.05) / 10.0, 1,
             (_ets("MNN"),)),
         CorpusSeries("simulated AAA, season 4", simulated(
             "AAA", {"smoothing_level": 0.4, "smoothing_trend": 0.05,
                     "smoothing_seasonal": 0.1, "initial_level": 40.0, "initial_trend": 0.5,
-                    **_seasons(4, 5.0, False)}, 100, 4, 14), 4,
+                    **_seasons(4, 5.0, False)}, 100, 4, 14, 1.5), 4,
             (_ets("AAA"), _ets("ANA"))),
         CorpusSeries("simulated MAdM, season 12", simulated(
             "MAdM", {"smoothing_level": 0.3, "smoothing_trend": 0.05,
                      "smoothing_seasonal": 0.1, "damping_trend": 0.95,
                      "initial_level": 100.0, "initial_trend": 1.0,
-                     **_seasons(12, 0.2, True)}, 144, 12, 15), 12,
+                     **_seasons(12, 0.2, True)}, 144, 12, 15, 0.03), 12,
             (_ets("MAdM"), _ets("MAM"))),
         CorpusSeries("simulated MNA, season 12", simulated(
             "MNA", {"smoothing_level": 0.2, "smoothing_seasonal": 0.05,
-                    "initial_level": 80.0, **_seasons(12, 8.0, False)}, 144, 12, 16), 12,
+                    "initial_level": 80.0, **_seasons(12, 8.0, False)}, 144, 12, 16, 0.04), 12,
             (_ets("MNA"), _ets("ANA"))),
     ]
     return items
