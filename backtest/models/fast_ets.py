@@ -10,8 +10,7 @@ parameters) or a previous estimate, in the same coordinates (the likelihood of t
 seasonal classes has several modes, and the path decides which one is reached). The
 differences are the compiled likelihood with its exact gradient (:mod:`.fast_ets_kernel`;
 statsmodels differentiates numerically), scipy's L-BFGS-B routine driven without its
-per-evaluation wrapper (:mod:`.lbfgsb_driver`) with a longer memory, and a tighter
-stopping rule.
+per-evaluation wrapper (:mod:`.lbfgsb_driver`), and a tighter stopping rule.
 
 Parameters come back under the ``ets`` family's (statsmodels') names, so forecasts and
 intervals are computed by the reference path with them.
@@ -44,9 +43,6 @@ DAMPING_BOUNDS = (0.8, 0.98)
 MAX_ITERATIONS = 1000
 #: Stopping rule (scipy's meaning): relative reduction of the objective, projected gradient.
 FTOL, GTOL = 1e-12, 1e-8
-#: Correction pairs L-BFGS-B keeps: more than any class has parameters (17 at season 12),
-#: which halves the iterations of the seasonal classes against scipy's default of 10.
-CORRECTIONS = 30
 #: The smoothing level of the second start, and the second search's stopping rule
 #: (statsmodels' own: scipy's ``factr=1e7`` and ``pgtol=1e-5``).
 SECOND_START_LEVEL = 0.5
@@ -275,8 +271,7 @@ class _Search:
         args = (theta, self.y, form.m, form.multiplicative_error, form.season == "mul",
                 self.free)
         result = minimize_bounded(kernel.objective, theta[self.free], self.lower, self.upper,
-                                  args, ftol=ftol, gtol=gtol, max_iterations=MAX_ITERATIONS,
-                                  corrections=CORRECTIONS)
+                                  args, ftol=ftol, gtol=gtol, max_iterations=MAX_ITERATIONS)
         theta[self.free] = result.x
         return result, theta
 
