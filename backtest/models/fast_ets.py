@@ -7,7 +7,8 @@ statsmodels' internal coordinates, ``0 < alpha < 1``, ``0 < beta / alpha < 1``,
 free but the last initial seasonal state fixed at 0 (additive) or 1 (multiplicative),
 from statsmodels' start values (its heuristic initial states, its default smoothing
 parameters) or a previous estimate, in the same coordinates (the likelihood of the
-seasonal classes has several modes, and the path decides which one is reached). The
+seasonal classes has several modes, and the path decides which one is reached; a cold fit
+also searches from a second start, see :func:`fast_estimate`). The
 differences are the compiled likelihood with its exact gradient (:mod:`.fast_ets_kernel`;
 statsmodels differentiates numerically), scipy's L-BFGS-B routine driven without its
 per-evaluation wrapper (:mod:`.lbfgsb_driver`), and a tighter stopping rule.
@@ -235,11 +236,16 @@ def fast_estimate(spec: EtsSpec, y: np.ndarray, season_length: int,
     else:
         start = start_values(y, form)
         best, theta = search.run(start, FTOL, GTOL)
-        second, second_theta = search.run({**start, "smoothing_level": SECOND_START_LEVEL},
-                                          SCREEN_FTOL, SCREEN_GTOL)
-        iterations, evaluations = (best.iterations + second.iterations,
-                                   best.evaluations + second.evaluations)
-        if second.fun < best.fun:
+        iterations, evaluations = best.iterations, best.evaluations
+        try:
+            second, second_theta = search.run({**start, "smoothing_level": SECOND_START_LEVEL},
+                                              SCREEN_FTOL, SCREEN_GTOL)
+        except FastEstimationError:  # no finite likelihood there: the first search stands
+            second = None
+        if second is not None:
+            iterations += second.iterations
+            evaluations += second.evaluations
+        if second is not None and second.fun < best.fun:
             refined, refined_theta = search.run(form.named(second_theta), FTOL, GTOL)
             iterations += refined.iterations
             evaluations += refined.evaluations
