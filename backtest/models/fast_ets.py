@@ -52,6 +52,8 @@ SCREEN_FTOL, SCREEN_GTOL = 1e7 * float(np.finfo(float).eps), 1e-5
 #: optimiser's coordinates) accepted when the line search stops without a verdict:
 #: statsmodels' own stopping threshold (scipy's ``pgtol`` default).
 ACCEPTED_GRADIENT = 1e-5
+#: Least squares of ten values on an intercept and the times 1..10 (statsmodels' heuristic).
+_LEVEL_TREND = np.linalg.pinv(np.column_stack([np.ones(10), np.arange(1.0, 11.0)]))
 
 
 @dataclass(frozen=True)
@@ -205,8 +207,7 @@ def _heuristic_states(y: np.ndarray, form: EtsClass) -> tuple[float, float, np.n
         seasons = seasons / seasons.mean() if form.season == "mul" else seasons - seasons.mean()
     if len(smooth) < 10:
         raise FastEstimationError("fewer than ten smoothed values for the start values")
-    design = np.column_stack([np.ones(10), np.arange(1.0, 11.0)])
-    level, trend = np.linalg.pinv(design) @ smooth[:10]
+    level, trend = _LEVEL_TREND @ smooth[:10]
     return float(level), float(trend), seasons
 
 

@@ -41,9 +41,9 @@ class Minimum:
 def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarray,
                      lower: np.ndarray, upper: np.ndarray, args: tuple, *, ftol: float,
                      gtol: float, max_iterations: int, corrections: int = 10) -> Minimum:
-    """Minimise ``fun(x, *args) -> (value, gradient)`` over ``lower <= x <= upper``
-    (infinite bounds allowed), with scipy's ``ftol``, ``gtol`` and ``maxcor``
-    (``corrections``, the stored correction pairs) meaning."""
+    """Minimise ``fun(x, *args) -> (value, gradient)`` (a float and a float64 array) over
+    ``lower <= x <= upper`` (infinite bounds allowed), with scipy's ``ftol``, ``gtol`` and
+    ``maxcor`` (``corrections``, the stored correction pairs) meaning."""
     n = len(x0)
     finite_low, finite_up = np.isfinite(lower), np.isfinite(upper)
     low = np.where(finite_low, lower, 0.0)
@@ -52,8 +52,7 @@ def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarra
                                                          np.where(finite_up, 3, 0)))
     kinds = kinds.astype(np.int32)
     x = np.clip(np.asarray(x0, dtype=float), lower, upper)
-    f = np.array(0.0)
-    g = np.zeros(n)
+    f, g = 0.0, np.zeros(n)
     m = corrections
     work = np.zeros(2 * m * n + 5 * n + 11 * m * m + 8 * m)
     iwork = np.zeros(3 * n, dtype=np.int32)
@@ -65,12 +64,11 @@ def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarra
     while True:
         _lbfgsb.setulb(m, x, low, up, kinds, f, g, factr, gtol, work, iwork, task, lsave,
                        isave, dsave, LINE_SEARCH_STEPS, ln_task)
-        if task[0] == _EVALUATE:
-            value, gradient = fun(x, *args)
-            f = np.array(value)
-            g = np.asarray(gradient, dtype=float)
+        code = task[0]
+        if code == _EVALUATE:
+            f, g = fun(x, *args)
             evaluations += 1
-        elif task[0] == _NEW_ITERATE:
+        elif code == _NEW_ITERATE:
             iterations += 1
             if iterations >= max_iterations:
                 task[0], task[1] = _STOP, _ITERATION_LIMIT
