@@ -153,6 +153,8 @@ def part_corpus(per_spec: int) -> None:
     better = table[table["gap"] > 1e-6]
     print(f"  folds where the fast optimum is more than 1e-6 higher: {len(better)}; "
           f"more than 1e-6 lower: {int((table['gap'] < -1e-6).sum())}")
+    for _, row in table[table["gap"] < -1e-6].iterrows():
+        print(f"    lower: {row['series']}, {row['model']}, end {row['end']}: {row['gap']:+.3e}")
     print(f"  folds where the fast estimator failed (the engine falls back): {len(failures)}")
     for failure in failures:
         print(f"    {failure}")

@@ -44,9 +44,9 @@ DAMPING_BOUNDS = (0.8, 0.98)
 MAX_ITERATIONS = 1000
 #: Stopping rule (scipy's meaning): relative reduction of the objective, projected gradient.
 FTOL, GTOL = 1e-12, 1e-8
-#: The smoothing level of the second start, and the second search's stopping rule
+#: The smoothing levels of the further starts, and their searches' stopping rule
 #: (statsmodels' own: scipy's ``factr=1e7`` and ``pgtol=1e-5``).
-SECOND_START_LEVEL = 0.5
+OTHER_START_LEVELS = (0.5, 0.2)
 SCREEN_FTOL, SCREEN_GTOL = 1e7 * float(np.finfo(float).eps), 1e-5
 #: Largest projected gradient (of minus the log-likelihood per observation, in the
 #: optimiser's coordinates) accepted when the line search stops without a verdict:
@@ -214,10 +214,10 @@ def _heuristic_states(y: np.ndarray, form: EtsClass) -> tuple[float, float, np.n
 def fast_estimate(spec: EtsSpec, y: np.ndarray, season_length: int,
                   start_params: Params | None = None) -> FastEtsFit:
     """Maximum likelihood estimates of ``spec`` on ``y``, from ``start_params`` if given,
-    else from statsmodels' start values and, as a second start, the same with
-    :data:`SECOND_START_LEVEL` as the smoothing level (the likelihood has several modes,
-    and statsmodels' path and ours may reach different ones). The second search stops at
-    statsmodels' own tolerance and is refined only if it beats the first.
+    else from statsmodels' start values and, as further starts, the same with each of
+    :data:`OTHER_START_LEVELS` as the smoothing level (the likelihood has several modes,
+    and statsmodels' path and ours may reach different ones). The further searches stop
+    at statsmodels' own tolerance and are refined only if they beat the best so far.
 
     Raises
     ------
@@ -238,20 +238,20 @@ def fast_estimate(spec: EtsSpec, y: np.ndarray, season_length: int,
         start = start_values(y, form)
         best, theta = search.run(start, FTOL, GTOL)
         iterations, evaluations = best.iterations, best.evaluations
-        try:
-            second, second_theta = search.run({**start, "smoothing_level": SECOND_START_LEVEL},
-                                              SCREEN_FTOL, SCREEN_GTOL)
-        except FastEstimationError:  # no finite likelihood there: the first search stands
-            second = None
-        if second is not None:
-            iterations += second.iterations
-            evaluations += second.evaluations
-        if second is not None and second.fun < best.fun:
-            refined, refined_theta = search.run(form.named(second_theta), FTOL, GTOL)
-            iterations += refined.iterations
-            evaluations += refined.evaluations
-            if refined.fun < best.fun:
-                best, theta = refined, refined_theta
+        for level in OTHER_START_LEVELS:
+            try:
+                other, other_theta = search.run({**start, "smoothing_level": level},
+                                                SCREEN_FTOL, SCREEN_GTOL)
+            except FastEstimationError:  # no finite likelihood there: skipped
+                continue
+            iterations += other.iterations
+            evaluations += other.evaluations
+            if other.fun < best.fun:
+                refined, refined_theta = search.run(form.named(other_theta), FTOL, GTOL)
+                iterations += refined.iterations
+                evaluations += refined.evaluations
+                if refined.fun < best.fun:
+                    best, theta = refined, refined_theta
     llf = form.loglike(theta, y)
     if not math.isfinite(llf):
         raise FastEstimationError("the log-likelihood is not finite at the optimum")
