@@ -43,7 +43,7 @@ SMOOTHING_BOUNDS = (1e-4, 1 - 1e-4)
 DAMPING_BOUNDS = (0.8, 0.98)
 MAX_ITERATIONS = 1000
 #: Stopping rule (scipy's meaning): relative reduction of the objective, projected gradient.
-FTOL, GTOL = 1e-12, 1e-8
+FTOL, GTOL = 1e-13, 1e-10
 #: The smoothing levels of the further starts, and their searches' stopping rule
 #: (statsmodels' own: scipy's ``factr=1e7`` and ``pgtol=1e-5``).
 OTHER_START_LEVELS = (0.5, 0.2)
