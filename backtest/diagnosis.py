@@ -19,6 +19,7 @@ from backtest.candidates import Candidate
 from backtest.folds import Origin
 from backtest.models.base import Estimator
 from backtest.models.combination import CombinationSpec
+from backtest.models.fast_arima import ESTIMATOR_KEY
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.runner import run_candidate
@@ -54,10 +55,13 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
 
 
 def _estimates(fold: FoldResult) -> dict | None:
-    """The fold's coefficient estimates as the diagnostics name them."""
+    """The fold's coefficient estimates as the diagnostics name them (without the
+    ``estimator`` record)."""
     if fold.fit_summary and fold.fit_summary.get("params"):
         return {k: v["estimate"] for k, v in fold.fit_summary["params"].items()}
-    return fold.params
+    if fold.params is None:
+        return None
+    return {k: v for k, v in fold.params.items() if k != ESTIMATOR_KEY}
 
 
 def full_series_diagnostics(series: Series, candidate: Candidate,

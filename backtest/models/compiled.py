@@ -4,7 +4,8 @@ Compiled functions are cached by numba (``cache=True``) under ``NUMBA_CACHE_DIR`
 that is not set it defaults to ``foldline/numba`` in the user's cache directory
 (``$XDG_CACHE_HOME``, else ``~/.cache``), so a read-only installation still keeps its
 machine code between processes. The first process compiles (a few seconds), later ones
-load the cache; :func:`warm_up` in :mod:`.fast_arima` does it at worker start.
+load the cache; the ``warm_up`` functions of :mod:`.fast_arima` and :mod:`.fast_ets` do
+it at worker start.
 """
 
 from __future__ import annotations

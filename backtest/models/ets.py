@@ -8,6 +8,12 @@ Forecasts from an estimation origin, and from a stretch of origins with fixed pa
 come from one smoothing pass (:mod:`.ets_stretch`) and equal statsmodels' per-origin
 predictions; statsmodels' own route builds a results object, with its numerical
 covariance, for every origin.
+
+``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_ets`, the
+same likelihood, bounds and start values); forecasts and results still come from the
+statsmodels model at those estimates. The parameters then carry ``estimator`` (1 fast,
+0 the fast estimator failed and the reference estimated the fold, with a
+:class:`~.fast_arima.EstimatorFallback` warning giving the reason).
 """
 
 from __future__ import annotations
@@ -25,6 +31,7 @@ from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 from backtest.errors import CandidateError
 from backtest.labels import ets_label
 from backtest.models.base import (
+    Estimator,
     Fit,
     Forecast,
     ModelSpec,
@@ -40,6 +47,8 @@ from backtest.models.ets_stretch import (
     relative_variance,
     simulated_bounds,
 )
+from backtest.models.fast_arima import ESTIMATOR_KEY
+from backtest.models.fast_ets import fast_fit
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
 
@@ -54,6 +63,7 @@ class EtsSpec(ModelSpec):
     family: ClassVar[str] = "ets"
     warm_startable: ClassVar[bool] = True
     raw_optional: ClassVar[bool] = True
+    fast_estimable: ClassVar[bool] = True
     error: Literal["additive", "multiplicative"] = "additive"
     trend: Literal["none", "additive", "damped"] = "none"
     season: Literal["none", "additive", "multiplicative"] = "none"
@@ -102,15 +112,29 @@ class EtsSpec(ModelSpec):
         )
 
     def fit(self, y: np.ndarray, season_length: int, *,
-            start_params: Params | None = None) -> Fit:
+            start_params: Params | None = None, estimator: Estimator = "reference",
+            keep_raw: bool = True) -> Fit:
         """Estimate on ``y``; ``start_params`` (e.g. a previous estimate) seeds the optimiser
-        instead of statsmodels' default start values."""
+        instead of statsmodels' default start values. ``keep_raw=False`` lets the fast
+        estimator skip building statsmodels' results object."""
+        if estimator == "fast":
+            return fast_fit(self, y, season_length, start_params, keep_raw)
+        return self.reference_fit(y, season_length, start_params=start_params)
+
+    def reference_fit(self, y: np.ndarray, season_length: int, *,
+                      start_params: Params | None = None) -> Fit:
+        """statsmodels' own estimation (the reference estimator)."""
         model = self.model(y, season_length)
         start = None if start_params is None else _vector(model, start_params)
         fitted = model.fit(start_params=start, disp=False)
         converged = (getattr(fitted, "mle_retvals", None) or {}).get("converged")
         return Fit(dict(zip(model.param_names, map(float, fitted.params))), fitted,
                    None if converged is None else bool(converged))
+
+    def assessed(self, fit: Fit) -> tuple[EtsSpec, Fit]:
+        """The fit with its model parameters only (without the ``estimator`` record)."""
+        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw,
+                         fit.converged)
 
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
                  levels: tuple[int, ...], seed: int) -> Forecast:
@@ -129,15 +153,24 @@ class EtsSpec(ModelSpec):
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
                      levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
-                     keep_raw: bool = True) -> tuple[Fit, Forecast]:
+                     estimator: Estimator = "reference", keep_raw: bool = True
+                     ) -> tuple[Fit, Forecast]:
         """Estimate on ``y``, then forecast from the estimation's own smoothing pass.
 
         Without ``keep_raw`` statsmodels returns the estimates alone and does not build its
         results object, whose construction computes the numerical covariance (about a
         third of a fit); the smoothing pass is then run on its own. Estimates and forecasts
-        are the same either way.
+        are the same either way. Under the fast estimator the smoothing pass runs at its
+        estimates.
         """
-        if keep_raw:
+        if estimator == "fast":
+            fit = fast_fit(self, y, season_length, start_params, keep_raw)
+            if fit.raw is not None:
+                fitted, states = fit.raw.fittedvalues, fit.raw.states
+            else:
+                model = self.model(y, season_length)
+                fitted, states = model.smooth(_vector(model, fit.params), return_raw=True)
+        elif keep_raw:
             fit = self.fit(y, season_length, start_params=start_params)
             fitted, states = fit.raw.fittedvalues, fit.raw.states
         else:
@@ -188,7 +221,8 @@ class EtsSpec(ModelSpec):
 
 
 def _vector(model: ETSModel, params: Params) -> np.ndarray:
-    """``params`` in the order of the statsmodels model's parameters."""
+    """``params`` in the order of the statsmodels model's parameters (other entries, such
+    as ``estimator``, are left out)."""
     return np.array([params[n] for n in model.param_names], dtype=float)
 
 

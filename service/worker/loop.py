@@ -18,7 +18,7 @@ import threading
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from backtest.models.fast_arima import warm_up
+from backtest.models import fast_arima, fast_ets
 from service.settings import Settings
 from service.usecases.score_outcomes import score_due_outcomes
 from service.views.report.prerender import prerender_report
@@ -72,9 +72,9 @@ class Worker:
 
     def run_forever(self, stop: threading.Event) -> None:
         """Work on runs until ``stop`` is set, looking for new ones every ``poll_seconds``;
-        before each look, score the outcomes new actuals made due. The compiled ARIMA
-        likelihood is loaded (or compiled) meanwhile in a background thread, so the first
-        run does not wait for it when it arrives later."""
+        before each look, score the outcomes new actuals made due. The compiled ARIMA and
+        ETS likelihoods are loaded (or compiled) meanwhile in a background thread, so the
+        first run does not wait for them when it arrives later."""
         threading.Thread(target=self._warm_up, name="warm-up", daemon=True).start()
         log.info("worker %s ready", self.id)
         while not stop.is_set():
@@ -92,7 +92,8 @@ class Worker:
         log.info("worker %s stopped", self.id)
 
     def _warm_up(self) -> None:
-        log.info("worker %s: compiled estimator ready in %.2f s", self.id, warm_up())
+        seconds = fast_arima.warm_up() + fast_ets.warm_up()
+        log.info("worker %s: compiled estimators ready in %.2f s", self.id, seconds)
 
     def close(self) -> None:
         """Release the database connections this worker opened."""

@@ -139,7 +139,8 @@ def test_co2_folds_converge_and_the_ranking_counts_them(log_co2):
     series = make_series("co2", "P1M", zip(months, np.exp(log_co2)))
     candidates = parse_candidates([{"family": "arima", "order": [0, 1, 1],
                                     "seasonal": {"order": [0, 1, 1]}, "transform": "log"}])
-    plan = parse_plan({"horizon": 12, "max_origins": 24, "assessment": "lean"})
+    plan = parse_plan({"horizon": 12, "max_origins": 24, "assessment": "lean",
+                       "estimator": "reference"})
     sr = run_backtest([series], candidates, plan).series[0]
     folds = [f for f in sr.folds if f.candidate_id == candidates[0].id]
     assert [f.converged for f in folds] == [True] * 24

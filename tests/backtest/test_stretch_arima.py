@@ -175,7 +175,7 @@ def test_engine_folds_equal_the_hand_loop(transform, series_g):
     candidate = parse_candidate({"family": "arima", "order": [1, 1, 0], "seasonal":
                                  {"order": [0, 1, 1]}, "transform": transform})
     plan = parse_plan({"horizon": 6, "max_origins": 9, "refit": 4, "levels": [90],
-                       "window": {"kind": "sliding", "length": 96}})
+                       "window": {"kind": "sliding", "length": 96}, "estimator": "reference"})
     origins = plan_origins(series, plan, 40)
     folds = run_candidate(series, candidate, plan, origins)
     spec = candidate.spec

@@ -24,7 +24,8 @@ def airline(series_g):
 
 
 def _folds(series, spec, warm):
-    plan = parse_plan({"horizon": 3, "max_origins": 4, "refit": 2, "warm_start": warm})
+    plan = parse_plan({"horizon": 3, "max_origins": 4, "refit": 2, "warm_start": warm,
+                       "estimator": "reference"})
     return run_candidate(series, parse_candidate(spec), plan, plan_origins(series, plan, 40))
 
 

@@ -21,7 +21,7 @@ _PLAN_WORDING = {
     "refit": "re-estimate every (origins)",
     "warm_start": "warm start",
     "assessment": "model assessment (full, or lean: no standard errors or full-series fit)",
-    "estimator": "ARIMA estimator (reference: statsmodels' optimiser; fast: compiled)",
+    "estimator": "ARIMA and ETS estimator (fast: compiled; reference: statsmodels' optimiser)",
     "levels": "interval levels (%)",
     "seed": "seed",
     "benchmark": "benchmark",

@@ -1,0 +1,182 @@
+"""The fast ETS estimator against the reference (statsmodels' ``ETSModel.fit``), side by side.
+
+Parts (all by default; ``--part`` picks one):
+
+- ``compile``: the first-call cost of the compiled likelihood, in a fresh process with an
+  empty numba cache (compiling) and again with the cache filled (loading).
+- ``fit``: one estimation of each ETS class on Series G (Box & Jenkins 1976, from
+  ``tests/data``; season 12), fast and reference interleaved, median of ``--repeats``
+  CPU seconds (and wall-clock ratios beside them):
+  the engine bench's panel classes (AAA, AAdN) first, then every other class of the
+  ``ets`` family, with the log-likelihood difference (statsmodels' ``loglike`` at each
+  estimate). The reference is ``ETSModel(...).fit()`` as the reference path calls it
+  (with its results object) and, for comparison, with ``return_params=True`` (estimates
+  only, the lean assessment's call).
+- ``corpus``: the validation corpus (``tests/backtest/fast_ets_corpus.py``, at least 500
+  re-estimated folds over at least 20 series): per fold the fast and the reference
+  estimate, statsmodels' log-likelihood at each, the largest smoothing-parameter
+  difference and the largest relative difference of 12-step point forecasts.
+
+    python bench/fast_ets_bench.py [--part fit] [--repeats 5] [--origins 12]
+
+Not a test: timings depend on the machine and its load (printed first).
+"""
+
+from __future__ import annotations
+
+import os
+
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads its BLAS
+
+import argparse  # noqa: E402
+import subprocess  # noqa: E402
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+from threadpoolctl import threadpool_limits  # noqa: E402
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+from backtest.models.fast_arima import FastEstimationError  # noqa: E402
+from backtest.models.fast_ets import fast_estimate, warm_up  # noqa: E402
+from tests.backtest.fast_ets_corpus import _ets, corpus, origins, reference_loglike  # noqa: E402
+
+SERIES_G = ROOT / "tests" / "data" / "series_g.csv"
+PANEL = ("AAA", "AAdN")
+OTHERS = ("ANN", "ANA", "ANM", "AAN", "AAM", "AAdA", "AAdM", "MNN", "MNA", "MNM", "MAN",
+          "MAA", "MAM", "MAdN", "MAdA", "MAdM")
+
+
+def _quiet(call):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return call()
+
+
+def part_compile() -> None:
+    code = ("import time; t = time.perf_counter(); "
+            "from backtest.models.fast_ets import warm_up; s = warm_up(); "
+            "print(f'{time.perf_counter() - t:.2f} {s:.2f}')")
+    with tempfile.TemporaryDirectory() as cache:
+        env = {**os.environ, "NUMBA_CACHE_DIR": cache}
+        for what in ("empty cache (compiles)", "filled cache (loads)"):
+            out = subprocess.run([sys.executable, "-c", code], env=env, cwd=ROOT, check=True,
+                                 capture_output=True, text=True).stdout.split()
+            print(f"  first call, {what:24s}: import + warm-up {float(out[0]):6.2f} s, "
+                  f"warm-up {float(out[1]):6.2f} s")
+
+
+def _timed(call) -> tuple[object, float, float]:
+    """The call's result, its CPU seconds (this process) and its wall-clock seconds."""
+    cpu, wall = time.process_time(), time.perf_counter()
+    out = call()
+    return out, time.process_time() - cpu, time.perf_counter() - wall
+
+
+def part_fit(repeats: int) -> None:
+    """Medians over ``repeats``; ratios on CPU time (on a shared machine a short fit's
+    wall-clock time is mostly waiting for a core), wall-clock ratios beside them."""
+    y = pd.read_csv(SERIES_G).iloc[:, 1].to_numpy(float)
+    ratios = {}
+    for code in (*PANEL, *OTHERS):
+        spec = _ets(code)
+        times: dict[str, list[tuple[float, float]]] = {"fast": [], "full": [], "lean": []}
+        for _ in range(repeats):
+            fast, *t = _timed(lambda spec=spec: fast_estimate(spec, y, 12))
+            times["fast"].append(t)
+            reference, *t = _timed(lambda spec=spec: _quiet(
+                lambda: spec.model(y, 12).fit(disp=False)))
+            times["full"].append(t)
+            _, *t = _timed(lambda spec=spec: _quiet(
+                lambda: spec.model(y, 12).fit(disp=False, return_params=True)))
+            times["lean"].append(t)
+        cpu = {k: float(np.median([t[0] for t in v])) for k, v in times.items()}
+        wall = {k: float(np.median([t[1] for t in v])) for k, v in times.items()}
+        gap = reference_loglike(spec, y, 12, fast.params) - float(reference.llf)
+        ratios[code] = cpu["full"] / cpu["fast"]
+        print(f"  {spec.label(12):24s} CPU fast {cpu['fast'] * 1e3:6.2f} ms, reference "
+              f"{cpu['full'] * 1e3:7.1f} ms (estimates only {cpu['lean'] * 1e3:6.1f}): "
+              f"{ratios[code]:5.1f}x ({cpu['lean'] / cpu['fast']:5.1f}x); wall "
+              f"{wall['full'] / wall['fast']:5.1f}x; loglik fast - reference {gap:+.2e}")
+    panel = [ratios[c] for c in PANEL]
+    print(f"  panel classes: smallest CPU ratio {min(panel):.1f}x; all classes: smallest "
+          f"{min(ratios.values()):.1f}x, median {np.median(list(ratios.values())):.1f}x")
+
+
+def part_corpus(per_spec: int) -> None:
+    rows, failures = [], []
+    for item in corpus("full"):
+        for spec in item.specs:
+            for end in origins(item, spec, per_spec):
+                y, m = item.values[:end], item.season_length
+                began = time.perf_counter()
+                try:
+                    fast = fast_estimate(spec, y, m)
+                except FastEstimationError as exc:  # the engine falls back on such a fold
+                    failures.append(f"{item.name}, {spec.label(m)}, end {end}: {exc}")
+                    continue
+                fast_s = time.perf_counter() - began
+                began = time.perf_counter()
+                reference = _quiet(lambda spec=spec, y=y, m=m: spec.reference_fit(y, m))
+                reference_s = time.perf_counter() - began
+                smoothing = [k for k in fast.params if k.startswith(("smoothing", "damping"))]
+                param_diff = max(abs(fast.params[k] - reference.params[k]) for k in smoothing)
+                f_fast = spec.forecast(y, m, fast.params, 12, (95,), 0).mean
+                f_ref = spec.forecast(y, m, reference.params, 12, (95,), 0).mean
+                scale = np.maximum(np.abs(f_ref), 1e-12)
+                rows.append({"series": item.name, "model": spec.label(m), "end": end,
+                             "gap": reference_loglike(spec, y, m, fast.params)
+                             - reference_loglike(spec, y, m, reference.params),
+                             "param_diff": param_diff,
+                             "forecast_rel_diff": float(np.max(np.abs(f_fast - f_ref) / scale)),
+                             "converged": fast.converged, "fast_s": fast_s,
+                             "reference_s": reference_s})
+    table = pd.DataFrame(rows)
+    print(f"  folds {len(table)}, series {table['series'].nunique()}, models "
+          f"{table[['series', 'model']].drop_duplicates().shape[0]}, fast converged "
+          f"{int(table['converged'].sum())}; total seconds fast "
+          f"{table['fast_s'].sum():.1f}, reference {table['reference_s'].sum():.1f} "
+          f"({table['reference_s'].sum() / table['fast_s'].sum():.1f}x)")
+    for column in ("gap", "param_diff", "forecast_rel_diff"):
+        q = table[column].quantile([0.0, 0.05, 0.5, 0.95, 1.0]).to_numpy()
+        print(f"  {column:18s} min {q[0]:+.2e}  5% {q[1]:+.2e}  median {q[2]:+.2e}  "
+              f"95% {q[3]:+.2e}  max {q[4]:+.2e}")
+    worst = table.loc[table["gap"].idxmin()]
+    print(f"  worst log-likelihood difference (fast - reference, statsmodels' loglike): "
+          f"{worst['gap']:+.3e} ({worst['series']}, {worst['model']}, end {worst['end']})")
+    better = table[table["gap"] > 1e-6]
+    print(f"  folds where the fast optimum is more than 1e-6 higher: {len(better)}; "
+          f"more than 1e-6 lower: {int((table['gap'] < -1e-6).sum())}")
+    for _, row in table[table["gap"] < -1e-6].iterrows():
+        print(f"    lower: {row['series']}, {row['model']}, end {row['end']}: {row['gap']:+.3e}")
+    print(f"  folds where the fast estimator failed (the engine falls back): {len(failures)}")
+    for failure in failures:
+        print(f"    {failure}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--part", choices=("compile", "fit", "corpus"))
+    parser.add_argument("--repeats", type=int, default=5)
+    parser.add_argument("--origins", type=int, default=12, help="corpus origins per model")
+    args = parser.parse_args()
+    print(f"load: {os.getloadavg()[0]:.2f} {os.getloadavg()[1]:.2f} "
+          f"{os.getloadavg()[2]:.2f} on {os.cpu_count()} cores; one BLAS thread")
+    print(f"warm-up in this process: {warm_up():.2f} s")
+    parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
+             "corpus": lambda: part_corpus(args.origins)}
+    with threadpool_limits(limits=1):
+        for name, run in parts.items():
+            if args.part in (None, name):
+                print(f"[{name}]")
+                run()
+
+
+if __name__ == "__main__":
+    main()
