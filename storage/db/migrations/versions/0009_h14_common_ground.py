@@ -1,7 +1,7 @@
 """Scores on common ground, and the BI ranking view ranking on them.
 
 Revision ID: 0009_h14
-Revises: 0008_h17
+Revises: 0009_h19b
 Create Date: 2026-12-03
 
 Each score row gains the same score over the origins every candidate with a defined value
@@ -22,7 +22,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision: str = "0009_h14"
-down_revision: str | Sequence[str] | None = "0008_h17"
+down_revision: str | Sequence[str] | None = "0009_h19b"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
