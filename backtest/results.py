@@ -27,7 +27,7 @@ class FoldResult:
     ``sample_crps`` is the CRPS at each horizon of the simulated paths behind the bounds
     (NaN where the actual is missing), for models that simulate; it is computed while the
     fold is made, from the paths, which are not kept, and is not stored with the fold
-    (the scores computed from it are).
+    (the scores computed from it are), so it takes no part in comparing folds.
     """
 
     series_key: str
@@ -50,7 +50,7 @@ class FoldResult:
     scale_sq: float | None
     fit_summary: dict[str, Any] | None = None
     converged: bool | None = None
-    sample_crps: tuple[float, ...] | None = None
+    sample_crps: tuple[float, ...] | None = dataclasses.field(default=None, compare=False)
 
 
 @dataclass(frozen=True)
