@@ -1,0 +1,2 @@
+"""``foldline demo``: the invented scenario, end to end through the service.
+"""

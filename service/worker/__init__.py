@@ -1,0 +1,2 @@
+"""The job worker: claiming queued runs, computing each under a lease, storing each unit.
+"""
