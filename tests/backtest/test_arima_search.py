@@ -385,7 +385,7 @@ def test_thresholds_are_spec_fields_that_keep_older_ids():
     assert spelled.id == default.id and "max_inverse_root" not in default.spec.body()
     assert changed.body()["seasonal_strength_threshold"] == 0.5
     assert changed.body()["max_inverse_root"] == 0.98
-    assert changed.label(12).endswith("strength ≥ 0.5, roots ≤ 0.98")
+    assert changed.label(12).endswith("F_S≥0.5, root≤0.98")
     for field, bad in (("seasonal_strength_threshold", 1.5), ("max_inverse_root", "0.9"),
                        ("max_inverse_root", True)):
         with pytest.raises(CandidateError, match=field):
