@@ -111,7 +111,7 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     assert ("  costs/fleet-fuel: Theta, m=12 if tested calibration at h = 1 suspect; with "
             "empirical intervals consistent") in closing
     assert [line for line in closing if line.startswith(
-        "  volumes/pallets-shipped: Mean of ARIMA+ARIMA+Theta #") and " ranked 1 of 9" in line]
+        "  volumes/pallets-shipped: Mean of 3 models #") and " ranked 1 of 9" in line]
     # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
     outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
                                          for path in (tmp_path / "demo" / "1").iterdir()
