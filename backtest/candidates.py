@@ -14,6 +14,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 from backtest.errors import CandidateError
+from backtest.labels import compose, fit_column
 from backtest.models import FAMILIES, ModelSpec
 from backtest.recalibration import EmpiricalIntervals, parse_intervals
 
@@ -45,8 +46,10 @@ class Candidate:
         return "c" + hashlib.sha256(self.canonical_json.encode()).hexdigest()[:16]
 
     def label(self, season_length: int) -> str:
-        suffix = "" if self.intervals is None else self.intervals.suffix()
-        return self.spec.label(season_length) + suffix
+        """The spec's label with the intervals' qualifier, fitted to a column
+        (:func:`backtest.labels.fit_column`, tagged by the id)."""
+        qualifier = None if self.intervals is None else self.intervals.qualifier()
+        return fit_column(compose(self.spec.label(season_length), qualifier), self.id[1:5])
 
 
 def parse_candidate(body: object) -> Candidate:

@@ -5,7 +5,10 @@ Every number is generated here from a seed; nothing comes from a real organisati
 published data set. The series mix the features a finance team meets: trend, multiplicative
 and additive seasonality, autocorrelated noise, and level shifts (a new supermarket
 contract lifts bakery sales from April 2021; catering loses a large client in September
-2022).
+2022). Pallets shipped grow steadily, a fixed number more each year, with a seasonal swing
+in proportion to the volume: over the backtest's origins the log-scale ARIMA forecasts
+too high on average, Theta too low and the drift ARIMA a little high, and the mean of the
+three ranks first, narrowly.
 """
 
 from __future__ import annotations
@@ -30,7 +33,8 @@ DEMO_CANDIDATES: list[dict] = [
     {"family": "combination", "members": [
         {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
          "transform": "log"},
-        {"family": "ets", "error": "additive", "trend": "damped", "season": "additive"},
+        {"family": "arima", "order": [1, 0, 0], "seasonal": {"order": [0, 1, 1]},
+         "deterministic": "drift"},
         {"family": "theta"}]},
 ]
 RECALIBRATED = ((6, 7),)
@@ -64,7 +68,7 @@ def demo_series(seed: int = 2017) -> list[Series]:
     bakery = 410 + 1.1 * t + 35 * np.cos(2 * np.pi * month / 12) + _ar1(rng, 0.5, 9)
     bakery += np.where(t >= 51, 70.0, 0.0)
     energy = 130 + 0.35 * t + 28 * np.cos(2 * np.pi * month / 12) + _ar1(rng, 0.6, 5)
-    pallets = np.round(5200 * (1 + 0.003 * t) * (1 + 0.10 * season) + _ar1(rng, 0.3, 120))
+    pallets = np.round(5200 * (1 + 0.006 * t) * (1 + 0.10 * season) + 0.5 * _ar1(rng, 0.3, 120))
     fuel = 240 + np.cumsum(rng.normal(0.4, 6.0, MONTHS))
     catering = (300 + 0.6 * t) * (1 + 0.25 * np.sin(2 * np.pi * (month - 5) / 12))
     catering = catering * np.where(t >= 68, 0.78, 1.0) + _ar1(rng, 0.3, 10)

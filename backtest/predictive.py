@@ -14,9 +14,12 @@ from depends on the candidate:
 - Empirical intervals (:mod:`backtest.recalibration`): at the horizons they cover, the
   distribution is the point forecast plus the sample of past errors that set the bounds,
   and the CRPS is that of the sample's empirical distribution (exact).
-- Simulated intervals (multiplicative ETS): the simulated paths are not kept, only their
-  quantiles at the plan's levels, which are too few for a CRPS; it is left undefined
-  with a note, and the pinball loss, which needs only those quantiles, is given.
+- Simulated intervals (multiplicative ETS): the CRPS of the empirical distribution of
+  the simulated paths at each horizon (Gneiting & Raftery 2007, eq. 21, exact for the
+  sample), computed while the fold is made (``FoldResult.sample_crps``); the paths are
+  not kept. Where a fold has no such value (a combination whose members simulate, say)
+  the CRPS is left undefined with a note; the pinball loss, which needs only the
+  bounds, is given for every candidate.
 
 The pinball loss is taken at the quantiles the plan's intervals give, tau = a/2 and
 1 - a/2 for each level (a = 1 - level/100), for every candidate alike.
@@ -37,8 +40,8 @@ from backtest.results import FoldResult
 from backtest.transforms import Transform
 
 QUANTILE_NODES = 1000
-SIMULATED_NOTE = ("undefined: the intervals were simulated and the sample is not kept; "
-                  "see the pinball loss")
+SIMULATED_NOTE = ("undefined: the intervals were simulated and no CRPS of the sample was "
+                  "kept; see the pinball loss")
 
 
 @dataclass(frozen=True)
@@ -118,10 +121,12 @@ def crps_by_fold(folds: Sequence[FoldResult], predictive: Predictive,
 
 
 def _model_crps(folds: Sequence[FoldResult], predictive: Predictive, level: int) -> np.ndarray:
-    """CRPS of the model's own predictive distribution (NaN for simulated ones)."""
+    """CRPS of the model's own predictive distribution (for simulated ones, the folds'
+    ``sample_crps``, NaN where a fold has none)."""
     actual = np.array([f.actuals for f in folds], dtype=float)
     if not predictive.gaussian:
-        return np.full(actual.shape, np.nan)
+        return np.array([f.sample_crps if f.sample_crps is not None
+                         else (np.nan,) * actual.shape[1] for f in folds], dtype=float)
     t = predictive.transform
     z = stats.norm.ppf(0.5 + level / 200.0)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -35,6 +35,7 @@ from typing import Literal
 import numpy as np
 
 from backtest.errors import CandidateError
+from backtest.labels import intervals_qualifier
 from backtest.models.base import choice
 from backtest.results import FoldResult
 
@@ -51,9 +52,10 @@ class EmpiricalIntervals:
     def canonical(self) -> dict:
         return {"kind": "empirical", "min_errors": self.min_errors, "errors": self.errors}
 
-    def suffix(self) -> str:
-        """Appended to the candidate's label."""
-        return " +empirical" + (" scaled" if self.errors == "scaled" else "")
+    def qualifier(self) -> str:
+        """The candidate label's qualifier, e.g. ``emp`` or ``emp sc ≥12``."""
+        return intervals_qualifier(self.errors == "scaled", self.min_errors,
+                                   EmpiricalIntervals.min_errors)
 
 
 def parse_intervals(body: object) -> EmpiricalIntervals | None:

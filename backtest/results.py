@@ -24,6 +24,10 @@ class FoldResult:
     standard errors and p-values, convergence and a Ljung-Box p-value. ``converged`` is
     whether the estimate the fold forecasts with reached the optimiser's convergence (kept
     folds inherit it; ``None`` without an iterative optimiser or without a fit).
+    ``sample_crps`` is the CRPS at each horizon of the simulated paths behind the bounds
+    (NaN where the actual is missing), for models that simulate; it is computed while the
+    fold is made, from the paths, which are not kept, and is not stored with the fold
+    (the scores computed from it are), so it takes no part in comparing folds.
     """
 
     series_key: str
@@ -46,6 +50,7 @@ class FoldResult:
     scale_sq: float | None
     fit_summary: dict[str, Any] | None = None
     converged: bool | None = None
+    sample_crps: tuple[float, ...] | None = dataclasses.field(default=None, compare=False)
 
 
 @dataclass(frozen=True)

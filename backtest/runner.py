@@ -23,6 +23,7 @@ candidate of its own: the same seeds, so the same folds) and combines them per o
 
 from __future__ import annotations
 
+import math
 import warnings
 import zlib
 from collections.abc import Sequence
@@ -34,7 +35,7 @@ from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
 from backtest.combining import combine_folds
 from backtest.folds import Origin
-from backtest.metrics import mase_scale, rmsse_scale
+from backtest.metrics import crps_sample, mase_scale, rmsse_scale
 from backtest.models import Fit, Forecast, ModelSpec
 from backtest.models.base import back_transform
 from backtest.models.combination import CombinationSpec
@@ -262,4 +263,12 @@ def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, star
         scale=scale if np.isfinite(scale) else None,
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
         fit_summary=summary, converged=converged,
+        sample_crps=(_sample_crps(forecast.sample, series.values[target.start:target.stop])
+                     if ok and forecast.sample is not None else None),
     )
+
+
+def _sample_crps(sample: np.ndarray, actuals: np.ndarray) -> tuple[float, ...]:
+    """CRPS of each horizon's simulated values against its actual (NaN if missing)."""
+    return tuple(crps_sample(paths, float(actual)) if np.isfinite(actual) else math.nan
+                 for paths, actual in zip(sample, actuals))

@@ -153,10 +153,10 @@ class ArimaSearchSpec(ModelSpec):
     def label(self, season_length: int) -> str:
         changed = self._changed_thresholds()
         extras = [None if self.max_models == _DEFAULT_MAX_MODELS
-                  else f"at most {self.max_models} fits",
-                  f"strength ≥ {changed['seasonal_strength_threshold']:g}"
+                  else f"≤{self.max_models} fits",
+                  f"F_S≥{changed['seasonal_strength_threshold']:g}"
                   if "seasonal_strength_threshold" in changed else None,
-                  f"roots ≤ {changed['max_inverse_root']:g}"
+                  f"root≤{changed['max_inverse_root']:g}"
                   if "max_inverse_root" in changed else None]
         return search_label(self.criterion, self.season_period(season_length), self.seasonal,
                             self.limits.body(), OrderLimits().body(), extras, self.transform)

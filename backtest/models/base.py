@@ -44,11 +44,14 @@ class Fit:
 
 @dataclass(frozen=True, eq=False)
 class Forecast:
-    """Point forecasts for h = 1..H and central interval bounds per level (in %)."""
+    """Point forecasts for h = 1..H and central interval bounds per level (in %); a model
+    whose bounds come from simulated paths also gives the paths (``sample``, shape
+    ``(H, repetitions)``), from which the fold's CRPS is computed."""
 
     mean: np.ndarray
     lower: dict[int, np.ndarray]
     upper: dict[int, np.ndarray]
+    sample: np.ndarray | None = None
 
 
 class ModelSpec(ABC):
@@ -152,12 +155,13 @@ def back_transform(transform: Transform, forecast: Forecast) -> Forecast:
     mean = transform.inverse(forecast.mean)
     lower = {lv: transform.inverse(b) for lv, b in forecast.lower.items()}
     upper = {lv: transform.inverse(b) for lv, b in forecast.upper.items()}
+    sample = None if forecast.sample is None else transform.inverse(forecast.sample)
     if not np.all(np.isfinite(mean)):
         raise FloatingPointError("the point forecast contains non-finite values")
     for level in lower:
         if np.any(np.isnan(lower[level])) or np.any(np.isnan(upper[level])):
             raise FloatingPointError(f"the {level} % interval contains NaN bounds")
-    return Forecast(mean, lower, upper)
+    return Forecast(mean, lower, upper, sample)
 
 
 def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> Forecast:

@@ -20,6 +20,7 @@ member's 1-based position.
 
 from __future__ import annotations
 
+import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import ClassVar, Literal
@@ -27,6 +28,7 @@ from typing import ClassVar, Literal
 import numpy as np
 
 from backtest.errors import CandidateError
+from backtest.labels import combination_label
 from backtest.models.base import (
     Fit,
     Forecast,
@@ -57,8 +59,9 @@ class CombinationSpec(ModelSpec):
                 "rule": self.rule}
 
     def label(self, season_length: int) -> str:
-        names = " + ".join(s.label(season_length) for s in self.members)
-        return f"Combination {self.rule.replace('_', ' ')} ({names})"
+        members = [(s.family, getattr(s, "method", "")) for s in self.members]
+        canonical = json.dumps(self.body()["members"], sort_keys=True, separators=(",", ":"))
+        return combination_label(self.rule, members, canonical)
 
     def min_train(self, season_length: int) -> int:
         return max(s.min_train(season_length) for s in self.members)

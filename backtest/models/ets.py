@@ -149,7 +149,9 @@ class EtsSpec(ModelSpec):
             frame = prediction.summary_frame(alpha=1 - level / 100)
             lower[level] = frame["pi_lower"].to_numpy(float)
             upper[level] = frame["pi_upper"].to_numpy(float)
-        return Forecast(mean, lower, upper)
+        sample = (None if self.gaussian
+                  else np.asarray(prediction._results.simulation_results, dtype=float)[-horizon:])
+        return Forecast(mean, lower, upper, sample)
 
     def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
                      levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
@@ -209,9 +211,10 @@ class EtsSpec(ModelSpec):
         if form.linear:
             sd = np.sqrt(at.scale[:, None] * relative_variance(form, horizon))
             return forecasts_by_origin(mean, sd, levels)
-        lower, upper = simulated_bounds(form, at, horizon, levels, seeds, _SIMULATIONS)
+        lower, upper, paths = simulated_bounds(form, at, horizon, levels, seeds, _SIMULATIONS)
         return [Forecast(mean[i], {lv: b[i] for lv, b in lower.items()},
-                         {lv: b[i] for lv, b in upper.items()}) for i in range(len(mean))]
+                         {lv: b[i] for lv, b in upper.items()}, paths[i])
+                for i in range(len(mean))]
 
     def _form(self, params: Params, season_length: int) -> EtsForm:
         return EtsForm(self.error == "multiplicative", self.season == "multiplicative",

@@ -121,31 +121,28 @@ def relative_variance(form: EtsForm, horizon: int) -> np.ndarray:
 
 def simulated_bounds(form: EtsForm, states: OriginStates, horizon: int,
                      levels: tuple[int, ...], seeds: Sequence[int], repetitions: int
-                     ) -> tuple[dict[int, np.ndarray], dict[int, np.ndarray]]:
-    """Central interval bounds per level, shape ``(n_origins, horizon)`` each, from
-    ``repetitions`` paths per origin; origin i's errors come from
-    ``numpy.random.default_rng(seeds[i])``."""
-    blocks = [_block_quantiles(form, _take(states, slice(i, i + _BLOCK)), horizon, levels,
-                               seeds[i:i + _BLOCK], repetitions)
+                     ) -> tuple[dict[int, np.ndarray], dict[int, np.ndarray], np.ndarray]:
+    """Central interval bounds per level, shape ``(n_origins, horizon)`` each, and the
+    paths they come from, ``(n_origins, horizon, repetitions)``; origin i's errors come
+    from ``numpy.random.default_rng(seeds[i])``."""
+    blocks = [_block_paths(form, _take(states, slice(i, i + _BLOCK)), horizon,
+                           seeds[i:i + _BLOCK], repetitions)
               for i in range(0, len(seeds), _BLOCK)]
-    lower = {lv: np.concatenate([b[0][lv] for b in blocks]) for lv in levels}
-    upper = {lv: np.concatenate([b[1][lv] for b in blocks]) for lv in levels}
-    return lower, upper
-
-
-def _block_quantiles(form: EtsForm, states: OriginStates, horizon: int,
-                     levels: tuple[int, ...], seeds: Sequence[int], repetitions: int
-                     ) -> tuple[dict[int, np.ndarray], dict[int, np.ndarray]]:
-    sigma = np.sqrt(states.scale)[:, None, None]
-    draws = np.stack([np.random.default_rng(seed).standard_normal((horizon, repetitions))
-                      for seed in seeds])
-    paths = _paths(form, states, draws * sigma)
+    paths = np.concatenate(blocks)
     lower, upper = {}, {}
     for level in levels:
         alpha = 1 - level / 100
         lower[level] = np.quantile(paths, alpha / 2, axis=-1)
         upper[level] = np.quantile(paths, 1 - alpha / 2, axis=-1)
-    return lower, upper
+    return lower, upper, paths
+
+
+def _block_paths(form: EtsForm, states: OriginStates, horizon: int, seeds: Sequence[int],
+                 repetitions: int) -> np.ndarray:
+    sigma = np.sqrt(states.scale)[:, None, None]
+    draws = np.stack([np.random.default_rng(seed).standard_normal((horizon, repetitions))
+                      for seed in seeds])
+    return _paths(form, states, draws * sigma)
 
 
 def _take(states: OriginStates, rows: slice) -> OriginStates:

@@ -31,3 +31,10 @@ def remedy_lines(rows: Sequence[dict]) -> list[str]:
                 lines.append(f"{key}: {row['candidate']} ranked {row['rank']} of "
                              f"{len(found)}{where}")
     return lines
+
+
+def headlines(lines: Sequence[str]) -> list[str]:
+    """The remedy lines where a remedy worked: recalibration made a verdict consistent, or
+    a combination ranked first."""
+    return [line for line in lines
+            if line.endswith("with empirical intervals consistent") or " ranked 1 of " in line]

@@ -32,7 +32,7 @@ from backtest.demo import DEMO_CANDIDATES, DEMO_PLAN, demo_series
 from backtest.tidy import write_csv
 from service.cli.terminal import ProgressBar, ranking_table
 from service.demo.ledger import continue_demo
-from service.demo.remedies import remedy_lines
+from service.demo.remedies import headlines, remedy_lines
 
 FINAL = ("succeeded", "failed", "cancelled")
 MARKER = ".foldline-demo"
@@ -164,13 +164,16 @@ def _submit_and_report(client: httpx.Client, out: Path) -> int:
     (out / "ranking.csv").write_text(client.get(f"{run['url']}/ranking",
                                                 params={"format": "csv"}).text)
     _print_ranking(ranking)
+    remedies = remedy_lines(ranking)
     print("\nremedies (empirical intervals from Theta's own past errors; a combination):")
-    print("\n".join(f"  {line}" for line in remedy_lines(ranking)) or "  no change")
+    print("\n".join(f"  {line}" for line in remedies) or "  no change")
     print(f"\nrun {run['id']}: {elapsed:.1f} s from submission to finished "
           f"({run['progress']['folds_total']} folds); ranking CSV: {out / 'ranking.csv'}")
     print(f"run report (HTML, prints on A4): {_write_report(client, run['url'], out)}")
     if continue_demo(client, run["id"], out) != 0:
         return 1
+    print(f"\nwhere the remedies worked (run {run['id']}):")
+    print("\n".join(f"  {line}" for line in headlines(remedies)) or "  nowhere")
     print("\nTo explore the API: FOLDLINE_DATABASE_URL=sqlite:///"
           f"{(out / 'foldline.db').resolve()} .venv/bin/foldline serve, then open "
           "http://127.0.0.1:8000/docs (create a key with .venv/bin/foldline keys create).")

@@ -337,16 +337,16 @@ def test_defaults_fill_the_canonical_body_and_the_label():
         "max_order": {"p": 1, "d": 2, "q": 3, "P": 1, "D": 1, "Q": 1}, "seasonal": True,
         "criterion": "aicc", "max_models": 40, "period": None,
         "transform": {"kind": "log", "lambda": None}}
-    assert spec.label(12) == "ARIMA search by AICc, season 12, up to (1,2,3)×(1,1,1), log"
+    assert spec.label(12) == "ARIMA by AICc, m=12, ≤(1,2,3)×(1,1,1), log"
     assert parse({"family": "arima_search", "seasonal": False}).label(12) == (
-        "ARIMA search by AICc, no season")
-    assert parse({"family": "arima_search", "criterion": "bic"}).label(1) == "ARIMA search by BIC"
+        "ARIMA by AICc, no season")
+    assert parse({"family": "arima_search", "criterion": "bic"}).label(1) == "ARIMA by BIC"
 
 
 def test_registered_family_parses_through_the_candidate_list():
     candidate = parse_candidate({"family": "arima_search", "period": 4})
     assert isinstance(candidate.spec, ArimaSearchSpec)
-    assert candidate.label(12) == "ARIMA search by AICc, season 4"
+    assert candidate.label(12) == "ARIMA by AICc, m=4"
 
 
 def test_min_train_fits_the_simplest_model_with_the_most_differencing():
@@ -385,7 +385,7 @@ def test_thresholds_are_spec_fields_that_keep_older_ids():
     assert spelled.id == default.id and "max_inverse_root" not in default.spec.body()
     assert changed.body()["seasonal_strength_threshold"] == 0.5
     assert changed.body()["max_inverse_root"] == 0.98
-    assert changed.label(12).endswith("strength ≥ 0.5, roots ≤ 0.98")
+    assert changed.label(12).endswith("F_S≥0.5, root≤0.98")
     for field, bad in (("seasonal_strength_threshold", 1.5), ("max_inverse_root", "0.9"),
                        ("max_inverse_root", True)):
         with pytest.raises(CandidateError, match=field):

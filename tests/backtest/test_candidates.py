@@ -22,9 +22,9 @@ def test_id_is_stable_under_key_order_and_defaults():
 def test_labels():
     spec = {"family": "arima", "order": [0, 1, 1], "seasonal": {"order": [0, 1, 1]},
             "transform": {"kind": "boxcox", "lambda": 0.5}}
-    assert parse_candidate(spec).label(12) == "ARIMA(0,1,1)×(0,1,1), season 12, Box-Cox 0.5"
+    assert parse_candidate(spec).label(12) == "ARIMA(0,1,1)×(0,1,1), m=12, λ=0.5"
     ets = {"family": "ets", "error": "multiplicative", "trend": "damped", "season": "additive"}
-    assert parse_candidate(ets).label(4) == "ETS(M,Ad,A), season 4"
+    assert parse_candidate(ets).label(4) == "ETS(M,Ad,A), m=4"
 
 
 @pytest.mark.parametrize(("body", "message"), [

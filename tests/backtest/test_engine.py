@@ -86,7 +86,7 @@ def test_benchmark_is_added_and_ranked(two_series):
     plan = parse_plan({"horizon": 3, "max_origins": 3})
     result = run_backtest(two_series[:1], parse_candidates(CANDIDATES[-1:]), plan)
     (sr,) = result.series
-    assert [c.label for c in sr.candidates] == ["Naive", "Seasonal naive, season 12"]
+    assert [c.label for c in sr.candidates] == ["Naive", "Seasonal naive, m=12"]
     assert sr.candidates[1].added_as_benchmark
     bench = next(r for r in sr.ranking if r.is_benchmark)
     assert bench.ratio_to_benchmark == 1.0

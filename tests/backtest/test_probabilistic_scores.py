@@ -10,6 +10,8 @@ References:
   section 6.2).
 """
 
+import dataclasses
+
 import numpy as np
 import pytest
 from scipy import integrate, stats
@@ -120,17 +122,52 @@ def test_crps_of_a_log_model_is_that_of_the_lognormal_on_the_original_scale():
     assert abs(gaussian - expected) > 1e-2 * expected
 
 
-def test_simulated_intervals_leave_the_crps_undefined_and_say_why():
+def test_simulated_intervals_score_the_crps_of_their_sample_or_say_why_not():
     spec = parse_candidate({"family": "ets", "error": "multiplicative"})
     fold = _fold([13.0], [10.0], {80: [8]}, {80: [12]})
     scores = {(s.metric, s.level): s for s in score_candidate(
         "c1", [fold], 1, [80], predictive=predictive_of(spec, 1)) if s.horizon is None}
-    assert scores["crps", None].value is None
+    assert scores["crps", None].value is None  # a fold without its sample's CRPS
     assert "simulated" in scores["crps", None].note
     assert scores["pinball", None].value == pytest.approx(0.7)
+    sampled = dataclasses.replace(fold, sample_crps=(1.25,))
+    scores = {(s.metric, s.level): s for s in score_candidate(
+        "c1", [sampled], 1, [80], predictive=predictive_of(spec, 1)) if s.horizon is None}
+    assert scores["crps", None].value == pytest.approx(1.25) and scores["crps", None].note is None
 
 
-def test_a_backtest_ranks_by_crps_and_leaves_simulated_intervals_unranked():
+def _ets_sample(seed: int) -> tuple[object, np.ndarray]:
+    """A multiplicative ETS forecast, 3 steps from 84 months of the demo's first series."""
+    spec = parse_candidate({"family": "ets", "error": "multiplicative", "trend": "additive",
+                            "season": "multiplicative"}).spec
+    y = np.asarray(demo_series()[0].values[:84], dtype=float)
+    fit = spec.fit(y, 12)
+    return spec.forecast(y, 12, fit.params, 3, (80, 95), seed), y
+
+
+def test_the_sample_crps_of_simulated_paths_equals_the_integral_of_their_empirical_cdf():
+    """CRPS of the empirical distribution of an ETS(M,A,M) forecast's 1,000 simulated
+    values: the sorted-sample estimator (Gneiting & Raftery 2007, eq. 21) against
+    scipy.integrate.quad of (F_n(x) - 1{x >= y})^2, F_n the sample's empirical CDF
+    (computed with the installed scipy)."""
+    forecast, _ = _ets_sample(11)
+    assert forecast.sample.shape == (3, 1000)
+    for h in range(3):  # the bounds are the sample's quantiles
+        assert forecast.lower[80][h] == pytest.approx(np.quantile(forecast.sample[h], 0.1))
+        assert forecast.upper[95][h] == pytest.approx(np.quantile(forecast.sample[h], 0.975))
+    x = np.sort(forecast.sample[0])
+    y = float(np.median(x) + 1.5 * (x[-1] - x[0]) / 10)
+
+    def ecdf(v: float) -> float:
+        return np.searchsorted(x, v, side="right") / len(x)
+
+    left = integrate.quad(lambda v: ecdf(v) ** 2, x[0], y, points=x[x < y], limit=3000)[0]
+    right = integrate.quad(lambda v: (1 - ecdf(v)) ** 2, y, x[-1], points=x[x > y],
+                           limit=3000)[0]
+    assert metrics.crps_sample(x, y) == pytest.approx(left + right, rel=1e-6)
+
+
+def test_a_backtest_ranks_by_crps_with_simulated_intervals_scored_from_their_sample():
     series = demo_series()[:1]
     plan = parse_plan({"horizon": 3, "max_origins": 30, "rank_by": "crps", "levels": [80, 95]})
     candidates = parse_candidates([
@@ -146,8 +183,13 @@ def test_a_backtest_ranks_by_crps_and_leaves_simulated_intervals_unranked():
     ranked = [row for row in sr.ranking if row.rank is not None]
     assert [row.score for row in ranked] == sorted(pooled[r.candidate_id].value for r in ranked)
     ets = next(row for row in sr.ranking if row.label.startswith("ETS(M"))
-    assert ets.rank is None and ets.in_confidence_set is False
-    assert "simulated" in pooled[ets.candidate_id].note
-    assert sr.evidence["confidence_set"]["without_loss"] == [ets.candidate_id]
-    assert len(ranked) == 3  # the plan's benchmark is added
+    assert ets.rank is not None and pooled[ets.candidate_id].note is None
+    folds = [f for f in sr.folds if f.candidate_id == ets.candidate_id and f.status == "ok"]
+    assert all(f.sample_crps is not None and len(f.sample_crps) == 3 for f in folds)
+    # the pooled score is the mean of the folds' sample CRPS (all folds are common here)
+    assert ets.common_folds == len(folds)
+    assert pooled[ets.candidate_id].value == pytest.approx(
+        np.mean([f.sample_crps for f in folds]))
+    assert not sr.evidence["confidence_set"].get("without_loss")
+    assert len(ranked) == 4  # the plan's benchmark is added
     assert all(pooled[r.candidate_id].note is None for r in ranked)

@@ -117,7 +117,7 @@ def test_the_option_is_part_of_the_candidate_and_its_label():
     assert empirical.canonical["intervals"] == {"kind": "empirical", "min_errors": 20,
                                                 "errors": "scaled"}
     assert parse_candidate(empirical.canonical).id == empirical.id
-    assert empirical.label(12).endswith("+empirical scaled")
+    assert empirical.label(12).endswith(", emp sc")
 
 
 @pytest.mark.parametrize(("intervals", "message"), [

@@ -98,7 +98,7 @@ def test_axes_labels_and_title(sr):
     assert fig.get_supylabel() == "estimate (model scale)"
     assert all(ax.get_xlabel() == "origin (last training period)" for ax in fig.axes
                if ax.get_visible())
-    assert "parameter paths of ARIMA(0,1,1)×(0,1,1), season 12, log" in fig.get_suptitle().replace(
+    assert "parameter paths of ARIMA(0,1,1)×(0,1,1), m=12, log" in fig.get_suptitle().replace(
         "\n", " ")
     assert [t.get_text() for t in fig.legends[0].get_texts()] == [
         "estimate +/- 1.96 s.e.", "estimate"]

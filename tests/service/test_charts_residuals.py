@@ -54,7 +54,7 @@ def test_without_residuals_only_the_correlation_panels_are_drawn(sr, benchmark):
     assert [ax.get_title(loc="left") for ax in fig.axes] == ["ACF", "PACF"]
     assert fig.axes[0].get_xlabel() == "lag (months)"
     assert fig.axes[1].get_ylabel() == "PACF (no unit)"
-    assert "Seasonal naive, season 12" in fig.get_suptitle()
+    assert "Seasonal naive, m=12" in fig.get_suptitle()
     legend = [t.get_text() for t in fig.legends[0].get_texts()]
     assert legend == ["within the bounds", "beyond the bounds", "bounds +/- 1.96/sqrt(n)"]
 

@@ -37,7 +37,7 @@ def test_backtest_prints_rankings_and_writes_tidy_tables(inputs):
                 str(inputs / "candidates.json"), "--plan", str(inputs / "plan.json"),
                 "--out", str(out))
     assert done.returncode == 0, done.stderr
-    assert "sales/fresh-produce" in done.stdout and "Theta, season 12 if tested" in done.stdout
+    assert "sales/fresh-produce" in done.stdout and "Theta, m=12 if tested" in done.stdout
     with (out / "folds.csv").open() as handle:
         folds = list(csv.DictReader(handle))
     assert len(folds) == 2 * 3 * 4 * 3 * 2  # series x candidates x origins x h x levels
@@ -106,10 +106,16 @@ def test_demo_runs_and_writes_its_results(tmp_path):
     assert ("the auditor's question, in one request: GET "
             "/v1/series/costs/cold-storage-energy/dossier?target_from=2025-03") in done.stdout
     assert "  champion: " in done.stdout and "  issued forecasts (3):" in done.stdout
+    # the remedies that worked, in the closing lines: recalibration and a combination on top
+    closing = done.stdout[done.stdout.index("where the remedies worked"):].splitlines()
+    assert ("  costs/fleet-fuel: Theta, m=12 if tested calibration at h = 1 suspect; with "
+            "empirical intervals consistent") in closing
+    assert [line for line in closing if line.startswith(
+        "  volumes/pallets-shipped: Mean of 3 models #") and " ranked 1 of 9" in line]
     # Foldline's label notation everywhere: no "ARIMA(...)(...)[12]", "Theta[12]", ...
     outputs = {"stdout": done.stdout, **{path.name: path.read_text(encoding="utf-8")
                                          for path in (tmp_path / "demo" / "1").iterdir()
                                          if path.suffix in (".csv", ".html", ".json", ".txt")}}
-    assert "Seasonal naive, season 12" in outputs["report.html"]
+    assert "Seasonal naive, m=12" in outputs["report.html"]
     assert {name: BRACKETED_LABEL.findall(text) for name, text in outputs.items()
             if BRACKETED_LABEL.search(text)} == {}

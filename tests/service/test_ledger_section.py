@@ -17,8 +17,9 @@ from backtest.ledger import realised_mase, score_outcomes
 from backtest.parameter_names import readable
 from backtest.series import Series, make_series
 from service.usecases.monitoring import monitor_series
+from service.views.charts.fan import history_window
 from service.views.pages import ledger_view
-from service.views.pages.forecast_detail import forecast_detail, history_window
+from service.views.pages.forecast_detail import forecast_detail
 from service.views.pages.forecast_view import load_forecast_page
 from service.views.pages.ledger_section import ledger_section
 from service.views.pages.ledger_view import load_ledger
@@ -144,6 +145,24 @@ def test_the_fan_chart_shows_the_latest_forecast_with_the_actuals_known_now(sess
     assert now.bands.periods[0] == "2022-12"
     assert now.bands.actuals == (pytest.approx(shifted(48).values[-1]), None, None, None)
     assert now.history.labels()[-1] == now.record.forecast.origin
+
+
+def test_the_series_page_fan_chart_shows_history_in_proportion_to_the_horizon(sessions, page):
+    """Like the forecast page's chart: the last 4 horizons (at least a season) before the
+    origin, not the whole series, with a link to see more."""
+    with sessions() as session:
+        latest = load_ledger(session, KEY).latest
+    f = latest.record.forecast
+    labels = latest.history.labels()
+    window = history_window(len(f.periods), f.season_length)
+    assert window == 16 < labels.index(f.origin) + 1 == 48
+    fan = page[page.index('aria-label="sales/north: Drift, forecast from'):]
+    fan = fan[:fan.index("</figure>")]
+    assert f"the last {window} periods of the history" in fan
+    first_shown = labels[labels.index(f.origin) + 1 - window]
+    ticks = set(re.findall(r">(\d{4})-\d{2}<", fan))  # years of the tick labels (svg text)
+    assert first_shown[:4] in ticks and labels[0][:4] not in ticks, (ticks, labels[0])
+    assert f'href="/pages/forecasts/{latest.record.forecast_id}?history=0"' in page
 
 
 def test_interpolated_periods_are_not_shown_as_actuals(sessions):

@@ -30,6 +30,24 @@ BAND_EDGE = "#5A5A5A"
 HISTORY_COLOR = "#4D4D4D"
 POINT_COLOR = VERMILLION
 _EDGE_DASHES: tuple[tuple[float, ...], ...] = ((), (5, 2.5), (1.5, 1.5))
+#: History shown before a forecast by default, in multiples of its horizon (at least one
+#: season), so a short forecast is not squeezed against the right edge of a long history.
+HISTORY_PER_STEP = 4
+
+
+def history_window(horizon: int, season_length: int) -> int:
+    """Periods of history a fan chart shows by default: proportional to the horizon, at
+    least one whole season (and two periods)."""
+    return max(HISTORY_PER_STEP * horizon, season_length, 2)
+
+
+def recent_history(periods: Sequence[str], values: Sequence[float], origin: str,
+                   shown: int) -> tuple[list[str], list[float]]:
+    """The last ``shown`` periods up to and including ``origin`` (0: all of them), with the
+    observations after it, which :func:`fan_chart` leaves to the actuals."""
+    labels = list(periods)
+    start = max(0, labels.index(origin) + 1 - shown) if shown else 0
+    return labels[start:], list(values)[start:]
 
 
 @dataclass(frozen=True)

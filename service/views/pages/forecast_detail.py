@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from backtest.ledger import Outcome, realised_mase
 from backtest.parameter_names import seasonal_period
-from service.views.charts.fan import fan_chart
+from service.views.charts.fan import fan_chart, history_window, recent_history
 from service.views.charts.render import DRAWING
 from service.views.pages.forecast_view import ForecastView, ScoredSet
 from service.views.pages.layout import forecast_href, series_href
@@ -20,15 +20,6 @@ SETS_HEADER = ["scored against version", "scored", "periods observed", "realised
                "actuals inside interval"]
 
 
-#: History shown before a forecast, in multiples of its horizon (at least one season).
-HISTORY_PER_STEP = 4
-
-
-def history_window(horizon: int, season_length: int) -> int:
-    """Periods of history the fan chart shows by default: proportional to the horizon, at
-    least one whole season (and two periods)."""
-    return max(HISTORY_PER_STEP * horizon, season_length, 2)
-
 
 def forecast_detail(view: ForecastView, history: int | None = None) -> Html:
     """The page body, fan chart drawn with the last ``history`` periods before the origin
@@ -37,14 +28,14 @@ def forecast_detail(view: ForecastView, history: int | None = None) -> Html:
     latest = view.sets[-1] if view.sets else None
     default = history_window(len(f.periods), f.season_length)
     shown_periods = default if history is None else history
-    labels, values = view.history.labels(), view.history.values
-    start = max(0, labels.index(f.origin) + 1 - shown_periods) if shown_periods else 0
+    labels, values = recent_history(view.history.labels(), view.history.values, f.origin,
+                                    shown_periods)
     with DRAWING:
-        fig = fan_chart(view.bands, labels[start:], values[start:],
+        fig = fan_chart(view.bands, labels, values,
                         series_key=f.series_key, candidate_label=f.label,
                         unit=view.series.unit, frequency=view.series.frequency)
         chart = embed_figure(fig, "forecast-fan-", (
-            f"The last {labels.index(f.origin) + 1 - start} periods of history version "
+            f"The last {labels.index(f.origin) + 1} periods of history version "
             f"{view.version} held, the point forecast and intervals, and the actuals of the "
             "series' latest version."))
     return join([

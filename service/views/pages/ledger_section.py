@@ -9,7 +9,7 @@ from matplotlib.figure import Figure
 from backtest.ledger import MonitoringReport, realised_mase
 from service.cli.ledger_text import flag_state
 from service.usecases.monitoring import Monitored
-from service.views.charts.fan import fan_chart
+from service.views.charts.fan import fan_chart, history_window, recent_history
 from service.views.charts.monitoring import monitoring_chart
 from service.views.charts.render import DRAWING, render
 from service.views.pages.layout import forecast_href, run_href
@@ -117,13 +117,20 @@ def _latest(latest: LatestForecast | None, view: LedgerView) -> list[Html]:
     if latest is None:
         return []
     f = latest.record.forecast
-    fig = fan_chart(latest.bands, latest.history.labels(), latest.history.values,
+    labels, values = recent_history(latest.history.labels(), latest.history.values, f.origin,
+                                    history_window(len(f.periods), f.season_length))
+    fig = fan_chart(latest.bands, labels, values,
                     series_key=view.series.key, candidate_label=f.label,
                     unit=view.series.unit, frequency=view.series.frequency)
     caption = (f"Forecast {latest.record.forecast_id}, issued {shown(latest.record.issued_at)} "
-               f"from version {latest.version}: the history it was fitted on, its "
-               "point forecast and intervals, and the actuals of the series' latest version.")
-    return [element("h3", "Latest issued forecast"), embed_figure(fig, "ledger-fan-", caption)]
+               f"from version {latest.version}: the last {labels.index(f.origin) + 1} "
+               "periods of the history it was fitted on, its point forecast and intervals, "
+               "and the actuals of the series' latest version.")
+    more = element("p", "More history: ", link(forecast_href(latest.record.forecast_id)
+                                               + "?history=0", "the forecast's own page"),
+                   cls="note history")
+    return [element("h3", "Latest issued forecast"), embed_figure(fig, "ledger-fan-", caption),
+            more]
 
 
 def embed_figure(fig: Figure, prefix: str, caption: str) -> Html:

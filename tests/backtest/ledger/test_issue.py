@@ -55,7 +55,7 @@ def test_record_names_its_data_model_and_software(issued_air, air, series_g):
     assert issued_air.levels == (80, 95)
     assert issued_air.fingerprint == air.fingerprint()
     assert issued_air.candidate_spec == parse_candidate(AIRLINE_LOG).canonical
-    assert issued_air.label == "ARIMA(0,1,1)×(0,1,1), season 12, log"
+    assert issued_air.label == "ARIMA(0,1,1)×(0,1,1), m=12, log"
     assert issued_air.scale == pytest.approx(np.mean(np.abs(values[12:] - values[:-12])))
     assert issued_air.scale_sq == pytest.approx(np.mean(np.diff(values) ** 2))
     assert issued_air.software == software_versions()
