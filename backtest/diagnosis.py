@@ -7,7 +7,6 @@ diagnostic step that raises becomes ``{"error": reason}``; the folds are kept.""
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -16,6 +15,7 @@ import numpy as np
 
 from backtest.assessment import fit_report, summarise_folds
 from backtest.candidates import Candidate
+from backtest.captured_warnings import capturing_warnings, warning_line
 from backtest.folds import Origin
 from backtest.models.base import Estimator
 from backtest.models.combination import CombinationSpec
@@ -70,14 +70,13 @@ def full_series_diagnostics(series: Series, candidate: Candidate,
     """
     spec, m = candidate.spec, series.season_length
     z = spec.transform.forward(np.asarray(series.values, dtype=float))
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with capturing_warnings() as caught:
         try:
             fit = (spec.fit(z, m, estimator=estimator) if spec.fast_estimable
                    else spec.fit(z, m))
         except Exception as exc:  # a model that cannot be fitted is reported, not raised
             return {"error": f"{type(exc).__name__}: {exc}"}
-    fit_warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
+    fit_warnings = [warning_line(w) for w in caught]  # each occurrence, as always reported
     assessed_spec, assessed_fit = spec.assessed(fit)
     try:
         report = fit_report(assessed_spec, assessed_fit, z, m, fit_warnings=fit_warnings)

@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import math
-import warnings
-from collections.abc import Iterable
 
 import numpy as np
 
@@ -34,11 +32,3 @@ def vector(values: object, what: str) -> np.ndarray:
     if not np.all(np.isfinite(array)):
         raise ValueError(f"{what} must contain only finite values")
     return array
-
-
-def describe_warnings(caught: Iterable[warnings.WarningMessage]) -> list[str]:
-    """``Category: message`` for each recorded warning, duplicates removed in order."""
-    seen: dict[str, None] = {}
-    for item in caught:
-        seen[f"{item.category.__name__}: {item.message}"] = None
-    return list(seen)

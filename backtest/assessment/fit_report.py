@@ -59,14 +59,13 @@ References
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from typing import Literal
 
 import numpy as np
 from numpy.polynomial import polynomial
 
-from backtest.assessment._numbers import describe_warnings, number
+from backtest.assessment._numbers import number
 from backtest.assessment._tails import norm_sf
 from backtest.assessment.insample import InSample, one_step_errors
 from backtest.assessment.residual_tests import (
@@ -76,6 +75,7 @@ from backtest.assessment.residual_tests import (
     jarque_bera,
     ljung_box,
 )
+from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
 from backtest.models.base import Fit, ModelSpec
 
 Covariance = Literal["approx", "opg"]
@@ -113,10 +113,9 @@ def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
         ``information_criteria``, ``innovation_variance``, ``residuals`` (tests),
         ``roots`` (ARIMA), ``warnings`` and ``unavailable`` (section -> reason).
     """
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with capturing_warnings() as caught:
         report = _full_report(spec, fit, np.asarray(y, dtype=float), season_length, covariance)
-    report["warnings"] = [*fit_warnings, *describe_warnings(caught)]
+    report["warnings"] = [*fit_warnings, *distinct_warning_lines(caught)]
     return report
 
 
@@ -131,8 +130,7 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
         ``converged`` (bool or None), ``params`` (name -> estimate, std_error, p_value),
         ``ljung_box`` (lag, p_value, reason) and ``warnings`` raised while computing it.
     """
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with capturing_warnings() as caught:
         rows, _, _ = coefficient_table(spec, fit, covariance, season_length)
         lag = default_lags(season_length)[0]
         errors = one_step_errors(spec, fit, y, season_length)
@@ -141,7 +139,7 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
     params = {row["name"]: {k: row[k] for k in ("estimate", "std_error", "p_value")}
               for row in rows}
     return {"converged": converged, "params": params, "ljung_box": test,
-            "warnings": describe_warnings(caught)}
+            "warnings": list(distinct_warning_lines(caught))}
 
 
 def _first_ljung_box(errors: InSample, lag: int) -> dict:
