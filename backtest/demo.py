@@ -10,13 +10,15 @@ contract lifts bakery sales from April 2021; catering loses a large client in Se
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from backtest.series import Series, make_series
 
 START_YEAR = 2017
 MONTHS = 96
-DEMO_CANDIDATES: list[dict] = [
+DEMO_CANDIDATES: list[dict[str, Any]] = [
     {"family": "benchmark", "method": "seasonal_naive"},
     {"family": "benchmark", "method": "naive"},
     {"family": "benchmark", "method": "drift"},
@@ -37,7 +39,7 @@ RECALIBRATED = ((6, 7),)
 """Positions in ``DEMO_CANDIDATES`` of a model and the same model with empirical intervals."""
 COMBINED = (8,)
 """Positions in ``DEMO_CANDIDATES`` of combinations."""
-DEMO_PLAN: dict = {"horizon": 12, "max_origins": 24, "refit": 6, "levels": [80, 95],
+DEMO_PLAN: dict[str, Any] = {"horizon": 12, "max_origins": 24, "refit": 6, "levels": [80, 95],
                    "seed": 7}
 
 

@@ -53,7 +53,7 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
     return CandidateOutcome(folds, diagnostics, stability)
 
 
-def _estimates(fold: FoldResult) -> dict | None:
+def _estimates(fold: FoldResult) -> dict[str, Any] | None:
     """The fold's coefficient estimates as the diagnostics name them."""
     if fold.fit_summary and fold.fit_summary.get("params"):
         return {k: v["estimate"] for k, v in fold.fit_summary["params"].items()}

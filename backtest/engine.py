@@ -5,6 +5,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable, Generator, Sequence
 from dataclasses import replace
+from typing import Any
 
 from backtest.candidates import Candidate
 from backtest.diagnosis import CandidateOutcome, evaluate_candidate
@@ -85,7 +86,7 @@ def planned_origins(series: Sequence[Series], candidates: Sequence[Candidate], p
 
 
 def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candidate], Candidate]],
-                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple], *,
+                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple[Any, ...]], *,
                     n_jobs: int, progress: Progress | None, scheduler: str | None) -> Units:
     total = sum(len(t[3]) for t in tasks)
     done = 0

@@ -33,7 +33,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
-from typing import TypeVar
+from typing import Any, TypeVar
 
 import numpy as np
 
@@ -47,17 +47,14 @@ from backtest.assessment import (
 from backtest.plan import Plan
 from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
+from backtest.score_registry import loss_of
 
 MCS_SIZE = 0.10
 MCS_REPS = 1000
 ALPHA = 0.05
 _ZONE_ORDER = ("consistent", "suspect", "excessive")
-_SQUARED = ("rmse", "rmsse")
 NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
 T = TypeVar("T")
-#: Scores averaged over origins of a per-origin root mean square (absolute loss on it).
-_ROOT_PER_ORIGIN = ("rmsse_fold_mean",)
-_DISTRIBUTION = ("crps", "pinball", "scaled_pinball")
 
 
 @dataclass(frozen=True)
@@ -92,7 +89,7 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
                     plan: Plan, predictive: Mapping[str, Predictive],
-                    filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
+                    filled: Collection[str] = ()) -> tuple[dict[str, Any], dict[str, Annotation]]:
     """Calibration, comparisons and confidence set for one series' candidates;
     ``predictive`` gives each candidate's predictive form (for distribution scores).
 
@@ -114,17 +111,19 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
     calibration = {cid: attempt(f"calibration.{cid}", lambda a=a: _calibration(a, plan))
                    for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
-    loss = "squared" if plan.rank_by in _SQUARED else "absolute"
-    reduce = "root" if plan.rank_by in _ROOT_PER_ORIGIN else loss
+    kind = loss_of(plan.rank_by)
+    loss = "squared" if kind == "squared" else "absolute"
+    reduce = "root" if kind == "origin_root" else loss
     ranked = scaled
-    if plan.rank_by in _DISTRIBUTION:
+    if kind == "distribution":
         ranked = {cid: _distribution_losses(folds, predictive[cid], plan)
                   / arrays[cid]["scale"][:, None] for cid, folds in folds_by_candidate.items()}
     per_origin = {cid: _origin_losses(e, plan.rank_horizon, reduce)
                   for cid, e in ranked.items()}
     if len(arrays) < 2:
-        comparison: dict = {"errors": "scaled by each fold's MASE scale", "benchmark": None,
-                            "pairwise": None, "reason": NOTHING_TO_COMPARE}
+        comparison: dict[str, Any] = {
+            "errors": "scaled by each fold's MASE scale", "benchmark": None, "pairwise": None,
+            "reason": NOTHING_TO_COMPARE}
     else:
         comparison = {
             "errors": "scaled by each fold's MASE scale",
@@ -156,7 +155,7 @@ def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
                         ) -> list[list[str]]:
     """Groups of candidates whose every fold has the same status, point forecasts and
     bounds: one forecast under several names, which no test can tell apart."""
-    groups: dict[tuple, list[str]] = {}
+    groups: dict[tuple[Any, ...], list[str]] = {}
     for cid, folds in folds_by_candidate.items():
         key = tuple((f.fold, f.status, f.point, tuple(sorted(f.lower.items())),
                      tuple(sorted(f.upper.items())))
@@ -165,7 +164,7 @@ def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
     return [ids for ids in groups.values() if len(ids) > 1]
 
 
-def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
+def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict[str, Any]]:
     lower = {lv: a[f"lower{lv}"] for lv in plan.levels}
     upper = {lv: a[f"upper{lv}"] for lv in plan.levels}
     actual = np.where(np.isnan(a["point"]), np.nan, a["actual"])
@@ -210,7 +209,7 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) 
     return bool(test["p_value"] < ALPHA and test["mean_difference"] < 0)
 
 
-def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
+def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict[str, Any]:
     names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
     undefined = [n for n in per_origin if n not in names]
     if len(names) < 2:
@@ -222,7 +221,7 @@ def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str)
     return {**found, "without_loss": undefined} if undefined else found
 
 
-def _h1_zone(report: list[dict]) -> str | None:
+def _h1_zone(report: list[dict[str, Any]]) -> str | None:
     zones = [level["by_horizon"][0]["zone"] for level in report if level["by_horizon"]]
     zones = [z for z in zones if z is not None]
     return max(zones, key=_ZONE_ORDER.index) if zones else None

@@ -45,7 +45,7 @@ def die_with_parent() -> None:
     threading.Thread(target=watch, name="parent-watchdog", daemon=True).start()
 
 
-def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int, T]:
+def _single_threaded(fn: Callable[..., T], index: int, args: tuple[Any, ...]) -> tuple[int, T]:
     with threadpool_limits(limits=1):
         return index, fn(*args)
 
@@ -73,7 +73,7 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
                          initializer=die_with_parent)(calls))
 
 
-def _on_cluster(scheduler: str, calls: Iterable) -> Iterator[tuple[int, Any]]:
+def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Iterator[tuple[int, Any]]:
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 

@@ -45,14 +45,12 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 from backtest.errors import PlanError
 from backtest.models.base import ESTIMATORS, Estimator
+from backtest.score_registry import RANK_SCORES
 
-RANK_SCORES = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "crps", "pinball",
-               "scaled_pinball")
-"""Scores a plan may rank by (lower is better); defined in :mod:`backtest.scoring`."""
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
 NOT_CONVERGED = ("keep", "fail")
@@ -89,7 +87,7 @@ class Plan:
             return origin_number == 0
         return origin_number % self.refit == 0
 
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         """Canonical JSON body (every default filled in)."""
         first = ({"period": self.first_period} if self.first_period is not None
                  else {"train_size": self.first_train_size})

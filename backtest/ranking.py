@@ -22,7 +22,8 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 
 from backtest.results import CandidateInfo, FoldResult, RankRow, Score
-from backtest.scoring import FOLD_COUNTED, score_candidate
+from backtest.score_registry import FOLD_COUNTED
+from backtest.scoring import score_candidate
 
 Rescore = Callable[[str, list[FoldResult]], list[Score]]
 

@@ -30,7 +30,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -48,7 +48,7 @@ class EmpiricalIntervals:
     min_errors: int = 20
     errors: Literal["raw", "scaled"] = "raw"
 
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         return {"kind": "empirical", "min_errors": self.min_errors, "errors": self.errors}
 
     def suffix(self) -> str:

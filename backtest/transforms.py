@@ -9,7 +9,7 @@ mean.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -47,7 +47,7 @@ class Transform:
             out = np.power(np.where(base > 0, base, 1.0), 1.0 / self.lam)
         return np.where(base > 0, out, 0.0 if self.lam > 0 else np.inf)
 
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         return {"kind": self.kind, "lambda": self.lam}
 
 

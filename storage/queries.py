@@ -9,7 +9,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Literal
 
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
@@ -19,7 +18,6 @@ from storage.errors import translates_errors
 from storage.runs import RunInfo, get_run
 from storage.schema import (
     AuditEvent,
-    ResultCandidate,
     Run,
     RunSeries,
     ScoreRecord,
@@ -39,18 +37,6 @@ class LatestRun:
     run_id: int
     finished_at: datetime
     benchmark_id: str
-
-
-@dataclass(frozen=True)
-class RankedScore:
-    """A candidate's place for one score of one series in one run (``None`` if unscored)."""
-
-    rank: int | None
-    candidate_id: str
-    label: str
-    value: float | None
-    count: int
-    note: str | None
 
 
 @dataclass(frozen=True)
@@ -83,37 +69,6 @@ def latest_successful_run(session: Session, series_key: str) -> LatestRun | None
     """The latest successful run of one series, if any."""
     row = session.execute(latest_runs_query(series_key)).first()
     return None if row is None else LatestRun(*row)
-
-
-@translates_errors
-def ranked_candidates(session: Session, series_key: str, *, metric: str,
-                      horizon: int | None = None, level: int | None = None,
-                      best: Literal["lowest", "highest"] = "lowest") -> list[RankedScore]:
-    """Candidates of a series' latest successful run, ordered by one score.
-
-    ``horizon=None`` selects the pooled score, ``level`` the interval level of interval
-    scores. Candidates without a value come last, unranked; ties share the best rank
-    (1, 1, 3), and are listed by candidate id.
-    """
-    latest = latest_successful_run(session, series_key)
-    if latest is None:
-        return []
-    rows = session.execute(
-        select(ScoreRecord.candidate_id, ResultCandidate.label, ScoreRecord.value,
-               ScoreRecord.count, ScoreRecord.note)
-        .join(ResultCandidate, (ResultCandidate.run_id == ScoreRecord.run_id)
-              & (ResultCandidate.series_version_id == ScoreRecord.series_version_id)
-              & (ResultCandidate.candidate_id == ScoreRecord.candidate_id))
-        .where(ScoreRecord.run_id == latest.run_id,
-               ScoreRecord.series_version_id == latest.series_version_id,
-               *_score_filter(metric, horizon, level))
-    ).all()
-    sign = 1 if best == "lowest" else -1
-    ordered = sorted(rows, key=lambda r: (r.value is None, sign * (r.value or 0.0),
-                                          r.candidate_id))
-    keys = [sign * r.value for r in rows if r.value is not None]
-    return [RankedScore(None if r.value is None else 1 + sum(k < sign * r.value for k in keys),
-                        r.candidate_id, r.label, r.value, r.count, r.note) for r in ordered]
 
 
 @translates_errors

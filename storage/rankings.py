@@ -3,8 +3,9 @@
 One row per series x candidate, ranked by one stored score (a metric at one horizon, or
 pooled, and an interval level for interval scores); lower values rank first for every
 rankable metric. Ties share the best rank (1, 1, 3); candidates without a value come last,
-unranked. This is the rule of :func:`storage.queries.ranked_candidates`, computed in one
-SQL statement for all series at once.
+unranked. Computed in one SQL statement for all series at once; on the plan's score of a
+run where every candidate completed every fold it orders the candidates as the engine's
+ranking (:mod:`backtest.ranking`) does (``tests/storage/test_rankings.py``).
 """
 
 from __future__ import annotations
@@ -16,15 +17,9 @@ from typing import Any
 from sqlalchemy import case, func, select
 from sqlalchemy.orm import Session
 
-from backtest.plan import RANK_SCORES
 from storage.errors import translates_errors
 from storage.queries import latest_runs_query
 from storage.schema import ResultCandidate, ScoreRecord, SeriesRecord
-
-RANKABLE = (*RANK_SCORES, "winkler", "msis")
-"""Metrics where lower is better: the plan's rankable scores, and the interval scores
-``winkler`` and ``msis``, which need an interval level; ``pinball`` takes one (one level's
-two quantiles) or none (every quantile of the plan)."""
 
 
 @translates_errors

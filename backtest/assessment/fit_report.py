@@ -60,7 +60,7 @@ References
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.polynomial import polynomial
@@ -93,7 +93,8 @@ _COVARIANCE_TEXT = {
 
 
 def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
-               covariance: Covariance = "approx", fit_warnings: Sequence[str] = ()) -> dict:
+               covariance: Covariance = "approx",
+               fit_warnings: Sequence[str] = ()) -> dict[str, Any]:
     """Full diagnostic report for a fitted model of any family.
 
     Parameters
@@ -120,7 +121,7 @@ def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
 
 
 def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
-                     covariance: Covariance = "approx") -> dict:
+                     covariance: Covariance = "approx") -> dict[str, Any]:
     """Compact per-fold report: coefficient estimates, s.e. and p-values, convergence, and
     the Ljung-Box p-value at the first default lag.
 
@@ -142,7 +143,7 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
             "warnings": list(distinct_warning_lines(caught))}
 
 
-def _first_ljung_box(errors: InSample, lag: int) -> dict:
+def _first_ljung_box(errors: InSample, lag: int) -> dict[str, Any]:
     if errors.errors is None:
         return {"lag": lag, "p_value": None, "reason": errors.note}
     row = ljung_box(errors.errors, [lag], errors.model_df)[0]
@@ -150,7 +151,7 @@ def _first_ljung_box(errors: InSample, lag: int) -> dict:
 
 
 def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
-                 covariance: Covariance) -> dict:
+                 covariance: Covariance) -> dict[str, Any]:
     unavailable: dict[str, str] = {}
     rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance,
                                                      season_length)
@@ -176,7 +177,7 @@ def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
 
 
 def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance, season_length: int
-                      ) -> tuple[list[dict], dict | None, str | None]:
+                      ) -> tuple[list[dict[str, Any]], dict[str, Any] | None, str | None]:
     """Rows of name, estimate, std_error, z, p_value, note; the covariance used; and the
     reason when there are no standard errors."""
     names = list(fit.params)
@@ -215,7 +216,7 @@ def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[s
     return out
 
 
-def _smallest_modulus(roots: dict, name: str) -> float | None:
+def _smallest_modulus(roots: dict[str, Any], name: str) -> float | None:
     """Smallest root modulus (in B, or in B^m for a seasonal polynomial) of the lag
     polynomial that the ARIMA coefficient ``name`` (``ar.L1``, ``ma.S.L12``, ...) belongs
     to; ``None`` for the constant, drift and variance."""
@@ -247,7 +248,7 @@ def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k:
 
 
 def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None,
-                     bound: str | None) -> dict:
+                     bound: str | None) -> dict[str, Any]:
     row = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
            "p_value": None, "note": reason}
     if reason:
@@ -269,7 +270,7 @@ def _coefficient_row(name: str, estimate: float, variance: float, reason: str | 
     return row
 
 
-def _estimation(spec: ModelSpec, fit: Fit) -> dict:
+def _estimation(spec: ModelSpec, fit: Fit) -> dict[str, Any]:
     if spec.family in ("arima", "ets") and fit.raw is not None:
         retvals = getattr(fit.raw, "mle_retvals", None) or {}
         converged = retvals.get("converged")
@@ -289,7 +290,7 @@ def _count(value: object) -> int | None:
     return None if value is None else int(value)  # type: ignore[call-overload]
 
 
-def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict | None:
+def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict[str, Any] | None:
     if spec.family not in ("arima", "ets"):
         unavailable["information_criteria"] = f"no likelihood for the {spec.family} estimate"
         return None
@@ -304,7 +305,7 @@ def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict | 
                           "AICc = AIC + 2K(K+1)/(N-K-1), N effective observations"}
 
 
-def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict:
+def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict[str, Any]:
     if "sigma2" in fit.params:
         value, source = fit.params["sigma2"], "estimated parameter sigma2"
     elif "sigma" in fit.params:
@@ -316,7 +317,7 @@ def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict:
     return {"value": number(value), "source": source}
 
 
-def residual_section(errors: InSample, season_length: int) -> dict | None:
+def residual_section(errors: InSample, season_length: int) -> dict[str, Any] | None:
     """Ljung-Box, Jarque-Bera, ARCH LM and ACF/PACF on the one-step errors."""
     if errors.errors is None:
         return None
@@ -327,13 +328,13 @@ def residual_section(errors: InSample, season_length: int) -> dict | None:
             "arch_lm": arch_lm(e, lags[0]), "acf": acf_report(e, lags[-1])}
 
 
-def arima_roots(raw, period: int) -> dict:
+def arima_roots(raw, period: int) -> dict[str, Any]:
     """Roots of the regular (in B) and seasonal (in B^m) AR and MA polynomials.
 
     ``raw`` is statsmodels' ARIMA results; its ``polynomial_*`` attributes hold
     coefficients in increasing powers of B (MA with statsmodels' + sign).
     """
-    out: dict = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
+    out: dict[str, Any] = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
     for part in ("ar", "ma"):
         regular = _root_rows(getattr(raw, f"polynomial_{part}"), 1)
         seasonal_coefs = np.asarray(getattr(raw, f"polynomial_seasonal_{part}"))
@@ -353,7 +354,7 @@ def _finite_polynomials(raw) -> bool:
                for name in ("ar", "ma", "seasonal_ar", "seasonal_ma"))
 
 
-def _root_rows(coefficients, power: int) -> list[dict]:
+def _root_rows(coefficients, power: int) -> list[dict[str, Any]]:
     coefs = np.trim_zeros(np.asarray(coefficients, dtype=float), "b")
     if len(coefs) < 2:
         return []

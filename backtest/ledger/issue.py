@@ -51,7 +51,7 @@ class IssuedForecast:
     series_key: str
     fingerprint: str
     candidate_id: str
-    candidate_spec: dict
+    candidate_spec: dict[str, Any]
     label: str
     season_length: int
     origin: str
@@ -186,7 +186,7 @@ def _floats(values: np.ndarray) -> tuple[float, ...]:
     return tuple(float(v) for v in values)
 
 
-def _bounds_from_json(body: Mapping, missing: float) -> dict[int, tuple[float, ...]]:
+def _bounds_from_json(body: Mapping[str, Any], missing: float) -> dict[int, tuple[float, ...]]:
     return {int(level): tuple(missing if v is None else float(v) for v in bounds)
             for level, bounds in body.items()}
 

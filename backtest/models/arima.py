@@ -27,7 +27,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 from statsmodels.tsa.arima.model import ARIMA
@@ -77,7 +77,7 @@ class ArimaSpec(ModelSpec):
     deterministic: Deterministic = "none"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         seasonal = None if self.seasonal is None else {
             "order": list(self.seasonal), "period": self.period}
         return {"order": list(self.order), "seasonal": seasonal,
@@ -234,7 +234,7 @@ def vector(model: ARIMA, params: Params) -> np.ndarray:
     return np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names], dtype=float)
 
 
-def parse(body: Mapping) -> ArimaSpec:
+def parse(body: Mapping[str, Any]) -> ArimaSpec:
     """Read an ``arima`` candidate body; reject impossible deterministic terms."""
     fields = take_fields(body, "arima", {"order", "seasonal", "deterministic", "transform"})
     order = _order(fields.get("order"), "arima order", (5, 2, 5))

@@ -49,7 +49,7 @@ import warnings
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 
@@ -96,7 +96,7 @@ class OrderLimits:
     seasonal_d: int = 1
     seasonal_q: int = 1
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"p": self.p, "d": self.d, "q": self.q, "P": self.seasonal_p,
                 "D": self.seasonal_d, "Q": self.seasonal_q}
 
@@ -136,7 +136,7 @@ class ArimaSearchSpec(ModelSpec):
 
     def fits_per_estimate(self) -> int:
         return self.max_models
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         """The canonical body; the two thresholds appear only when not at their defaults,
         so candidates written before they became fields keep their ids."""
         out = {"max_order": self.limits.body(), "seasonal": self.seasonal,
@@ -144,7 +144,7 @@ class ArimaSearchSpec(ModelSpec):
                "period": self.period, "transform": self.transform.canonical()}
         return out | self._changed_thresholds()
 
-    def _changed_thresholds(self) -> dict:
+    def _changed_thresholds(self) -> dict[str, Any]:
         defaults = {"seasonal_strength_threshold": STRONG_SEASONALITY,
                     "max_inverse_root": MAX_INVERSE_ROOT}
         return {name: getattr(self, name) for name, default in defaults.items()
@@ -307,7 +307,7 @@ def encode_order(spec: ArimaSpec) -> Params:
             "deterministic": float(_TERMS.index(spec.deterministic))}
 
 
-def parse(body: Mapping) -> ArimaSearchSpec:
+def parse(body: Mapping[str, Any]) -> ArimaSearchSpec:
     """Read an ``arima_search`` candidate body."""
     fields = take_fields(body, "arima_search", {"max_order", "seasonal", "criterion",
                                                 "max_models", "transform", "period",

@@ -72,7 +72,7 @@ class ModelSpec(ABC):
         return 1
 
     @abstractmethod
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         """Canonical JSON body of the spec, every default filled in (without ``family``)."""
 
     @abstractmethod
@@ -169,7 +169,7 @@ def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> 
     return Forecast(mean, lower, upper)
 
 
-def take_fields(body: Mapping, family: str, allowed: set[str]) -> dict:
+def take_fields(body: Mapping[str, Any], family: str, allowed: set[str]) -> dict[str, Any]:
     """Return ``body`` without ``family``; reject keys outside ``allowed``."""
     if not isinstance(body, Mapping):
         raise CandidateError(f"{family} candidate must be a JSON object, got {type(body).__name__}")

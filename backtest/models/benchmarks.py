@@ -18,7 +18,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 
@@ -48,7 +48,7 @@ class BenchmarkSpec(ModelSpec):
     method: Method = "seasonal_naive"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"method": self.method}
 
     def label(self, season_length: int) -> str:
@@ -115,7 +115,7 @@ class BenchmarkSpec(ModelSpec):
                         forecasts_by_origin(table.mean, table.sd, levels)))
 
 
-def parse(body: Mapping) -> BenchmarkSpec:
+def parse(body: Mapping[str, Any]) -> BenchmarkSpec:
     """Read a ``benchmark`` candidate body."""
     fields = take_fields(body, "benchmark", {"method"})
     method = choice(fields.get("method"), tuple(BENCHMARK_NAMES), "benchmark method")

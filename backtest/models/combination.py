@@ -22,7 +22,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 
@@ -52,7 +52,7 @@ class CombinationSpec(ModelSpec):
     rule: Rule = "mean"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"members": [{"family": s.family, **s.body()} for s in self.members],
                 "rule": self.rule}
 
@@ -119,7 +119,7 @@ def combine(forecasts: Sequence[Forecast], rule: Rule, levels: Sequence[int]) ->
     return Forecast(np.asarray(mean), lower, upper)
 
 
-def parse(body: Mapping) -> CombinationSpec:
+def parse(body: Mapping[str, Any]) -> CombinationSpec:
     """Read a ``combination`` candidate body: ``members`` (2 to 8 specs of other
     families) and ``rule``."""
     from backtest.models import FAMILIES  # the registry imports this module

@@ -15,7 +15,7 @@ from __future__ import annotations
 import warnings
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 import pandas as pd
@@ -60,7 +60,7 @@ class EtsSpec(ModelSpec):
     period: int | None = None
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"error": self.error, "trend": self.trend, "season": self.season,
                 "period": self.period, "transform": self.transform.canonical()}
 
@@ -192,7 +192,7 @@ def _vector(model: ETSModel, params: Params) -> np.ndarray:
     return np.array([params[n] for n in model.param_names], dtype=float)
 
 
-def parse(body: Mapping) -> EtsSpec:
+def parse(body: Mapping[str, Any]) -> EtsSpec:
     """Read an ``ets`` candidate body."""
     fields = take_fields(body, "ets", {"error", "trend", "season", "period", "transform"})
     error = choice(fields.get("error", "additive"), ("additive", "multiplicative"), "ets error")

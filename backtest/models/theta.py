@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 import numpy as np
 from statsmodels.tsa.forecasting.theta import ThetaModel
@@ -41,7 +41,7 @@ class ThetaSpec(ModelSpec):
     period: int | None = None
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"season": self.season, "decomposition": self.decomposition,
                 "period": self.period, "transform": self.transform.canonical()}
 
@@ -88,7 +88,7 @@ class ThetaSpec(ModelSpec):
         return fit, Forecast(mean, lower, upper)
 
 
-def parse(body: Mapping) -> ThetaSpec:
+def parse(body: Mapping[str, Any]) -> ThetaSpec:
     """Read a ``theta`` candidate body."""
     fields = take_fields(body, "theta", {"season", "decomposition", "period", "transform"})
     season = choice(fields.get("season", "test"), ("test", "always", "never"), "theta season")

@@ -6,7 +6,7 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 
-from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
+from backtest.score_registry import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flat_rows import flat_columns, flat_rows

@@ -6,6 +6,7 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 
+from backtest.score_registry import RANKABLE, level_rule
 from service.access import Caller, require
 from service.app_state import Rankings, Sessions
 from service.errors import FieldError, InvalidInputError
@@ -24,13 +25,11 @@ from service.tables import (
     next_link,
 )
 from storage.queries import succeeded_run_count
-from storage.rankings import RANKABLE, ranking_table
+from storage.rankings import ranking_table
 
 router = APIRouter(prefix="/v1", tags=["rankings"])
 Reader = Annotated[Caller, Depends(require("read"))]
 Metric = Literal[RANKABLE]  # type: ignore[valid-type]
-LEVEL_METRICS = ("winkler", "msis")
-LEVEL_OPTIONAL = ("pinball",)
 
 
 @router.get("/rankings", response_model=RankingPage,
@@ -66,9 +65,10 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
 
 
 def _check_level(metric: str, level: int | None) -> None:
-    if metric in LEVEL_OPTIONAL:
+    rule = level_rule(metric)
+    if rule == "optional":
         return
-    if (metric in LEVEL_METRICS) != (level is not None):
+    if (rule == "required") != (level is not None):
         message = (f"{metric} is scored per interval level: give level" if level is None
                    else f"{metric} has no interval level: leave level out")
         raise InvalidInputError(message, errors=[FieldError("query", "/level", message)])
