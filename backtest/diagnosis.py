@@ -70,10 +70,10 @@ def full_series_diagnostics(series: Series, candidate: Candidate,
     """
     spec, m = candidate.spec, series.season_length
     z = spec.transform.forward(np.asarray(series.values, dtype=float))
+    options: dict[str, Any] = {"estimator": estimator} if spec.fast_estimable else {}
     with capturing_warnings() as caught:
         try:
-            fit = (spec.fit(z, m, estimator=estimator) if spec.fast_estimable
-                   else spec.fit(z, m))
+            fit = spec.fit(z, m, **options)
         except Exception as exc:  # a model that cannot be fitted is reported, not raised
             return {"error": f"{type(exc).__name__}: {exc}"}
     fit_warnings = [warning_line(w) for w in caught]  # each occurrence, as always reported

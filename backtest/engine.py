@@ -121,10 +121,11 @@ def _with_benchmark(candidates: Sequence[Candidate], plan: Plan, season_length: 
     pool = list(candidates)
     same = [c for c in pool if isinstance(c.spec, BenchmarkSpec) and c.intervals is None
             and _benchmark_method(c.spec.method, season_length) == method]
-    exact = [c for c in same if c.spec.method == plan.benchmark]
+    exact = [c for c in same
+             if isinstance(c.spec, BenchmarkSpec) and c.spec.method == plan.benchmark]
     if exact or same:
         return pool, (exact or same)[0]
-    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
+    benchmark = Candidate(BenchmarkSpec(plan.benchmark))
     return [*pool, benchmark], benchmark
 
 

@@ -33,6 +33,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
+from functools import partial
 from typing import Any, TypeVar
 
 import numpy as np
@@ -44,6 +45,7 @@ from backtest.assessment import (
     model_confidence_set,
     pairwise,
 )
+from backtest.assessment.comparison import Loss
 from backtest.plan import Plan
 from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
@@ -108,11 +110,11 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
     filled = frozenset(filled)
     arrays = {cid: matrices(folds, plan.horizon, plan.levels, filled)
               for cid, folds in folds_by_candidate.items()}
-    calibration = {cid: attempt(f"calibration.{cid}", lambda a=a: _calibration(a, plan))
+    calibration = {cid: attempt(f"calibration.{cid}", partial(_calibration, a, plan))
                    for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
     kind = loss_of(plan.rank_by)
-    loss = "squared" if kind == "squared" else "absolute"
+    loss: Loss = "squared" if kind == "squared" else "absolute"
     reduce = "root" if kind == "origin_root" else loss
     ranked = scaled
     if kind == "distribution":
@@ -133,8 +135,8 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
                 scaled, alpha=ALPHA, origin_step=plan.step)),
         }
     comparison["identical_forecasts"] = identical_forecasts(folds_by_candidate)
-    beats = {cid: attempt(f"ranking_tests.{cid}", lambda cid=cid: _beats(
-                 per_origin[cid], per_origin[benchmark_id], plan, loss))
+    beats = {cid: attempt(f"ranking_tests.{cid}", partial(
+                 _beats, per_origin[cid], per_origin[benchmark_id], plan, loss))
              for cid in per_origin if cid != benchmark_id}
     confidence_set = attempt("confidence_set", lambda: _confidence_set(per_origin, plan, loss))
     if confidence_set is None:
@@ -193,17 +195,17 @@ def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, reduce: str) ->
     (``reduce`` "squared" or "root"), else the mean absolute error."""
     if rank_horizon is not None:
         return scaled[:, rank_horizon - 1]
-    if reduce in ("squared", "root"):
-        return np.sqrt(np.mean(scaled**2, axis=1))
-    return np.mean(np.abs(scaled), axis=1)
+    losses: np.ndarray = (np.sqrt(np.mean(scaled**2, axis=1)) if reduce in ("squared", "root")
+                          else np.mean(np.abs(scaled), axis=1))
+    return losses
 
 
-def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) -> bool | None:
+def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: Loss) -> bool | None:
     keep = np.isfinite(candidate) & np.isfinite(benchmark)
     if keep.sum() < 3:
         return None
     overlap = -(-(plan.rank_horizon or plan.horizon) // plan.step)
-    test = diebold_mariano(candidate[keep], benchmark[keep], overlap, loss)  # type: ignore[arg-type]
+    test = diebold_mariano(candidate[keep], benchmark[keep], overlap, loss)
     if test["p_value"] is None:
         return None
     return bool(test["p_value"] < ALPHA and test["mean_difference"] < 0)

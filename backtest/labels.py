@@ -77,6 +77,7 @@ def theta_label(seasonal: bool, mode: str, decomposition: str, period: int,
     """``Theta``; the season qualifier says when it is removed (``if tested``, always, or
     ``no season``) and how (``add.``/``mult.`` unless chosen automatically)."""
     how = "" if decomposition == "auto" else f"{DECOMPOSITION_NAMES[decomposition]} "
+    phrase: str | None
     if seasonal:
         phrase = f"{how}{season(period)}" + (" if tested" if mode == "test" else "")
     elif mode == "never":
@@ -97,6 +98,7 @@ def search_label(criterion: str, period: int, seasonal: bool, limits: Mapping[st
                  transform: Transform) -> str:
     """``ARIMA search by <criterion>`` with its season (or ``no season``), the order limits
     when not the defaults, further non-default settings (``extras``) and the transform."""
+    where: str | None
     if seasonal and period >= 2:
         where = season(period)
     else:

@@ -77,6 +77,7 @@ def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Iterator[tuple[int, Any
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 
-    with Client(scheduler, set_as_default=False) as client, \
-            parallel_config(backend="dask", client=client):
+    # dask.distributed's Client has no annotations
+    client = Client(scheduler, set_as_default=False)  # type: ignore[no-untyped-call]
+    with client, parallel_config(backend="dask", client=client):
         yield from Parallel(return_as="generator_unordered")(calls)

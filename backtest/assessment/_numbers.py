@@ -3,17 +3,18 @@
 from __future__ import annotations
 
 import math
+from typing import SupportsFloat
 
 import numpy as np
 
 from backtest.assessment import _tails
 
 
-def number(value: object) -> float | None:
+def number(value: SupportsFloat | None) -> float | None:
     """A Python float, or ``None`` when the value is missing, NaN or infinite."""
     if value is None:
         return None
-    out = float(value)  # type: ignore[arg-type]
+    out = float(value)
     return out if math.isfinite(out) else None
 
 

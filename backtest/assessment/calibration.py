@@ -109,7 +109,7 @@ def christoffersen(hit_sequence: Sequence[int] | np.ndarray,
     if hits.ndim != 1 or not np.all((hits == 0) | (hits == 1)):
         raise ValueError("hit_sequence must be a one-dimensional sequence of 0s and 1s")
     miss = 1 - hits.astype(int)
-    out = {"n": len(miss), "transitions": None, "miss_after_hit": None,
+    out: dict[str, Any] = {"n": len(miss), "transitions": None, "miss_after_hit": None,
            "miss_after_miss": None, "miss_rate": None, "lr_uc": None, "lr_ind": None,
            "lr_cc": None, "p_value_uc": None, "p_value_ind": None, "p_value_cc": None,
            "uc_observations": max(len(miss) - 1, 0), "reason": None}

@@ -64,7 +64,7 @@ def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared"
     if loss not in _LOSS_FUNCTIONS:
         raise ValueError(f"loss must be one of {', '.join(LOSSES)}, got {loss!r}")
     d = _LOSS_FUNCTIONS[loss](a) - _LOSS_FUNCTIONS[loss](b)
-    out = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
+    out: dict[str, Any] = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
            "variance": None, "kernel": None, "dm": None, "p_value_normal": None,
            "hln": None, "df": len(d) - 1, "p_value": None, "p_value_first_better": None,
            "reason": None}
@@ -182,7 +182,8 @@ def _verdict(test: dict[str, Any], alpha: float, better: str, worse: str) -> str
 
 def _summary(rows: list[dict[str, Any]], names: list[str],
              losses: Sequence[Loss]) -> dict[str, Any]:
-    summary = {name: {loss: {"better_at": [], "worse_at": []} for loss in losses}
+    summary: dict[str, dict[str, dict[str, list[int]]]] = {
+        name: {loss: {"better_at": [], "worse_at": []} for loss in losses}
                for name in names}
     for row in rows:
         if row["verdict"] in ("better", "worse"):

@@ -76,6 +76,7 @@ from backtest.assessment.residual_tests import (
     ljung_box,
 )
 from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
+from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
 
 Covariance = Literal["approx", "opg"]
@@ -163,7 +164,7 @@ def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
     if residuals is None:
         unavailable["residuals"] = errors.note
     roots = None
-    if spec.family != "arima" or fit.raw is None:
+    if spec.family != "arima" or not isinstance(spec, ArimaSpec) or fit.raw is None:
         unavailable["roots"] = "lag-polynomial roots need a fitted ARIMA model"
     elif not _finite_polynomials(fit.raw):
         unavailable["roots"] = "lag polynomials have NaN or infinite coefficients"
@@ -206,7 +207,8 @@ def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[s
         if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
             out[name] = ("at or near the bound of statsmodels' default parameter range "
                          f"[{low}, {high}]")
-    if spec.family == "arima" and fit.raw is not None and _finite_polynomials(fit.raw):
+    if (isinstance(spec, ArimaSpec) and spec.family == "arima" and fit.raw is not None
+            and _finite_polynomials(fit.raw)):
         roots = arima_roots(fit.raw, spec.season_period(season_length))
         for name in fit.params:
             modulus = _smallest_modulus(roots, name)
@@ -249,7 +251,7 @@ def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k:
 
 def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None,
                      bound: str | None) -> dict[str, Any]:
-    row = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
+    row: dict[str, Any] = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
            "p_value": None, "note": reason}
     if reason:
         return row
@@ -286,8 +288,8 @@ def _estimation(spec: ModelSpec, fit: Fit) -> dict[str, Any]:
             "warnflag": None, "reason": "no iterative optimizer status for this estimate"}
 
 
-def _count(value: object) -> int | None:
-    return None if value is None else int(value)  # type: ignore[call-overload]
+def _count(value: Any) -> int | None:
+    return None if value is None else int(value)
 
 
 def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict[str, Any] | None:
@@ -328,7 +330,7 @@ def residual_section(errors: InSample, season_length: int) -> dict[str, Any] | N
             "arch_lm": arch_lm(e, lags[0]), "acf": acf_report(e, lags[-1])}
 
 
-def arima_roots(raw, period: int) -> dict[str, Any]:
+def arima_roots(raw: Any, period: int) -> dict[str, Any]:
     """Roots of the regular (in B) and seasonal (in B^m) AR and MA polynomials.
 
     ``raw`` is statsmodels' ARIMA results; its ``polynomial_*`` attributes hold
@@ -349,12 +351,12 @@ def arima_roots(raw, period: int) -> dict[str, Any]:
     return out
 
 
-def _finite_polynomials(raw) -> bool:
+def _finite_polynomials(raw: Any) -> bool:
     return all(np.all(np.isfinite(np.asarray(getattr(raw, f"polynomial_{name}"), dtype=float)))
                for name in ("ar", "ma", "seasonal_ar", "seasonal_ma"))
 
 
-def _root_rows(coefficients, power: int) -> list[dict[str, Any]]:
+def _root_rows(coefficients: Any, power: int) -> list[dict[str, Any]]:
     coefs = np.trim_zeros(np.asarray(coefficients, dtype=float), "b")
     if len(coefs) < 2:
         return []

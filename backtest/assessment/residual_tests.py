@@ -66,7 +66,7 @@ def ljung_box(resid: object, lags: list[int], model_df: int) -> list[dict[str, A
 
 def _ljung_box_at(lag: int, x: np.ndarray, r: np.ndarray | None, model_df: int) -> dict[str, Any]:
     n, df = len(x), lag - model_df
-    out = {"lag": lag, "q": None, "df": df, "p_value": None, "reason": None}
+    out: dict[str, Any] = {"lag": lag, "q": None, "df": df, "p_value": None, "reason": None}
     if not 1 <= lag < n:
         out["reason"] = f"lag {lag} needs 1 <= lag < n = {n}"
     elif r is None:
@@ -89,8 +89,8 @@ def jarque_bera(resid: object) -> dict[str, Any]:
     referred to chi-squared(2).
     """
     x = vector(resid, "resid")
-    out = {"n": len(x), "skewness": None, "kurtosis": None, "statistic": None, "df": 2,
-           "p_value": None, "reason": None}
+    out: dict[str, Any] = {"n": len(x), "skewness": None, "kurtosis": None, "statistic": None,
+                           "df": 2, "p_value": None, "reason": None}
     centred = x - x.mean()
     variance = float(np.mean(centred**2))
     if len(x) < 3 or variance <= 0.0:
@@ -116,8 +116,9 @@ def arch_lm(resid: object, nlags: int) -> dict[str, Any]:
     x = vector(resid, "resid")
     q = int(nlags)
     rows = len(x) - q
-    out = {"nlags": q, "n_used": max(rows, 0), "lm": None, "lm_p_value": None, "f": None,
-           "f_df": [q, rows - q - 1], "f_p_value": None, "reason": None}
+    out: dict[str, Any] = {"nlags": q, "n_used": max(rows, 0), "lm": None, "lm_p_value": None,
+                           "f": None, "f_df": [q, rows - q - 1], "f_p_value": None,
+                           "reason": None}
     if q < 1 or rows - q - 1 < 1:
         out["reason"] = f"needs nlags >= 1 and n > 2 * nlags + 1 (n = {len(x)}, nlags = {q})"
         return out
@@ -153,7 +154,7 @@ def acf_report(resid: object, nlags: int) -> dict[str, Any]:
     x = vector(resid, "resid")
     n = len(x)
     lags = min(int(nlags), n - 1)
-    out = {"n": n, "nlags": lags, "acf": None, "pacf": None, "bound": None,
+    out: dict[str, Any] = {"n": n, "nlags": lags, "acf": None, "pacf": None, "bound": None,
            "acf_outside": None, "pacf_outside": None, "reason": None}
     r = autocorrelations(x, lags) if lags >= 1 else None
     if r is None:

@@ -88,7 +88,8 @@ def _ljung_box(reports: list[dict[str, Any]], alpha: float) -> dict[str, Any]:
 def _field(report: dict[str, Any] | None, name: str, key: str) -> float | None:
     if report is None:
         return None
-    return (report.get("params") or {}).get(name, {}).get(key)
+    value: float | None = (report.get("params") or {}).get(name, {}).get(key)
+    return value
 
 
 def _coefficient(name: str, reports: Sequence[dict[str, Any] | None],

@@ -8,6 +8,7 @@ horizons.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -43,8 +44,9 @@ def expectation_from_folds(folds: Sequence[FoldResult], candidate_id: str,
     errors: dict[int, list[float]] = {}
     hits: dict[int, list[bool]] = {}
     for fold in usable:
-        for h, (actual, point) in enumerate(zip(fold.actuals, fold.point), start=1):
-            errors.setdefault(h, []).append(abs(actual - point) / fold.scale)
+        points, scale = fold.point or (), fold.scale or math.nan  # both set on usable folds
+        for h, (actual, point) in enumerate(zip(fold.actuals, points), start=1):
+            errors.setdefault(h, []).append(abs(actual - point) / scale)
         for level, lower in fold.lower.items():
             hits.setdefault(level, []).extend(
                 lo <= a <= hi for lo, a, hi in zip(lower, fold.actuals, fold.upper[level]))

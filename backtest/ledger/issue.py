@@ -16,7 +16,6 @@ at every horizon), and its spec names the intervals.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -31,7 +30,7 @@ from backtest.ledger.errors import LedgerError
 from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models.base import back_transform
 from backtest.recalibration import issued_bounds
-from backtest.results import FoldResult, to_jsonable
+from backtest.results import FoldResult, jsonable_dict
 from backtest.series import Series
 from backtest.software import software_versions
 
@@ -73,7 +72,7 @@ class IssuedForecast:
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready dictionary (infinite bounds become ``None``)."""
-        return to_jsonable(dataclasses.asdict(self))
+        return jsonable_dict(self)
 
     @classmethod
     def from_dict(cls, body: Mapping[str, Any]) -> IssuedForecast:

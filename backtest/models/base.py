@@ -88,7 +88,12 @@ class ModelSpec(ABC):
     def fit(self, y: np.ndarray, season_length: int, *,
             start_params: Params | None = None) -> Fit:
         """Estimate parameters on the training window ``y``; ``start_params``, where the
-        family is ``warm_startable``, are the optimiser's start values (default: its own)."""
+        family is ``warm_startable``, are the optimiser's start values (default: its own).
+
+        The fit options are keyword-only and each family takes those its class flags
+        declare: ``start_params`` (``warm_startable``), ``estimator`` (``fast_estimable``),
+        ``keep_raw`` (``raw_optional``, on ``fit_forecast``); callers pass no others, so
+        a family's override narrows this signature (``type: ignore[override]`` there)."""
 
     @abstractmethod
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,

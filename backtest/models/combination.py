@@ -22,7 +22,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 
@@ -143,4 +143,4 @@ def parse(body: Mapping[str, Any]) -> CombinationSpec:
         if any(spec == other for other in specs):
             raise CandidateError(f"combination member {position} repeats an earlier member")
         specs.append(spec)
-    return CombinationSpec(tuple(specs), rule)  # type: ignore[arg-type]
+    return CombinationSpec(tuple(specs), cast(Rule, rule))

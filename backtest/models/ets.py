@@ -15,7 +15,7 @@ from __future__ import annotations
 import warnings
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 import pandas as pd
@@ -45,6 +45,9 @@ from backtest.transforms import Transform, parse_transform
 
 _SHORT = {"none": None, "additive": "add", "multiplicative": "mul", "damped": "add"}
 _SIMULATIONS = 1000
+ErrorForm = Literal["additive", "multiplicative"]
+TrendForm = Literal["none", "additive", "damped"]
+SeasonForm = Literal["none", "additive", "multiplicative"]
 
 
 @dataclass(frozen=True)
@@ -54,9 +57,9 @@ class EtsSpec(ModelSpec):
     family: ClassVar[str] = "ets"
     warm_startable: ClassVar[bool] = True
     raw_optional: ClassVar[bool] = True
-    error: Literal["additive", "multiplicative"] = "additive"
-    trend: Literal["none", "additive", "damped"] = "none"
-    season: Literal["none", "additive", "multiplicative"] = "none"
+    error: ErrorForm = "additive"
+    trend: TrendForm = "none"
+    season: SeasonForm = "none"
     period: int | None = None
     transform: Transform = Transform()
 
@@ -127,7 +130,8 @@ class EtsSpec(ModelSpec):
             upper[level] = frame["pi_upper"].to_numpy(float)
         return Forecast(mean, lower, upper)
 
-    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,  # type: ignore[override]
                      levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
                      keep_raw: bool = True) -> tuple[Fit, Forecast]:
         """Estimate on ``y``, then forecast from the estimation's own smoothing pass.
@@ -203,4 +207,5 @@ def parse(body: Mapping[str, Any]) -> EtsSpec:
     if period is not None and season == "none":
         raise CandidateError("ets: a period is given but season is \"none\"")
     transform = parse_transform(fields.get("transform"))
-    return EtsSpec(error, trend, season, period, transform)  # type: ignore[arg-type]
+    return EtsSpec(cast(ErrorForm, error), cast(TrendForm, trend), cast(SeasonForm, season),
+                   period, transform)
