@@ -158,8 +158,9 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                                             series.filled, predictive[c.id]))
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
                                       benchmark.id, plan, predictive, series.filled)
-    evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
-    evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
+    evidence = replace(evidence,
+                       diagnostics={c.id: o.diagnostics for c, o in zip(pool, outcomes)},
+                       stability={c.id: o.stability for c, o in zip(pool, outcomes)})
     ranking = tuple(
         replace(row, in_confidence_set=notes[row.candidate_id].in_confidence_set,
                 beats_benchmark=None if row.is_benchmark
@@ -170,4 +171,4 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
             lambda cid, subset: score_candidate(cid, subset, plan.horizon, plan.levels,
                                                 series.filled, predictive[cid])))
     return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
-                        to_jsonable(evidence))
+                        to_jsonable(evidence.to_dict()))

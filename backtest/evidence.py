@@ -46,6 +46,13 @@ from backtest.assessment import (
     pairwise,
 )
 from backtest.assessment.comparison import Loss
+from backtest.evidence_types import (
+    Calibration,
+    Comparison,
+    ConfidenceSet,
+    RankingTests,
+    SeriesEvidence,
+)
 from backtest.plan import Plan
 from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
@@ -54,7 +61,6 @@ from backtest.score_registry import loss_of
 MCS_SIZE = 0.10
 MCS_REPS = 1000
 ALPHA = 0.05
-_ZONE_ORDER = ("consistent", "suspect", "excessive")
 NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
 T = TypeVar("T")
 
@@ -91,11 +97,11 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
                     plan: Plan, predictive: Mapping[str, Predictive],
-                    filled: Collection[str] = ()) -> tuple[dict[str, Any], dict[str, Annotation]]:
+                    filled: Collection[str] = ()) -> tuple[SeriesEvidence, dict[str, Annotation]]:
     """Calibration, comparisons and confidence set for one series' candidates;
     ``predictive`` gives each candidate's predictive form (for distribution scores).
 
-    A step that fails (any exception) becomes ``None``, or a ``{"reason": ...}`` section,
+    A step that fails (any exception) becomes ``None``, or a section with its ``reason``,
     and ``unavailable`` names it with the reason: a failed statistic never stops the run.
     """
     unavailable: dict[str, str] = {}
@@ -122,34 +128,30 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
                   / arrays[cid]["scale"][:, None] for cid, folds in folds_by_candidate.items()}
     per_origin = {cid: _origin_losses(e, plan.rank_horizon, reduce)
                   for cid, e in ranked.items()}
+    identical = tuple(tuple(group) for group in identical_forecasts(folds_by_candidate))
     if len(arrays) < 2:
-        comparison: dict[str, Any] = {
-            "errors": "scaled by each fold's MASE scale", "benchmark": None, "pairwise": None,
-            "reason": NOTHING_TO_COMPARE}
+        comparison = Comparison(None, None, identical, NOTHING_TO_COMPARE)
     else:
-        comparison = {
-            "errors": "scaled by each fold's MASE scale",
-            "benchmark": attempt("comparison.benchmark", lambda: compare_to_benchmark(
+        comparison = Comparison(
+            attempt("comparison.benchmark", lambda: compare_to_benchmark(
                 scaled, benchmark_id, alpha=ALPHA, origin_step=plan.step)),
-            "pairwise": attempt("comparison.pairwise", lambda: pairwise(
+            attempt("comparison.pairwise", lambda: pairwise(
                 scaled, alpha=ALPHA, origin_step=plan.step)),
-        }
-    comparison["identical_forecasts"] = identical_forecasts(folds_by_candidate)
+            identical)
     beats = {cid: attempt(f"ranking_tests.{cid}", partial(
                  _beats, per_origin[cid], per_origin[benchmark_id], plan, loss))
              for cid in per_origin if cid != benchmark_id}
     confidence_set = attempt("confidence_set", lambda: _confidence_set(per_origin, plan, loss))
     if confidence_set is None:
-        confidence_set = {"reason": unavailable["confidence_set"]}
-    included = set(confidence_set.get("included", ()))
+        confidence_set = ConfidenceSet(None, unavailable["confidence_set"])
+    included = confidence_set.included
     annotations = {
-        cid: Annotation(cid in included if "included" in confidence_set else None,
-                        beats.get(cid), _h1_zone(calibration[cid] or []))
+        cid: Annotation(None if included is None else cid in included, beats.get(cid),
+                        _h1_zone(calibration[cid]))
         for cid in arrays}
-    evidence = {"calibration": calibration, "comparison": comparison,
-                "ranking_tests": {"loss": loss, "alpha": ALPHA, "horizon": plan.rank_horizon,
-                                  "benchmark": {cid: b for cid, b in beats.items()}},
-                "confidence_set": confidence_set, "unavailable": unavailable}
+    evidence = SeriesEvidence(calibration, comparison,
+                              RankingTests(loss, ALPHA, plan.rank_horizon, beats),
+                              confidence_set, unavailable)
     return evidence, annotations
 
 
@@ -166,11 +168,12 @@ def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
     return [ids for ids in groups.values() if len(ids) > 1]
 
 
-def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict[str, Any]]:
+def _calibration(a: dict[str, np.ndarray], plan: Plan) -> Calibration:
     lower = {lv: a[f"lower{lv}"] for lv in plan.levels}
     upper = {lv: a[f"upper{lv}"] for lv in plan.levels}
     actual = np.where(np.isnan(a["point"]), np.nan, a["actual"])
-    return calibration_report(actual, lower, upper, plan.levels, origin_step=plan.step)
+    return Calibration(tuple(calibration_report(actual, lower, upper, plan.levels,
+                                                origin_step=plan.step)))
 
 
 def _distribution_losses(folds: Sequence[FoldResult], predictive: Predictive,
@@ -211,19 +214,17 @@ def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: Loss)
     return bool(test["p_value"] < ALPHA and test["mean_difference"] < 0)
 
 
-def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict[str, Any]:
+def _h1_zone(calibration: Calibration | None) -> str | None:
+    return None if calibration is None else calibration.h1_zone
+
+
+def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan,
+                    loss: str) -> ConfidenceSet:
     names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
-    undefined = [n for n in per_origin if n not in names]
+    undefined = tuple(n for n in per_origin if n not in names)
     if len(names) < 2:
-        return {"reason": NOTHING_TO_COMPARE, **({"without_loss": undefined} if undefined
-                                                 else {})}
+        return ConfidenceSet(None, NOTHING_TO_COMPARE, undefined)
     power = 2 if loss == "squared" else 1
     losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
     found = model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS, seed=plan.seed)
-    return {**found, "without_loss": undefined} if undefined else found
-
-
-def _h1_zone(report: list[dict[str, Any]]) -> str | None:
-    zones = [level["by_horizon"][0]["zone"] for level in report if level["by_horizon"]]
-    zones = [z for z in zones if z is not None]
-    return max(zones, key=_ZONE_ORDER.index) if zones else None
+    return ConfidenceSet(found, without_loss=undefined)
