@@ -9,8 +9,8 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import score_by_horizon_chart
-from service.charts.style import BENCHMARK_LOOK, BLUE, CANDIDATE_LOOKS
+from service.views.charts import score_by_horizon_chart
+from service.views.charts.style import BENCHMARK_LOOK, BLUE, CANDIDATE_LOOKS
 
 
 @pytest.fixture(scope="module")
@@ -105,6 +105,6 @@ def test_a_far_worse_candidate_is_clipped_and_marked_off_scale(sr):
 
 def test_every_registered_score_has_an_axis_name():
     from backtest.score_registry import SCORES
-    from service.charts.overview import METRIC_AXES
+    from service.views.charts.overview import METRIC_AXES
 
     assert set(METRIC_AXES) == {s.name for s in SCORES}

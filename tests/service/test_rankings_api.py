@@ -13,8 +13,8 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from backtest.results import SeriesResult
-from storage.queries import latest_successful_run
-from storage.schema import ResultCandidate, ScoreRecord
+from storage.db import ResultCandidate, ScoreRecord
+from storage.results.queries import latest_successful_run
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store

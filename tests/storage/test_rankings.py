@@ -1,4 +1,4 @@
-"""The BI ranking's SQL (:mod:`storage.rankings`) against the result objects the engine
+"""The BI ranking's SQL (:mod:`storage.results.ranking`) against the result objects the engine
 returned: the stored scores ranked, and the engine's own ranking (:mod:`backtest.ranking`)
 reproduced on the plan's score."""
 
@@ -7,7 +7,7 @@ from __future__ import annotations
 import pytest
 from sqlalchemy.orm import Session
 
-from storage.rankings import ranking_table
+from storage.results.ranking import ranking_table
 from tests.storage.builders import monthly_series, run_and_store, small_plan
 
 
