@@ -6,8 +6,7 @@ from collections.abc import Iterable, Iterator, Sequence
 
 from service.http.schemas.forecasts import ForecastOut, OutcomeSetOut
 from service.http.schemas.monitoring import FlagOut, MonitoringOut
-from service.usecases.champions import Suggestion
-from storage.ledger import ChampionChoice
+from service.usecases.champions import ChampionChoice, Suggestion
 
 
 def champion_lines(choices: Iterable[ChampionChoice]) -> Iterator[str]:

@@ -12,9 +12,9 @@ from pathlib import Path
 
 from service.errors import ServiceError
 from service.settings import InvalidSettingsError, checked_settings
+from service.usecases.store import URL_SETTING, open_store, store_url
 from service.views.report.cache import ReportCache, cache_directory
 from service.views.report.stored import stored_run_report
-from storage.db import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
 
@@ -33,14 +33,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def write_report(args: argparse.Namespace) -> int:
     """Write the run's report to ``args.output``: from the report cache, else rendered and
     cached (the same cache the server uses, ``FOLDLINE_REPORT_CACHE_DIR``)."""
-    url = args.database_url or database_url()
+    url = store_url(args.database_url)
     try:
         cache = ReportCache(cache_directory(checked_settings().report_cache_dir, url))
-        engine = make_engine(url)
-        try:
-            html = stored_run_report(session_factory(engine), args.run_id, cache)
-        finally:
-            engine.dispose()
+        with open_store(url) as sessions:
+            html = stored_run_report(sessions, args.run_id, cache)
     except (StorageError, ServiceError, InvalidSettingsError) as exc:
         return _error(" ".join(str(exc).split()))
     try:

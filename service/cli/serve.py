@@ -15,8 +15,8 @@ from sqlalchemy.engine import make_url
 
 from service.http.app import create_app
 from service.settings import InvalidSettingsError, Settings, checked_settings
+from service.usecases.store import migrate_store
 from service.worker.loop import start_embedded
-from storage.db import upgrade
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -42,7 +42,7 @@ def run_server(args: argparse.Namespace) -> int:
     updates = {k: v for k, v in (("host", args.host), ("port", args.port)) if v is not None}
     settings = settings.model_copy(update=updates)
     if args.migrate or settings.database_url.startswith("sqlite"):
-        upgrade(settings.database_url)
+        migrate_store(settings.database_url)
     return _serve(settings)
 
 

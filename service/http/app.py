@@ -42,7 +42,7 @@ from service.http.routes import (
     series,
 )
 from service.settings import Settings, get_settings
-from storage.db import make_engine, session_factory
+from service.usecases.store import store_sessions
 from storage.errors import StorageError
 
 DESCRIPTION = """Forecast backtesting and model audit.
@@ -64,18 +64,18 @@ ERROR_FAMILIES = (BacktestError, StorageError, ServiceError, RequestValidationEr
 def create_app(settings: Settings | None = None) -> FastAPI:
     """The API application for ``settings`` (default: from the environment)."""
     settings = settings or get_settings()
-    engine = make_engine(settings.database_url)
+    sessions, close_store = store_sessions(settings.database_url)
 
     @asynccontextmanager
     async def lifespan(_app: FastAPI) -> AsyncIterator[None]:
         yield
-        engine.dispose()
+        close_store()
 
     app = FastAPI(title="Foldline", version="1", description=DESCRIPTION, lifespan=lifespan,
                   docs_url=None, redoc_url=None)
     add_api_docs(app)
     app.state.settings = settings
-    app.state.sessions = session_factory(engine)
+    app.state.sessions = sessions
     app.state.request_metrics = RequestMetrics()
     app.state.ranking_cache = RankingCache()
     for router in ROUTERS:

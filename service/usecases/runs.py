@@ -21,6 +21,8 @@ from storage.runs import (
 )
 from storage.series import VersionInfo
 
+__all__ = ["RunInfo", "RunView", "cancel_run", "read_run", "run_views"]
+
 
 @dataclass(frozen=True)
 class RunView:

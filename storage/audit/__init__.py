@@ -35,10 +35,11 @@ from storage.audit.digest import Row, canonical_json, sha256_text
 from storage.audit.log import AuditEntry, entry_of, lock_audit_log, record_event
 from storage.audit.pages import audit_page
 from storage.audit.subjects import describe_subjects
-from storage.audit.verify import verify_audit_log
+from storage.audit.verify import AuditReport, verify_audit_log
 
 __all__ = [
     "AuditEntry",
+    "AuditReport",
     "CheckpointError",
     "ISSUED_TABLES",
     "OUTCOME_TABLES",

@@ -5,7 +5,7 @@ read-only views for BI tools.
 
 from storage.db.bi_views import BI_VIEWS, grant_bi_reader
 from storage.db.bulk import insert_rows
-from storage.db.engine import (
+from storage.db.connection import (
     URL_SETTING,
     database_url,
     default_sqlite_path,

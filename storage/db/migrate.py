@@ -14,7 +14,7 @@ from alembic.config import Config
 from alembic.util import CommandError
 from sqlalchemy.exc import SQLAlchemyError
 
-from storage.db.engine import make_engine
+from storage.db.connection import make_engine
 from storage.errors import ConfigurationError, translate
 
 MIGRATIONS = Path(__file__).resolve().parent / "migrations"

@@ -4,6 +4,7 @@ flat paged tables, the SQL ranking for BI tools and the questions asked of store
 
 from storage.results.queries import (
     LatestRun,
+    ScorePoint,
     latest_successful_run,
     latest_successful_runs,
     score_history,
@@ -22,6 +23,7 @@ from storage.results.tables import evidence_table, fold_table, plan_levels, rank
 
 __all__ = [
     "LatestRun",
+    "ScorePoint",
     "completed_units",
     "evidence_table",
     "fold_table",

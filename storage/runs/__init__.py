@@ -7,7 +7,6 @@ from storage.runs.index import (
     list_runs,
     run_candidate_labels,
     run_versions,
-    run_with_idempotency_key,
     runs_using_version,
 )
 from storage.runs.lifecycle import (
@@ -52,7 +51,6 @@ __all__ = [
     "run_candidate_labels",
     "run_request",
     "run_versions",
-    "run_with_idempotency_key",
     "runs_using_version",
     "start_run",
     "write_unit",

@@ -79,7 +79,7 @@ def test_bad_urls_and_unreachable_servers_become_storage_errors():
 
 
 def test_importing_storage_builds_no_engine_and_no_service(tmp_path: Path):
-    code = ("import sys, storage.db.engine, storage.results.queries, storage.audit.verify,"
+    code = ("import sys, storage.db.connection, storage.results.queries, storage.audit.verify,"
             " storage.db.migrate\n"
             "print(','.join(m for m in ('service', 'fastapi') if m in sys.modules))")
     env = {"XDG_DATA_HOME": str(tmp_path), "PATH": ""}

@@ -32,10 +32,7 @@ from service.http.tables import (
     link_headers,
 )
 from service.moments import MOMENT_HELP, point_in_time
-from storage.audit import audit_page, describe_subjects, verify_audit_log
-from storage.results import score_history
-from storage.runs import runs_using_version
-from storage.series import get_series, version_by_number
+from service.usecases import audit_trail
 
 router = APIRouter(prefix="/v1", tags=["history"])
 Auditor = Annotated[Caller, Depends(require("audit"))]
@@ -57,10 +54,8 @@ def scores_over_time(request: Request, caller: Auditor, sessions: Sessions,
     per run."""
     chosen_output = chosen_format(request, output)
     chosen = horizon_or_pooled(horizon)
-    with sessions.begin() as session:
-        get_series(session, series_key)
-        points = score_history(session, series_key, candidate_id, metric=metric,
-                               horizon=chosen, level=level)
+    points = audit_trail.scores_over_runs(sessions, series_key, candidate_id, metric=metric,
+                              horizon=chosen, level=level)
     outs = [ScorePointOut(run_id=p.run_id, run_url=run_url(p.run_id), finished_at=p.finished_at,
                           series_version=p.version_number, value=p.value, count=p.count)
             for p in points]
@@ -78,8 +73,7 @@ def runs_of_version(request: Request, caller: Auditor, sessions: Sessions,
                     output: FormatParam = None) -> Any:
     """Every run that used one series version. CSV: one row per run."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        runs = runs_using_version(session, version_by_number(session, series_key, version).id)
+    runs = audit_trail.runs_of_version(sessions, series_key, version)
     outs = [RunSummaryOut(id=r.id, url=run_url(r.id), status=r.status,
                           requested_by=r.requested_by, queued_at=r.queued_at,
                           finished_at=r.finished_at) for r in runs]
@@ -104,10 +98,8 @@ def audit_events(request: Request, response: Response, caller: Auditor, sessions
     subject by id and in words (``subject_label``)."""
     chosen = chosen_format(request, output)
     window = point_in_time("start", start), point_in_time("end", end)
-    with sessions.begin() as session:
-        events = audit_page(session, start=window[0], end=window[1], after_seq=after,
-                            limit=limit + 1)
-        described = describe_subjects(session, (e.subject for e in events[:limit]))
+    events, described = audit_trail.audit_events(sessions, start=window[0], end=window[1],
+                                     after_seq=after, limit=limit + 1)
     link = None
     if len(events) > limit:
         query = request.url.include_query_params(after=events[limit - 1].seq).query
@@ -124,8 +116,7 @@ def audit_events(request: Request, response: Response, caller: Auditor, sessions
             responses=problem_responses(*ERRORS))
 def verification(caller: Auditor, sessions: Sessions) -> VerificationOut:
     """Check the whole hash chain and the stored content it vouches for (reads everything)."""
-    with sessions.begin() as session:
-        report = verify_audit_log(session)
+    report = audit_trail.verify_store(sessions)
     return VerificationOut(ok=report.ok, events_checked=report.events_checked,
                            head_hash=report.head_hash, broken_at=report.broken_at,
                            problem=report.problem)

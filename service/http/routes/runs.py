@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import datetime
+from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Header, Query, Request, Response
@@ -26,9 +26,7 @@ from service.http.schemas.runs import (
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
 from service.usecases import runs as run_cases
 from service.usecases import submit_run as submission
-from service.usecases.runs import RunView
-from storage.db import utc_now
-from storage.runs import RunInfo
+from service.usecases.runs import RunInfo, RunView
 
 router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
@@ -136,7 +134,7 @@ def _progress(run: RunInfo) -> ProgressOut:
 
 
 def _timings(run: RunInfo) -> TimingsOut:
-    now = utc_now()
+    now = datetime.now(UTC)
     left = None
     if run.status == "running" and run.started_at and run.folds_total and run.folds_done:
         per_fold = _seconds(run.started_at, now) / run.folds_done

@@ -2,7 +2,7 @@
 
 The URL comes from, in order: a connection handed over in ``config.attributes`` (see
 :func:`storage.db.migrate.upgrade`), the ``sqlalchemy.url`` option, ``FOLDLINE_DATABASE_URL``
-or the default SQLite file (:func:`storage.db.engine.database_url`).
+or the default SQLite file (:func:`storage.db.connection.database_url`).
 """
 
 from logging.config import fileConfig
@@ -11,7 +11,7 @@ from alembic import context
 from sqlalchemy import Connection
 from sqlalchemy.pool import NullPool
 
-from storage.db.engine import database_url, make_engine
+from storage.db.connection import database_url, make_engine
 from storage.db.schema import Base
 
 config = context.config
@@ -24,7 +24,7 @@ def _url() -> str:
 
 
 def _run(connection: Connection) -> None:
-    # SQLite DDL is transactional here because storage.db.engine emits BEGIN itself.
+    # SQLite DDL is transactional here because storage.db.connection emits BEGIN itself.
     context.configure(connection=connection, target_metadata=Base.metadata,
                       render_as_batch=True, transactional_ddl=True)
     with context.begin_transaction():
