@@ -22,10 +22,12 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(VENV)/bin/ruff check .
+	$(VENV)/bin/mypy
 	$(VENV)/bin/python -m pytest
 
 lint: $(STAMP)
 	$(VENV)/bin/ruff check .
+	$(VENV)/bin/mypy
 
 lock: $(STAMP)
 	$(VENV)/bin/pip install --quiet uv==$(UV_VERSION)

@@ -12,6 +12,7 @@ import hashlib
 import json
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
+from typing import Any
 
 from backtest.errors import CandidateError
 from backtest.labels import compose, fit_column
@@ -32,7 +33,7 @@ class Candidate:
     intervals: EmpiricalIntervals | None = None
 
     @property
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         """The canonical spec, ``family`` included."""
         extra = {} if self.intervals is None else {"intervals": self.intervals.canonical()}
         return {"family": self.spec.family, **self.spec.body(), **extra}

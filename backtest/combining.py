@@ -84,7 +84,7 @@ def _one_step_losses(member_folds: Sequence[Sequence[FoldResult]]) -> np.ndarray
     for k, folds in enumerate(member_folds):
         for i, f in enumerate(folds):
             if f.status == "ok" and f.scale:
-                out[i, k] = abs(f.actuals[0] - f.point[0]) / f.scale  # type: ignore[index]
+                out[i, k] = abs(f.error(1)) / f.scale
     return out
 
 

@@ -17,11 +17,12 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 from backtest.candidates import Candidate
 from backtest.engine import planned_origins
 from backtest.plan import Plan
-from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
+from backtest.score_registry import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from backtest.series import Series
 
 
@@ -42,7 +43,7 @@ class RunCost:
     def total_fits(self) -> int:
         return sum(self.fits.values())
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
         """JSON-ready form: folds, fits by family and in total, rows."""
         return {"folds": self.folds, "fits": dict(sorted(self.fits.items())),
                 "total_fits": self.total_fits, "rows": self.rows}

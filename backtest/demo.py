@@ -13,13 +13,15 @@ three ranks first, narrowly.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from backtest.series import Series, make_series
 
 START_YEAR = 2017
 MONTHS = 96
-DEMO_CANDIDATES: list[dict] = [
+DEMO_CANDIDATES: list[dict[str, Any]] = [
     {"family": "benchmark", "method": "seasonal_naive"},
     {"family": "benchmark", "method": "naive"},
     {"family": "benchmark", "method": "drift"},
@@ -41,7 +43,7 @@ RECALIBRATED = ((6, 7),)
 """Positions in ``DEMO_CANDIDATES`` of a model and the same model with empirical intervals."""
 COMBINED = (8,)
 """Positions in ``DEMO_CANDIDATES`` of combinations."""
-DEMO_PLAN: dict = {"horizon": 12, "max_origins": 24, "refit": 6, "levels": [80, 95],
+DEMO_PLAN: dict[str, Any] = {"horizon": 12, "max_origins": 24, "refit": 6, "levels": [80, 95],
                    "seed": 7}
 
 

@@ -3,11 +3,11 @@ its fit to the full series, and a summary of the fits at the folds that re-estim
 
 With the plan's ``assessment: "lean"`` the full-series report is left out (``None``) and
 the summary holds parameter paths only (the folds then carry no standard errors). A
-diagnostic step that raises becomes ``{"error": reason}``; the folds are kept."""
+diagnostic step that raises becomes a :class:`Report` with its ``error`` (``{"error":
+reason}`` in JSON); the folds are kept."""
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -16,6 +16,8 @@ import numpy as np
 
 from backtest.assessment import fit_report, summarise_folds
 from backtest.candidates import Candidate
+from backtest.captured_warnings import capturing_warnings, warning_line
+from backtest.evidence_types import Report
 from backtest.folds import Origin
 from backtest.models.base import Estimator
 from backtest.models.combination import CombinationSpec
@@ -28,11 +30,11 @@ from backtest.series import Series
 
 @dataclass(frozen=True)
 class CandidateOutcome:
-    """Folds plus JSON-ready full-series diagnostics and fold-stability summary."""
+    """Folds plus the full-series diagnostics and the fold-stability summary."""
 
     folds: tuple[FoldResult, ...]
-    diagnostics: dict[str, Any] | None
-    stability: dict[str, Any] | None
+    diagnostics: Report | None
+    stability: Report | None
 
 
 def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
@@ -45,16 +47,16 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
     if not candidate.spec.closed_form:
         refits = [f for f in folds if f.reestimated]
         try:
-            stability = summarise_folds([f.fit_summary for f in refits],
-                                        [_estimates(f) for f in refits])
+            stability = Report(summarise_folds([f.fit_summary for f in refits],
+                                               [_estimates(f) for f in refits]))
         except Exception as exc:  # a failed summary is left out, never the run
-            stability = {"error": f"{type(exc).__name__}: {exc}"}
+            stability = Report(error=f"{type(exc).__name__}: {exc}")
     diagnostics = (full_series_diagnostics(series, candidate, plan.estimator)
                    if plan.assessment == "full" else None)
     return CandidateOutcome(folds, diagnostics, stability)
 
 
-def _estimates(fold: FoldResult) -> dict | None:
+def _estimates(fold: FoldResult) -> dict[str, Any] | None:
     """The fold's coefficient estimates as the diagnostics name them (without the
     ``estimator`` record)."""
     if fold.fit_summary and fold.fit_summary.get("params"):
@@ -65,7 +67,7 @@ def _estimates(fold: FoldResult) -> dict | None:
 
 
 def full_series_diagnostics(series: Series, candidate: Candidate,
-                            estimator: Estimator = "reference") -> dict[str, Any]:
+                            estimator: Estimator = "reference") -> Report:
     """Fit the candidate to every observation and report coefficients and residual tests;
     ``estimator`` as in the plan (for ``fast_estimable`` families).
 
@@ -74,19 +76,18 @@ def full_series_diagnostics(series: Series, candidate: Candidate,
     """
     spec, m = candidate.spec, series.season_length
     z = spec.transform.forward(np.asarray(series.values, dtype=float))
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    options: dict[str, Any] = {"estimator": estimator} if spec.fast_estimable else {}
+    with capturing_warnings() as caught:
         try:
-            fit = (spec.fit(z, m, estimator=estimator) if spec.fast_estimable
-                   else spec.fit(z, m))
+            fit = spec.fit(z, m, **options)
         except Exception as exc:  # a model that cannot be fitted is reported, not raised
-            return {"error": f"{type(exc).__name__}: {exc}"}
-    fit_warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
+            return Report(error=f"{type(exc).__name__}: {exc}")
+    fit_warnings = [warning_line(w) for w in caught]  # each occurrence, as always reported
     assessed_spec, assessed_fit = spec.assessed(fit)
     try:
         report = fit_report(assessed_spec, assessed_fit, z, m, fit_warnings=fit_warnings)
     except Exception as exc:  # a failed report is recorded, never the run
-        return {"error": f"{type(exc).__name__}: {exc}"}
+        return Report(error=f"{type(exc).__name__}: {exc}")
     if assessed_spec is not spec:
         report["chosen"] = assessed_spec.label(m)
-    return report
+    return Report(report)

@@ -6,6 +6,7 @@ import time
 from collections.abc import Callable, Generator, Sequence
 from contextlib import closing
 from dataclasses import replace
+from typing import Any
 
 from backtest.candidates import Candidate
 from backtest.diagnosis import CandidateOutcome, evaluate_candidate
@@ -93,7 +94,7 @@ def planned_origins(series: Sequence[Series], candidates: Sequence[Candidate], p
 
 
 def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candidate], Candidate]],
-                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple], *,
+                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple[Any, ...]], *,
                     n_jobs: int, progress: Progress | None, scheduler: str | None) -> Units:
     total = sum(len(t[3]) for t in tasks)
     done = 0
@@ -131,10 +132,11 @@ def _with_benchmark(candidates: Sequence[Candidate], plan: Plan, season_length: 
     pool = list(candidates)
     same = [c for c in pool if isinstance(c.spec, BenchmarkSpec) and c.intervals is None
             and _benchmark_method(c.spec.method, season_length) == method]
-    exact = [c for c in same if c.spec.method == plan.benchmark]
+    exact = [c for c in same
+             if isinstance(c.spec, BenchmarkSpec) and c.spec.method == plan.benchmark]
     if exact or same:
         return pool, (exact or same)[0]
-    benchmark = Candidate(BenchmarkSpec(plan.benchmark))  # type: ignore[arg-type]
+    benchmark = Candidate(BenchmarkSpec(plan.benchmark))
     return [*pool, benchmark], benchmark
 
 
@@ -171,8 +173,9 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
                               folds, plan.horizon, rescore)
     evidence, notes = series_evidence({c.id: o.folds for c, o in zip(pool, outcomes)},
                                       benchmark.id, plan, predictive, series.filled)
-    evidence["diagnostics"] = {c.id: o.diagnostics for c, o in zip(pool, outcomes)}
-    evidence["stability"] = {c.id: o.stability for c, o in zip(pool, outcomes)}
+    evidence = replace(evidence,
+                       diagnostics={c.id: o.diagnostics for c, o in zip(pool, outcomes)},
+                       stability={c.id: o.stability for c, o in zip(pool, outcomes)})
     ranking = tuple(
         replace(row, in_confidence_set=notes[row.candidate_id].in_confidence_set,
                 beats_benchmark=None if row.is_benchmark
@@ -182,4 +185,4 @@ def _series_result(series: Series, pool: Sequence[Candidate], benchmark: Candida
             infos, scores, folds, benchmark.id, plan.rank_by, plan.rank_horizon, plan.horizon,
             rescore))
     return SeriesResult(series.summary(), infos, benchmark.id, folds, scores, ranking,
-                        to_jsonable(evidence))
+                        to_jsonable(evidence.to_dict()))

@@ -33,7 +33,8 @@ from __future__ import annotations
 
 from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
-from typing import TypeVar
+from functools import partial
+from typing import Any, TypeVar
 
 import numpy as np
 
@@ -44,20 +45,24 @@ from backtest.assessment import (
     model_confidence_set,
     pairwise,
 )
+from backtest.assessment.comparison import Loss
+from backtest.evidence_types import (
+    Calibration,
+    Comparison,
+    ConfidenceSet,
+    RankingTests,
+    SeriesEvidence,
+)
 from backtest.plan import Plan
 from backtest.predictive import Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult
+from backtest.score_registry import loss_of
 
 MCS_SIZE = 0.10
 MCS_REPS = 1000
 ALPHA = 0.05
-_ZONE_ORDER = ("consistent", "suspect", "excessive")
-_SQUARED = ("rmse", "rmsse")
 NOTHING_TO_COMPARE = "nothing to compare: the benchmark is the only candidate"
 T = TypeVar("T")
-#: Scores averaged over origins of a per-origin root mean square (absolute loss on it).
-_ROOT_PER_ORIGIN = ("rmsse_fold_mean",)
-_DISTRIBUTION = ("crps", "pinball", "scaled_pinball")
 
 
 @dataclass(frozen=True)
@@ -92,11 +97,11 @@ def matrices(folds: Sequence[FoldResult], horizon: int, levels: Sequence[int],
 
 def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benchmark_id: str,
                     plan: Plan, predictive: Mapping[str, Predictive],
-                    filled: Collection[str] = ()) -> tuple[dict, dict[str, Annotation]]:
+                    filled: Collection[str] = ()) -> tuple[SeriesEvidence, dict[str, Annotation]]:
     """Calibration, comparisons and confidence set for one series' candidates;
     ``predictive`` gives each candidate's predictive form (for distribution scores).
 
-    A step that fails (any exception) becomes ``None``, or a ``{"reason": ...}`` section,
+    A step that fails (any exception) becomes ``None``, or a section with its ``reason``,
     and ``unavailable`` names it with the reason: a failed statistic never stops the run.
     """
     unavailable: dict[str, str] = {}
@@ -111,44 +116,42 @@ def series_evidence(folds_by_candidate: Mapping[str, Sequence[FoldResult]], benc
     filled = frozenset(filled)
     arrays = {cid: matrices(folds, plan.horizon, plan.levels, filled)
               for cid, folds in folds_by_candidate.items()}
-    calibration = {cid: attempt(f"calibration.{cid}", lambda a=a: _calibration(a, plan))
+    calibration = {cid: attempt(f"calibration.{cid}", partial(_calibration, a, plan))
                    for cid, a in arrays.items()}
     scaled = {cid: (a["actual"] - a["point"]) / a["scale"][:, None] for cid, a in arrays.items()}
-    loss = "squared" if plan.rank_by in _SQUARED else "absolute"
-    reduce = "root" if plan.rank_by in _ROOT_PER_ORIGIN else loss
+    kind = loss_of(plan.rank_by)
+    loss: Loss = "squared" if kind == "squared" else "absolute"
+    reduce = "root" if kind == "origin_root" else loss
     ranked = scaled
-    if plan.rank_by in _DISTRIBUTION:
+    if kind == "distribution":
         ranked = {cid: _distribution_losses(folds, predictive[cid], plan)
                   / arrays[cid]["scale"][:, None] for cid, folds in folds_by_candidate.items()}
     per_origin = {cid: _origin_losses(e, plan.rank_horizon, reduce)
                   for cid, e in ranked.items()}
+    identical = tuple(tuple(group) for group in identical_forecasts(folds_by_candidate))
     if len(arrays) < 2:
-        comparison: dict = {"errors": "scaled by each fold's MASE scale", "benchmark": None,
-                            "pairwise": None, "reason": NOTHING_TO_COMPARE}
+        comparison = Comparison(None, None, identical, NOTHING_TO_COMPARE)
     else:
-        comparison = {
-            "errors": "scaled by each fold's MASE scale",
-            "benchmark": attempt("comparison.benchmark", lambda: compare_to_benchmark(
+        comparison = Comparison(
+            attempt("comparison.benchmark", lambda: compare_to_benchmark(
                 scaled, benchmark_id, alpha=ALPHA, origin_step=plan.step)),
-            "pairwise": attempt("comparison.pairwise", lambda: pairwise(
+            attempt("comparison.pairwise", lambda: pairwise(
                 scaled, alpha=ALPHA, origin_step=plan.step)),
-        }
-    comparison["identical_forecasts"] = identical_forecasts(folds_by_candidate)
-    beats = {cid: attempt(f"ranking_tests.{cid}", lambda cid=cid: _beats(
-                 per_origin[cid], per_origin[benchmark_id], plan, loss))
+            identical)
+    beats = {cid: attempt(f"ranking_tests.{cid}", partial(
+                 _beats, per_origin[cid], per_origin[benchmark_id], plan, loss))
              for cid in per_origin if cid != benchmark_id}
     confidence_set = attempt("confidence_set", lambda: _confidence_set(per_origin, plan, loss))
     if confidence_set is None:
-        confidence_set = {"reason": unavailable["confidence_set"]}
-    included = set(confidence_set.get("included", ()))
+        confidence_set = ConfidenceSet(None, unavailable["confidence_set"])
+    included = confidence_set.included
     annotations = {
-        cid: Annotation(cid in included if "included" in confidence_set else None,
-                        beats.get(cid), _h1_zone(calibration[cid] or []))
+        cid: Annotation(None if included is None else cid in included, beats.get(cid),
+                        _h1_zone(calibration[cid]))
         for cid in arrays}
-    evidence = {"calibration": calibration, "comparison": comparison,
-                "ranking_tests": {"loss": loss, "alpha": ALPHA, "horizon": plan.rank_horizon,
-                                  "benchmark": {cid: b for cid, b in beats.items()}},
-                "confidence_set": confidence_set, "unavailable": unavailable}
+    evidence = SeriesEvidence(calibration, comparison,
+                              RankingTests(loss, ALPHA, plan.rank_horizon, beats),
+                              confidence_set, unavailable)
     return evidence, annotations
 
 
@@ -156,7 +159,7 @@ def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
                         ) -> list[list[str]]:
     """Groups of candidates whose every fold has the same status, point forecasts and
     bounds: one forecast under several names, which no test can tell apart."""
-    groups: dict[tuple, list[str]] = {}
+    groups: dict[tuple[Any, ...], list[str]] = {}
     for cid, folds in folds_by_candidate.items():
         key = tuple((f.fold, f.status, f.point, tuple(sorted(f.lower.items())),
                      tuple(sorted(f.upper.items())))
@@ -165,11 +168,12 @@ def identical_forecasts(folds_by_candidate: Mapping[str, Sequence[FoldResult]]
     return [ids for ids in groups.values() if len(ids) > 1]
 
 
-def _calibration(a: dict[str, np.ndarray], plan: Plan) -> list[dict]:
+def _calibration(a: dict[str, np.ndarray], plan: Plan) -> Calibration:
     lower = {lv: a[f"lower{lv}"] for lv in plan.levels}
     upper = {lv: a[f"upper{lv}"] for lv in plan.levels}
     actual = np.where(np.isnan(a["point"]), np.nan, a["actual"])
-    return calibration_report(actual, lower, upper, plan.levels, origin_step=plan.step)
+    return Calibration(tuple(calibration_report(actual, lower, upper, plan.levels,
+                                                origin_step=plan.step)))
 
 
 def _distribution_losses(folds: Sequence[FoldResult], predictive: Predictive,
@@ -194,35 +198,33 @@ def _origin_losses(scaled: np.ndarray, rank_horizon: int | None, reduce: str) ->
     (``reduce`` "squared" or "root"), else the mean absolute error."""
     if rank_horizon is not None:
         return scaled[:, rank_horizon - 1]
-    if reduce in ("squared", "root"):
-        return np.sqrt(np.mean(scaled**2, axis=1))
-    return np.mean(np.abs(scaled), axis=1)
+    losses: np.ndarray = (np.sqrt(np.mean(scaled**2, axis=1)) if reduce in ("squared", "root")
+                          else np.mean(np.abs(scaled), axis=1))
+    return losses
 
 
-def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: str) -> bool | None:
+def _beats(candidate: np.ndarray, benchmark: np.ndarray, plan: Plan, loss: Loss) -> bool | None:
     keep = np.isfinite(candidate) & np.isfinite(benchmark)
     if keep.sum() < 3:
         return None
     overlap = -(-(plan.rank_horizon or plan.horizon) // plan.step)
-    test = diebold_mariano(candidate[keep], benchmark[keep], overlap, loss)  # type: ignore[arg-type]
+    test = diebold_mariano(candidate[keep], benchmark[keep], overlap, loss)
     if test["p_value"] is None:
         return None
     return bool(test["p_value"] < ALPHA and test["mean_difference"] < 0)
 
 
-def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan, loss: str) -> dict:
+def _h1_zone(calibration: Calibration | None) -> str | None:
+    return None if calibration is None else calibration.h1_zone
+
+
+def _confidence_set(per_origin: Mapping[str, np.ndarray], plan: Plan,
+                    loss: str) -> ConfidenceSet:
     names = [n for n in per_origin if np.isfinite(per_origin[n]).any()]
-    undefined = [n for n in per_origin if n not in names]
+    undefined = tuple(n for n in per_origin if n not in names)
     if len(names) < 2:
-        return {"reason": NOTHING_TO_COMPARE, **({"without_loss": undefined} if undefined
-                                                 else {})}
+        return ConfidenceSet(None, NOTHING_TO_COMPARE, undefined)
     power = 2 if loss == "squared" else 1
     losses = np.column_stack([np.abs(per_origin[n]) ** power for n in names])
     found = model_confidence_set(losses, names, size=MCS_SIZE, reps=MCS_REPS, seed=plan.seed)
-    return {**found, "without_loss": undefined} if undefined else found
-
-
-def _h1_zone(report: list[dict]) -> str | None:
-    zones = [level["by_horizon"][0]["zone"] for level in report if level["by_horizon"]]
-    zones = [z for z in zones if z is not None]
-    return max(zones, key=_ZONE_ORDER.index) if zones else None
+    return ConfidenceSet(found, without_loss=undefined)

@@ -35,7 +35,7 @@ def plan_origins(series: Series, plan: Plan, min_train: int) -> tuple[Origin, ..
     if plan.max_origins is not None:
         ends = ends[-plan.max_origins:]
     return tuple(
-        Origin(i, end - plan.window_length if plan.window == "sliding" else 0, end,
+        Origin(i, end - (plan.window_length or 0) if plan.window == "sliding" else 0, end,
                plan.reestimates_at(i))
         for i, end in enumerate(ends))
 
@@ -51,10 +51,10 @@ def _first_end(series: Series, plan: Plan, min_train: int) -> int:
                             f"{series.key!r} starts ({series.label(0)})")
     else:
         first = plan.first_train_size or max(min_train, plan.window_length or 0)
-    if plan.window == "sliding" and first < plan.window_length:
+    if plan.window == "sliding" and first < (plan.window_length or 0):
         raise SeriesError(f"series {series.key!r}: the first origin has {first} observations, "
                           f"fewer than the sliding window length {plan.window_length}")
-    usable = plan.window_length if plan.window == "sliding" else first
+    usable = (plan.window_length or 0) if plan.window == "sliding" else first
     if usable < min_train:
         raise SeriesError(f"series {series.key!r}: the first training window has {usable} "
                           f"observations; the candidates need at least {min_train}")

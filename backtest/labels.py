@@ -114,6 +114,7 @@ def theta_label(seasonal: bool, mode: str, decomposition: str, period: int,
     """``Theta``; the season qualifier says when it is removed (``if tested``, always, or
     ``no season``) and how (``add.``/``mult.`` unless chosen automatically)."""
     how = "" if decomposition == "auto" else f"{DECOMPOSITION_NAMES[decomposition]} "
+    phrase: str | None
     if seasonal:
         phrase = f"{how}{season(period)}" + (" if tested" if mode == "test" else "")
     elif mode == "never":
@@ -135,6 +136,7 @@ def search_label(criterion: str, period: int, seasonal: bool, limits: Mapping[st
     """``ARIMA by <criterion>`` (the order chosen by that criterion) with its season (or
     ``no season``), the order limits when not the defaults (``≤(p,d,q)×(P,D,Q)``), further
     non-default settings (``extras``) and the transform."""
+    where: str | None
     if seasonal and period >= 2:
         where = season(period)
     else:

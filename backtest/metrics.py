@@ -73,7 +73,8 @@ def interval_score(lower: np.ndarray, upper: np.ndarray, actual: np.ndarray,
     alpha = 1.0 - level / 100.0
     below = (2.0 / alpha) * (lower - actual) * (actual < lower)
     above = (2.0 / alpha) * (actual - upper) * (actual > upper)
-    return (upper - lower) + below + above
+    result: np.ndarray = (upper - lower) + below + above
+    return result
 
 
 def hits(lower: np.ndarray, upper: np.ndarray, actual: np.ndarray) -> np.ndarray:
@@ -91,7 +92,8 @@ def msis(lower: np.ndarray, upper: np.ndarray, actual: np.ndarray, train: np.nda
 def pinball(quantile: np.ndarray, actual: np.ndarray, tau: float) -> np.ndarray:
     """Per-point pinball loss of the ``tau``-quantile forecast ``quantile``."""
     diff = np.asarray(actual, float) - np.asarray(quantile, float)
-    return diff * (tau - (diff < 0))
+    result: np.ndarray = diff * (tau - (diff < 0))
+    return result
 
 
 def crps_normal(mean: np.ndarray, sd: np.ndarray, actual: np.ndarray) -> np.ndarray:
@@ -114,8 +116,9 @@ def crps_quantiles(quantiles: np.ndarray, actual: np.ndarray) -> np.ndarray:
     quantiles = np.asarray(quantiles, float)
     k = quantiles.shape[-1]
     taus = (np.arange(k) + 0.5) / k
-    losses = pinball(quantiles, np.asarray(actual, float)[..., None], taus)  # type: ignore[arg-type]
-    return 2.0 * np.mean(losses, axis=-1)
+    losses = pinball(quantiles, np.asarray(actual, float)[..., None], taus)
+    result: np.ndarray = 2.0 * np.mean(losses, axis=-1)
+    return result
 
 
 def crps_sample(sample: np.ndarray, actual: float) -> float:

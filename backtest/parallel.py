@@ -23,7 +23,7 @@ from __future__ import annotations
 import os
 import threading
 import time
-from collections.abc import Callable, Generator, Iterable, Sequence
+from collections.abc import Callable, Generator, Iterable, Iterator, Sequence
 from typing import Any, TypeVar
 
 from joblib import Parallel, delayed, parallel_config
@@ -45,7 +45,7 @@ def die_with_parent() -> None:
     threading.Thread(target=watch, name="parent-watchdog", daemon=True).start()
 
 
-def _single_threaded(fn: Callable[..., T], index: int, args: tuple) -> tuple[int, T]:
+def _single_threaded(fn: Callable[..., T], index: int, args: tuple[Any, ...]) -> tuple[int, T]:
     with threadpool_limits(limits=1):
         return index, fn(*args)
 
@@ -74,10 +74,11 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
                          initializer=die_with_parent)(calls))
 
 
-def _on_cluster(scheduler: str, calls: Iterable) -> Generator[tuple[int, Any], None, None]:
+def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Iterator[tuple[int, Any]]:
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 
-    with Client(scheduler, set_as_default=False) as client, \
-            parallel_config(backend="dask", client=client):
+    # dask.distributed's Client has no annotations
+    client = Client(scheduler, set_as_default=False)  # type: ignore[no-untyped-call]
+    with client, parallel_config(backend="dask", client=client):
         yield from Parallel(return_as="generator_unordered")(calls)

@@ -9,6 +9,7 @@ each value can be traced to the library's own output. Tables and charts for peop
 from __future__ import annotations
 
 import re
+from typing import Any
 
 _FIXED = {
     "sigma2": "innovation variance",
@@ -59,7 +60,7 @@ def readable(name: str, period: int | None = None) -> str:
     return name
 
 
-def seasonal_period(spec: dict, season_length: int | None) -> int | None:
+def seasonal_period(spec: dict[str, Any], season_length: int | None) -> int | None:
     """The seasonal period a canonical candidate spec uses: its own, else the series'."""
     seasonal = spec.get("seasonal")
     own = seasonal.get("period") if isinstance(seasonal, dict) else spec.get("period")

@@ -47,14 +47,13 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 from backtest.errors import PlanError
 from backtest.models.base import ESTIMATORS, Estimator
+from backtest.models.benchmarks import Method
+from backtest.score_registry import RANK_SCORES
 
-RANK_SCORES = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "crps", "pinball",
-               "scaled_pinball")
-"""Scores a plan may rank by (lower is better); defined in :mod:`backtest.scoring`."""
 BENCHMARKS = ("naive", "seasonal_naive", "drift", "mean")
 ASSESSMENTS = ("full", "lean")
 NOT_CONVERGED = ("keep", "fail")
@@ -77,7 +76,7 @@ class Plan:
     refit: int | Literal["once"] = 1
     levels: tuple[int, ...] = (80, 95)
     seed: int = 0
-    benchmark: str = "seasonal_naive"
+    benchmark: Method = "seasonal_naive"
     rank_by: str = "mase"
     rank_horizon: int | None = None
     warm_start: bool = False
@@ -91,7 +90,7 @@ class Plan:
             return origin_number == 0
         return origin_number % self.refit == 0
 
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         """Canonical JSON body (every default filled in)."""
         first = ({"period": self.first_period} if self.first_period is not None
                  else {"train_size": self.first_train_size})
@@ -150,15 +149,12 @@ def parse_plan(body: object) -> Plan:
         if rank_horizon > horizon:
             raise PlanError(f"plan rank_horizon {rank_horizon} exceeds the horizon {horizon}")
     return Plan(horizon, first_size, first_period, _positive(body.get("step", 1), "step"),
-                _positive(body.get("max_origins"), "max_origins", optional=True),
+                _optional_positive(body.get("max_origins"), "max_origins"),
                 window, length, refit, levels, seed, benchmark, rank_by, rank_horizon,
                 warm_start, assessment, estimator, not_converged)
 
 
-def _positive(value: object, name: str, *, required: bool = False,
-              optional: bool = False) -> int | None:
-    if value is None and optional:
-        return None
+def _positive(value: object, name: str, *, required: bool = False) -> int:
     if value is None and required:
         raise PlanError(f"plan {name} is required")
     if isinstance(value, bool) or not isinstance(value, int) or value < 1:
@@ -166,11 +162,15 @@ def _positive(value: object, name: str, *, required: bool = False,
     return value
 
 
+def _optional_positive(value: object, name: str) -> int | None:
+    return None if value is None else _positive(value, name)
+
+
 def _first_origin(body: object) -> tuple[int | None, str | None]:
     if body is None:
         return None, None
     if isinstance(body, Mapping) and set(body) == {"train_size"}:
-        return _positive(body["train_size"], "first_origin.train_size", optional=True), None
+        return _optional_positive(body["train_size"], "first_origin.train_size"), None
     if isinstance(body, Mapping) and set(body) == {"period"} and isinstance(body["period"], str):
         return None, body["period"]
     raise PlanError('plan first_origin must be {"train_size": n} or {"period": "<label>"}')

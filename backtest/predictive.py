@@ -112,7 +112,7 @@ def crps_by_fold(folds: Sequence[FoldResult], predictive: Predictive,
                 if errors is None:
                     break
                 out[row[id(fold)], h - 1] = metrics.crps_sample(
-                    fold.point[h - 1] + errors, fold.actuals[h - 1])  # type: ignore[index]
+                    fold.point_forecast[h - 1] + errors, fold.actuals[h - 1])
     if note is None and not np.all(np.isfinite(out)):
         note = "undefined where a quantile lies beyond the Box-Cox transform's range"
     elif note is not None and np.all(np.isfinite(out)):

@@ -28,7 +28,8 @@ from collections.abc import Callable, Sequence
 from dataclasses import replace
 
 from backtest.results import CandidateInfo, FoldResult, RankRow, Score
-from backtest.scoring import FOLD_COUNTED, score_candidate
+from backtest.score_registry import FOLD_COUNTED
+from backtest.scoring import score_candidate
 
 Rescore = Callable[[str, list[FoldResult]], list[Score]]
 ScoreKey = tuple[str, int | None, int | None]

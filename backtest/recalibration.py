@@ -30,7 +30,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Literal
+from typing import Any, Literal, cast
 
 import numpy as np
 
@@ -39,7 +39,8 @@ from backtest.labels import intervals_qualifier
 from backtest.models.base import choice
 from backtest.results import FoldResult
 
-ERROR_KINDS = ("raw", "scaled")
+ErrorKind = Literal["raw", "scaled"]
+ERROR_KINDS: tuple[ErrorKind, ...] = ("raw", "scaled")
 
 
 @dataclass(frozen=True)
@@ -47,9 +48,9 @@ class EmpiricalIntervals:
     """A candidate's request for empirical intervals."""
 
     min_errors: int = 20
-    errors: Literal["raw", "scaled"] = "raw"
+    errors: ErrorKind = "raw"
 
-    def canonical(self) -> dict:
+    def canonical(self) -> dict[str, Any]:
         return {"kind": "empirical", "min_errors": self.min_errors, "errors": self.errors}
 
     def qualifier(self) -> str:
@@ -75,7 +76,7 @@ def parse_intervals(body: object) -> EmpiricalIntervals | None:
         raise CandidateError(f"intervals min_errors must be an integer from 5 to 10000; "
                              f"got {least!r}")
     errors = choice(body.get("errors", "raw"), ERROR_KINDS, "intervals errors")
-    return EmpiricalIntervals(least, errors)  # type: ignore[arg-type]
+    return EmpiricalIntervals(least, cast(ErrorKind, errors))
 
 
 def known_errors(folds: Sequence[FoldResult], position: int, horizon: int, step: int,
@@ -88,7 +89,7 @@ def known_errors(folds: Sequence[FoldResult], position: int, horizon: int, step:
     for f in folds[:position]:
         if f.status != "ok" or (here - f.fold) * step < horizon:
             continue
-        error = f.actuals[horizon - 1] - f.point[horizon - 1]  # type: ignore[index]
+        error = f.error(horizon)
         if scaled:
             if not f.scale:
                 continue
@@ -124,7 +125,7 @@ def recalibrate(folds: Sequence[FoldResult], option: EmpiricalIntervals,
             continue
         samples = (error_sample(ordered, i, h, step, option)
                    for h in range(1, len(fold.actuals) + 1))
-        lower, upper, done = empirical_bounds(fold.point, fold.lower, fold.upper,  # type: ignore[arg-type]
+        lower, upper, done = empirical_bounds(fold.point_forecast, fold.lower, fold.upper,
                                               samples, levels)
         first = error_sample(ordered, i, 1, step, replace(option, min_errors=0))
         marks = _marks(0 if first is None else len(first), done)
@@ -151,8 +152,8 @@ def issued_bounds(point: Sequence[float], lower: Mapping[int, Sequence[float]],
                 continue
             if scaled and not f.scale:
                 continue
-            error = f.actuals[h - 1] - f.point[h - 1]  # type: ignore[index]
-            out.append(error / f.scale if scaled else error)  # type: ignore[operator]
+            error = f.error(h)
+            out.append(error / f.scale if scaled and f.scale else error)
         return np.array(out, dtype=float) * (scale if scaled else 1.0)
 
     def sample(h: int) -> np.ndarray | None:

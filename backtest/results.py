@@ -52,6 +52,18 @@ class FoldResult:
     converged: bool | None = None
     sample_crps: tuple[float, ...] | None = dataclasses.field(default=None, compare=False)
 
+    @property
+    def point_forecast(self) -> tuple[float, ...]:
+        """The point forecast of a completed fold; a failed fold has none (``ValueError``)."""
+        if self.point is None:
+            raise ValueError(f"fold {self.fold} of candidate {self.candidate_id} failed: "
+                             "it has no forecast")
+        return self.point
+
+    def error(self, horizon: int) -> float:
+        """Actual minus point forecast at ``horizon`` (1-based) of a completed fold."""
+        return self.actuals[horizon - 1] - self.point_forecast[horizon - 1]
+
 
 @dataclass(frozen=True)
 class Score:
@@ -144,7 +156,13 @@ class BacktestResult:
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready dictionary (non-finite floats become ``None``)."""
-        return to_jsonable(dataclasses.asdict(self))
+        return jsonable_dict(self)
+
+
+def jsonable_dict(result: Any) -> dict[str, Any]:
+    """A result dataclass as a JSON-ready dictionary (see :func:`to_jsonable`)."""
+    out: dict[str, Any] = to_jsonable(dataclasses.asdict(result))
+    return out
 
 
 def to_jsonable(value: Any) -> Any:

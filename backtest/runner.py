@@ -26,13 +26,16 @@ from __future__ import annotations
 import math
 import warnings
 import zlib
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Any, Generic, TypeVar
 
 import numpy as np
 from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
 from backtest.assessment import fold_fit_summary
 from backtest.candidates import Candidate
+from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
 from backtest.combining import combine_folds
 from backtest.folds import Origin
 from backtest.metrics import crps_sample, mase_scale, rmsse_scale
@@ -43,6 +46,8 @@ from backtest.plan import Plan
 from backtest.recalibration import recalibrate
 from backtest.results import FoldResult
 from backtest.series import Series
+
+T = TypeVar("T")
 
 
 def fold_seed(plan_seed: int, series_key: str, candidate_id: str, fold: int) -> int:
@@ -56,28 +61,86 @@ def run_candidate(series: Series, candidate: Candidate, plan: Plan,
     """Forecast every origin of ``series`` with ``candidate``."""
     spec = candidate.spec
     if isinstance(spec, CombinationSpec):
-        members = [_model_folds(series, Candidate(s), plan, origins) for s in spec.members]
+        members = [_model_folds(_Context.of(series, Candidate(s), plan), origins)
+                   for s in spec.members]
         folds = combine_folds(candidate.id, spec, members, plan.levels, plan.seed)
     else:
-        folds = _model_folds(series, candidate, plan, origins)
+        folds = _model_folds(_Context.of(series, candidate, plan), origins)
     if candidate.intervals is None:
         return folds
     return recalibrate(folds, candidate.intervals, plan.levels, plan.step)
 
 
-def _model_folds(series: Series, candidate: Candidate, plan: Plan,
-                 origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
+@dataclass(frozen=True)
+class _Context:
+    """What every fold of one candidate on one series shares; ``z`` is the transformed
+    series."""
+
+    series: Series
+    candidate: Candidate
+    plan: Plan
+    z: np.ndarray
+
+    @classmethod
+    def of(cls, series: Series, candidate: Candidate, plan: Plan) -> _Context:
+        z = candidate.spec.transform.forward(np.asarray(series.values, dtype=float))
+        return cls(series, candidate, plan, z)
+
+    @property
+    def spec(self) -> ModelSpec:
+        return self.candidate.spec
+
+    def seed(self, origin: Origin) -> int:
+        return fold_seed(self.plan.seed, self.series.key, self.candidate.id, origin.number)
+
+    def known(self, end: int) -> np.ndarray:
+        """The transformed data up to ``end`` as known at that origin: ``z[:end]``, unless
+        the window ends in filled periods, which are then carried forward from the last
+        observed value (the whole-series fill interpolated them towards later data)."""
+        if not self.series.is_filled(end - 1):
+            return self.z[:end]
+        return self.spec.transform.forward(self.series.as_of(end))
+
+
+@dataclass(frozen=True)
+class _Attempt(Generic[T]):
+    """What a computation returned, or why it raised, and the warnings it raised."""
+
+    value: T | None
+    error: str | None
+    caught: list[warnings.WarningMessage]
+
+
+def _attempt(compute: Callable[[], T]) -> _Attempt[T]:
+    """Run ``compute`` capturing its warnings; an exception becomes the attempt's
+    ``error`` (a fold's failure must never crash the run)."""
+    with capturing_warnings() as caught:
+        try:
+            return _Attempt(compute(), None, caught)
+        except Exception as exc:
+            return _Attempt(None, _reason(exc), caught)
+
+
+def _back_transformed(spec: ModelSpec, forecast: Forecast
+                      ) -> tuple[Forecast | None, str | None]:
+    """The forecast on the original scale, or why it could not be carried back."""
+    try:
+        return back_transform(spec.transform, forecast), None
+    except Exception as exc:
+        return None, _reason(exc)
+
+
+def _model_folds(ctx: _Context, origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """The folds with the model's own intervals."""
-    z = candidate.spec.transform.forward(np.asarray(series.values, dtype=float))
-    if candidate.spec.closed_form:
-        return _closed_form_folds(series, candidate, plan, z, origins)
+    if ctx.spec.closed_form:
+        return _closed_form_folds(ctx, origins)
     out: list[FoldResult] = []
     fit: Fit | None = None
     fit_start, i = 0, 0
     while i < len(origins):
         origin = origins[i]
         if origin.reestimate or fit is None:
-            fold, fit = _estimated_fold(series, candidate, plan, z, origin, fit)
+            fold, fit = _estimated_fold(ctx, origin, fit)
             fit_start = origin.start
             out.append(fold)
             i += 1
@@ -85,133 +148,100 @@ def _model_folds(series: Series, candidate: Candidate, plan: Plan,
         j = i
         while j < len(origins) and not origins[j].reestimate:
             j += 1
-        out.extend(_kept_folds(series, candidate, plan, z, origins[i:j], fit, fit_start))
+        out.extend(_kept_folds(ctx, origins[i:j], fit, fit_start))
         i = j
     return tuple(out)
 
 
-def _estimated_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
-                    origin: Origin, previous: Fit | None = None
+def _estimated_fold(ctx: _Context, origin: Origin, previous: Fit | None = None
                     ) -> tuple[FoldResult, Fit | None]:
-    spec, m = candidate.spec, series.season_length
-    seed = fold_seed(plan.seed, series.key, candidate.id, origin.number)
-    window = _known(series, spec, z, origin.end)[origin.start:]
-    fit, forecast, error, summary = None, None, None, None
+    spec, plan, m = ctx.spec, ctx.plan, ctx.series.season_length
+    window = ctx.known(origin.end)[origin.start:]
     warm = plan.warm_start and spec.warm_startable and previous is not None
-    options: dict = {"start_params": previous.params} if warm else {}
+    options: dict[str, Any] = {"start_params": previous.params} if warm and previous else {}
     if plan.assessment == "lean" and spec.raw_optional:
         options["keep_raw"] = False
     if plan.estimator == "fast" and spec.fast_estimable:
         options["estimator"] = "fast"
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels, seed,
-                                              **options)
-            forecast = back_transform(spec.transform, forecast)
-        except Exception as exc:  # a fold's failure must never crash the run
-            fit, forecast, error = None, None, _reason(exc)
+
+    def fit_forecast() -> tuple[Fit, Forecast]:
+        fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels,
+                                          ctx.seed(origin), **options)
+        return fit, back_transform(spec.transform, forecast)
+
+    attempt = _attempt(fit_forecast)
+    fit, forecast = attempt.value or (None, None)
+    summary = None
     if fit is not None and not spec.closed_form and plan.assessment == "full":
         summary = fold_fit_summary(*spec.assessed(fit), window, m)
-    converged = _converged(fit, caught)
+    converged = _converged(fit, attempt.caught)
     if fit is not None and fit.converged is None and converged is False:
         fit = Fit(fit.params, fit.raw, False, fit.rescaled_by)
-    fold = _fold(series, candidate, plan, origin, origin.start, True, fit, forecast, error,
-                 _messages(caught), summary)
+    fold = _fold(ctx, origin, start=origin.start, reestimated=True, fit=fit,
+                 forecast=forecast, error=attempt.error,
+                 caught=distinct_warning_lines(attempt.caught), summary=summary)
     return fold, fit
 
 
-def _closed_form_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
-                       origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
+def _closed_form_folds(ctx: _Context, origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """Closed-form families: every origin re-estimated, all windows in one call (origins
-    whose window ends in a filled period on their own, see :func:`_known`)."""
-    spec = candidate.spec
+    whose window ends in a filled period on their own, see :meth:`_Context.known`)."""
+    spec, series = ctx.spec, ctx.series
     alone = [o for o in origins if series.is_filled(o.end - 1)]
     if alone:
         batch = [o for o in origins if not series.is_filled(o.end - 1)]
-        folds = [_estimated_fold(series, candidate, plan, z, o)[0] for o in alone]
+        folds = [_estimated_fold(ctx, o)[0] for o in alone]
         if batch:
-            folds += _closed_form_folds(series, candidate, plan, z, batch)
+            folds += _closed_form_folds(ctx, batch)
         return tuple(sorted(folds, key=lambda f: f.fold))
     if type(spec).fit_forecast_windows is ModelSpec.fit_forecast_windows:  # no one pass
-        return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
-    seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in origins]
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            pairs = spec.fit_forecast_windows(z, series.season_length,
-                                              [(o.start, o.end) for o in origins],
-                                              plan.horizon, plan.levels, seeds)
-        except Exception:  # isolate the failing origins one by one below
-            pairs = None
-    if pairs is None or caught:  # per origin, so each fold gets its own failure or warnings
-        return tuple(_estimated_fold(series, candidate, plan, z, o)[0] for o in origins)
+        return tuple(_estimated_fold(ctx, o)[0] for o in origins)
+    plan = ctx.plan
+    attempt = _attempt(lambda: spec.fit_forecast_windows(
+        ctx.z, series.season_length, [(o.start, o.end) for o in origins], plan.horizon,
+        plan.levels, [ctx.seed(o) for o in origins]))
+    # a failure or a warning: per origin, so each fold gets its own failure or warnings
+    if attempt.value is None or attempt.caught:
+        return tuple(_estimated_fold(ctx, o)[0] for o in origins)
     folds = []
-    for origin, (fit, forecast) in zip(origins, pairs):
-        try:
-            forecast, error = back_transform(spec.transform, forecast), None
-        except Exception as exc:
-            forecast, error = None, _reason(exc)
-        folds.append(_fold(series, candidate, plan, origin, origin.start, True, fit, forecast,
-                           error, ()))
+    for origin, (fit, raw) in zip(origins, attempt.value):
+        forecast, error = _back_transformed(spec, raw)
+        folds.append(_fold(ctx, origin, start=origin.start, reestimated=True, fit=fit,
+                           forecast=forecast, error=error))
     return tuple(folds)
 
 
-def _kept_folds(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
-                stretch: Sequence[Origin], fit: Fit, fit_start: int) -> list[FoldResult]:
+def _kept_folds(ctx: _Context, stretch: Sequence[Origin], fit: Fit,
+                fit_start: int) -> list[FoldResult]:
     """Folds that keep ``fit``'s parameters, forecast in one pass where the family can
-    (origins whose window ends in a filled period on their own, see :func:`_known`)."""
-    spec, m = candidate.spec, series.season_length
-    if any(series.is_filled(o.end - 1) for o in stretch):
-        return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start,
-                                  fold_seed(plan.seed, series.key, candidate.id, o.number))
-                for o in stretch]
-    seeds = [fold_seed(plan.seed, series.key, candidate.id, o.number) for o in stretch]
+    (origins whose window ends in a filled period on their own, see
+    :meth:`_Context.known`)."""
+    spec, plan = ctx.spec, ctx.plan
+    if any(ctx.series.is_filled(o.end - 1) for o in stretch):
+        return [_single_kept_fold(ctx, o, fit, fit_start) for o in stretch]
     ends = [o.end - fit_start for o in stretch]
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            raw = spec.forecast_stretch(z[fit_start:stretch[-1].end], m, fit.params, ends,
-                                        plan.horizon, plan.levels, seeds)
-        except Exception:  # isolate the failing origins one by one below
-            raw = None
-    if raw is None or caught:  # per origin, so each fold gets its own failure or warnings
-        return [_single_kept_fold(series, candidate, plan, z, o, fit, fit_start, seed)
-                for o, seed in zip(stretch, seeds)]
+    attempt = _attempt(lambda: spec.forecast_stretch(
+        ctx.z[fit_start:stretch[-1].end], ctx.series.season_length, fit.params, ends,
+        plan.horizon, plan.levels, [ctx.seed(o) for o in stretch]))
+    # a failure or a warning: per origin, so each fold gets its own failure or warnings
+    if attempt.value is None or attempt.caught:
+        return [_single_kept_fold(ctx, o, fit, fit_start) for o in stretch]
     folds = []
-    for origin, forecast in zip(stretch, raw):
-        try:
-            forecast, error = back_transform(spec.transform, forecast), None
-        except Exception as exc:
-            forecast, error = None, _reason(exc)
-        folds.append(_fold(series, candidate, plan, origin, fit_start, False, fit, forecast,
-                           error, ()))
+    for origin, raw in zip(stretch, attempt.value):
+        forecast, error = _back_transformed(spec, raw)
+        folds.append(_fold(ctx, origin, start=fit_start, reestimated=False, fit=fit,
+                           forecast=forecast, error=error))
     return folds
 
 
-def _single_kept_fold(series: Series, candidate: Candidate, plan: Plan, z: np.ndarray,
-                      origin: Origin, fit: Fit, fit_start: int, seed: int) -> FoldResult:
-    spec = candidate.spec
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            forecast = spec.forecast(_known(series, spec, z, origin.end)[fit_start:],
-                                     series.season_length, fit.params,
-                                     plan.horizon, plan.levels, seed)
-            forecast, error = back_transform(spec.transform, forecast), None
-        except Exception as exc:  # a fold's failure must never crash the run
-            forecast, error = None, _reason(exc)
-    return _fold(series, candidate, plan, origin, fit_start, False, fit, forecast, error,
-                 _messages(caught))
-
-
-def _known(series: Series, spec: ModelSpec, z: np.ndarray, end: int) -> np.ndarray:
-    """The transformed data up to ``end`` as known at that origin: ``z[:end]``, unless the
-    window ends in filled periods, which are then carried forward from the last observed
-    value (the whole-series fill interpolated them towards later data)."""
-    if not series.is_filled(end - 1):
-        return z[:end]
-    return spec.transform.forward(series.as_of(end))
+def _single_kept_fold(ctx: _Context, origin: Origin, fit: Fit, fit_start: int) -> FoldResult:
+    spec, plan = ctx.spec, ctx.plan
+    attempt = _attempt(lambda: back_transform(spec.transform, spec.forecast(
+        ctx.known(origin.end)[fit_start:], ctx.series.season_length, fit.params,
+        plan.horizon, plan.levels, ctx.seed(origin))))
+    return _fold(ctx, origin, start=fit_start, reestimated=False, fit=fit,
+                 forecast=attempt.value, error=attempt.error,
+                 caught=distinct_warning_lines(attempt.caught))
 
 
 def _converged(fit: Fit | None, caught: list[warnings.WarningMessage]) -> bool | None:
@@ -228,38 +258,34 @@ def _reason(exc: Exception) -> str:
     return f"{type(exc).__name__}: {exc}"
 
 
-def _messages(caught: list[warnings.WarningMessage]) -> tuple[str, ...]:
-    seen: dict[str, None] = {}
-    for w in caught:
-        seen.setdefault(f"{w.category.__name__}: {w.message}", None)
-    return tuple(seen)
-
-
-def _fold(series: Series, candidate: Candidate, plan: Plan, origin: Origin, start: int,
-          reestimated: bool, fit: Fit | None, forecast: Forecast | None, error: str | None,
-          caught: tuple[str, ...], summary: dict | None = None) -> FoldResult:
+def _fold(ctx: _Context, origin: Origin, *, start: int, reestimated: bool, fit: Fit | None,
+          forecast: Forecast | None, error: str | None, caught: tuple[str, ...] = (),
+          summary: dict[str, Any] | None = None) -> FoldResult:
+    """The fold at ``origin`` from the estimate on data from ``start`` (``reestimated`` at
+    this origin, or kept), its forecast, or why it failed, and its warnings."""
+    series, plan = ctx.series, ctx.plan
     train = series.as_of(origin.end)[start:]
     target = range(origin.end, origin.end + plan.horizon)
-    ok = forecast is not None
 
     def values(a: np.ndarray) -> tuple[float, ...]:
         return tuple(float(v) for v in a)
 
     converged = None if fit is None else fit.converged
-    if ok and converged is False and plan.not_converged == "fail":
-        ok, error = False, "the estimate did not converge (plan: not_converged = fail)"
+    if forecast is not None and converged is False and plan.not_converged == "fail":
+        forecast, error = None, "the estimate did not converge (plan: not_converged = fail)"
+    ok = forecast is not None
     scale, scale_sq = mase_scale(train, series.season_length), rmsse_scale(train)
     return FoldResult(
-        series_key=series.key, candidate_id=candidate.id, fold=origin.number,
+        series_key=series.key, candidate_id=ctx.candidate.id, fold=origin.number,
         origin=series.label(origin.end - 1), train_start=series.label(start),
         train_size=origin.end - start, reestimated=reestimated,
         status="ok" if ok else "failed", reason=error,
         params=dict(fit.params) if (fit is not None and ok) else None,
         warnings=caught, periods=tuple(series.label(i) for i in target),
         actuals=values(series.values[origin.end:origin.end + plan.horizon]),
-        point=values(forecast.mean) if ok else None,
-        lower={lv: values(b) for lv, b in forecast.lower.items()} if ok else {},
-        upper={lv: values(b) for lv, b in forecast.upper.items()} if ok else {},
+        point=values(forecast.mean) if forecast is not None else None,
+        lower={} if forecast is None else {lv: values(b) for lv, b in forecast.lower.items()},
+        upper={} if forecast is None else {lv: values(b) for lv, b in forecast.upper.items()},
         scale=scale if np.isfinite(scale) else None,
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
         fit_summary=summary, converged=converged,

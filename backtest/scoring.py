@@ -37,12 +37,8 @@ import numpy as np
 from backtest import metrics
 from backtest.predictive import GAUSSIAN, Predictive, crps_by_fold, pinball_by_level
 from backtest.results import FoldResult, Score
+from backtest.score_registry import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 
-POINT_METRICS = ("mase", "rmsse", "rmsse_fold_mean", "smape", "mae", "rmse", "me")
-DISTRIBUTION_METRICS = ("crps", "pinball", "scaled_pinball")
-LEVEL_METRICS = ("coverage", "winkler", "msis", "pinball")
-#: Scores whose count is of folds, not of points.
-FOLD_COUNTED = ("rmsse_fold_mean",)
 _SHORT_SEASONAL = "training window shorter than m + 1: no seasonal difference"
 NO_LEVELS = "undefined: the plan has no interval level to give the predictive spread"
 

@@ -7,7 +7,7 @@ import json
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -68,7 +68,7 @@ class Series:
         """SHA-256 of the canonical serialisation (see :func:`canonical_json`)."""
         return hashlib.sha256(canonical_json(self).encode()).hexdigest()
 
-    def summary(self) -> dict:
+    def summary(self) -> dict[str, Any]:
         """JSON-ready description of the series, without its values."""
         return {
             "key": self.key,

@@ -21,6 +21,7 @@ import io
 import re
 from collections.abc import Iterable, Iterator
 from datetime import datetime
+from typing import Any
 
 from backtest.errors import SeriesError, TooManySeriesError
 from backtest.results import BacktestResult
@@ -60,7 +61,7 @@ def read_series_csv(text: str, *, frequency: str | None = None,
     unknown = [c for c in header if c not in REQUIRED + OPTIONAL]
     if unknown:
         raise SeriesError(f"line 1: unknown column(s) {', '.join(unknown)}")
-    groups: dict[str, dict] = {}
+    groups: dict[str, dict[str, Any]] = {}
     for line, row in enumerate(reader, start=2):
         if None in row or any(row.get(c) is None for c in REQUIRED):
             raise SeriesError(f"line {line}: expected {len(header)} fields")
@@ -79,7 +80,7 @@ def read_series_csv(text: str, *, frequency: str | None = None,
             for key, g in groups.items()]
 
 
-def _check_constant(group: dict, row: dict, line: int, key: str) -> None:
+def _check_constant(group: dict[str, Any], row: dict[str, Any], line: int, key: str) -> None:
     for column in OPTIONAL:
         value, first = row.get(column) or None, group[column]
         if value is not None and first is not None and str(value) != str(first):
@@ -96,7 +97,7 @@ def _number(text: str, line: int) -> float:
     return float(text)
 
 
-def _build(key: str, group: dict, frequency: str | None, season_length: int | None,
+def _build(key: str, group: dict[str, Any], frequency: str | None, season_length: int | None,
            fill: FillPolicy, max_length: int | None) -> Series:
     frequency = group["frequency"] or frequency
     if not frequency:
@@ -113,7 +114,7 @@ def _build(key: str, group: dict, frequency: str | None, season_length: int | No
                        max_length=max_length)
 
 
-def fold_rows(result: BacktestResult) -> Iterator[dict]:
+def fold_rows(result: BacktestResult) -> Iterator[dict[str, Any]]:
     """Long form: one row per fold x horizon x interval level (``level``, ``lower``,
     ``upper``), the point forecast and actual repeated on each level's row."""
     levels = result.plan["levels"]
@@ -134,7 +135,7 @@ def fold_rows(result: BacktestResult) -> Iterator[dict]:
                            "upper": f.upper[level][h - 1] if known else None}
 
 
-def score_rows(result: BacktestResult) -> Iterator[dict]:
+def score_rows(result: BacktestResult) -> Iterator[dict[str, Any]]:
     """One row per candidate x horizon x metric (x level); ``horizon`` is empty when pooled."""
     for sr in result.series:
         labels = {c.candidate_id: c.label for c in sr.candidates}
@@ -145,7 +146,7 @@ def score_rows(result: BacktestResult) -> Iterator[dict]:
                    "note": s.note}
 
 
-def ranking_rows(result: BacktestResult) -> Iterator[dict]:
+def ranking_rows(result: BacktestResult) -> Iterator[dict[str, Any]]:
     """One row per series x candidate, in rank order."""
     for sr in result.series:
         for r in sr.ranking:
@@ -160,7 +161,7 @@ def ranking_rows(result: BacktestResult) -> Iterator[dict]:
                    "score_count": r.score_count, "score_possible": r.score_possible}
 
 
-def write_csv(rows: Iterable[dict], columns: Iterable[str], out: io.TextIOBase) -> None:
+def write_csv(rows: Iterable[dict[str, Any]], columns: Iterable[str], out: io.TextIOBase) -> None:
     """Write dict rows as CSV; ``None`` becomes an empty field, a time ISO 8601, a would-be
     formula neutralised (:func:`csv_cell`); extra keys keep their order."""
     rows = iter(rows)

@@ -9,7 +9,7 @@ mean.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -33,21 +33,31 @@ class Transform:
         if self.kind == "none":
             return y
         if self.kind == "log" or self.lam == 0:
-            return np.log(y)
-        return (np.power(y, self.lam) - 1.0) / self.lam
+            logged: np.ndarray = np.log(y)
+            return logged
+        lam = self._lambda()
+        transformed: np.ndarray = (np.power(y, lam) - 1.0) / lam
+        return transformed
 
     def inverse(self, z: np.ndarray) -> np.ndarray:
         """Back to the original scale; beyond the Box-Cox range, 0 (lam > 0) or inf (lam < 0)."""
         if self.kind == "none":
             return z
         if self.kind == "log" or self.lam == 0:
-            return np.exp(z)
-        base = self.lam * np.asarray(z) + 1.0
+            exponentiated: np.ndarray = np.exp(z)
+            return exponentiated
+        lam = self._lambda()
+        base = lam * np.asarray(z) + 1.0
         with np.errstate(divide="ignore", invalid="ignore"):
-            out = np.power(np.where(base > 0, base, 1.0), 1.0 / self.lam)
-        return np.where(base > 0, out, 0.0 if self.lam > 0 else np.inf)
+            out = np.power(np.where(base > 0, base, 1.0), 1.0 / lam)
+        return np.where(base > 0, out, 0.0 if lam > 0 else np.inf)
 
-    def canonical(self) -> dict:
+    def _lambda(self) -> float:
+        if self.lam is None:
+            raise CandidateError("transform: Box-Cox needs its lambda")
+        return self.lam
+
+    def canonical(self) -> dict[str, Any]:
         return {"kind": self.kind, "lambda": self.lam}
 
 
@@ -58,16 +68,20 @@ def parse_transform(body: object) -> Transform:
     if body == "log":
         return Transform("log")
     keys = set(body) if isinstance(body, dict) else set()
-    if keys and body.get("kind") in ("none", "log") and keys <= {"kind", "lambda"}:
-        return parse_transform(body["kind"])
-    if keys == {"kind", "lambda"} and body.get("kind") == "boxcox":
-        lam = body["lambda"]
-        if isinstance(lam, bool) or not isinstance(lam, int | float) or not np.isfinite(lam):
-            raise CandidateError(f"transform: Box-Cox lambda must be a finite number, got {lam!r}")
-        if not -2.0 <= lam <= 2.0:
-            raise CandidateError(f"transform: Box-Cox lambda {lam} is outside [-2, 2]")
-        return Transform("boxcox", float(lam))
+    if isinstance(body, dict) and keys:
+        if body.get("kind") in ("none", "log") and keys <= {"kind", "lambda"}:
+            return parse_transform(body["kind"])
+        if keys == {"kind", "lambda"} and body.get("kind") == "boxcox":
+            return Transform("boxcox", _boxcox_lambda(body["lambda"]))
     raise CandidateError(
         f"transform {body!r} is not understood; use \"none\", \"log\" or "
         '{"kind": "boxcox", "lambda": <number>}'
     )
+
+
+def _boxcox_lambda(lam: object) -> float:
+    if isinstance(lam, bool) or not isinstance(lam, int | float) or not np.isfinite(lam):
+        raise CandidateError(f"transform: Box-Cox lambda must be a finite number, got {lam!r}")
+    if not -2.0 <= lam <= 2.0:
+        raise CandidateError(f"transform: Box-Cox lambda {lam} is outside [-2, 2]")
+    return float(lam)

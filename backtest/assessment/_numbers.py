@@ -3,19 +3,18 @@
 from __future__ import annotations
 
 import math
-import warnings
-from collections.abc import Iterable
+from typing import SupportsFloat
 
 import numpy as np
 
 from backtest.assessment import _tails
 
 
-def number(value: object) -> float | None:
+def number(value: SupportsFloat | None) -> float | None:
     """A Python float, or ``None`` when the value is missing, NaN or infinite."""
     if value is None:
         return None
-    out = float(value)  # type: ignore[arg-type]
+    out = float(value)
     return out if math.isfinite(out) else None
 
 
@@ -34,11 +33,3 @@ def vector(values: object, what: str) -> np.ndarray:
     if not np.all(np.isfinite(array)):
         raise ValueError(f"{what} must contain only finite values")
     return array
-
-
-def describe_warnings(caught: Iterable[warnings.WarningMessage]) -> list[str]:
-    """``Category: message`` for each recorded warning, duplicates removed in order."""
-    seen: dict[str, None] = {}
-    for item in caught:
-        seen[f"{item.category.__name__}: {item.message}"] = None
-    return list(seen)

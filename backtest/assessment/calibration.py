@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import functools
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 from scipy import stats
@@ -47,7 +48,7 @@ def _log_likelihood(count_one: float, count_zero: float, probability: float) -> 
     return float(xlogy(count_one, probability) + xlogy(count_zero, 1.0 - probability))
 
 
-def kupiec_pof(misses: int, trials: int, nominal_miss_rate: float) -> dict:
+def kupiec_pof(misses: int, trials: int, nominal_miss_rate: float) -> dict[str, Any]:
     """Kupiec's proportion-of-failures likelihood-ratio test [1]_, with its exact p-value.
 
     LR = -2 ln[(1-p)^(T-x) p^x] + 2 ln[(1-p^)^(T-x) p^^x], p^ = x/T, with the convention
@@ -84,7 +85,8 @@ def kupiec_null_distribution(trials: int, rate: float) -> tuple[np.ndarray, np.n
     return lr, pmf
 
 
-def christoffersen(hit_sequence: Sequence[int] | np.ndarray, nominal_miss_rate: float) -> dict:
+def christoffersen(hit_sequence: Sequence[int] | np.ndarray,
+                   nominal_miss_rate: float) -> dict[str, Any]:
     """Christoffersen's independence and conditional-coverage tests [2]_.
 
     ``hit_sequence`` holds 1 for a hit (actual inside the interval, the paper's I_t = 1)
@@ -107,7 +109,7 @@ def christoffersen(hit_sequence: Sequence[int] | np.ndarray, nominal_miss_rate: 
     if hits.ndim != 1 or not np.all((hits == 0) | (hits == 1)):
         raise ValueError("hit_sequence must be a one-dimensional sequence of 0s and 1s")
     miss = 1 - hits.astype(int)
-    out = {"n": len(miss), "transitions": None, "miss_after_hit": None,
+    out: dict[str, Any] = {"n": len(miss), "transitions": None, "miss_after_hit": None,
            "miss_after_miss": None, "miss_rate": None, "lr_uc": None, "lr_ind": None,
            "lr_cc": None, "p_value_uc": None, "p_value_ind": None, "p_value_cc": None,
            "uc_observations": max(len(miss) - 1, 0), "reason": None}
@@ -118,7 +120,7 @@ def christoffersen(hit_sequence: Sequence[int] | np.ndarray, nominal_miss_rate: 
     return out
 
 
-def _markov_tests(miss: np.ndarray, p: float) -> dict:
+def _markov_tests(miss: np.ndarray, p: float) -> dict[str, Any]:
     before, after = miss[:-1], miss[1:]
     n = {f"n{i}{j}": int(np.sum((before == i) & (after == j))) for i in (0, 1) for j in (0, 1)}
     from_hit, from_miss = n["n00"] + n["n01"], n["n10"] + n["n11"]
@@ -179,7 +181,7 @@ def calibration_zone(misses: int, trials: int, nominal_miss_rate: float) -> str 
 
 def calibration_report(actuals: np.ndarray, lower: Mapping[int, np.ndarray],
                        upper: Mapping[int, np.ndarray], levels: Sequence[int], *,
-                       origin_step: int = 1) -> list[dict]:
+                       origin_step: int = 1) -> list[dict[str, Any]]:
     """Interval calibration per level, per horizon and pooled over horizons.
 
     Parameters
@@ -216,7 +218,8 @@ def _matrix(values: object, what: str) -> np.ndarray:
     return array
 
 
-def _bounds(bounds: Mapping[int, np.ndarray], level: int, shape: tuple, what: str) -> np.ndarray:
+def _bounds(bounds: Mapping[int, np.ndarray], level: int, shape: tuple[int, ...],
+            what: str) -> np.ndarray:
     if level not in bounds:
         raise ValueError(f"{what} has no bounds for level {level}")
     array = _matrix(bounds[level], f"{what}[{level}]")
@@ -225,7 +228,8 @@ def _bounds(bounds: Mapping[int, np.ndarray], level: int, shape: tuple, what: st
     return array
 
 
-def _level_report(y: np.ndarray, lo: np.ndarray, hi: np.ndarray, level: int, step: int) -> dict:
+def _level_report(y: np.ndarray, lo: np.ndarray, hi: np.ndarray, level: int,
+                  step: int) -> dict[str, Any]:
     if not 0 < level < 100:
         raise ValueError(f"levels must be between 0 and 100 (in %), got {level}")
     rate = (100 - level) / 100.0
@@ -245,7 +249,7 @@ def _level_report(y: np.ndarray, lo: np.ndarray, hi: np.ndarray, level: int, ste
             "pooled": pooled}
 
 
-def _cell(hits: np.ndarray, level: int, formal: bool, note: str | None) -> dict:
+def _cell(hits: np.ndarray, level: int, formal: bool, note: str | None) -> dict[str, Any]:
     rate = (100 - level) / 100.0
     trials, n_hits = len(hits), int(hits.sum())
     misses = trials - n_hits

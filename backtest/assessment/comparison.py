@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from itertools import combinations
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 import pandas as pd
@@ -34,7 +34,7 @@ _LOSS_FUNCTIONS = {"squared": np.square, "absolute": np.abs}
 _DEGENERATE = 1e-12
 
 
-def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared") -> dict:
+def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared") -> dict[str, Any]:
     """Diebold-Mariano test of equal accuracy with the Harvey-Leybourne-Newbold correction.
 
     d_t = g(e1_t) - g(e2_t); the long-run variance of d is gamma_0 + 2 sum_{k=1..h-1}
@@ -64,7 +64,7 @@ def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared"
     if loss not in _LOSS_FUNCTIONS:
         raise ValueError(f"loss must be one of {', '.join(LOSSES)}, got {loss!r}")
     d = _LOSS_FUNCTIONS[loss](a) - _LOSS_FUNCTIONS[loss](b)
-    out = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
+    out: dict[str, Any] = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
            "variance": None, "kernel": None, "dm": None, "p_value_normal": None,
            "hln": None, "df": len(d) - 1, "p_value": None, "p_value_first_better": None,
            "reason": None}
@@ -82,7 +82,7 @@ def _autocovariances(d: np.ndarray, lags: int) -> np.ndarray:
     return np.array([centred[k:] @ centred[: n - k] / n for k in range(lags + 1)])
 
 
-def _statistics(d: np.ndarray, h: int) -> dict:
+def _statistics(d: np.ndarray, h: int) -> dict[str, Any]:
     n = len(d)
     gamma = _autocovariances(d, h - 1)
     variance, kernel = gamma[0] + 2.0 * gamma[1:].sum(), "rectangular"
@@ -108,7 +108,7 @@ def _statistics(d: np.ndarray, h: int) -> dict:
 
 def compare_to_benchmark(errors: Mapping[str, np.ndarray], benchmark: str, *,
                          losses: Sequence[Loss] = LOSSES, alpha: float = 0.05,
-                         origin_step: int = 1) -> dict:
+                         origin_step: int = 1) -> dict[str, Any]:
     """DM/HLN tests of every model against ``benchmark``, per horizon and loss.
 
     A row's ``verdict`` is ``"better"`` or ``"worse"`` when the two-sided HLN p-value is
@@ -133,7 +133,7 @@ def compare_to_benchmark(errors: Mapping[str, np.ndarray], benchmark: str, *,
 
 
 def pairwise(errors: Mapping[str, np.ndarray], *, losses: Sequence[Loss] = LOSSES,
-             alpha: float = 0.05, origin_step: int = 1) -> dict:
+             alpha: float = 0.05, origin_step: int = 1) -> dict[str, Any]:
     """DM/HLN tests for every pair of models, per horizon and loss.
 
     ``verdict`` is ``"first_better"``, ``"second_better"`` or ``"no_difference"`` by the
@@ -159,7 +159,7 @@ def _matrices(errors: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
 
 
 def _pair_rows(first: np.ndarray, second: np.ndarray, losses: Sequence[Loss], alpha: float,
-               origin_step: int) -> list[dict]:
+               origin_step: int) -> list[dict[str, Any]]:
     if int(origin_step) < 1:
         raise ValueError(f"origin_step must be a positive integer, got {origin_step!r}")
     rows = []
@@ -172,7 +172,7 @@ def _pair_rows(first: np.ndarray, second: np.ndarray, losses: Sequence[Loss], al
     return rows
 
 
-def _verdict(test: dict, alpha: float, better: str, worse: str) -> str | None:
+def _verdict(test: dict[str, Any], alpha: float, better: str, worse: str) -> str | None:
     if test["p_value"] is None:
         return None
     if test["p_value"] >= alpha:
@@ -180,8 +180,10 @@ def _verdict(test: dict, alpha: float, better: str, worse: str) -> str | None:
     return better if test["mean_difference"] < 0 else worse
 
 
-def _summary(rows: list[dict], names: list[str], losses: Sequence[Loss]) -> dict:
-    summary = {name: {loss: {"better_at": [], "worse_at": []} for loss in losses}
+def _summary(rows: list[dict[str, Any]], names: list[str],
+             losses: Sequence[Loss]) -> dict[str, Any]:
+    summary: dict[str, dict[str, dict[str, list[int]]]] = {
+        name: {loss: {"better_at": [], "worse_at": []} for loss in losses}
                for name in names}
     for row in rows:
         if row["verdict"] in ("better", "worse"):
@@ -192,7 +194,7 @@ def _summary(rows: list[dict], names: list[str], losses: Sequence[Loss]) -> dict
 def model_confidence_set(losses: np.ndarray, names: Sequence[str], *, size: float = 0.10,
                          reps: int = 1000, block_size: int | None = None,
                          seed: int | np.random.Generator | None = None,
-                         method: Literal["R", "max"] = "R") -> dict:
+                         method: Literal["R", "max"] = "R") -> dict[str, Any]:
     """Hansen-Lunde-Nason model confidence set [3]_ via ``arch.bootstrap.MCS``.
 
     Parameters

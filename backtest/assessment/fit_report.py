@@ -59,14 +59,13 @@ References
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.polynomial import polynomial
 
-from backtest.assessment._numbers import describe_warnings, number
+from backtest.assessment._numbers import number
 from backtest.assessment._tails import norm_sf
 from backtest.assessment.insample import InSample, one_step_errors
 from backtest.assessment.residual_tests import (
@@ -76,6 +75,8 @@ from backtest.assessment.residual_tests import (
     jarque_bera,
     ljung_box,
 )
+from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
+from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
 
 Covariance = Literal["approx", "opg"]
@@ -93,7 +94,8 @@ _COVARIANCE_TEXT = {
 
 
 def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
-               covariance: Covariance = "approx", fit_warnings: Sequence[str] = ()) -> dict:
+               covariance: Covariance = "approx",
+               fit_warnings: Sequence[str] = ()) -> dict[str, Any]:
     """Full diagnostic report for a fitted model of any family.
 
     Parameters
@@ -113,15 +115,14 @@ def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
         ``information_criteria``, ``innovation_variance``, ``residuals`` (tests),
         ``roots`` (ARIMA), ``warnings`` and ``unavailable`` (section -> reason).
     """
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with capturing_warnings() as caught:
         report = _full_report(spec, fit, np.asarray(y, dtype=float), season_length, covariance)
-    report["warnings"] = [*fit_warnings, *describe_warnings(caught)]
+    report["warnings"] = [*fit_warnings, *distinct_warning_lines(caught)]
     return report
 
 
 def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
-                     covariance: Covariance = "approx") -> dict:
+                     covariance: Covariance = "approx") -> dict[str, Any]:
     """Compact per-fold report: coefficient estimates, s.e. and p-values, convergence, and
     the Ljung-Box p-value at the first default lag.
 
@@ -131,8 +132,7 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
         ``converged`` (bool or None), ``params`` (name -> estimate, std_error, p_value),
         ``ljung_box`` (lag, p_value, reason) and ``warnings`` raised while computing it.
     """
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with capturing_warnings() as caught:
         rows, _, _ = coefficient_table(spec, fit, covariance, season_length)
         lag = default_lags(season_length)[0]
         errors = one_step_errors(spec, fit, y, season_length)
@@ -141,10 +141,10 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
     params = {row["name"]: {k: row[k] for k in ("estimate", "std_error", "p_value")}
               for row in rows}
     return {"converged": converged, "params": params, "ljung_box": test,
-            "warnings": describe_warnings(caught)}
+            "warnings": list(distinct_warning_lines(caught))}
 
 
-def _first_ljung_box(errors: InSample, lag: int) -> dict:
+def _first_ljung_box(errors: InSample, lag: int) -> dict[str, Any]:
     if errors.errors is None:
         return {"lag": lag, "p_value": None, "reason": errors.note}
     row = ljung_box(errors.errors, [lag], errors.model_df)[0]
@@ -152,7 +152,7 @@ def _first_ljung_box(errors: InSample, lag: int) -> dict:
 
 
 def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
-                 covariance: Covariance) -> dict:
+                 covariance: Covariance) -> dict[str, Any]:
     unavailable: dict[str, str] = {}
     rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance,
                                                      season_length)
@@ -164,7 +164,7 @@ def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
     if residuals is None:
         unavailable["residuals"] = errors.note
     roots = None
-    if spec.family != "arima" or fit.raw is None:
+    if spec.family != "arima" or not isinstance(spec, ArimaSpec) or fit.raw is None:
         unavailable["roots"] = "lag-polynomial roots need a fitted ARIMA model"
     elif not _finite_polynomials(fit.raw):
         unavailable["roots"] = "lag polynomials have NaN or infinite coefficients"
@@ -178,7 +178,7 @@ def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
 
 
 def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance, season_length: int
-                      ) -> tuple[list[dict], dict | None, str | None]:
+                      ) -> tuple[list[dict[str, Any]], dict[str, Any] | None, str | None]:
     """Rows of name, estimate, std_error, z, p_value, note; the covariance used; and the
     reason when there are no standard errors."""
     names = list(fit.params)
@@ -207,7 +207,8 @@ def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[s
         if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
             out[name] = ("at or near the bound of statsmodels' default parameter range "
                          f"[{low}, {high}]")
-    if spec.family == "arima" and fit.raw is not None and _finite_polynomials(fit.raw):
+    if (isinstance(spec, ArimaSpec) and spec.family == "arima" and fit.raw is not None
+            and _finite_polynomials(fit.raw)):
         roots = arima_roots(fit.raw, spec.season_period(season_length))
         for name in fit.params:
             modulus = _smallest_modulus(roots, name)
@@ -217,7 +218,7 @@ def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[s
     return out
 
 
-def _smallest_modulus(roots: dict, name: str) -> float | None:
+def _smallest_modulus(roots: dict[str, Any], name: str) -> float | None:
     """Smallest root modulus (in B, or in B^m for a seasonal polynomial) of the lag
     polynomial that the ARIMA coefficient ``name`` (``ar.L1``, ``ma.S.L12``, ...) belongs
     to; ``None`` for the constant, drift and variance."""
@@ -249,8 +250,8 @@ def _coefficient_variances(spec: ModelSpec, fit: Fit, covariance: Covariance, k:
 
 
 def _coefficient_row(name: str, estimate: float, variance: float, reason: str | None,
-                     bound: str | None) -> dict:
-    row = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
+                     bound: str | None) -> dict[str, Any]:
+    row: dict[str, Any] = {"name": name, "estimate": number(estimate), "std_error": None, "z": None,
            "p_value": None, "note": reason}
     if reason:
         return row
@@ -271,7 +272,7 @@ def _coefficient_row(name: str, estimate: float, variance: float, reason: str | 
     return row
 
 
-def _estimation(spec: ModelSpec, fit: Fit) -> dict:
+def _estimation(spec: ModelSpec, fit: Fit) -> dict[str, Any]:
     if spec.family in ("arima", "ets") and fit.raw is not None:
         retvals = getattr(fit.raw, "mle_retvals", None) or {}
         converged = retvals.get("converged")
@@ -287,11 +288,11 @@ def _estimation(spec: ModelSpec, fit: Fit) -> dict:
             "warnflag": None, "reason": "no iterative optimizer status for this estimate"}
 
 
-def _count(value: object) -> int | None:
-    return None if value is None else int(value)  # type: ignore[call-overload]
+def _count(value: Any) -> int | None:
+    return None if value is None else int(value)
 
 
-def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict | None:
+def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict[str, Any] | None:
     if spec.family not in ("arima", "ets"):
         unavailable["information_criteria"] = f"no likelihood for the {spec.family} estimate"
         return None
@@ -306,7 +307,7 @@ def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict | 
                           "AICc = AIC + 2K(K+1)/(N-K-1), N effective observations"}
 
 
-def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict:
+def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict[str, Any]:
     if "sigma2" in fit.params:
         value, source = fit.params["sigma2"], "estimated parameter sigma2"
     elif "sigma" in fit.params:
@@ -318,7 +319,7 @@ def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict:
     return {"value": number(value), "source": source}
 
 
-def residual_section(errors: InSample, season_length: int) -> dict | None:
+def residual_section(errors: InSample, season_length: int) -> dict[str, Any] | None:
     """Ljung-Box, Jarque-Bera, ARCH LM and ACF/PACF on the one-step errors."""
     if errors.errors is None:
         return None
@@ -329,13 +330,13 @@ def residual_section(errors: InSample, season_length: int) -> dict | None:
             "arch_lm": arch_lm(e, lags[0]), "acf": acf_report(e, lags[-1])}
 
 
-def arima_roots(raw, period: int) -> dict:
+def arima_roots(raw: Any, period: int) -> dict[str, Any]:
     """Roots of the regular (in B) and seasonal (in B^m) AR and MA polynomials.
 
     ``raw`` is statsmodels' ARIMA results; its ``polynomial_*`` attributes hold
     coefficients in increasing powers of B (MA with statsmodels' + sign).
     """
-    out: dict = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
+    out: dict[str, Any] = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
     for part in ("ar", "ma"):
         regular = _root_rows(getattr(raw, f"polynomial_{part}"), 1)
         seasonal_coefs = np.asarray(getattr(raw, f"polynomial_seasonal_{part}"))
@@ -350,12 +351,12 @@ def arima_roots(raw, period: int) -> dict:
     return out
 
 
-def _finite_polynomials(raw) -> bool:
+def _finite_polynomials(raw: Any) -> bool:
     return all(np.all(np.isfinite(np.asarray(getattr(raw, f"polynomial_{name}"), dtype=float)))
                for name in ("ar", "ma", "seasonal_ar", "seasonal_ma"))
 
 
-def _root_rows(coefficients, power: int) -> list[dict]:
+def _root_rows(coefficients: Any, power: int) -> list[dict[str, Any]]:
     coefs = np.trim_zeros(np.asarray(coefficients, dtype=float), "b")
     if len(coefs) < 2:
         return []

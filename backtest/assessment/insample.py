@@ -22,11 +22,17 @@ saying what the errors are. All errors are on the model's (transformed) scale.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
+from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
+from backtest.models.benchmarks import BenchmarkSpec
+from backtest.models.ets import EtsSpec
+from backtest.models.theta import ThetaSpec
 
 _ETS_DYNAMICS = ("smoothing_level", "smoothing_trend", "smoothing_seasonal", "damping_trend")
 
@@ -42,39 +48,41 @@ class InSample:
 
 def one_step_errors(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     """In-sample one-step errors of ``fit`` (estimated on ``y``) for any family."""
-    family = {"arima": _arima, "ets": _ets, "theta": _theta, "benchmark": _benchmark}
+    # each family's function takes that family's spec (chosen by the spec's family name)
+    family: dict[str, Callable[[Any, Fit, np.ndarray, int], InSample]] = {
+        "arima": _arima, "ets": _ets, "theta": _theta, "benchmark": _benchmark}
     if spec.family not in family:
         return InSample(None, 0, f"no in-sample errors for family {spec.family!r}")
     needs_raw = spec.family in ("arima", "ets", "theta")
     if needs_raw and fit.raw is None:
         return InSample(None, 0, "the fitted-results object is not available")
     out = family[spec.family](spec, fit, np.asarray(y, dtype=float), season_length)
-    if not np.all(np.isfinite(out.errors)):
+    if out.errors is None or not np.all(np.isfinite(out.errors)):
         return InSample(None, out.model_df, f"{out.note}: contain NaN or infinite values")
     return out
 
 
-def arima_burn_in(spec: ModelSpec, season_length: int) -> int:
+def arima_burn_in(spec: ArimaSpec, season_length: int) -> int:
     """d + D*m: observations the diffuse initialisation of the differences spends."""
     big_d = spec.seasonal[1] if spec.seasonal else 0
     return spec.order[1] + big_d * spec.season_period(season_length)
 
 
-def arima_model_df(spec: ModelSpec) -> int:
+def arima_model_df(spec: ArimaSpec) -> int:
     """p + q + P + Q."""
     p, _, q = spec.order
     big_p, _, big_q = spec.seasonal or (0, 0, 0)
     return p + q + big_p + big_q
 
 
-def _arima(spec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
+def _arima(spec: ArimaSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     burn = arima_burn_in(spec, season_length)
     errors = np.asarray(fit.raw.resid, dtype=float)[burn:]
     return InSample(errors, arima_model_df(spec),
                     f"Kalman one-step residuals after a burn-in of d + D*m = {burn}")
 
 
-def _ets(spec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
+def _ets(spec: EtsSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     fixed = set(getattr(fit.raw, "fixed_params", None) or ())
     model_df = len([name for name in fit.raw.model.param_names
                     if name in _ETS_DYNAMICS and name not in fixed])
@@ -83,13 +91,13 @@ def _ets(spec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
                     f"ETS innovations ({kind} errors)")
 
 
-def _theta(spec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
+def _theta(spec: ThetaSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     forecasts = theta_one_step_forecasts(fit.raw, y)
     return InSample(y[1:] - forecasts[:-1], 1,
                     "theta one-step errors from origins 1..n-1 with full-sample parameters")
 
 
-def theta_one_step_forecasts(fitted, y: np.ndarray) -> np.ndarray:
+def theta_one_step_forecasts(fitted: Any, y: np.ndarray) -> np.ndarray:
     """Theta (theta = 2) forecasts of y_1..y_n, the last one out of sample.
 
     Rebuilds statsmodels' formula (``ThetaModelResults.forecast``) from origin t with
@@ -108,13 +116,14 @@ def theta_one_step_forecasts(fitted, y: np.ndarray) -> np.ndarray:
     level[0] = plain[0]
     for t in range(1, n):
         level[t] = alpha * plain[t] + (1.0 - alpha) * level[t - 1]
-    t = np.arange(1, n + 1)
-    trend = (1.0 - (1.0 - alpha) ** t) / alpha if alpha > 0 else np.zeros(n)
+    steps = np.arange(1, n + 1)
+    trend = (1.0 - (1.0 - alpha) ** steps) / alpha if alpha > 0 else np.zeros(n)
     forecast = 0.5 * b0 * trend + level
-    return forecast * index[1:] if multiplicative else forecast + index[1:]
+    result: np.ndarray = forecast * index[1:] if multiplicative else forecast + index[1:]
+    return result
 
 
-def _benchmark(spec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
+def _benchmark(spec: BenchmarkSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     if spec.method == "naive":
         return InSample(np.diff(y), 0, "naive one-step errors (first differences)")
     if spec.method == "seasonal_naive":

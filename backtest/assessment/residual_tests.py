@@ -17,6 +17,8 @@ References
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 from scipy import stats
 
@@ -42,7 +44,7 @@ def autocorrelations(x: np.ndarray, nlags: int) -> np.ndarray | None:
     return np.array([centred[k:] @ centred[: n - k] for k in range(1, nlags + 1)]) / denominator
 
 
-def ljung_box(resid: object, lags: list[int], model_df: int) -> list[dict]:
+def ljung_box(resid: object, lags: list[int], model_df: int) -> list[dict[str, Any]]:
     """Ljung-Box portmanteau test at each lag in ``lags``.
 
     Q(L) = n(n+2) sum_{k=1..L} r_k^2 / (n-k), referred to chi-squared with
@@ -62,9 +64,9 @@ def ljung_box(resid: object, lags: list[int], model_df: int) -> list[dict]:
     return [_ljung_box_at(int(lag), x, r, int(model_df)) for lag in lags]
 
 
-def _ljung_box_at(lag: int, x: np.ndarray, r: np.ndarray | None, model_df: int) -> dict:
+def _ljung_box_at(lag: int, x: np.ndarray, r: np.ndarray | None, model_df: int) -> dict[str, Any]:
     n, df = len(x), lag - model_df
-    out = {"lag": lag, "q": None, "df": df, "p_value": None, "reason": None}
+    out: dict[str, Any] = {"lag": lag, "q": None, "df": df, "p_value": None, "reason": None}
     if not 1 <= lag < n:
         out["reason"] = f"lag {lag} needs 1 <= lag < n = {n}"
     elif r is None:
@@ -80,15 +82,15 @@ def _ljung_box_at(lag: int, x: np.ndarray, r: np.ndarray | None, model_df: int) 
     return out
 
 
-def jarque_bera(resid: object) -> dict:
+def jarque_bera(resid: object) -> dict[str, Any]:
     """Jarque-Bera normality test [2]_.
 
     JB = (n/6) [S^2 + (K-3)^2 / 4] with the moment (biased) skewness S and kurtosis K,
     referred to chi-squared(2).
     """
     x = vector(resid, "resid")
-    out = {"n": len(x), "skewness": None, "kurtosis": None, "statistic": None, "df": 2,
-           "p_value": None, "reason": None}
+    out: dict[str, Any] = {"n": len(x), "skewness": None, "kurtosis": None, "statistic": None,
+                           "df": 2, "p_value": None, "reason": None}
     centred = x - x.mean()
     variance = float(np.mean(centred**2))
     if len(x) < 3 or variance <= 0.0:
@@ -102,7 +104,7 @@ def jarque_bera(resid: object) -> dict:
     return out
 
 
-def arch_lm(resid: object, nlags: int) -> dict:
+def arch_lm(resid: object, nlags: int) -> dict[str, Any]:
     """Engle's Lagrange-multiplier test for ARCH effects [3]_.
 
     Regress x_t^2 on a constant and x_{t-1}^2..x_{t-q}^2 over the n - q usable rows;
@@ -114,8 +116,9 @@ def arch_lm(resid: object, nlags: int) -> dict:
     x = vector(resid, "resid")
     q = int(nlags)
     rows = len(x) - q
-    out = {"nlags": q, "n_used": max(rows, 0), "lm": None, "lm_p_value": None, "f": None,
-           "f_df": [q, rows - q - 1], "f_p_value": None, "reason": None}
+    out: dict[str, Any] = {"nlags": q, "n_used": max(rows, 0), "lm": None, "lm_p_value": None,
+                           "f": None, "f_df": [q, rows - q - 1], "f_p_value": None,
+                           "reason": None}
     if q < 1 or rows - q - 1 < 1:
         out["reason"] = f"needs nlags >= 1 and n > 2 * nlags + 1 (n = {len(x)}, nlags = {q})"
         return out
@@ -140,7 +143,7 @@ def _arch_r_squared(squares: np.ndarray, q: int) -> float | None:
     return 1.0 - float(np.sum((target - design @ coef) ** 2)) / total
 
 
-def acf_report(resid: object, nlags: int) -> dict:
+def acf_report(resid: object, nlags: int) -> dict[str, Any]:
     """Residual ACF and PACF at lags 1..nlags with the white-noise bound +/-1.96/sqrt(n).
 
     The ACF is demeaned with divisor n; the PACF comes from the Durbin-Levinson recursion
@@ -151,7 +154,7 @@ def acf_report(resid: object, nlags: int) -> dict:
     x = vector(resid, "resid")
     n = len(x)
     lags = min(int(nlags), n - 1)
-    out = {"n": n, "nlags": lags, "acf": None, "pacf": None, "bound": None,
+    out: dict[str, Any] = {"n": n, "nlags": lags, "acf": None, "pacf": None, "bound": None,
            "acf_outside": None, "pacf_outside": None, "reason": None}
     r = autocorrelations(x, lags) if lags >= 1 else None
     if r is None:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
@@ -11,8 +12,9 @@ from backtest.assessment._numbers import number
 RANGE_FACTOR = 3.0
 
 
-def summarise_folds(compact_reports: Sequence[dict | None], params: Sequence[dict | None], *,
-                    alpha: float = 0.05, range_factor: float = RANGE_FACTOR) -> dict:
+def summarise_folds(compact_reports: Sequence[dict[str, Any] | None],
+                    params: Sequence[dict[str, Any] | None], *,
+                    alpha: float = 0.05, range_factor: float = RANGE_FACTOR) -> dict[str, Any]:
     """Summarise per-fold fit summaries into significance shares, paths and flags.
 
     Parameters
@@ -74,7 +76,7 @@ def _share(flags: list[bool | None]) -> float | None:
     return number(np.mean(known)) if known else None
 
 
-def _ljung_box(reports: list[dict], alpha: float) -> dict:
+def _ljung_box(reports: list[dict[str, Any]], alpha: float) -> dict[str, Any]:
     tests = [r.get("ljung_box") or {} for r in reports]
     p_values = [t.get("p_value") for t in tests]
     lags = [t.get("lag") for t in tests if t.get("lag") is not None]
@@ -83,14 +85,16 @@ def _ljung_box(reports: list[dict], alpha: float) -> dict:
             "share_rejected": _share([p < alpha for p in known]) if known else None}
 
 
-def _field(report: dict | None, name: str, key: str) -> float | None:
+def _field(report: dict[str, Any] | None, name: str, key: str) -> float | None:
     if report is None:
         return None
-    return (report.get("params") or {}).get(name, {}).get(key)
+    value: float | None = (report.get("params") or {}).get(name, {}).get(key)
+    return value
 
 
-def _coefficient(name: str, reports: Sequence[dict | None], params: Sequence[dict | None],
-                 alpha: float, range_factor: float) -> dict:
+def _coefficient(name: str, reports: Sequence[dict[str, Any] | None],
+                 params: Sequence[dict[str, Any] | None], alpha: float,
+                 range_factor: float) -> dict[str, Any]:
     path = [number(p.get(name)) if p else None for p in params]
     std_errors = [s for s in (_field(r, name, "std_error") for r in reports) if s is not None]
     tests = [(p, est) for p, est in ((_field(r, name, "p_value"), est)
@@ -110,7 +114,7 @@ def _coefficient(name: str, reports: Sequence[dict | None], params: Sequence[dic
     return row
 
 
-def _flag(row: dict, range_factor: float) -> dict:
+def _flag(row: dict[str, Any], range_factor: float) -> dict[str, Any]:
     """The instability rule of :func:`summarise_folds`."""
     if row["n_estimated"] < 2:
         return {"reason": "estimated at fewer than two folds"}

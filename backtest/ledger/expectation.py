@@ -9,6 +9,7 @@ out, as the backtest's own scores leave them out (:func:`backtest.scoring.score_
 
 from __future__ import annotations
 
+import math
 from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
@@ -44,10 +45,10 @@ def expectation_from_folds(folds: Sequence[FoldResult], candidate_id: str,
     errors: dict[int, list[float]] = {}
     hits: dict[int, list[bool]] = {}
     for fold in usable:
+        points, scale = fold.point or (), fold.scale or math.nan  # both set on usable folds
         observed = [h for h, period in enumerate(fold.periods) if period not in left_out]
         for h in observed:
-            errors.setdefault(h + 1, []).append(abs(fold.actuals[h] - fold.point[h])
-                                                / fold.scale)
+            errors.setdefault(h + 1, []).append(abs(fold.actuals[h] - points[h]) / scale)
         for level, lower in fold.lower.items():
             hits.setdefault(level, []).extend(
                 lower[h] <= fold.actuals[h] <= fold.upper[level][h] for h in observed)

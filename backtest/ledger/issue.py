@@ -16,9 +16,7 @@ at every horizon), and its spec names the intervals.
 
 from __future__ import annotations
 
-import dataclasses
 import math
-import warnings as warnings_module
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -26,12 +24,13 @@ from typing import Any
 import numpy as np
 
 from backtest.candidates import Candidate
+from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
 from backtest.errors import CandidateError
 from backtest.ledger.errors import LedgerError
 from backtest.metrics import mase_scale, rmsse_scale
 from backtest.models.base import back_transform
 from backtest.recalibration import issued_bounds
-from backtest.results import FoldResult, to_jsonable
+from backtest.results import FoldResult, jsonable_dict
 from backtest.series import Series
 from backtest.software import software_versions
 
@@ -51,7 +50,7 @@ class IssuedForecast:
     series_key: str
     fingerprint: str
     candidate_id: str
-    candidate_spec: dict
+    candidate_spec: dict[str, Any]
     label: str
     season_length: int
     origin: str
@@ -73,7 +72,7 @@ class IssuedForecast:
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready dictionary (infinite bounds become ``None``)."""
-        return to_jsonable(dataclasses.asdict(self))
+        return jsonable_dict(self)
 
     @classmethod
     def from_dict(cls, body: Mapping[str, Any]) -> IssuedForecast:
@@ -119,8 +118,7 @@ def issue_forecast(series: Series, candidate: Candidate, *, horizon: int,
     if not scale > 0:
         raise LedgerError(f"series {series.key!r} does not change over lags of {m}, so the "
                           "MASE scale of realised errors would be zero")
-    with warnings_module.catch_warnings(record=True) as caught:
-        warnings_module.simplefilter("always")
+    with capturing_warnings() as caught:
         try:
             fit, raw = spec.fit_forecast(spec.transform.forward(values), m, horizon, levels,
                                          seed)
@@ -146,7 +144,7 @@ def issue_forecast(series: Series, candidate: Candidate, *, horizon: int,
         origin=series.label(n - 1), periods=tuple(series.label(n + i) for i in range(horizon)),
         point=_floats(forecast.mean), lower=lower, upper=upper, levels=levels, seed=seed,
         params=params, scale=scale, scale_sq=scale_sq,
-        software=software_versions(), warnings=_messages(caught))
+        software=software_versions(), warnings=distinct_warning_lines(caught))
 
 
 def _checked_horizon(horizon: object) -> int:
@@ -187,10 +185,7 @@ def _floats(values: np.ndarray) -> tuple[float, ...]:
     return tuple(float(v) for v in values)
 
 
-def _bounds_from_json(body: Mapping, missing: float) -> dict[int, tuple[float, ...]]:
+def _bounds_from_json(body: Mapping[str, Any], missing: float) -> dict[int, tuple[float, ...]]:
     return {int(level): tuple(missing if v is None else float(v) for v in bounds)
             for level, bounds in body.items()}
 
-
-def _messages(caught: list[warnings_module.WarningMessage]) -> tuple[str, ...]:
-    return tuple(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))

@@ -67,11 +67,11 @@ def boundary_constant(false_alarm: float) -> float:
 
 def cusum_test(z: Sequence[float], false_alarm: float) -> CusumTest:
     """The CUSUM of ``z`` with its boundary at ``false_alarm``."""
-    z = np.asarray(z, dtype=float)
-    n = len(z)
+    values = np.asarray(z, dtype=float)
+    n = len(values)
     r = np.arange(1, n + 1)
     shape = math.sqrt(n) + 2.0 * r / math.sqrt(n)
-    excursion = np.abs(np.cumsum(z)) / shape
+    excursion = np.abs(np.cumsum(values)) / shape
     outside = np.flatnonzero(excursion > boundary_constant(false_alarm))
     a_star = float(np.max(excursion))
     return CusumTest(a_star, crossing_probability(a_star),

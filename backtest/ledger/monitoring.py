@@ -21,7 +21,6 @@ no issued forecast yet.
 
 from __future__ import annotations
 
-import dataclasses
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
@@ -36,7 +35,7 @@ from backtest.ledger.issue import IssuedForecast
 from backtest.ledger.level_shift import level_shift_flag
 from backtest.ledger.outcomes import Outcome
 from backtest.ledger.realised import RealisedPoint, realised_points
-from backtest.results import to_jsonable
+from backtest.results import jsonable_dict
 
 __all__ = ["Expectation", "Flag", "IssuedOutcomes", "MonitoringReport", "RealisedPoint",
            "expectation_from_folds", "monitor", "untested"]
@@ -64,7 +63,7 @@ class MonitoringReport:
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready dictionary (non-finite floats become ``None``)."""
-        return to_jsonable(dataclasses.asdict(self))
+        return jsonable_dict(self)
 
 
 def monitor(history: Sequence[IssuedOutcomes], expectation: Expectation | None, *,

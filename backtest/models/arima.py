@@ -27,7 +27,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 from statsmodels.tsa.arima.model import ARIMA
@@ -77,7 +77,7 @@ class ArimaSpec(ModelSpec):
     deterministic: Deterministic = "none"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         seasonal = None if self.seasonal is None else {
             "order": list(self.seasonal), "period": self.period}
         return {"order": list(self.order), "seasonal": seasonal,
@@ -173,7 +173,7 @@ class ArimaSpec(ModelSpec):
         """The fit with its model parameters only (without the ``estimator`` record)."""
         return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw)
 
-    def results_at(self, y: np.ndarray, season_length: int, params: Params):
+    def results_at(self, y: np.ndarray, season_length: int, params: Params) -> Any:
         """statsmodels' results of a filter pass over ``y`` at ``params`` (no estimation)."""
         model = self.model(y, season_length)
         return model.filter(vector(model, params))
@@ -186,7 +186,8 @@ class ArimaSpec(ModelSpec):
         sd = np.sqrt(np.asarray(prediction.var_pred_mean, dtype=float))
         return normal_bounds(mean, sd, levels)
 
-    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,  # type: ignore[override]
                      levels: tuple[int, ...], seed: int, *,
                      start_params: Params | None = None, estimator: Estimator = "reference",
                      keep_raw: bool = True) -> tuple[Fit, Forecast]:
@@ -240,7 +241,7 @@ def vector(model: ARIMA, params: Params) -> np.ndarray:
     return np.array([params[RENAMED_PARAMETERS.get(n, n)] for n in model.param_names], dtype=float)
 
 
-def parse(body: Mapping) -> ArimaSpec:
+def parse(body: Mapping[str, Any]) -> ArimaSpec:
     """Read an ``arima`` candidate body; reject impossible deterministic terms."""
     fields = take_fields(body, "arima", {"order", "seasonal", "deterministic", "transform"})
     order = _order(fields.get("order"), "arima order", (5, 2, 5))
@@ -260,12 +261,13 @@ def parse(body: Mapping) -> ArimaSpec:
         raise CandidateError(f"arima: drift needs d + D = 1 (here {integration}); with "
                              "d + D = 0 use \"constant\", with more differencing use \"none\"")
     transform = parse_transform(fields.get("transform"))
-    return ArimaSpec(order, seasonal, period, det, transform)  # type: ignore[arg-type]
+    return ArimaSpec(order, seasonal, period, cast(Deterministic, det), transform)
 
 
 def _order(value: object, what: str, highs: tuple[int, int, int]) -> tuple[int, int, int]:
     if not isinstance(value, list | tuple) or len(value) != 3:
         raise CandidateError(f"{what} must be a list of three integers, got {value!r}")
     names = ("first", "second", "third")
-    return tuple(small_int(v, f"{what} {names[i]} entry", highs[i])  # type: ignore[return-value]
-                 for i, v in enumerate(value))
+    first, second, third = (small_int(v, f"{what} {names[i]} entry", highs[i])
+                            for i, v in enumerate(value))
+    return first, second, third

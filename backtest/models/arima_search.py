@@ -49,7 +49,7 @@ import warnings
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import Any, ClassVar, cast
 
 import numpy as np
 
@@ -96,7 +96,7 @@ class OrderLimits:
     seasonal_d: int = 1
     seasonal_q: int = 1
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"p": self.p, "d": self.d, "q": self.q, "P": self.seasonal_p,
                 "D": self.seasonal_d, "Q": self.seasonal_q}
 
@@ -136,7 +136,7 @@ class ArimaSearchSpec(ModelSpec):
 
     def fits_per_estimate(self) -> int:
         return self.max_models
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         """The canonical body; the two thresholds appear only when not at their defaults,
         so candidates written before they became fields keep their ids."""
         out = {"max_order": self.limits.body(), "seasonal": self.seasonal,
@@ -144,7 +144,7 @@ class ArimaSearchSpec(ModelSpec):
                "period": self.period, "transform": self.transform.canonical()}
         return out | self._changed_thresholds()
 
-    def _changed_thresholds(self) -> dict:
+    def _changed_thresholds(self) -> dict[str, Any]:
         defaults = {"seasonal_strength_threshold": STRONG_SEASONALITY,
                     "max_inverse_root": MAX_INVERSE_ROOT}
         return {name: getattr(self, name) for name, default in defaults.items()
@@ -171,8 +171,9 @@ class ArimaSearchSpec(ModelSpec):
         simplest = ArimaSpec((0, self.limits.d, 0), seasonal, period)
         return simplest.min_train(season_length)
 
-    def fit(self, y: np.ndarray, season_length: int, *, estimator: Estimator = "reference",
-            keep_raw: bool = True) -> Fit:
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit(self, y: np.ndarray, season_length: int, *,  # type: ignore[override]
+            estimator: Estimator = "reference", keep_raw: bool = True) -> Fit:
         """Choose and estimate the order on ``y``. Under the fast estimator the fit carries
         statsmodels' results of a filter pass at the estimates (none without
         ``keep_raw``) and the estimates record ``estimator`` (1 fast, 0 reference)."""
@@ -292,7 +293,7 @@ def arima_spec(orders: ArmaOrders, d: int, seasonal_d: int, period: int) -> Arim
     return ArimaSpec((orders.p, d, orders.q), seasonal, period, term)
 
 
-def _estimates(results) -> Params:
+def _estimates(results: Any) -> Params:
     names = (RENAMED_PARAMETERS.get(n, n) for n in results.model.param_names)
     return {name: float(value) for name, value in zip(names, results.params)}
 
@@ -307,7 +308,7 @@ def encode_order(spec: ArimaSpec) -> Params:
             "deterministic": float(_TERMS.index(spec.deterministic))}
 
 
-def parse(body: Mapping) -> ArimaSearchSpec:
+def parse(body: Mapping[str, Any]) -> ArimaSearchSpec:
     """Read an ``arima_search`` candidate body."""
     fields = take_fields(body, "arima_search", {"max_order", "seasonal", "criterion",
                                                 "max_models", "transform", "period",
@@ -321,7 +322,7 @@ def parse(body: Mapping) -> ArimaSearchSpec:
         raise CandidateError("arima_search: a period needs \"seasonal\": true")
     criterion = choice(fields.get("criterion", "aicc"), _CRITERIA, "arima_search criterion")
     return ArimaSearchSpec(_limits(fields.get("max_order")), seasonal,
-                           criterion,  # type: ignore[arg-type]
+                           cast(Criterion, criterion),
                            _max_models(fields.get("max_models", _DEFAULT_MAX_MODELS)), period,
                            parse_transform(fields.get("transform")),
                            _share(fields.get("seasonal_strength_threshold", STRONG_SEASONALITY),

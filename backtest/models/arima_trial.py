@@ -91,7 +91,7 @@ def largest_inverse_root(lag_polynomial: np.ndarray) -> float:
     return float(np.max(np.abs(roots))) if roots.size else 0.0
 
 
-def _verdict(results, caught: tuple[warnings.WarningMessage, ...],
+def _verdict(results: Any, caught: tuple[warnings.WarningMessage, ...],
              criterion: Criterion, root_limit: float) -> Verdict:
     if not results.mle_retvals.get("converged", True) or any(
             issubclass(w.category, ConvergenceWarning) for w in caught):

@@ -75,7 +75,7 @@ class ModelSpec(ABC):
         return 1
 
     @abstractmethod
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         """Canonical JSON body of the spec, every default filled in (without ``family``)."""
 
     @abstractmethod
@@ -91,7 +91,12 @@ class ModelSpec(ABC):
     def fit(self, y: np.ndarray, season_length: int, *,
             start_params: Params | None = None) -> Fit:
         """Estimate parameters on the training window ``y``; ``start_params``, where the
-        family is ``warm_startable``, are the optimiser's start values (default: its own)."""
+        family is ``warm_startable``, are the optimiser's start values (default: its own).
+
+        The fit options are keyword-only and each family takes those its class flags
+        declare: ``start_params`` (``warm_startable``), ``estimator`` (``fast_estimable``),
+        ``keep_raw`` (``raw_optional``, on ``fit_forecast``); callers pass no others, so
+        a family's override narrows this signature (``type: ignore[override]`` there)."""
 
     @abstractmethod
     def forecast(self, y: np.ndarray, season_length: int, params: Params, horizon: int,
@@ -173,7 +178,7 @@ def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> 
     return Forecast(mean, lower, upper)
 
 
-def take_fields(body: Mapping, family: str, allowed: set[str]) -> dict:
+def take_fields(body: Mapping[str, Any], family: str, allowed: set[str]) -> dict[str, Any]:
     """Return ``body`` without ``family``; reject keys outside ``allowed``."""
     if not isinstance(body, Mapping):
         raise CandidateError(f"{family} candidate must be a JSON object, got {type(body).__name__}")

@@ -44,7 +44,8 @@ def window_forecasts(method: str, y: np.ndarray, season_length: int, starts: np.
 def _window_sum(values: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.ndarray:
     """``values[starts[i]:stops[i]].sum()`` for every i."""
     total = np.concatenate([[0.0], np.cumsum(values)])
-    return total[stops] - total[starts]
+    result: np.ndarray = total[stops] - total[starts]
+    return result
 
 
 def _mean(y: np.ndarray, starts: np.ndarray, ends: np.ndarray, n: np.ndarray,

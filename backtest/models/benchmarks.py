@@ -18,7 +18,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 
@@ -48,7 +48,7 @@ class BenchmarkSpec(ModelSpec):
     method: Method = "seasonal_naive"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"method": self.method}
 
     def label(self, season_length: int) -> str:
@@ -67,7 +67,8 @@ class BenchmarkSpec(ModelSpec):
                  levels: tuple[int, ...], seed: int) -> Forecast:
         return self.fit_forecast(y, season_length, horizon, levels, seed)[1]
 
-    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,  # type: ignore[override]
                      levels: tuple[int, ...], seed: int, *,
                      start_params: Params | None = None) -> tuple[Fit, Forecast]:
         y = np.asarray(y, dtype=float)
@@ -115,8 +116,8 @@ class BenchmarkSpec(ModelSpec):
                         forecasts_by_origin(table.mean, table.sd, levels)))
 
 
-def parse(body: Mapping) -> BenchmarkSpec:
+def parse(body: Mapping[str, Any]) -> BenchmarkSpec:
     """Read a ``benchmark`` candidate body."""
     fields = take_fields(body, "benchmark", {"method"})
     method = choice(fields.get("method"), tuple(BENCHMARK_NAMES), "benchmark method")
-    return BenchmarkSpec(method)  # type: ignore[arg-type]
+    return BenchmarkSpec(cast(Method, method))

@@ -23,7 +23,7 @@ from __future__ import annotations
 import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 
@@ -54,7 +54,7 @@ class CombinationSpec(ModelSpec):
     rule: Rule = "mean"
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"members": [{"family": s.family, **s.body()} for s in self.members],
                 "rule": self.rule}
 
@@ -122,7 +122,7 @@ def combine(forecasts: Sequence[Forecast], rule: Rule, levels: Sequence[int]) ->
     return Forecast(np.asarray(mean), lower, upper)
 
 
-def parse(body: Mapping) -> CombinationSpec:
+def parse(body: Mapping[str, Any]) -> CombinationSpec:
     """Read a ``combination`` candidate body: ``members`` (2 to 8 specs of other
     families) and ``rule``."""
     from backtest.models import FAMILIES  # the registry imports this module
@@ -146,4 +146,4 @@ def parse(body: Mapping) -> CombinationSpec:
         if any(spec == other for other in specs):
             raise CandidateError(f"combination member {position} repeats an earlier member")
         specs.append(spec)
-    return CombinationSpec(tuple(specs), rule)  # type: ignore[arg-type]
+    return CombinationSpec(tuple(specs), cast(Rule, rule))

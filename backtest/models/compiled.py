@@ -13,9 +13,9 @@ from __future__ import annotations
 import os
 from collections.abc import Callable
 from pathlib import Path
-from typing import TypeVar
+from typing import Any, TypeVar, cast
 
-F = TypeVar("F", bound=Callable)
+F = TypeVar("F", bound=Callable[..., Any])
 
 
 def cache_dir() -> Path:
@@ -31,10 +31,11 @@ os.environ.setdefault("NUMBA_CACHE_DIR", str(cache_dir()))
 
 import numba  # noqa: E402 - numba reads NUMBA_CACHE_DIR when imported
 
-if not numba.config.CACHE_DIR:  # numba was imported before this module
-    numba.config.CACHE_DIR = str(cache_dir())
+_config: Any = numba.config  # numba sets its configuration names at run time
+if not _config.CACHE_DIR:  # numba was imported before this module
+    _config.CACHE_DIR = str(cache_dir())
 
 
 def njit(function: F) -> F:
     """Compile ``function`` in nopython mode, cached on disk."""
-    return numba.njit(cache=True, nogil=True)(function)
+    return cast(F, numba.njit(cache=True, nogil=True)(function))  # a dispatcher calls alike

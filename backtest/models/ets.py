@@ -21,7 +21,7 @@ from __future__ import annotations
 import warnings
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 import pandas as pd
@@ -54,6 +54,9 @@ from backtest.transforms import Transform, parse_transform
 
 _SHORT = {"none": None, "additive": "add", "multiplicative": "mul", "damped": "add"}
 _SIMULATIONS = 1000
+ErrorForm = Literal["additive", "multiplicative"]
+TrendForm = Literal["none", "additive", "damped"]
+SeasonForm = Literal["none", "additive", "multiplicative"]
 
 
 @dataclass(frozen=True)
@@ -64,13 +67,13 @@ class EtsSpec(ModelSpec):
     warm_startable: ClassVar[bool] = True
     raw_optional: ClassVar[bool] = True
     fast_estimable: ClassVar[bool] = True
-    error: Literal["additive", "multiplicative"] = "additive"
-    trend: Literal["none", "additive", "damped"] = "none"
-    season: Literal["none", "additive", "multiplicative"] = "none"
+    error: ErrorForm = "additive"
+    trend: TrendForm = "none"
+    season: SeasonForm = "none"
     period: int | None = None
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"error": self.error, "trend": self.trend, "season": self.season,
                 "period": self.period, "transform": self.transform.canonical()}
 
@@ -153,7 +156,8 @@ class EtsSpec(ModelSpec):
                   else np.asarray(prediction._results.simulation_results, dtype=float)[-horizon:])
         return Forecast(mean, lower, upper, sample)
 
-    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,  # type: ignore[override]
                      levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
                      estimator: Estimator = "reference", keep_raw: bool = True
                      ) -> tuple[Fit, Forecast]:
@@ -229,7 +233,7 @@ def _vector(model: ETSModel, params: Params) -> np.ndarray:
     return np.array([params[n] for n in model.param_names], dtype=float)
 
 
-def parse(body: Mapping) -> EtsSpec:
+def parse(body: Mapping[str, Any]) -> EtsSpec:
     """Read an ``ets`` candidate body."""
     fields = take_fields(body, "ets", {"error", "trend", "season", "period", "transform"})
     error = choice(fields.get("error", "additive"), ("additive", "multiplicative"), "ets error")
@@ -240,4 +244,5 @@ def parse(body: Mapping) -> EtsSpec:
     if period is not None and season == "none":
         raise CandidateError("ets: a period is given but season is \"none\"")
     transform = parse_transform(fields.get("transform"))
-    return EtsSpec(error, trend, season, period, transform)  # type: ignore[arg-type]
+    return EtsSpec(cast(ErrorForm, error), cast(TrendForm, trend), cast(SeasonForm, season),
+                   period, transform)

@@ -160,7 +160,8 @@ def fast_loglike(spec: ArimaSpec, y: np.ndarray, season_length: int, params: Par
     p, q, big_p, big_q, s = problem.orders
     names = _coefficient_names(spec, season_length)
     coefficients = [np.array([params[n] for n in group], dtype=float) for group in names]
-    ar, ma = kernel.multiply(*coefficients, s)
+    phi, theta, big_phi, big_theta = coefficients
+    ar, ma = kernel.multiply(phi, theta, big_phi, big_theta, s)
     beta = params.get(spec.deterministic, 0.0)
     sum_log_f, s_ww, _, _ = kernel.filter_sums(problem.w - beta * problem.reg,
                                                np.zeros_like(problem.w), ar, ma)
@@ -214,7 +215,8 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
         if names:
             values = sign * np.array([params[n] for n in names], dtype=float)
             parts.append(unconstrain_stationary_univariate(0.999 * values))
-    return np.clip(np.concatenate(parts), -_BOUND, _BOUND)
+    result: np.ndarray = np.clip(np.concatenate(parts), -_BOUND, _BOUND)
+    return result
 
 
 def _cold_starts(problem: _Problem) -> list[np.ndarray]:

@@ -70,7 +70,8 @@ def largest_root(params: Params) -> float:
     (seasonal ones in the variable z^s, as the reference trial judges them)."""
     def factor(prefix: str, sign: float) -> np.ndarray:
         values = [v for name, v in params.items() if name.startswith(prefix)]
-        return np.r_[1.0, sign * np.asarray(values, dtype=float)]
+        result: np.ndarray = np.r_[1.0, sign * np.asarray(values, dtype=float)]
+        return result
     factors = (factor("ar.L", -1.0), factor("ma.L", 1.0), factor("ar.S.L", -1.0),
                factor("ma.S.L", 1.0))
     return max(largest_inverse_root(f) for f in factors)

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 from statsmodels.tsa.forecasting.theta import ThetaModel
@@ -28,6 +28,8 @@ from backtest.models.base import (
 from backtest.transforms import Transform, parse_transform
 
 _METHOD = {"auto": "auto", "additive": "add", "multiplicative": "mul"}
+ThetaSeason = Literal["test", "always", "never"]
+Decomposition = Literal["auto", "additive", "multiplicative"]
 
 
 @dataclass(frozen=True)
@@ -36,12 +38,12 @@ class ThetaSpec(ModelSpec):
 
     family: ClassVar[str] = "theta"
     closed_form: ClassVar[bool] = True
-    season: Literal["test", "always", "never"] = "test"
-    decomposition: Literal["auto", "additive", "multiplicative"] = "auto"
+    season: ThetaSeason = "test"
+    decomposition: Decomposition = "auto"
     period: int | None = None
     transform: Transform = Transform()
 
-    def body(self) -> dict:
+    def body(self) -> dict[str, Any]:
         return {"season": self.season, "decomposition": self.decomposition,
                 "period": self.period, "transform": self.transform.canonical()}
 
@@ -59,14 +61,15 @@ class ThetaSpec(ModelSpec):
     def min_train(self, season_length: int) -> int:
         return 2 * (self.period or season_length) + 2 if self._seasonal(season_length) else 6
 
-    def _fit(self, y: np.ndarray, season_length: int):
+    def _fit(self, y: np.ndarray, season_length: int) -> Any:
         seasonal = self._seasonal(season_length)
         model = ThetaModel(y, period=(self.period or season_length) if seasonal else 1,
                            deseasonalize=seasonal, use_test=self.season == "test",
                            method=_METHOD[self.decomposition])
         return model.fit()
 
-    def fit(self, y: np.ndarray, season_length: int) -> Fit:
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit(self, y: np.ndarray, season_length: int) -> Fit:  # type: ignore[override]
         fitted = self._fit(y, season_length)
         b0, alpha = (float(v) for v in fitted.params)
         return Fit({"b0": b0, "alpha": alpha, "sigma2": float(fitted.sigma2)}, fitted)
@@ -75,7 +78,8 @@ class ThetaSpec(ModelSpec):
                  levels: tuple[int, ...], seed: int) -> Forecast:
         return self.fit_forecast(y, season_length, horizon, levels, seed)[1]
 
-    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,
+    # a family takes only the fit options its class flags declare (see ModelSpec.fit)
+    def fit_forecast(self, y: np.ndarray, season_length: int, horizon: int,  # type: ignore[override]
                      levels: tuple[int, ...], seed: int) -> tuple[Fit, Forecast]:
         fit = self.fit(y, season_length)
         fitted = fit.raw
@@ -88,7 +92,7 @@ class ThetaSpec(ModelSpec):
         return fit, Forecast(mean, lower, upper)
 
 
-def parse(body: Mapping) -> ThetaSpec:
+def parse(body: Mapping[str, Any]) -> ThetaSpec:
     """Read a ``theta`` candidate body."""
     fields = take_fields(body, "theta", {"season", "decomposition", "period", "transform"})
     season = choice(fields.get("season", "test"), ("test", "always", "never"), "theta season")
@@ -96,4 +100,5 @@ def parse(body: Mapping) -> ThetaSpec:
                            "theta decomposition")
     period = optional_period(fields.get("period"), "theta period")
     transform = parse_transform(fields.get("transform"))
-    return ThetaSpec(season, decomposition, period, transform)  # type: ignore[arg-type]
+    return ThetaSpec(cast(ThetaSeason, season), cast(Decomposition, decomposition), period,
+                     transform)

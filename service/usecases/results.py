@@ -13,7 +13,6 @@ from typing import Any, Protocol
 from sqlalchemy.orm import Session, sessionmaker
 
 from storage.results import (
-    RANKABLE,
     evidence_table,
     fold_table,
     plan_levels,
@@ -25,7 +24,7 @@ from storage.results import (
 from storage.runs import get_run
 
 Rows = list[dict[str, Any]]
-__all__ = ["RANKABLE", "evidence_rows", "fold_rows", "latest_ranking", "rank_rows", "score_rows"]
+__all__ = ["evidence_rows", "fold_rows", "latest_ranking", "rank_rows", "score_rows"]
 
 
 class RankingTables(Protocol):

@@ -10,7 +10,7 @@ from storage.results.queries import (
     score_history,
     succeeded_run_count,
 )
-from storage.results.ranking import RANKABLE, ranking_table
+from storage.results.ranking import ranking_table
 from storage.results.store import (
     completed_units,
     load_candidate_folds,
@@ -23,7 +23,6 @@ from storage.results.tables import evidence_table, fold_table, plan_levels, rank
 
 __all__ = [
     "LatestRun",
-    "RANKABLE",
     "ScorePoint",
     "completed_units",
     "evidence_table",

@@ -9,13 +9,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Any, Literal
+from typing import Any
 
 from sqlalchemy import Select, case, func, select
 from sqlalchemy.orm import Session
 
 from storage.db import (
-    ResultCandidate,
     Run,
     ScoreRecord,
     SeriesRecord,
@@ -35,18 +34,6 @@ class LatestRun:
     run_id: int
     finished_at: datetime
     benchmark_id: str
-
-
-@dataclass(frozen=True)
-class RankedScore:
-    """A candidate's place for one score of one series in one run (``None`` if unscored)."""
-
-    rank: int | None
-    candidate_id: str
-    label: str
-    value: float | None
-    count: int
-    note: str | None
 
 
 @dataclass(frozen=True)
@@ -79,39 +66,6 @@ def latest_successful_run(session: Session, series_key: str) -> LatestRun | None
     """The latest successful run of one series, if any."""
     row = session.execute(latest_runs_query(series_key)).first()
     return None if row is None else LatestRun(*row)
-
-
-@translates_errors
-def ranked_candidates(session: Session, series_key: str, *, metric: str,
-                      horizon: int | None = None, level: int | None = None,
-                      best: Literal["lowest", "highest"] = "lowest") -> list[RankedScore]:
-    """Candidates of a series' latest successful run, ordered by one score.
-
-    ``horizon=None`` selects the pooled score, ``level`` the interval level of interval
-    scores. Candidates are compared on common ground (:func:`common_ground`): over the
-    origins every candidate with a defined value completed. Candidates without a value come
-    last, unranked; ties share the best rank (1, 1, 3), and are listed by candidate id.
-    """
-    latest = latest_successful_run(session, series_key)
-    if latest is None:
-        return []
-    value, count, note = common_ground(ScoreRecord)
-    rows = session.execute(
-        select(ScoreRecord.candidate_id, ResultCandidate.label, value.label("value"),
-               count.label("count"), note.label("note"))
-        .join(ResultCandidate, (ResultCandidate.run_id == ScoreRecord.run_id)
-              & (ResultCandidate.series_version_id == ScoreRecord.series_version_id)
-              & (ResultCandidate.candidate_id == ScoreRecord.candidate_id))
-        .where(ScoreRecord.run_id == latest.run_id,
-               ScoreRecord.series_version_id == latest.series_version_id,
-               *_score_filter(metric, horizon, level))
-    ).all()
-    sign = 1 if best == "lowest" else -1
-    ordered = sorted(rows, key=lambda r: (r.value is None, sign * (r.value or 0.0),
-                                          r.candidate_id))
-    keys = [sign * r.value for r in rows if r.value is not None]
-    return [RankedScore(None if r.value is None else 1 + sum(k < sign * r.value for k in keys),
-                        r.candidate_id, r.label, r.value, r.count, r.note) for r in ordered]
 
 
 @translates_errors

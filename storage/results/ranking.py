@@ -6,9 +6,10 @@ candidate with a defined value completed, as the run's own ranking compares them
 (:func:`backtest.ranking.on_common_ground`), with the candidate's own-folds value beside it.
 Rows stored before the common-ground figures existed show their own-folds figures, with
 ``common_folds`` null. Lower values rank first for every rankable metric. Ties share the
-best rank (1, 1, 3); candidates without a value come last, unranked. This is the rule of
-:func:`storage.results.queries.ranked_candidates`, computed in one SQL statement for all series at
-once, and of the view ``bi_latest_ranking``.
+best rank (1, 1, 3); candidates without a value come last, unranked. Computed in one SQL
+statement for all series at once, and the rule of the view ``bi_latest_ranking``; it orders
+the candidates as the engine's ranking (:mod:`backtest.ranking`) does
+(``tests/storage/test_rankings.py``).
 """
 
 from __future__ import annotations
@@ -20,15 +21,9 @@ from typing import Any
 from sqlalchemy import case, func, select
 from sqlalchemy.orm import Session
 
-from backtest.plan import RANK_SCORES
 from storage.db import ResultCandidate, ScoreRecord, SeriesRecord
 from storage.errors import translates_errors
 from storage.results.queries import common_ground, latest_runs_query
-
-RANKABLE = (*RANK_SCORES, "winkler", "msis")
-"""Metrics where lower is better: the plan's rankable scores, and the interval scores
-``winkler`` and ``msis``, which need an interval level; ``pinball`` takes one (one level's
-two quantiles) or none (every quantile of the plan)."""
 
 
 @translates_errors

@@ -101,3 +101,10 @@ def test_a_far_worse_candidate_is_clipped_and_marked_off_scale(sr):
     assert worst.label in note
     unclipped = score_by_horizon_chart(sr).axes[0]
     assert not any(t.get_gid() == "off-scale-note" for t in unclipped.texts)
+
+
+def test_every_registered_score_has_an_axis_name():
+    from backtest.score_registry import SCORES
+    from service.views.charts.overview import METRIC_AXES
+
+    assert set(METRIC_AXES) == {s.name for s in SCORES}

@@ -7,11 +7,15 @@ import io
 from collections.abc import Iterator
 from dataclasses import replace
 from datetime import datetime
+from types import SimpleNamespace
 
 import pytest
+from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from backtest.results import SeriesResult
-from storage.results.queries import ranked_candidates
+from storage.db import ResultCandidate, ScoreRecord
+from storage.results.queries import latest_successful_run
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store
@@ -66,10 +70,39 @@ def _stock(api: Api) -> None:
     api.post("submitter", f"/v1/runs/{cancelled}/cancel")
 
 
+def _ranked_candidates(session: Session, series_key: str, *, metric: str,
+                       horizon: int | None = None, level: int | None = None) -> list[tuple]:
+    """The reference: (rank, candidate id, value) of the candidates of a series' latest
+    successful run by one stored score on common ground (the common-ground figure, or the
+    own-folds one on rows stored before it existed), ranked in Python. Candidates without a
+    value come last, unranked; ties share the best rank (1, 1, 3), and are listed by
+    candidate id."""
+    latest = latest_successful_run(session, series_key)
+    if latest is None:
+        return []
+    stored = session.execute(
+        select(ScoreRecord.candidate_id, ScoreRecord.value, ScoreRecord.common_value,
+               ScoreRecord.common_count)
+        .join(ResultCandidate, (ResultCandidate.run_id == ScoreRecord.run_id)
+              & (ResultCandidate.series_version_id == ScoreRecord.series_version_id)
+              & (ResultCandidate.candidate_id == ScoreRecord.candidate_id))
+        .where(ScoreRecord.run_id == latest.run_id,
+               ScoreRecord.series_version_id == latest.series_version_id,
+               ScoreRecord.metric == metric, ScoreRecord.horizon.is_not_distinct_from(horizon),
+               ScoreRecord.level.is_not_distinct_from(level))
+    ).all()
+    rows = [SimpleNamespace(candidate_id=r.candidate_id,
+                            value=r.value if r.common_count is None else r.common_value)
+            for r in stored]
+    ordered = sorted(rows, key=lambda r: (r.value is None, r.value or 0.0, r.candidate_id))
+    values = [r.value for r in rows if r.value is not None]
+    return [(None if r.value is None else 1 + sum(v < r.value for v in values),
+             r.candidate_id, r.value) for r in ordered]
+
+
 def _reference(api: Api, key: str, **score) -> list[tuple]:
     with api.sessions.begin() as session:
-        return [(r.rank, r.candidate_id, r.value)
-                for r in ranked_candidates(session, key, **score)]
+        return _ranked_candidates(session, key, **score)
 
 
 @pytest.mark.parametrize("query, score", [

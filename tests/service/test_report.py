@@ -192,7 +192,7 @@ def test_series_must_be_keyed_by_their_fingerprint(run):
                                   {"family": "benchmark", "method": "seasonal_naive"}])
 def test_refitted_residuals_are_those_the_stored_diagnostics_describe(spec):
     series = demo_series()[0]
-    stored = full_series_diagnostics(series, parse_candidate(spec))["residuals"]
+    stored = full_series_diagnostics(series, parse_candidate(spec)).to_dict()["residuals"]
     fitted = full_fit_residuals(series, spec)
     assert len(fitted.values) == len(fitted.periods) == stored["n"]
     assert fitted.periods[-1] == series.labels()[-1]

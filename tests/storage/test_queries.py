@@ -9,7 +9,6 @@ from backtest.results import BacktestResult
 from storage.results.queries import (
     latest_successful_run,
     latest_successful_runs,
-    ranked_candidates,
     score_history,
 )
 from storage.runs import fail_run, get_run, queue_run, runs_using_version
@@ -55,28 +54,6 @@ def test_latest_successful_run_per_series(session: Session, history: dict):
                                                                            first_versions[1])
     assert latest_successful_run(session, "north") == latest["north"]
     assert latest_successful_run(session, "west") is None
-
-
-@pytest.mark.parametrize(("metric", "horizon", "level"), [("mase", None, None),
-                                                          ("rmse", 2, None),
-                                                          ("coverage", 1, 80)])
-def test_candidates_ranked_by_a_chosen_score(session: Session, history: dict, metric: str,
-                                             horizon: int | None, level: int | None):
-    _, _, result = history["second"]
-    expected = sorted((s.value, s.candidate_id) for s in result.series[0].scores
-                       if (s.metric, s.horizon, s.level) == (metric, horizon, level))
-
-    ranked = ranked_candidates(session, "north", metric=metric, horizon=horizon, level=level)
-
-    assert [(r.value, r.candidate_id) for r in ranked] == expected
-    assert [r.rank for r in ranked] == [1 + sum(v < value for v, _ in expected)
-                                        for value, _ in expected]
-    labels = {c.candidate_id: c.label for c in result.series[0].candidates}
-    assert all(r.label == labels[r.candidate_id] for r in ranked)
-    highest = ranked_candidates(session, "north", metric=metric, horizon=horizon, level=level,
-                                best="highest")
-    assert [r.value for r in highest] == [value for value, _ in reversed(expected)]
-    assert highest[0].rank == 1
 
 
 def test_score_history_of_a_candidate_across_runs(session: Session, history: dict):

@@ -6,6 +6,7 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, Response
 
+from backtest.score_registry import RANKABLE, level_rule
 from service.errors import FieldError, InvalidInputError
 from service.http.access import Caller, require
 from service.http.app_state import Rankings, Sessions
@@ -23,13 +24,11 @@ from service.http.tables import (
     next_link,
 )
 from service.moments import point_in_time
-from service.usecases.results import RANKABLE, latest_ranking
+from service.usecases.results import latest_ranking
 
 router = APIRouter(prefix="/v1", tags=["rankings"])
 Reader = Annotated[Caller, Depends(require("read"))]
 Metric = Literal[RANKABLE]  # type: ignore[valid-type]
-LEVEL_METRICS = ("winkler", "msis")
-LEVEL_OPTIONAL = ("pinball",)
 
 
 @router.get("/rankings", response_model=RankingPage,
@@ -62,9 +61,10 @@ def rankings(request: Request, response: Response, caller: Reader, sessions: Ses
 
 
 def _check_level(metric: str, level: int | None) -> None:
-    if metric in LEVEL_OPTIONAL:
+    rule = level_rule(metric)
+    if rule == "optional":
         return
-    if (metric in LEVEL_METRICS) != (level is not None):
+    if (rule == "required") != (level is not None):
         message = (f"{metric} is scored per interval level: give level" if level is None
                    else f"{metric} has no interval level: leave level out")
         raise InvalidInputError(message, errors=[FieldError("query", "/level", message)])

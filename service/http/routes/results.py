@@ -11,7 +11,7 @@ from typing import Annotated, Any, Literal
 from fastapi import APIRouter, Depends, Query, Request, Response
 from pydantic import BaseModel
 
-from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
+from backtest.score_registry import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.http.access import Caller, require
 from service.http.app_state import Sessions
 from service.http.flatten import flatten

@@ -4,22 +4,21 @@ was, beside its point accuracy in the ranking."""
 from __future__ import annotations
 
 from backtest.results import SeriesResult
+from backtest.score_registry import DISTRIBUTION_METRICS
 from service.views.report.html import Html, element, join, table
 from service.views.report.numbers import MISSING, fixed
-
-_METRICS = ("crps", "pinball", "scaled_pinball")
 
 
 def distribution_section(sr: SeriesResult) -> Html:
     """Pooled CRPS, pinball and scaled pinball loss per candidate, in ranking order."""
     pooled = {(s.candidate_id, s.metric): s for s in sr.scores
-              if s.horizon is None and s.level is None and s.metric in _METRICS}
+              if s.horizon is None and s.level is None and s.metric in DISTRIBUTION_METRICS}
     specs = {c.candidate_id: c.spec for c in sr.candidates}
     rows = []
     for r in sr.ranking:
         crps = pooled.get((r.candidate_id, "crps"))
         rows.append((r.label, _intervals(specs.get(r.candidate_id, {})),
-                     *(fixed(_value(pooled, r.candidate_id, m)) for m in _METRICS),
+                     *(fixed(_value(pooled, r.candidate_id, m)) for m in DISTRIBUTION_METRICS),
                      (crps.note if crps is not None and crps.note else MISSING)))
     return join([
         element("h3", "Whole predictive distribution"),
