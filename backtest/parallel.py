@@ -23,8 +23,8 @@ from __future__ import annotations
 import os
 import threading
 import time
-from collections.abc import Callable, Generator, Iterable, Iterator, Sequence
-from typing import Any, TypeVar
+from collections.abc import Callable, Generator, Iterable, Sequence
+from typing import Any, TypeVar, cast
 
 from joblib import Parallel, delayed, parallel_config
 from threadpoolctl import threadpool_limits
@@ -70,11 +70,13 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
         return _on_cluster(scheduler, calls)
     if n_jobs == 1:
         return (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
-    return iter(Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered",
-                         initializer=die_with_parent)(calls))
+    # joblib's unordered generator (a Python generator; joblib has no annotations)
+    return cast(Generator[tuple[int, T], None, None], Parallel(
+        n_jobs=n_jobs, backend="loky", return_as="generator_unordered",
+        initializer=die_with_parent)(calls))
 
 
-def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Iterator[tuple[int, Any]]:
+def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Generator[tuple[int, Any], None, None]:
     # Imported here: dask is needed only when a cluster is used.
     from dask.distributed import Client
 

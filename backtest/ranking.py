@@ -62,7 +62,7 @@ def on_common_ground(candidates: Sequence[CandidateInfo], scores: Sequence[Score
     for score in scores:
         ground = common.get(_key(score))
         figure = score
-        if score.value is not None and ground != done[score.candidate_id]:
+        if ground is not None and score.value is not None and ground != done[score.candidate_id]:
             cid = score.candidate_id
             if (cid, ground) not in rescored:
                 subset = [f for f in folds if f.candidate_id == cid and f.fold in ground]
@@ -112,7 +112,8 @@ def rank_candidates(candidates: Sequence[CandidateInfo], scores: Sequence[Score]
             score_own_folds=own[cid].value if cid in own else None,
             common_folds=common_folds,
             score_count=None if on_common is None else on_common.common_count,
-            score_possible=None if on_common is None else common_folds * width))
+            score_possible=None if on_common is None or common_folds is None
+            else common_folds * width))
     return tuple(rows)
 
 

@@ -290,7 +290,7 @@ def _fold(ctx: _Context, origin: Origin, *, start: int, reestimated: bool, fit: 
         scale_sq=scale_sq if np.isfinite(scale_sq) else None,
         fit_summary=summary, converged=converged,
         sample_crps=(_sample_crps(forecast.sample, series.values[target.start:target.stop])
-                     if ok and forecast.sample is not None else None),
+                     if ok and forecast is not None and forecast.sample is not None else None),
     )
 
 

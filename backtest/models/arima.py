@@ -160,7 +160,7 @@ class ArimaSpec(ModelSpec):
             return 1.0
         return 2.0 ** -round(float(np.log2(spread)))
 
-    def unscaled(self, estimate, y: np.ndarray, season_length: int, factor: float):
+    def unscaled(self, estimate: Any, y: np.ndarray, season_length: int, factor: float) -> Any:
         """statsmodels' results on the original data ``y`` at an estimate made on
         ``factor * y``, mapped back: likelihood, residuals, covariances and forecasts are
         those of the unscaled model; the optimiser's report is the estimate's."""

@@ -155,7 +155,7 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
         return _broken(gradient)
     for j in range(k):
         gradient[j] = -0.5 * n * d_sse[j] / sse - d_log[j]
-    return -0.5 * n * (math.log(2 * math.pi * sse / n) + 1) - sum_log
+    return float(-0.5 * n * (math.log(2 * math.pi * sse / n) + 1) - sum_log)
 
 
 @njit

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from scipy.optimize import _lbfgsb
@@ -39,7 +40,7 @@ class Minimum:
 
 
 def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarray,
-                     lower: np.ndarray, upper: np.ndarray, args: tuple, *, ftol: float,
+                     lower: np.ndarray, upper: np.ndarray, args: tuple[Any, ...], *, ftol: float,
                      gtol: float, max_iterations: int, corrections: int = 10) -> Minimum:
     """Minimise ``fun(x, *args) -> (value, gradient)`` (a float and a float64 array) over
     ``lower <= x <= upper`` (infinite bounds allowed), with scipy's ``ftol``, ``gtol`` and
