@@ -31,8 +31,7 @@ from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
 
 from service.errors import NotAuthenticatedError, PermissionDeniedError
 from service.http.app_state import Sessions
-from service.usecases.key_tokens import parse_token, secret_matches
-from storage.access import find_credentials
+from service.usecases.keys import authenticated_key
 
 Permission = Literal["read", "write", "cancel", "audit", "manage_keys"]
 GRANTS: dict[str, frozenset[Permission]] = {
@@ -64,20 +63,8 @@ def authenticate(sessions: Sessions, credentials: Annotated[
     """The caller named by the request's bearer token; raise 401 if there is none."""
     if credentials is None:
         raise NotAuthenticatedError("send an API key as 'Authorization: Bearer <key>'")
-    token = parse_token(credentials.credentials)
-    if token is None:
-        raise NotAuthenticatedError("the bearer token is not a Foldline API key")
-    with sessions.begin() as session:
-        stored = find_credentials(session, token.key_id)
-    matched = secret_matches(token.secret, stored.secret_hash if stored else None)
-    if stored is None or not matched:
-        raise NotAuthenticatedError("the API key is not valid")
-    if not stored.key.active:
-        raise NotAuthenticatedError(f"API key {token.key_id} has been revoked")
-    if not stored.audited:
-        raise NotAuthenticatedError(f"API key {token.key_id} does not match its audit record; "
-                                    "ask an admin to run the audit verification")
-    return Caller(stored.key.id, stored.key.name, stored.key.role, stored.key.scope)
+    key = authenticated_key(sessions, credentials.credentials)
+    return Caller(key.id, key.name, key.role, key.scope)
 
 
 def require(permission: Permission) -> Callable[..., Caller]:

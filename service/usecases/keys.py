@@ -7,14 +7,21 @@ import re
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from service.errors import FieldError, InvalidInputError
-from service.usecases.key_tokens import Token, new_token, secret_hash
+from service.errors import FieldError, InvalidInputError, NotAuthenticatedError
+from service.usecases.key_tokens import (
+    Token,
+    new_token,
+    parse_token,
+    secret_hash,
+    secret_matches,
+)
 from service.usecases.ownership import parsed_scope
 from service.usecases.transactions import write
-from storage.access import KeyInfo, create_key, list_keys, revoke_key
+from storage.access import KeyInfo, create_key, find_credentials, list_keys, revoke_key
 from storage.db import ROLES
 
-__all__ = ["ROLES", "KeyInfo", "all_keys", "create_api_key", "issue_key", "revoke_api_key"]
+__all__ = ["ROLES", "KeyInfo", "all_keys", "authenticated_key", "create_api_key", "issue_key",
+           "revoke_api_key"]
 
 KEY_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.@+-]{0,199}")
 """Key names: they appear as the actor in the audit log, so no spaces or markup."""
@@ -53,3 +60,22 @@ def all_keys(sessions: sessionmaker[Session]) -> list[KeyInfo]:
 def revoke_api_key(sessions: sessionmaker[Session], key_id: str, *, actor: str) -> KeyInfo:
     """Revoke a key: requests with it are refused from then on."""
     return write(sessions, lambda session: revoke_key(session, key_id, actor=actor))
+
+
+def authenticated_key(sessions: sessionmaker[Session], token_text: str) -> KeyInfo:
+    """The key a token's text names, if the secret matches and the key is active and matches
+    its audit record; :class:`NotAuthenticatedError` otherwise."""
+    token = parse_token(token_text)
+    if token is None:
+        raise NotAuthenticatedError("the bearer token is not a Foldline API key")
+    with sessions.begin() as session:
+        stored = find_credentials(session, token.key_id)
+    matched = secret_matches(token.secret, stored.secret_hash if stored else None)
+    if stored is None or not matched:
+        raise NotAuthenticatedError("the API key is not valid")
+    if not stored.key.active:
+        raise NotAuthenticatedError(f"API key {token.key_id} has been revoked")
+    if not stored.audited:
+        raise NotAuthenticatedError(f"API key {token.key_id} does not match its audit record; "
+                                    "ask an admin to run the audit verification")
+    return stored.key
