@@ -53,6 +53,7 @@ from backtest.models.fast_arima import fast_estimate, warm_up  # noqa: E402
 from backtest.plan import parse_plan  # noqa: E402
 from backtest.series import make_series  # noqa: E402
 from tests.backtest.fast_arima_corpus import corpus, exact_loglike, origins  # noqa: E402
+from tests.backtest.search_validation import cases, compare  # noqa: E402
 
 SERIES_G = ROOT / "tests" / "data" / "series_g.csv"
 MODELS = {"airline": ArimaSpec((0, 1, 1), (0, 1, 1), 12),
@@ -104,15 +105,41 @@ def part_search(folds: int) -> None:
     y = np.log(_series_g())
     spec = ArimaSearchSpec()
     ends = [int(e) for e in np.linspace(108, 144, folds)]
+    per_fold = {}
     for estimator in ("fast", "reference"):
-        began = time.perf_counter()
-        chosen = [spec.fit(y[:end], 12, estimator=estimator, keep_raw=False) for end in ends]
-        per_fold = (time.perf_counter() - began) / len(ends)
-        labels = [spec.chosen(f.params)[0].label(12) for f in chosen]
-        print(f"  {estimator:9s} {per_fold:6.2f} s per fold  chosen: {', '.join(labels)}")
-        if estimator == "fast":
-            fast_per_fold = per_fold
-    print(f"  ratio reference / fast: {per_fold / fast_per_fold:.1f}x")
+        began, began_cpu = time.perf_counter(), time.process_time()
+        chosen = [_quiet(lambda end=end, estimator=estimator: spec.fit(
+            y[:end], 12, estimator=estimator, keep_raw=False)) for end in ends]
+        per_fold[estimator] = (time.process_time() - began_cpu) / len(ends)
+        wall = (time.perf_counter() - began) / len(ends)
+        labels = sorted({spec.chosen(f.params)[0].label(12) for f in chosen})
+        print(f"  {estimator:9s} {per_fold[estimator]:6.2f} s CPU per fold ({wall:5.2f} s wall; "
+              f"{len(ends)} folds ending {ends[0]}..{ends[-1]}; load "
+              f"{os.getloadavg()[0]:.1f})  chosen: {'; '.join(labels)}")
+    print(f"  ratio reference / fast: {per_fold['reference'] / per_fold['fast']:.1f}x "
+          "(target: fast at most 0.3 s per fold)")
+
+
+def part_search_validation(size: str) -> None:
+    """Both searches on the validation cases: where they choose differently, the two
+    choices' AICc and log-likelihood at their strict fast estimates."""
+    rows = [compare(case) for case in cases(size)]
+    same = [r for r in rows if r.same]
+    fast_s = np.array([r.fast_seconds for r in rows])
+    reference_s = np.array([r.reference_seconds for r in rows])
+    print(f"  {len(rows)} cases: same order chosen in {len(same)}; CPU per search fast "
+          f"median {np.median(fast_s):.2f} s (max {fast_s.max():.2f}), reference median "
+          f"{np.median(reference_s):.2f} s (max {reference_s.max():.2f})")
+    for r in rows:
+        if not r.same:
+            m = r.case.season_length
+            print(f"  differs: {r.case.name}: fast {r.fast.label(m)} AICc "
+                  f"{r.fast_criterion:.4f} loglik {r.fast_loglike:.4f}; reference "
+                  f"{r.reference.label(m)} AICc {r.reference_criterion:.4f} loglik "
+                  f"{r.reference_loglike:.4f}; fast - reference AICc {r.criterion_gap:+.3f}")
+    worst = max(r.criterion_gap for r in rows)
+    print(f"  largest AICc of the fast choice above the reference choice: {worst:+.2e} "
+          "(0 where both choose the same)")
 
 
 def part_engine(max_origins: int) -> None:
@@ -230,6 +257,40 @@ def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
           "relative")
 
 
+def part_split(jobs: int) -> None:
+    """One series, one estimating candidate: the run on one process against ``jobs``
+    workers, where the task's origins are cut into chunks (``backtest.task_chunks``); the
+    results must be equal. CPU estimates for an idle machine as in ``engine_bench.py``."""
+    from engine_bench import Clock, _warm_pool
+
+    values = _series_g()
+    series = make_series("g", "P1M", [(f"{1949 + i // 12}-{i % 12 + 1:02d}", v)
+                                      for i, v in enumerate(values)])
+    runs = (("order search (arima_search), fast", {"family": "arima_search",
+                                                   "transform": "log"}, "fast", 12),
+            ("airline model, reference", {"family": "arima", "order": [0, 1, 1],
+                                          "seasonal": {"order": [0, 1, 1]},
+                                          "transform": "log"}, "reference", 24))
+    for label, body, estimator, max_origins in runs:
+        candidates = parse_candidates([body])
+        plan = parse_plan({"horizon": 12, "max_origins": max_origins, "refit": 1,
+                           "assessment": "lean", "estimator": estimator})
+        seconds, results = {}, {}
+        for n_jobs in (1, jobs):
+            _warm_pool(n_jobs)
+            start = Clock.now()
+            results[n_jobs] = _quiet(lambda plan=plan, n_jobs=n_jobs, chosen=candidates:
+                                     run_backtest([series], chosen, plan, n_jobs=n_jobs))
+            seconds[n_jobs] = Clock.now().since(start)
+        equal = results[1].series == results[jobs].series
+        print(f"  Series G, {label}, {max_origins} origins at refit 1: one process "
+              f"{seconds[1][1]:.2f} s CPU ({seconds[1][0]:.2f} s wall), {jobs} workers "
+              f"{seconds[jobs][1]:.2f} s CPU estimate ({seconds[jobs][0]:.2f} s wall): "
+              f"{seconds[1][1] / seconds[jobs][1]:.2f}x (CPU), "
+              f"{seconds[1][0] / seconds[jobs][0]:.2f}x (wall); results equal: {equal}; load "
+              f"{os.getloadavg()[0]:.1f}")
+
+
 def part_corpus(per_spec: int) -> None:
     rows = []
     for item in corpus("full"):
@@ -273,10 +334,12 @@ def part_corpus(per_spec: int) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--part", choices=("compile", "fit", "search", "engine", "corpus",
-                                           "panel"))
+    parser.add_argument("--part", choices=("compile", "fit", "search", "search-validation",
+                                           "engine", "corpus", "panel", "split"))
     parser.add_argument("--repeats", type=int, default=5)
-    parser.add_argument("--search-folds", type=int, default=2)
+    parser.add_argument("--search-folds", type=int, default=6)
+    parser.add_argument("--validation", choices=("ci", "full"), default="full",
+                        help="search validation cases")
     parser.add_argument("--engine-origins", type=int, default=24)
     parser.add_argument("--origins", type=int, default=16, help="corpus origins per model")
     parser.add_argument("--panel-series", type=int, default=20)
@@ -288,9 +351,11 @@ def main() -> None:
     print(f"warm-up in this process: {warm_up():.2f} s")
     parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
              "search": lambda: part_search(args.search_folds),
+             "search-validation": lambda: part_search_validation(args.validation),
              "engine": lambda: part_engine(args.engine_origins),
              "corpus": lambda: part_corpus(args.origins),
-             "panel": lambda: part_panel(args.panel_series, args.panel_origins, args.jobs)}
+             "panel": lambda: part_panel(args.panel_series, args.panel_origins, args.jobs),
+             "split": lambda: part_split(args.jobs)}
     with threadpool_limits(limits=1):
         for name, run in parts.items():
             if args.part in (None, name):

@@ -8,9 +8,9 @@ ARIMA series), each searched with the ``arima_search`` defaults at the end of th
 and one year (or season) earlier.
 
 Where the two searches choose different orders, the fast choice is judged through the
-objective: both chosen orders are estimated by the fast estimator at strict precision and
-their criteria compared (lower is better); the fast search must not choose the worse one
-by more than :data:`CRITERION_TOLERANCE`.
+objective: both chosen orders are estimated by the fast estimator at strict precision (the
+exact likelihood) and their criteria compared (lower is better); the fast search must not
+choose the worse one by more than :data:`CRITERION_TOLERANCE`.
 """
 
 from __future__ import annotations
@@ -55,6 +55,8 @@ class SearchComparison:
     reference_seconds: float
     fast_criterion: float
     reference_criterion: float
+    fast_loglike: float
+    reference_loglike: float
 
     @property
     def same(self) -> bool:
@@ -94,13 +96,16 @@ def compare(case: SearchCase) -> SearchComparison:
             fit = spec.fit(y, m, estimator=estimator, keep_raw=False)
             seconds[estimator] = time.process_time() - began
             chosen[estimator] = spec.chosen(fit.params)[0]
-        criteria = {name: _strict_criterion(model, y, m) for name, model in chosen.items()}
+        strict = {name: _strict(model, y, m) for name, model in chosen.items()}
     return SearchComparison(case, chosen["fast"], chosen["reference"], seconds["fast"],
-                            seconds["reference"], criteria["fast"], criteria["reference"])
+                            seconds["reference"], strict["fast"][0], strict["reference"][0],
+                            strict["fast"][1], strict["reference"][1])
 
 
-def _strict_criterion(model: ArimaSpec, y: np.ndarray, season_length: int) -> float:
+def _strict(model: ArimaSpec, y: np.ndarray, season_length: int) -> tuple[float, float]:
+    """AICc and log-likelihood of ``model``'s strict fast estimate."""
     try:
-        return information_criterion(fast_estimate(model, y, season_length), "aicc")
+        estimate = fast_estimate(model, y, season_length)
     except Exception:  # an order the fast estimator cannot fit at all scores worst
-        return math.inf
+        return math.inf, -math.inf
+    return information_criterion(estimate, "aicc"), estimate.llf
