@@ -381,6 +381,12 @@ def peak_memory() -> None:
     print(f"\npeak resident memory: this process {own:.0f} MiB, largest worker {workers:.0f} MiB")
 
 
+def _cpu_used(start: Clock, end: Clock) -> dict[int, float]:
+    """CPU seconds each process (this one and its children) used between two clocks."""
+    return {pid: t - start.cpu.get(pid, 0.0) for pid, t in end.cpu.items()
+            if t - start.cpu.get(pid, 0.0) > 0.0}
+
+
 def panel(n_series: int, n_obs: int = 120) -> list[Series]:
     """Positive monthly series: trend, a drifting seasonal pattern and noise on the log scale."""
     rng = np.random.default_rng(2024)
@@ -500,24 +506,33 @@ def storage_part(args: argparse.Namespace) -> None:
         # The report the worker would render afterwards is not part of what is timed.
         worker = Worker(Settings(database_url=url, worker_jobs=args.jobs,
                                  prerender_reports=False), sessions, "bench")
+        clock = Clock.now()
         if not worker.run_once():
             raise SystemExit("the worker found no run")
         computed = time.perf_counter() - queued
+        cpu = _cpu_used(clock, Clock.now())
         with sessions.begin() as session:
             status = session.get(Run, run_id).status
         wall = time.perf_counter() - started
         size = Path(directory, "bench.db").stat().st_size / 2**20
         engine.dispose()
     scale = 1000 / len(series)
-    # No CPU estimate here: the worker stores results while its pool computes, so the
-    # wall time on an idle machine is the measure (the load average is printed beside it).
+    # The worker stores results while its pool computes, so on an idle machine the run
+    # takes the longer of: all CPU seconds shared over the cores, the busiest process.
+    own, pool = cpu[os.getpid()], [t for pid, t in cpu.items() if pid != os.getpid()]
+    idle = max(sum(cpu.values()) / (os.cpu_count() or 1), own, max(pool, default=0.0))
     print(f"  run {status}: wall {wall:.1f} s (of which the worker's run {computed:.1f} s), "
           f"{folds / wall:.1f} folds/s, {folds:,} folds, database {size:.0f} MiB; load "
           f"average {_load()}")
+    print(f"  worker's run in CPU seconds: this process {own:.1f}, pool "
+          f"{' + '.join(f'{t:.1f}' for t in sorted(pool, reverse=True))}; estimate for an "
+          f"idle {os.cpu_count()}-core machine {idle:.1f} s")
     print(f"  peak resident memory, this process and its workers together: "
           f"{memory.peak / 2**20:.0f} MiB")
-    print(f"  extrapolated to 1,000 series (linear in series): wall {wall * scale / 60:.1f} "
-          "min (target: under 15 min, under 2 GiB)")
+    print(f"  per 1,000 series: wall {wall * scale / 60:.1f} min, idle-machine estimate "
+          f"{(idle + wall - computed) * scale / 60:.1f} min"
+          + ("" if scale == 1 else " (extrapolated, linear in series)")
+          + " (target: under 15 min, under 2 GiB)")
 
 
 PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part,

@@ -1,6 +1,6 @@
 """The fast ARIMA estimator against the reference (statsmodels' own fit), side by side.
 
-Parts (all by default; ``--part`` picks one):
+Parts (all by default; ``--part`` picks one, repeated several):
 
 - ``compile``: the first-call cost of the compiled likelihood, in a fresh process with an
   empty numba cache (compiling) and again with the cache filled (loading).
@@ -9,7 +9,14 @@ Parts (all by default; ``--part`` picks one):
   with drift (the engine bench's panel models), fast and reference interleaved, with the
   log-likelihood of each.
 - ``search``: the order search of one fold (``arima_search`` defaults) on log Series G at
-  a few training-window ends, seconds per fold under each estimator.
+  a few training-window ends, CPU seconds per fold under each estimator.
+- ``search-validation``: both searches on the validation cases
+  (``tests/backtest/search_validation.py``), every difference in the chosen order with
+  both choices' AICc and log-likelihood.
+- ``split``: one series, one estimating candidate, on one process against ``--jobs``
+  workers (the task cut into chunks of origins), results compared.
+- ``panel``: the engine at refit cadence 1 against the hand loop on the generated panel
+  (20 series x 3 candidates), under each estimator, with the forecast agreement.
 - ``engine``: ``run_backtest`` of the airline model on log Series G, re-estimating at
   every origin (``refit: 1``, ``assessment: "lean"``), under each estimator, one process.
 - ``corpus``: the validation corpus (``tests/backtest/fast_arima_corpus.py``, at least
@@ -18,7 +25,8 @@ Parts (all by default; ``--part`` picks one):
   series, and the reference model's own with its approximate-diffuse start), the largest
   parameter difference and the largest relative difference of 12-step point forecasts.
 
-    python bench/fast_arima_bench.py [--part fit] [--repeats 5] [--origins 16]
+    python bench/fast_arima_bench.py [--part fit [--part search ...]] [--repeats 5]
+        [--origins 16] [--panel-series 20] [--panel-origins 24] [--validation ci|full]
 
 Not a test: timings depend on the machine and its load (printed first).
 """
@@ -334,8 +342,9 @@ def part_corpus(per_spec: int) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--part", choices=("compile", "fit", "search", "search-validation",
-                                           "engine", "corpus", "panel", "split"))
+    parser.add_argument("--part", action="append",
+                        choices=("compile", "fit", "search", "search-validation", "engine",
+                                 "corpus", "panel", "split"), help="repeat for several")
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--search-folds", type=int, default=6)
     parser.add_argument("--validation", choices=("ci", "full"), default="full",
@@ -358,7 +367,7 @@ def main() -> None:
              "split": lambda: part_split(args.jobs)}
     with threadpool_limits(limits=1):
         for name, run in parts.items():
-            if args.part in (None, name):
+            if args.part is None or name in args.part:
                 print(f"[{name}]")
                 run()
 
