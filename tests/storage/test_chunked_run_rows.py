@@ -9,11 +9,11 @@ from sqlalchemy.orm import Session
 from backtest.candidates import parse_candidates
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from storage.contents import UNIT_TABLES
-from storage.results_store import write_series_result
+from storage.audit.contents import UNIT_TABLES
+from storage.db.types import UtcDateTime
+from storage.results.store import write_series_result
 from storage.runs import queue_run, start_run
-from storage.series_store import save_series_version
-from storage.types import UtcDateTime
+from storage.series.versions import save_series_version
 from tests.storage.builders import ACTOR, monthly_series
 
 
