@@ -41,7 +41,22 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
                        origins: Sequence[Origin]) -> CandidateOutcome:
     """Backtest one candidate on one series and diagnose its fits."""
     folds = run_candidate(series, candidate, plan, origins)
-    if isinstance(candidate.spec, CombinationSpec):  # its members' fits are theirs to assess
+    return candidate_outcome(candidate, folds, candidate_diagnostics(series, candidate, plan))
+
+
+def candidate_diagnostics(series: Series, candidate: Candidate, plan: Plan) -> Report | None:
+    """The full-series report the plan asks for (none under ``assessment: "lean"`` or for a
+    combination, whose members' fits are theirs to assess)."""
+    if plan.assessment != "full" or isinstance(candidate.spec, CombinationSpec):
+        return None
+    return full_series_diagnostics(series, candidate, plan.estimator)
+
+
+def candidate_outcome(candidate: Candidate, folds: tuple[FoldResult, ...],
+                      diagnostics: Report | None) -> CandidateOutcome:
+    """The outcome of a candidate's folds and full-series report, with the summary of its
+    fits at the folds that re-estimated."""
+    if isinstance(candidate.spec, CombinationSpec):
         return CandidateOutcome(folds, None, None)
     stability = None
     if not candidate.spec.closed_form:
@@ -51,8 +66,6 @@ def evaluate_candidate(series: Series, candidate: Candidate, plan: Plan,
                                                [_estimates(f) for f in refits]))
         except Exception as exc:  # a failed summary is left out, never the run
             stability = Report(error=f"{type(exc).__name__}: {exc}")
-    diagnostics = (full_series_diagnostics(series, candidate, plan.estimator)
-                   if plan.assessment == "full" else None)
     return CandidateOutcome(folds, diagnostics, stability)
 
 

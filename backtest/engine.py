@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import time
+from collections import Counter
 from collections.abc import Callable, Generator, Sequence
 from contextlib import closing
 from dataclasses import replace
-from typing import Any
 
 from backtest.candidates import Candidate
-from backtest.diagnosis import CandidateOutcome, evaluate_candidate
+from backtest.diagnosis import CandidateOutcome
 from backtest.errors import CandidateError
 from backtest.evidence import series_evidence
 from backtest.folds import Origin, plan_origins
@@ -29,6 +29,7 @@ from backtest.results import (
 from backtest.scoring import score_candidate
 from backtest.series import Series
 from backtest.software import software_versions
+from backtest.task_chunks import ChunkFolds, Task, Unit, join_chunks, plan_units, run_unit
 
 Progress = Callable[[int, int], None]
 Units = Generator[tuple[int, SeriesResult], None, None]
@@ -43,9 +44,11 @@ def run_backtest(series: Sequence[Series], candidates: Sequence[Candidate], plan
     (a candidate impossible for a series, a series too short for the plan) are raised
     before any computation; a candidate failing at one origin becomes a failed fold.
     ``progress(done, total)`` is called with fold counts as each (series, candidate) task
-    finishes. ``scheduler``, the address of a dask.distributed scheduler, runs the tasks on
-    its workers instead of ``n_jobs`` local processes. Results do not depend on ``n_jobs``,
-    on where tasks run or on the order they finish in.
+    finishes, or each chunk of one: with fewer estimating tasks than ``n_jobs``, tasks are
+    cut into chunks of origins (:mod:`backtest.task_chunks`). ``scheduler``, the address
+    of a dask.distributed scheduler, runs the tasks on its workers instead of ``n_jobs``
+    local processes. Results do not depend on ``n_jobs``, on where tasks run or on the
+    order they finish in.
     """
     started = time.perf_counter()
     results = dict(stream_backtest(series, candidates, plan, n_jobs=n_jobs, progress=progress,
@@ -94,7 +97,7 @@ def planned_origins(series: Sequence[Series], candidates: Sequence[Candidate], p
 
 
 def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candidate], Candidate]],
-                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[tuple[Any, ...]], *,
+                    requested: Sequence[Candidate], plan: Plan, tasks: Sequence[Task], *,
                     n_jobs: int, progress: Progress | None, scheduler: str | None) -> Units:
     total = sum(len(t[3]) for t in tasks)
     done = 0
@@ -102,15 +105,30 @@ def _series_results(series: Sequence[Series], pools: Sequence[tuple[list[Candida
     for pool, _ in pools:
         first.append(first[-1] + len(pool))
     owner = [i for i, (pool, _) in enumerate(pools) for _ in pool]
+    units = (plan_units(tasks, n_jobs) if scheduler is None and n_jobs > 1
+             else [Unit(i, t[3], True, True) for i, t in enumerate(tasks)])
+    chunk_counts = Counter(u.task for u in units)
+    chunks: dict[int, dict[int, ChunkFolds]] = {}
     outcomes: dict[int, CandidateOutcome] = {}
     if progress is not None:
         progress(0, total)
+    calls = [(*tasks[u.task][:3], u.origins, u.whole, u.diagnose) for u in units]
     # Closed explicitly, so that leaving early (the caller closes this stream, or progress
     # raises) stops the pool's tasks at once rather than when the garbage is collected.
-    with closing(iter_tasks(evaluate_candidate, tasks, n_jobs=n_jobs,
-                            scheduler=scheduler)) as finished:
-        for index, outcome in finished:
-            done += len(outcome.folds)
+    with closing(iter_tasks(run_unit, calls, n_jobs=n_jobs, scheduler=scheduler)) as finished:
+        for position, outcome in finished:
+            index = units[position].task
+            if isinstance(outcome, ChunkFolds):
+                done += outcome.fold_count
+                chunks.setdefault(index, {})[position] = outcome
+                if len(chunks[index]) < chunk_counts[index]:
+                    if progress is not None:
+                        progress(done, total)
+                    continue
+                parts = chunks.pop(index)
+                outcome = join_chunks(tasks[index][1], plan, [parts[k] for k in sorted(parts)])
+            else:
+                done += len(outcome.folds)
             if progress is not None:
                 progress(done, total)
             outcomes[index] = outcome

@@ -6,9 +6,10 @@ backend) when a scheduler address is given; cluster workers are started with
 ``dask worker ADDRESS --nthreads 1`` and have this project installed. BLAS is limited to
 one thread inside every task (threadpoolctl): with more, the workers' threads compete for
 the cores and a run gets much slower. A task is a whole unit of work (the engine's is one
-series with one candidate), so each worker process imports the code once and receives
-already-validated inputs. Results are yielded as tasks finish, while the pool goes on with
-the rest; the caller may work on them (score, store) meanwhile.
+series with one candidate, or a chunk of its origins when tasks are fewer than workers),
+so each worker process imports the code once and receives already-validated inputs.
+Results are yielded as tasks finish, while the pool goes on with the rest; the caller may
+work on them (score, store) meanwhile.
 
 Pool processes never outlive the process that started them: each one, as it starts, runs
 a watchdog thread that ends it within :data:`WATCH_SECONDS` of being handed to another

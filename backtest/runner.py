@@ -59,13 +59,31 @@ def fold_seed(plan_seed: int, series_key: str, candidate_id: str, fold: int) -> 
 def run_candidate(series: Series, candidate: Candidate, plan: Plan,
                   origins: Sequence[Origin]) -> tuple[FoldResult, ...]:
     """Forecast every origin of ``series`` with ``candidate``."""
+    return finish_folds(candidate, plan, model_folds(series, candidate, plan, origins))
+
+
+def model_folds(series: Series, candidate: Candidate, plan: Plan, origins: Sequence[Origin]
+                ) -> tuple[tuple[FoldResult, ...], ...]:
+    """The folds with the model's own intervals: one sequence per member of a combination,
+    else one. Origins that start at a re-estimation give the same folds whether computed
+    together or in runs cut before a re-estimating origin (the plan's ``warm_start`` of a
+    ``warm_startable`` family aside: it links each estimation to the one before)."""
     spec = candidate.spec
     if isinstance(spec, CombinationSpec):
-        members = [_model_folds(_Context.of(series, Candidate(s), plan), origins)
-                   for s in spec.members]
+        return tuple(_model_folds(_Context.of(series, Candidate(s), plan), origins)
+                     for s in spec.members)
+    return (_model_folds(_Context.of(series, candidate, plan), origins),)
+
+
+def finish_folds(candidate: Candidate, plan: Plan,
+                 members: Sequence[Sequence[FoldResult]]) -> tuple[FoldResult, ...]:
+    """The candidate's folds from :func:`model_folds` over all its origins: a combination's
+    members combined, empirical intervals where the candidate asks for them."""
+    spec = candidate.spec
+    if isinstance(spec, CombinationSpec):
         folds = combine_folds(candidate.id, spec, members, plan.levels, plan.seed)
     else:
-        folds = _model_folds(_Context.of(series, candidate, plan), origins)
+        folds = tuple(members[0])
     if candidate.intervals is None:
         return folds
     return recalibrate(folds, candidate.intervals, plan.levels, plan.step)

@@ -28,7 +28,8 @@ of this process and its workers.
 
 Part "storage" runs generated monthly series (1,000 by default) x 8 candidates (the four
 benchmarks, ETS(A,A,A), ETS(A,Ad,N), the airline model and ARIMA(1,0,0)(0,1,1) with drift,
-both on logs) x 36 origins x H = 12 at cadence 12 end to end in a fresh SQLite store: the
+both on logs) x 36 origins x H = 12 at cadence 12 (``--refit``) under the reference
+estimator (``--estimator``) end to end in a fresh SQLite store: the
 series versions are saved, one run queued, and the service's job worker claims it,
 computes it and stores each series' results in its own transaction, printing wall time,
 folds per second, peak resident memory of the process and its workers, and the time
@@ -37,6 +38,7 @@ two state-space fits per origin, and as a closed-form family it re-estimates at 
 
     python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
     python bench/engine_bench.py --part storage [--series 100] [--store-assessment lean]
+        [--refit 1] [--estimator fast]
 
 Not a test: timings depend on the machine and its load.
 """
@@ -59,7 +61,6 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import psutil
-from joblib import Parallel, delayed
 from joblib.externals.loky import get_reusable_executor
 from statsmodels import __version__ as sm_version
 from statsmodels.tsa.arima.model import ARIMA
@@ -73,6 +74,8 @@ from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.diagnosis import full_series_diagnostics  # noqa: E402
 from backtest.engine import run_backtest  # noqa: E402
 from backtest.models.benchmarks import BenchmarkSpec  # noqa: E402
+from backtest.models.fast_arima import warm_up  # noqa: E402
+from backtest.parallel import iter_tasks  # noqa: E402
 from backtest.plan import parse_plan  # noqa: E402
 from backtest.series import Series, make_series  # noqa: E402
 
@@ -182,11 +185,13 @@ class Clock:
 
 
 def _warm_pool(jobs: int) -> None:
-    """Start the engine's worker processes and import the engine in them, so that the
-    timings are of a running service (a fresh pool spends seconds importing first)."""
+    """Start the engine's worker processes (the pool the engine reuses), import the engine
+    and load the compiled estimator in them, so that the timings are of a running service
+    (a fresh pool spends seconds importing first)."""
     if jobs > 1:
-        Parallel(n_jobs=jobs, backend="loky")(
-            delayed(importlib.import_module)("backtest.diagnosis") for _ in range(jobs))
+        list(iter_tasks(importlib.import_module, [("backtest.diagnosis",)] * 2 * jobs,
+                        n_jobs=jobs))
+        list(iter_tasks(warm_up, [()] * 2 * jobs, n_jobs=jobs))
 
 
 def _load() -> str:
@@ -376,6 +381,12 @@ def peak_memory() -> None:
     print(f"\npeak resident memory: this process {own:.0f} MiB, largest worker {workers:.0f} MiB")
 
 
+def _cpu_used(start: Clock, end: Clock) -> dict[int, float]:
+    """CPU seconds each process (this one and its children) used between two clocks."""
+    return {pid: t - start.cpu.get(pid, 0.0) for pid, t in end.cpu.items()
+            if t - start.cpu.get(pid, 0.0) > 0.0}
+
+
 def panel(n_series: int, n_obs: int = 120) -> list[Series]:
     """Positive monthly series: trend, a drifting seasonal pattern and noise on the log scale."""
     rng = np.random.default_rng(2024)
@@ -454,7 +465,8 @@ class PeakMemory:
 
 
 def storage_part(args: argparse.Namespace) -> None:
-    """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence 12, queued as
+    """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence ``--refit``
+    (12 by default) under the plan's ``--estimator``, queued as
     one run in a fresh SQLite store and computed by the service's own job worker
     (``service.worker.loop.Worker``): the pending series go through the pool together and each
     series' results are stored in their own transaction as soon as they are complete."""
@@ -466,12 +478,14 @@ def storage_part(args: argparse.Namespace) -> None:
 
     series = panel(args.series or 1000)
     candidates = parse_candidates(STORE_CANDIDATES)
-    plan = parse_plan({"horizon": HORIZON, "max_origins": STORE_ORIGINS, "refit": 12,
-                       "levels": list(LEVELS), "assessment": args.store_assessment})
+    plan = parse_plan({"horizon": HORIZON, "max_origins": STORE_ORIGINS, "refit": args.refit,
+                       "levels": list(LEVELS), "assessment": args.store_assessment,
+                       "estimator": args.estimator})
     folds = len(series) * len(candidates) * STORE_ORIGINS
     print(f"\nstorage: {len(series)} series x {len(candidates)} candidates (the 4 benchmarks, "
           f"ETS(A,A,A), ETS(A,Ad,N), 2 seasonal ARIMA) x {STORE_ORIGINS} origins x "
-          f"H = {HORIZON}, cadence 12, assessment {args.store_assessment}, one run computed "
+          f"H = {HORIZON}, cadence {args.refit}, estimator {args.estimator}, assessment "
+          f"{args.store_assessment}, one run computed "
           f"by the job worker with worker_jobs={args.jobs}, fresh SQLite; load average "
           f"{_load()}")
     _warm_pool(args.jobs)
@@ -490,24 +504,33 @@ def storage_part(args: argparse.Namespace) -> None:
         # The report the worker would render afterwards is not part of what is timed.
         worker = Worker(Settings(database_url=url, worker_jobs=args.jobs,
                                  prerender_reports=False), sessions, "bench")
+        clock = Clock.now()
         if not worker.run_once():
             raise SystemExit("the worker found no run")
         computed = time.perf_counter() - queued
+        cpu = _cpu_used(clock, Clock.now())
         with sessions.begin() as session:
             status = session.get(Run, run_id).status
         wall = time.perf_counter() - started
         size = Path(directory, "bench.db").stat().st_size / 2**20
         engine.dispose()
     scale = 1000 / len(series)
-    # No CPU estimate here: the worker stores results while its pool computes, so the
-    # wall time on an idle machine is the measure (the load average is printed beside it).
+    # The worker stores results while its pool computes, so on an idle machine the run
+    # takes the longer of: all CPU seconds shared over the cores, the busiest process.
+    own, pool = cpu[os.getpid()], [t for pid, t in cpu.items() if pid != os.getpid()]
+    idle = max(sum(cpu.values()) / (os.cpu_count() or 1), own, max(pool, default=0.0))
     print(f"  run {status}: wall {wall:.1f} s (of which the worker's run {computed:.1f} s), "
           f"{folds / wall:.1f} folds/s, {folds:,} folds, database {size:.0f} MiB; load "
           f"average {_load()}")
+    print(f"  worker's run in CPU seconds: this process {own:.1f}, pool "
+          f"{' + '.join(f'{t:.1f}' for t in sorted(pool, reverse=True))}; estimate for an "
+          f"idle {os.cpu_count()}-core machine {idle:.1f} s")
     print(f"  peak resident memory, this process and its workers together: "
           f"{memory.peak / 2**20:.0f} MiB")
-    print(f"  extrapolated to 1,000 series (linear in series): wall {wall * scale / 60:.1f} "
-          "min (target: under 15 min, under 2 GiB)")
+    print(f"  per 1,000 series: wall {wall * scale / 60:.1f} min, idle-machine estimate "
+          f"{(idle + wall - computed) * scale / 60:.1f} min"
+          + ("" if scale == 1 else " (extrapolated, linear in series)")
+          + " (target: under 15 min, under 2 GiB)")
 
 
 PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part,
@@ -525,6 +548,9 @@ def main() -> None:
                         help="plan assessments to time the engine with, comma-separated")
     parser.add_argument("--store-assessment", choices=["full", "lean"], default="full",
                         help="plan assessment of part storage")
+    parser.add_argument("--refit", type=int, default=12, help="refit cadence of part storage")
+    parser.add_argument("--estimator", choices=["reference", "fast"], default="reference",
+                        help="plan estimator of part storage")
     args = parser.parse_args()
     print(f"{os.cpu_count()} CPUs; numpy {np.__version__}, statsmodels {sm_version}; "
           "one BLAS thread in every process")

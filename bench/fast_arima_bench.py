@@ -1,6 +1,6 @@
 """The fast ARIMA estimator against the reference (statsmodels' own fit), side by side.
 
-Parts (all by default; ``--part`` picks one):
+Parts (all by default; ``--part`` picks one, repeated several):
 
 - ``compile``: the first-call cost of the compiled likelihood, in a fresh process with an
   empty numba cache (compiling) and again with the cache filled (loading).
@@ -9,7 +9,14 @@ Parts (all by default; ``--part`` picks one):
   with drift (the engine bench's panel models), fast and reference interleaved, with the
   log-likelihood of each.
 - ``search``: the order search of one fold (``arima_search`` defaults) on log Series G at
-  a few training-window ends, seconds per fold under each estimator.
+  a few training-window ends, CPU seconds per fold under each estimator.
+- ``search-validation``: both searches on the validation cases
+  (``tests/backtest/search_validation.py``), every difference in the chosen order with
+  both choices' AICc and log-likelihood.
+- ``split``: one series, one estimating candidate, on one process against ``--jobs``
+  workers (the task cut into chunks of origins), results compared.
+- ``panel``: the engine at refit cadence 1 against the hand loop on the generated panel
+  (20 series x 3 candidates), under each estimator, with the forecast agreement.
 - ``engine``: ``run_backtest`` of the airline model on log Series G, re-estimating at
   every origin (``refit: 1``, ``assessment: "lean"``), under each estimator, one process.
 - ``corpus``: the validation corpus (``tests/backtest/fast_arima_corpus.py``, at least
@@ -18,7 +25,8 @@ Parts (all by default; ``--part`` picks one):
   series, and the reference model's own with its approximate-diffuse start), the largest
   parameter difference and the largest relative difference of 12-step point forecasts.
 
-    python bench/fast_arima_bench.py [--part fit] [--repeats 5] [--origins 16]
+    python bench/fast_arima_bench.py [--part fit [--part search ...]] [--repeats 5]
+        [--origins 16] [--panel-series 20] [--panel-origins 24] [--validation ci|full]
 
 Not a test: timings depend on the machine and its load (printed first).
 """
@@ -43,6 +51,7 @@ from threadpoolctl import threadpool_limits  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "bench"))
 
 from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.engine import run_backtest  # noqa: E402
@@ -52,6 +61,7 @@ from backtest.models.fast_arima import fast_estimate, warm_up  # noqa: E402
 from backtest.plan import parse_plan  # noqa: E402
 from backtest.series import make_series  # noqa: E402
 from tests.backtest.fast_arima_corpus import corpus, exact_loglike, origins  # noqa: E402
+from tests.backtest.search_validation import cases, compare  # noqa: E402
 
 SERIES_G = ROOT / "tests" / "data" / "series_g.csv"
 MODELS = {"airline": ArimaSpec((0, 1, 1), (0, 1, 1), 12),
@@ -103,15 +113,41 @@ def part_search(folds: int) -> None:
     y = np.log(_series_g())
     spec = ArimaSearchSpec()
     ends = [int(e) for e in np.linspace(108, 144, folds)]
+    per_fold = {}
     for estimator in ("fast", "reference"):
-        began = time.perf_counter()
-        chosen = [spec.fit(y[:end], 12, estimator=estimator, keep_raw=False) for end in ends]
-        per_fold = (time.perf_counter() - began) / len(ends)
-        labels = [spec.chosen(f.params)[0].label(12) for f in chosen]
-        print(f"  {estimator:9s} {per_fold:6.2f} s per fold  chosen: {', '.join(labels)}")
-        if estimator == "fast":
-            fast_per_fold = per_fold
-    print(f"  ratio reference / fast: {per_fold / fast_per_fold:.1f}x")
+        began, began_cpu = time.perf_counter(), time.process_time()
+        chosen = [_quiet(lambda end=end, estimator=estimator: spec.fit(
+            y[:end], 12, estimator=estimator, keep_raw=False)) for end in ends]
+        per_fold[estimator] = (time.process_time() - began_cpu) / len(ends)
+        wall = (time.perf_counter() - began) / len(ends)
+        labels = sorted({spec.chosen(f.params)[0].label(12) for f in chosen})
+        print(f"  {estimator:9s} {per_fold[estimator]:6.2f} s CPU per fold ({wall:5.2f} s wall; "
+              f"{len(ends)} folds ending {ends[0]}..{ends[-1]}; load "
+              f"{os.getloadavg()[0]:.1f})  chosen: {'; '.join(labels)}")
+    print(f"  ratio reference / fast: {per_fold['reference'] / per_fold['fast']:.1f}x "
+          "(target: fast at most 0.3 s per fold)")
+
+
+def part_search_validation(size: str) -> None:
+    """Both searches on the validation cases: where they choose differently, the two
+    choices' AICc and log-likelihood at their strict fast estimates."""
+    rows = [compare(case) for case in cases(size)]
+    same = [r for r in rows if r.same]
+    fast_s = np.array([r.fast_seconds for r in rows])
+    reference_s = np.array([r.reference_seconds for r in rows])
+    print(f"  {len(rows)} cases: same order chosen in {len(same)}; CPU per search fast "
+          f"median {np.median(fast_s):.2f} s (max {fast_s.max():.2f}), reference median "
+          f"{np.median(reference_s):.2f} s (max {reference_s.max():.2f})")
+    for r in rows:
+        if not r.same:
+            m = r.case.season_length
+            print(f"  differs: {r.case.name}: fast {r.fast.label(m)} AICc "
+                  f"{r.fast_criterion:.4f} loglik {r.fast_loglike:.4f}; reference "
+                  f"{r.reference.label(m)} AICc {r.reference_criterion:.4f} loglik "
+                  f"{r.reference_loglike:.4f}; fast - reference AICc {r.criterion_gap:+.3f}")
+    worst = max(r.criterion_gap for r in rows)
+    print(f"  largest AICc of the fast choice above the reference choice: {worst:+.2e} "
+          "(0 where both choose the same)")
 
 
 def part_engine(max_origins: int) -> None:
@@ -131,6 +167,136 @@ def part_engine(max_origins: int) -> None:
         print(f"  {estimator:9s} {seconds[estimator]:6.2f} s for {len(folds)} folds "
               f"(airline + benchmark), {max_origins} origins re-estimated")
     print(f"  ratio reference / fast: {seconds['reference'] / seconds['fast']:.1f}x")
+
+
+def _hand_fold(hand, z: np.ndarray) -> tuple[np.ndarray, float]:
+    """The hand loop's fit at one origin: its forecast rows and its log-likelihood."""
+    results = _quiet(lambda: hand.fit(z))
+    return _quiet(lambda: hand.forecast(results, z)), float(results.llf)
+
+
+def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
+    """Engine at refit cadence 1 against the hand loop on the generated panel (20 series x
+    3 candidates): the hand loop fits statsmodels at every origin in this process; the
+    engine runs under each estimator (``assessment: "lean"``, ``jobs`` workers), on all
+    three candidates and on the two ARIMA candidates alone (the families the fast
+    estimator covers; ETS(A,A,A) estimates with statsmodels under both). Ratios are of
+    CPU estimates for an idle machine (this process plus the busiest worker), as in
+    ``engine_bench.py``; wall clock beside them."""
+    from engine_bench import HAND, LEVELS, PANEL, Clock, _warm_pool, engine_forecasts, panel
+
+    series = panel(n_series)
+    candidates = parse_candidates(PANEL)
+    ids = [c.id for c in candidates]
+    n_obs = len(series[0])
+    ends = list(range(48, n_obs - 12 + 1))[-max_origins:]
+    hand_cpu = dict.fromkeys(ids, 0.0)
+    hand, hand_llf = {}, {}
+    began_wall = time.perf_counter()
+    for s in series:
+        values = np.asarray(s.values, float)
+        for cid, model in zip(ids, HAND):
+            z = np.log(values) if model.log else values
+            began = time.process_time()
+            folds = [_hand_fold(model, z[:end]) for end in ends]
+            hand_cpu[cid] += time.process_time() - began
+            hand[s.key, cid] = np.array([f[0] for f in folds])
+            hand_llf[s.key, cid] = [f[1] for f in folds]
+    hand_wall = time.perf_counter() - began_wall
+    arima_ids = ids[:2]
+    hand_all, hand_arima = sum(hand_cpu.values()), sum(hand_cpu[c] for c in arima_ids)
+    print(f"  {len(series)} series x {len(ids)} candidates x {len(ends)} origins, H = 12, "
+          f"refit 1; engine n_jobs={jobs}, lean; load {os.getloadavg()[0]:.1f}")
+    print(f"  hand loop (one process): CPU {hand_all:.1f} s (ARIMA candidates "
+          f"{hand_arima:.1f} s, ETS {hand_cpu[ids[2]]:.1f} s), wall {hand_wall:.1f} s")
+    measured = {}
+    for label, chosen, hand_s in (("all 3 candidates", candidates, hand_all),
+                                  ("2 ARIMA candidates", candidates[:2], hand_arima)):
+        for estimator in ("fast", "reference"):
+            plan = parse_plan({"horizon": 12, "first_origin": {"train_size": 48},
+                               "max_origins": max_origins, "refit": 1,
+                               "levels": list(LEVELS), "assessment": "lean",
+                               "estimator": estimator})
+            _warm_pool(jobs)
+            start = Clock.now()
+            result = _quiet(lambda plan=plan, chosen=chosen: run_backtest(
+                series, chosen, plan, n_jobs=jobs))
+            wall, cpu = Clock.now().since(start)
+            measured[label, estimator] = result
+            print(f"  engine {label:18s} {estimator:9s}: CPU estimate {cpu:7.1f} s, wall "
+                  f"{wall:7.1f} s; ratio to the hand loop {hand_s / cpu:5.1f}x (CPU), "
+                  f"{hand_wall * hand_s / hand_all / wall:5.1f}x (wall); load "
+                  f"{os.getloadavg()[0]:.1f}")
+    ours = engine_forecasts(measured["all 3 candidates", "fast"], ids)
+    params = {(sr.series["key"], f.candidate_id): [] for sr in
+              measured["all 3 candidates", "fast"].series for f in sr.folds}
+    for sr in measured["all 3 candidates", "fast"].series:
+        for f in sr.folds:
+            params[sr.series["key"], f.candidate_id].append(f.params)
+    agree, better, total, worst_agreeing, worst_any, same_params = 0, 0, 0, 0.0, 0.0, 0.0
+    for s in series:
+        values = np.log(np.asarray(s.values, float))
+        for cid, spec, model_of in zip(arima_ids, (c.spec for c in candidates[:2]), HAND):
+            for k, end in enumerate(ends):
+                model = spec.model(values[:end], 12)
+                estimate = vector(model, params[s.key, cid][k])
+                llf = _quiet(lambda model=model, estimate=estimate: model.loglike(estimate))
+                at_estimate = _quiet(lambda model_of=model_of, z=values[:end],
+                                     estimate=estimate: model_of.forecast(None, z, estimate))
+                same_params = max(same_params, float(np.max(
+                    np.abs(ours[s.key, cid][k] - at_estimate) / np.abs(at_estimate))))
+                gap = llf - hand_llf[s.key, cid][k]
+                rel = float(np.max(np.abs(ours[s.key, cid][k] - hand[s.key, cid][k])
+                                   / np.abs(hand[s.key, cid][k])))
+                total += 1
+                better += gap >= -1e-6
+                worst_any = max(worst_any, rel)
+                if abs(gap) <= 1e-6:
+                    agree += 1
+                    worst_agreeing = max(worst_agreeing, rel)
+    ets = float(np.max([np.max(np.abs(ours[s.key, ids[2]] - hand[s.key, ids[2]])
+                                / np.abs(hand[s.key, ids[2]])) for s in series]))
+    print(f"  ARIMA folds (fast engine against the hand loop's statsmodels fits), {total} in "
+          f"all: log-likelihood (statsmodels' own, at each estimate) at least the hand "
+          f"loop's - 1e-6 in {better}; within 1e-6 of it in {agree}, whose forecasts and "
+          f"bounds differ by at most {worst_agreeing:.1e} relative (all folds: "
+          f"{worst_any:.1e}); the hand loop's statsmodels forecast at the engine's own "
+          f"estimates differs by at most {same_params:.1e} relative; ETS folds: {ets:.1e} "
+          "relative")
+
+
+def part_split(jobs: int) -> None:
+    """One series, one estimating candidate: the run on one process against ``jobs``
+    workers, where the task's origins are cut into chunks (``backtest.task_chunks``); the
+    results must be equal. CPU estimates for an idle machine as in ``engine_bench.py``."""
+    from engine_bench import Clock, _warm_pool
+
+    values = _series_g()
+    series = make_series("g", "P1M", [(f"{1949 + i // 12}-{i % 12 + 1:02d}", v)
+                                      for i, v in enumerate(values)])
+    runs = (("order search (arima_search), fast", {"family": "arima_search",
+                                                   "transform": "log"}, "fast", 12),
+            ("airline model, reference", {"family": "arima", "order": [0, 1, 1],
+                                          "seasonal": {"order": [0, 1, 1]},
+                                          "transform": "log"}, "reference", 24))
+    for label, body, estimator, max_origins in runs:
+        candidates = parse_candidates([body])
+        plan = parse_plan({"horizon": 12, "max_origins": max_origins, "refit": 1,
+                           "assessment": "lean", "estimator": estimator})
+        seconds, results = {}, {}
+        for n_jobs in (1, jobs):
+            _warm_pool(n_jobs)
+            start = Clock.now()
+            results[n_jobs] = _quiet(lambda plan=plan, n_jobs=n_jobs, chosen=candidates:
+                                     run_backtest([series], chosen, plan, n_jobs=n_jobs))
+            seconds[n_jobs] = Clock.now().since(start)
+        equal = results[1].series == results[jobs].series
+        print(f"  Series G, {label}, {max_origins} origins at refit 1: one process "
+              f"{seconds[1][1]:.2f} s CPU ({seconds[1][0]:.2f} s wall), {jobs} workers "
+              f"{seconds[jobs][1]:.2f} s CPU estimate ({seconds[jobs][0]:.2f} s wall): "
+              f"{seconds[1][1] / seconds[jobs][1]:.2f}x (CPU), "
+              f"{seconds[1][0] / seconds[jobs][0]:.2f}x (wall); results equal: {equal}; load "
+              f"{os.getloadavg()[0]:.1f}")
 
 
 def part_corpus(per_spec: int) -> None:
@@ -176,22 +342,32 @@ def part_corpus(per_spec: int) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--part", choices=("compile", "fit", "search", "engine", "corpus"))
+    parser.add_argument("--part", action="append",
+                        choices=("compile", "fit", "search", "search-validation", "engine",
+                                 "corpus", "panel", "split"), help="repeat for several")
     parser.add_argument("--repeats", type=int, default=5)
-    parser.add_argument("--search-folds", type=int, default=2)
+    parser.add_argument("--search-folds", type=int, default=6)
+    parser.add_argument("--validation", choices=("ci", "full"), default="full",
+                        help="search validation cases")
     parser.add_argument("--engine-origins", type=int, default=24)
     parser.add_argument("--origins", type=int, default=16, help="corpus origins per model")
+    parser.add_argument("--panel-series", type=int, default=20)
+    parser.add_argument("--panel-origins", type=int, default=24)
+    parser.add_argument("--jobs", type=int, default=2, help="engine workers (part panel)")
     args = parser.parse_args()
     print(f"load: {os.getloadavg()[0]:.2f} {os.getloadavg()[1]:.2f} "
           f"{os.getloadavg()[2]:.2f} on {os.cpu_count()} cores; one BLAS thread")
     print(f"warm-up in this process: {warm_up():.2f} s")
     parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
              "search": lambda: part_search(args.search_folds),
+             "search-validation": lambda: part_search_validation(args.validation),
              "engine": lambda: part_engine(args.engine_origins),
-             "corpus": lambda: part_corpus(args.origins)}
+             "corpus": lambda: part_corpus(args.origins),
+             "panel": lambda: part_panel(args.panel_series, args.panel_origins, args.jobs),
+             "split": lambda: part_split(args.jobs)}
     with threadpool_limits(limits=1):
         for name, run in parts.items():
-            if args.part in (None, name):
+            if args.part is None or name in args.part:
                 print(f"[{name}]")
                 run()
 

@@ -1,5 +1,9 @@
 """One order of an ARIMA search fitted by the fast estimator, judged like the reference.
 
+The optimiser stops at the search's precision (the criterion within about 1e-8 of a
+strict stop's; :data:`~.fast_arima.SEARCH_OPTIONS`), still far tighter than the
+reference's own stopping rule.
+
 The verdicts are those of :mod:`.arima_trial`: rejected when the estimate fails, when the
 criterion is not finite, or when an AR or MA factor has an inverse root above
 :data:`~.arima_trial.MAX_INVERSE_ROOT`. The criteria are statsmodels' (``aic``, ``aicc``,
@@ -40,7 +44,7 @@ def run_fast_trial(spec: ArimaSpec, y: np.ndarray, season_length: int,
     if spec.min_train(season_length) > len(y):
         return Trial(spec, "too_short", math.inf, None, ())
     try:
-        estimate = fast_estimate(spec, y, season_length)
+        estimate = fast_estimate(spec, y, season_length, screening=True)
         if not estimate.converged:
             raise FastEstimationError(f"L-BFGS-B stopped after {estimate.iterations} "
                                       "iterations without converging")
