@@ -15,21 +15,14 @@ from pathlib import Path
 from sqlalchemy.engine import make_url
 
 from service.settings import InvalidSettingsError, checked_settings
-from storage.audit import (
-    CheckpointError,
-    extends,
-    make_checkpoint,
-    read_checkpoint,
-    verify_audit_log,
-)
-from storage.db import (
+from service.usecases.audit_trail import CheckpointError, full_verification, signed_head
+from service.usecases.store import (
     BI_VIEWS,
     URL_SETTING,
-    database_url,
-    grant_bi_reader,
-    make_engine,
-    session_factory,
-    upgrade,
+    grant_bi_reader_role,
+    migrate_store,
+    open_store,
+    store_url,
 )
 from storage.errors import StorageError
 
@@ -66,9 +59,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def db_upgrade(args: argparse.Namespace) -> int:
     """Apply the migrations to the store; print where."""
-    url = args.database_url or database_url()
     try:
-        upgrade(url)
+        url = migrate_store(args.database_url)
     except StorageError as exc:
         return _error(exc)
     print(f"database {_shown(url)} is at the latest schema")
@@ -77,14 +69,10 @@ def db_upgrade(args: argparse.Namespace) -> int:
 
 def db_bi_reader(args: argparse.Namespace) -> int:
     """Grant a role SELECT on the BI views (PostgreSQL); print what was done."""
-    url = args.database_url or database_url()
+    url = store_url(args.database_url)
     try:
-        engine = make_engine(url)
-        try:
-            with session_factory(engine).begin() as session:
-                created = grant_bi_reader(session, args.role)
-        finally:
-            engine.dispose()
+        with open_store(url) as sessions:
+            created = grant_bi_reader_role(sessions, args.role)
     except StorageError as exc:
         return _error(exc)
     done = "created without login; it" if created else "already existed; it"
@@ -97,19 +85,12 @@ def audit_verify(args: argparse.Namespace) -> int:
     """Verify the whole audit log (the full pass); print OK and the events checked, or the
     first broken link. Keyed event hashes are checked under ``FOLDLINE_AUDIT_KEY``. With
     ``--checkpoint``, the store must also still hold the checkpoint's head."""
-    url = args.database_url or database_url()
     try:
-        checkpoint = None
+        text = key = None
         if args.checkpoint is not None:
-            checkpoint = read_checkpoint(Path(args.checkpoint).read_text(), _audit_key())
-        key = checked_settings().audit_key
-        engine = make_engine(url)
-        try:
-            with session_factory(engine, key).begin() as session:
-                report = verify_audit_log(session)
-                cut = extends(session, checkpoint) if checkpoint is not None else None
-        finally:
-            engine.dispose()
+            text, key = Path(args.checkpoint).read_text(), _audit_key()
+        with open_store(args.database_url) as sessions:
+            report, cut = full_verification(sessions, text, key)
     except (StorageError, CheckpointError, OSError, InvalidSettingsError) as exc:
         return _error(exc)
     if cut is not None:
@@ -127,15 +108,10 @@ def audit_verify(args: argparse.Namespace) -> int:
 
 def audit_checkpoint(args: argparse.Namespace) -> int:
     """Print the signed head of the chain as one line of JSON."""
-    url = args.database_url or database_url()
     try:
         key = _audit_key()
-        engine = make_engine(url)
-        try:
-            with session_factory(engine).begin() as session:
-                checkpoint = make_checkpoint(session, key)
-        finally:
-            engine.dispose()
+        with open_store(args.database_url) as sessions:
+            checkpoint = signed_head(sessions, key)
     except (StorageError, InvalidSettingsError) as exc:
         return _error(exc)
     print(checkpoint.to_json())

@@ -1,5 +1,6 @@
 """What an auditor reads: a candidate's score across runs, the runs that used a series
-version, the audit log page by page with subjects in words, and the chain's verification."""
+version, the audit log page by page with subjects in words, the full verification of the
+chain (against a kept checkpoint if given) and the signed head to keep."""
 
 from __future__ import annotations
 
@@ -7,13 +8,25 @@ from datetime import datetime
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from storage.audit import AuditEntry, AuditReport, audit_page, describe_subjects, verify_audit_log
+from storage.audit import (
+    AuditEntry,
+    AuditReport,
+    Checkpoint,
+    CheckpointError,
+    audit_page,
+    describe_subjects,
+    extends,
+    make_checkpoint,
+    read_checkpoint,
+    verify_audit_log,
+)
 from storage.results import ScorePoint, score_history
 from storage.runs import RunInfo, runs_using_version
 from storage.series import get_series, version_by_number
 
-__all__ = ["AuditEntry", "RunInfo", "ScorePoint", "AuditReport", "audit_events",
-           "runs_of_version", "scores_over_runs", "verify_store"]
+__all__ = ["AuditEntry", "AuditReport", "Checkpoint", "CheckpointError", "RunInfo", "ScorePoint",
+           "audit_events", "full_verification", "runs_of_version", "scores_over_runs",
+           "signed_head"]
 
 
 def scores_over_runs(sessions: sessionmaker[Session], series_key: str, candidate_id: str, *,
@@ -42,7 +55,20 @@ def audit_events(sessions: sessionmaker[Session], *, start: datetime | None,
         return events, describe_subjects(session, (e.subject for e in events))
 
 
-def verify_store(sessions: sessionmaker[Session]) -> AuditReport:
-    """The whole chain and the content it vouches for, checked."""
+def full_verification(sessions: sessionmaker[Session], checkpoint_text: str | None,
+                      checkpoint_key: bytes | None) -> tuple[AuditReport, str | None]:
+    """The full pass over the chain and every record; with a checkpoint (its JSON text and
+    the key it was signed with), also whether the store still extends it (``None``) or where
+    it does not."""
+    checkpoint = (read_checkpoint(checkpoint_text, checkpoint_key or b"")
+                  if checkpoint_text is not None else None)
     with sessions.begin() as session:
-        return verify_audit_log(session)
+        report = verify_audit_log(session)
+        cut = extends(session, checkpoint) if checkpoint is not None else None
+    return report, cut
+
+
+def signed_head(sessions: sessionmaker[Session], key: bytes) -> Checkpoint:
+    """The chain's head signed with ``key``, for the auditor to keep outside the store."""
+    with sessions.begin() as session:
+        return make_checkpoint(session, key)

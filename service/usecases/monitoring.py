@@ -24,8 +24,7 @@ from backtest.ledger import (
 from service.errors import FieldError, InvalidInputError
 from storage.ledger import current_champion, current_champions, issued_with_outcomes
 from storage.results import load_candidate_folds, score_history
-from storage.series import get_series
-from storage.series.versions import filled_periods
+from storage.series import filled_periods, get_series
 from storage.specs import candidate_label
 
 

@@ -8,9 +8,18 @@ from contextlib import contextmanager
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.settings import checked_settings
-from storage.db import URL_SETTING, database_url, make_engine, session_factory, upgrade
+from storage.db import (
+    BI_VIEWS,
+    URL_SETTING,
+    database_url,
+    grant_bi_reader,
+    make_engine,
+    session_factory,
+    upgrade,
+)
 
-__all__ = ["URL_SETTING", "migrate_store", "open_store", "store_sessions", "store_url"]
+__all__ = ["BI_VIEWS", "URL_SETTING", "grant_bi_reader_role", "migrate_store", "open_store",
+           "store_sessions", "store_url"]
 
 
 def store_url(url: str | None = None) -> str:
@@ -44,3 +53,10 @@ def migrate_store(url: str | None = None) -> str:
     chosen = store_url(url)
     upgrade(chosen)
     return chosen
+
+
+def grant_bi_reader_role(sessions: sessionmaker[Session], role: str) -> bool:
+    """Let PostgreSQL role ``role`` read the BI views and nothing else (created without login
+    if missing; ``True`` then)."""
+    with sessions.begin() as session:
+        return grant_bi_reader(session, role)

@@ -2,7 +2,13 @@
 digests, verification, signed checkpoints, paging and subjects named in words.
 """
 
-from storage.audit.checkpoint import CheckpointError, extends, make_checkpoint, read_checkpoint
+from storage.audit.checkpoint import (
+    Checkpoint,
+    CheckpointError,
+    extends,
+    make_checkpoint,
+    read_checkpoint,
+)
 from storage.audit.contents import (
     ISSUED_TABLES,
     OUTCOME_TABLES,
@@ -47,6 +53,7 @@ __all__ = [
     "AuditEntry",
     "AuditReport",
     "COVERAGE_OVERLAP",
+    "Checkpoint",
     "CheckpointError",
     "ISSUED_TABLES",
     "OUTCOME_TABLES",

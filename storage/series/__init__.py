@@ -13,6 +13,7 @@ from storage.series.skeleton import skeleton
 from storage.series.versions import (
     SaveOutcome,
     VersionInfo,
+    filled_periods,
     get_version,
     list_versions,
     load_series,
@@ -23,6 +24,7 @@ __all__ = [
     "SaveOutcome",
     "SeriesInfo",
     "VersionInfo",
+    "filled_periods",
     "find_series",
     "get_series",
     "get_version",

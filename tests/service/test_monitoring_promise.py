@@ -9,8 +9,8 @@ import pytest
 
 from backtest.series import make_series
 from service.usecases.monitoring import monitor_series
-from storage.db.connection import make_engine, session_factory
-from storage.series.versions import filled_periods
+from storage.db import make_engine, session_factory
+from storage.series import filled_periods
 from tests.storage.builders import monthly_series, run_and_store
 from tests.storage.conftest import BACKENDS, migrated_store
 

@@ -15,7 +15,7 @@ from sqlalchemy.orm import Session
 
 from backtest.results import SeriesResult
 from storage.db import ResultCandidate, ScoreRecord
-from storage.results.queries import latest_successful_run
+from storage.results import latest_successful_run
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store

@@ -9,11 +9,11 @@ from sqlalchemy.orm import Session
 from backtest.candidates import parse_candidates
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from storage.audit.contents import UNIT_TABLES
-from storage.db.types import UtcDateTime
-from storage.results.store import write_series_result
+from storage.audit import UNIT_TABLES
+from storage.db import UtcDateTime
+from storage.results import write_series_result
 from storage.runs import queue_run, start_run
-from storage.series.versions import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, monthly_series
 
 

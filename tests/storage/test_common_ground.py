@@ -15,9 +15,8 @@ from sqlalchemy.orm import Session
 from backtest.engine import run_backtest
 from backtest.ranking import on_common_ground, rank_candidates
 from backtest.scoring import score_candidate
-from storage.audit.verify import verify_audit_log
-from storage.db.bi_views import grant_bi_reader
-from storage.db.connection import make_engine, session_factory
+from storage.audit import verify_audit_log
+from storage.db import grant_bi_reader, make_engine, session_factory
 from storage.db.migrate import alembic_config, upgrade
 from storage.results import load_series_result, rank_table, write_series_result
 from storage.runs import finish_run, queue_run, start_run

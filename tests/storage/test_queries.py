@@ -6,7 +6,7 @@ import pytest
 from sqlalchemy.orm import Session
 
 from backtest.results import BacktestResult
-from storage.results.queries import (
+from storage.results import (
     latest_successful_run,
     latest_successful_runs,
     score_history,

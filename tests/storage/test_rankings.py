@@ -7,7 +7,7 @@ from __future__ import annotations
 import pytest
 from sqlalchemy.orm import Session
 
-from storage.results.ranking import ranking_table
+from storage.results import ranking_table
 from tests.storage.builders import monthly_series, run_and_store, small_plan
 
 

@@ -189,7 +189,7 @@ def test_digests_of_score_rows_written_before_the_common_ground_columns_still_ve
     """Migration 0009_h14 added the score rows' ``common_*`` columns: a row stored before
     (all four null) digests as it did without them; a common-ground figure is digested."""
     from storage.audit.digest import table_digest
-    from storage.db.schema import ScoreRecord
+    from storage.db import ScoreRecord
 
     table = ScoreRecord.__table__
     added = ("common_value", "common_count", "common_note", "common_folds")
