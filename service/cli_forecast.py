@@ -18,6 +18,7 @@ from service.ledger_text import forecast_lines, outcome_lines
 from service.moments import MOMENT_HELP, point_in_time
 from service.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.schemas.results import columns
+from service.settings import checked_settings
 from storage.ledger import IssuedRecord, get_issued, list_issued
 from storage.outcomes import current_outcomes, outcome_sets
 from storage.series_store import get_version
@@ -64,7 +65,7 @@ def forecast_issue(args: argparse.Namespace) -> int:
         request = IssueRequest(series_key=args.series, horizon=args.horizon,
                                levels=args.levels, seed=args.seed,
                                version=args.version, candidate_id=args.candidate)
-        record, created = issue(sessions, request, actor=operator())
+        record, created = issue(sessions, request, checked_settings(), actor=operator())
         with sessions.begin() as session:
             out = _out(session, record)
         note = "" if created else "identical inputs were issued before: "

@@ -1,8 +1,8 @@
 """Running a command-line command against the store: one engine, one-line errors.
 
 Commands that work on the store directly (champions, forecasts, monitoring) share this:
-they get a session factory, return what to print, and any storage, service or backtest
-error ends as ``foldline: error: ...`` on stderr with exit code 2.
+they get a session factory, return what to print, and any storage, service, backtest or
+settings error ends as ``foldline: error: ...`` on stderr with exit code 2.
 """
 
 from __future__ import annotations
@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.errors import BacktestError
 from service.errors import ServiceError
+from service.settings import InvalidSettingsError
 from storage.engine import URL_SETTING, database_url, make_engine, session_factory
 from storage.errors import StorageError
 
@@ -35,7 +36,7 @@ def run_in_store(args: argparse.Namespace,
             out = work(session_factory(engine))
         finally:
             engine.dispose()
-    except (StorageError, ServiceError, BacktestError) as exc:
+    except (StorageError, ServiceError, BacktestError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     if out:

@@ -19,6 +19,8 @@ from backtest.results import FoldResult
 from backtest.series import Series
 from service.backtest_lookup import latest_backtest
 from service.errors import FieldError, InvalidInputError
+from service.limits import check_horizon_and_levels
+from service.settings import Settings
 from service.transactions import write
 from storage.champions import current_champion
 from storage.errors import ConflictError, NotFoundError
@@ -47,9 +49,11 @@ class _Inputs:
     folds: tuple[FoldResult, ...]
 
 
-def issue(sessions: sessionmaker[Session], request: IssueRequest, *,
+def issue(sessions: sessionmaker[Session], request: IssueRequest, settings: Settings, *,
           actor: str) -> tuple[IssuedRecord, bool]:
-    """The ledger record of the forecast, and whether this call created it."""
+    """The ledger record of the forecast, and whether this call created it; the horizon and
+    levels are held to the settings' limits first, as for a run's plan."""
+    check_horizon_and_levels(request.horizon, len(request.levels), settings, "")
     with sessions.begin() as session:
         inputs = _inputs(session, request)
     forecast = issue_forecast(inputs.series, inputs.candidate, horizon=request.horizon,

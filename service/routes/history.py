@@ -10,11 +10,11 @@ from backtest.scoring import DISTRIBUTION_METRICS, LEVEL_METRICS, POINT_METRICS
 from service.access import Caller, require
 from service.app_state import Sessions
 from service.flat_rows import flat_columns, flat_rows
+from service.limits import MAX_ID
 from service.moments import MOMENT_HELP, point_in_time
 from service.problems import problem_responses
 from service.routes.params import PooledByDefault, horizon_or_pooled
 from service.routes.runs import run_url
-from service.schemas.common import MAX_ID
 from service.schemas.history import (
     AuditEventOut,
     AuditEventPage,

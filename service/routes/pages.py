@@ -18,6 +18,7 @@ from starlette.concurrency import run_in_threadpool
 from service.access import Caller
 from service.app_state import AppSettings, Sessions
 from service.errors import NotAuthenticatedError
+from service.limits import MAX_ID
 from service.pages.answers import PageRoute
 from service.pages.forecast_detail import forecast_detail
 from service.pages.forecast_view import load_forecast_page
@@ -38,7 +39,6 @@ from service.report.prerender import settings_report_cache
 from service.report.stored import stored_run_report
 from service.routes.params import Id
 from service.routes.reports import report_response
-from service.schemas.common import MAX_ID
 
 router = APIRouter(prefix="/pages", route_class=PageRoute, include_in_schema=False)
 #: Page answers load nothing from elsewhere and run no script; no other site may frame them.

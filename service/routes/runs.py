@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session
 from service.access import Caller, require
 from service.app_state import AppSettings, Sessions
 from service.flat_rows import flat_columns, flat_rows
+from service.limits import MAX_RUNS_PAGE
 from service.problems import problem_responses
 from service.routes.params import Id
 from service.routes.series import series_url
@@ -46,7 +47,6 @@ router = APIRouter(prefix="/v1", tags=["runs"])
 Writer = Annotated[Caller, Depends(require("write"))]
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 422, 500, 503)
-MAX_PAGE = 100
 IdempotencyKey = Annotated[str | None, Header(
     alias="Idempotency-Key", min_length=1, max_length=100, pattern=r"^[\x21-\x7e]+$",
     description="retrying a submission with the same key returns the original run")]
@@ -92,7 +92,7 @@ def list_all_runs(
             description="only runs finished before this ISO 8601 time")] = None,
         before: Annotated[int | None, Query(ge=1, description=(
             "cursor: only runs with a smaller id (the ``next`` link sets it)"))] = None,
-        limit: Annotated[int, Query(ge=1, le=MAX_PAGE)] = 50) -> Any:
+        limit: Annotated[int, Query(ge=1, le=MAX_RUNS_PAGE)] = 50) -> Any:
     """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive.
     CSV: one row per run (lists as JSON cells)."""
     chosen = chosen_format(request, output)

@@ -6,7 +6,8 @@ from datetime import datetime
 
 from pydantic import Field
 
-from service.schemas.common import MAX_ID, Page, Strict
+from service.limits import MAX_ID
+from service.schemas.common import Page, Strict
 from service.schemas.results import Row
 
 CANDIDATE_ID = r"^c[0-9a-f]{16}$"
