@@ -11,6 +11,8 @@ from sqlalchemy.orm import Session, sessionmaker
 from backtest.tidy import write_csv
 from service.cli_store import add_store_option, run_in_store
 from service.dossier_view import dossier_out, step_rows
+from service.errors import InvalidInputError
+from service.limits import MAX_DOSSIER_ITEMS
 from service.moments import point_in_time
 from service.schemas.dossier import ChampionEntryOut, DossierOut, StepRow
 from service.schemas.results import columns
@@ -38,6 +40,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def dossier_command(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
+        if not 1 <= args.limit <= MAX_DOSSIER_ITEMS:
+            raise InvalidInputError(f"--limit {args.limit}: give 1 to {MAX_DOSSIER_ITEMS} "
+                                    "(the API's limit too)")
         window = ForecastWindow(issued_from=point_in_time("--issued-from", args.issued_from),
                                 issued_to=point_in_time("--issued-to", args.issued_to),
                                 target_from=args.target_from, target_to=args.target_to)

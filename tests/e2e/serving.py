@@ -46,7 +46,7 @@ def served_store(backend: str, tmp_path: Path, roles: Sequence[str], **settings:
                **{f"FOLDLINE_{name.upper()}": value for name, value in settings.items()}}
         tokens = {role: cli(env, "keys", "create", "--role", role, "--name", f"e2e-{role}")
                   .splitlines()[0] for role in roles}
-        with running_server(env, tmp_path / "server.log") as base:
+        with running_server(env, tmp_path / "server.log", timeout=300) as base:
             yield base, tokens, url
 
 

@@ -135,6 +135,14 @@ def test_an_issued_forecast_over_the_horizon_limit_is_refused_alike(both: Both):
 
 
 @ON_SQLITE
+def test_a_dossier_limit_past_the_bound_is_refused_by_both(both: Both):
+    said = _cli_error(both.cli("dossier", KEY, "--limit", "1001"))
+    problem = _problem(both.client.get(f"/v1/series/{KEY}/dossier", params={"limit": 1001}))
+    assert said == "--limit 1001: give 1 to 1000 (the API's limit too)"
+    assert [e["pointer"] for e in problem["errors"]] == ["/limit"]
+
+
+@ON_SQLITE
 def test_too_many_candidates_are_refused_alike(both: Both):
     four = [*CANDIDATES, {"family": "benchmark", "method": "mean"},
             {"family": "benchmark", "method": "seasonal_naive"}]
