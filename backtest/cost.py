@@ -27,11 +27,16 @@ from backtest.series import Series
 
 @dataclass(frozen=True)
 class RunCost:
-    """The estimated work of one backtest."""
+    """The estimated work of one backtest; ``unit_folds`` counts each series' folds (its
+    candidates, the benchmark included, times its origins), in series order."""
 
-    folds: int
+    unit_folds: tuple[int, ...]
     fits: dict[str, int]
     rows: int
+
+    @property
+    def folds(self) -> int:
+        return sum(self.unit_folds)
 
     @property
     def total_fits(self) -> int:
@@ -51,9 +56,10 @@ def estimate_cost(series: Sequence[Series], candidates: Sequence[Candidate],
     scores = len(POINT_METRICS) + len(DISTRIBUTION_METRICS) + levels * len(LEVEL_METRICS)
     per_candidate = (horizon + 1) * scores + 2
     fits: Counter[str] = Counter()
-    folds = rows = 0
+    unit_folds: list[int] = []
+    rows = 0
     for pool, origins in planned_origins(series, candidates, plan):
-        folds += len(origins) * len(pool)
+        unit_folds.append(len(origins) * len(pool))
         reestimates = sum(o.reestimate for o in origins)
         for candidate in pool:
             spec = candidate.spec
@@ -62,4 +68,4 @@ def estimate_cost(series: Sequence[Series], candidates: Sequence[Candidate],
             fits[spec.family] += estimates * spec.fits_per_estimate()
         rows += len(origins) * len(pool) * (1 + horizon * (1 + levels))
         rows += 1 + len(pool) * per_candidate
-    return RunCost(folds, dict(fits), rows)
+    return RunCost(tuple(unit_folds), dict(fits), rows)

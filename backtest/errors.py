@@ -1,10 +1,22 @@
 """Errors raised by the backtest engine; each carries a stable ``code`` for callers to map."""
 
+from __future__ import annotations
+
 
 class BacktestError(Exception):
-    """Base class for every error the engine raises on bad input."""
+    """Base class for every error the engine raises on bad input.
+
+    ``pointer`` says where in the caller's input the mistake is (a JSON pointer, RFC 6901,
+    such as ``/candidates/2``), when the caller knows it; see :meth:`at`.
+    """
 
     code = "backtest_error"
+    pointer = ""
+
+    def at(self, pointer: str) -> BacktestError:
+        """This error, placed at ``pointer`` in the caller's input."""
+        self.pointer = pointer
+        return self
 
 
 class SeriesError(BacktestError):

@@ -456,15 +456,13 @@ class PeakMemory:
 def storage_part(args: argparse.Namespace) -> None:
     """Generated monthly series x 8 candidates x 36 origins x H = 12 at cadence 12, queued as
     one run in a fresh SQLite store and computed by the service's own job worker
-    (``service.worker.Worker``): the pending series go through the pool together and each
+    (``service.worker.loop.Worker``): the pending series go through the pool together and each
     series' results are stored in their own transaction as soon as they are complete."""
     from service.settings import Settings
-    from service.worker import Worker
-    from storage.engine import make_engine, session_factory
-    from storage.migrate import upgrade
+    from service.worker.loop import Worker
+    from storage.db import Run, make_engine, session_factory, upgrade
     from storage.runs import queue_run
-    from storage.schema import Run
-    from storage.series_store import save_series_version
+    from storage.series import save_series_version
 
     series = panel(args.series or 1000)
     candidates = parse_candidates(STORE_CANDIDATES)

@@ -33,13 +33,12 @@ from backtest.candidates import parse_candidates
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
 from backtest.series import make_series
-from service.demo import _free_port, running_server
-from service.key_admin import issue_key
-from storage.engine import make_engine, session_factory
-from storage.migrate import upgrade
-from storage.results_store import write_series_result
+from service.demo.run import _free_port, running_server
+from service.usecases.keys import issue_key
+from storage.db import make_engine, session_factory, upgrade
+from storage.results import write_series_result
 from storage.runs import finish_run, queue_run, start_run
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 
 CANDIDATES = [{"family": "benchmark", "method": m} for m in ("naive", "drift", "mean")] + [
     {"family": "theta"}, {"family": "theta", "season": "never"},

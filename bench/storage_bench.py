@@ -30,13 +30,17 @@ from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.plan import parse_plan  # noqa: E402
 from backtest.results import CandidateInfo, FoldResult, RankRow, Score, SeriesResult  # noqa: E402
 from backtest.series import Series, make_series  # noqa: E402
-from storage.engine import make_engine, session_factory  # noqa: E402
-from storage.migrate import upgrade  # noqa: E402
-from storage.results_store import load_series_result, write_series_result  # noqa: E402
+from storage.audit import verify_audit_log  # noqa: E402
+from storage.db import (  # noqa: E402  # noqa: E402
+    ForecastBound,
+    ForecastRecord,
+    make_engine,
+    session_factory,
+    upgrade,  # noqa: E402
+)
+from storage.results import load_series_result, write_series_result  # noqa: E402
 from storage.runs import finish_run, queue_run, start_run  # noqa: E402
-from storage.schema import ForecastBound, ForecastRecord  # noqa: E402
-from storage.series_store import save_series_version  # noqa: E402
-from storage.verify import verify_audit_log  # noqa: E402
+from storage.series import save_series_version  # noqa: E402
 
 CANDIDATES = 8
 ORIGINS = 36

@@ -1,6 +1,6 @@
 """Errors the HTTP layer raises itself; each carries a stable ``code``.
 
-:mod:`service.problems` maps them, and the backtest and storage errors, to problem details.
+:mod:`service.http.problems` maps them, and the backtest and storage errors, to problem details.
 """
 
 from __future__ import annotations
@@ -76,18 +76,6 @@ class NotReadyError(ServiceError):
     """The server cannot serve requests yet: the store is unreachable or not migrated."""
 
     code = "not_ready"
-
-
-class InvalidCandidateError(InvalidInputError):
-    """A candidate of a run submission is malformed, repeated or impossible for a series."""
-
-    code = "invalid_candidate_spec"
-
-
-class InvalidPlanError(InvalidInputError):
-    """A run's plan is malformed or cannot be laid over a selected series."""
-
-    code = "invalid_plan_spec"
 
 
 class InvalidSelectionError(InvalidInputError):

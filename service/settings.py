@@ -13,7 +13,7 @@ from functools import lru_cache
 from pydantic import Field, ValidationError
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
-from storage.engine import database_url
+from storage.db import database_url
 
 
 class Settings(BaseSettings):

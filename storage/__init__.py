@@ -1,22 +1,21 @@
-"""Persistence: an immutable, auditable record of series versions, runs and their results.
+"""Persistence: an immutable, auditable record of series versions, runs, their results and
+the forecast ledger, on SQLite or PostgreSQL. No HTTP here.
 
-Modules, one concept each:
+Subpackages, one concept each, each with its public names in its ``__init__``:
 
-- ``engine``: the ``FOLDLINE_DATABASE_URL`` setting, engines and sessions;
-- ``schema`` (tables), ``types`` (UTC timestamps, JSON/JSONB), ``migrate`` + ``migrations``;
-- ``series_store`` (series versions), ``catalog`` (candidates, plans), ``runs`` (lifecycle),
-  ``results_store`` (per-series units of results), ``queries`` (questions over them);
-- the forecast ledger: ``champions`` (each series' chosen candidate and its history),
-  ``ledger`` (issued forecasts), ``outcomes`` (issued forecasts scored against later
-  versions), ``ledger_rows`` (their conversion to and from rows);
-- ``audit`` (hash-chained event log), ``contents`` and ``digest`` (what events vouch for),
-  ``verify`` (checking the log and the content);
-- ``errors`` (the storage error hierarchy), ``guard`` and ``bulk`` (helpers);
-- for the HTTP API: ``keys`` (API keys as hashes), ``series_catalog`` (finding series by
-  prefix and tags), ``run_index`` (runs by idempotency key, their versions),
-  ``result_tables`` (a run's results as paged tables), ``rankings`` (the BI ranking),
-  ``audit_pages`` (the log page by page), ``status`` (schema revision, run counts).
+- ``db``: engines and sessions (``FOLDLINE_DATABASE_URL``), migrations, tables, column
+  types, the write lock, bulk inserts, the append-only guard, status, the BI views;
+- ``series``: series and their immutable versions, found by key, prefix and tags;
+- ``specs`` (a module): candidates and plans, stored once under content-derived ids;
+- ``runs``: queueing (one idempotency rule), the lifecycle, claims and leases, finding runs;
+- ``results``: a run's results written and read per series, as rows, paged tables and the
+  SQL ranking;
+- ``ledger``: champions, issued forecasts, outcomes, the series dossier;
+- ``audit``: the hash-chained event log, what it vouches for, verification, checkpoints;
+- ``access``: API keys and ended page sessions;
+- ``errors`` (a module): the storage error hierarchy, each error with a stable code.
 
-Storage functions take a :class:`~sqlalchemy.orm.Session` and never commit: the caller owns
-the transaction (``with session.begin(): ...``).
+Imports point one way: ``db`` <- ``audit`` <- ``series``, ``access``, ``specs`` <- ``results``
+<- ``runs``; ``ledger`` reads ``series`` and ``specs``. Storage functions take a
+:class:`~sqlalchemy.orm.Session` and never commit: the caller owns the transaction.
 """

@@ -43,6 +43,13 @@ class ImmutableRecordError(StorageError):
     code = "immutable_record"
 
 
+class LeaseLostError(ConflictError):
+    """A worker no longer holds the run's lease (it expired and another worker claimed the
+    run, or the run was cancelled); its write was refused."""
+
+    code = "lease_lost"
+
+
 class StoreUnavailableError(StorageError):
     """The database cannot be reached, or is locked or busy; retrying later may succeed."""
 

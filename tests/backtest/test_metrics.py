@@ -120,7 +120,7 @@ def test_pooled_and_fold_mean_rmsse_are_distinct_scores():
 
 def test_rmsse_fold_mean_is_rankable_in_plans_and_the_bi_ranking():
     from backtest.plan import RANK_SCORES, parse_plan
-    from storage.rankings import RANKABLE
+    from storage.results import RANKABLE
     assert parse_plan({"horizon": 2, "rank_by": "rmsse_fold_mean"}).rank_by == "rmsse_fold_mean"
     assert {"rmsse", "rmsse_fold_mean"} <= set(RANK_SCORES) <= set(RANKABLE)
 

@@ -20,7 +20,7 @@ from pathlib import Path
 import httpx
 import pytest
 
-from service.demo import _free_port, running_server
+from service.demo.run import _free_port, running_server
 from tests.conftest import BRACKETED_LABEL
 from tests.e2e.serving import bearer_client, cli, wait_for_run
 from tests.service.conftest import series_body

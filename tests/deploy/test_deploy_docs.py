@@ -20,7 +20,7 @@ import pytest
 from annotated_types import Ge, Gt, Le
 from pydantic.fields import FieldInfo
 
-from service.cli import build_parser
+from service.cli.main import build_parser
 from service.settings import Settings
 
 DEPLOY = Path(__file__).resolve().parents[2] / "deploy"

@@ -13,13 +13,13 @@ from pathlib import Path
 
 import httpx
 
-from service.demo import _free_port, running_server
+from service.demo.run import _free_port, running_server
 from tests.storage.conftest import migrated_store
 
 
 def cli(env: dict[str, str], *args: str) -> str:
     """Run ``foldline ARGS`` with ``env``; its standard output (it must succeed)."""
-    done = subprocess.run([sys.executable, "-m", "service.cli", *args], env=env,
+    done = subprocess.run([sys.executable, "-m", "service.cli.main", *args], env=env,
                           capture_output=True, text=True, timeout=240)
     assert done.returncode == 0, done.stderr
     return done.stdout

@@ -14,7 +14,7 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.demo import _scenario_csv
+from service.demo.run import _scenario_csv
 from tests.e2e.serving import bearer_client, served, wait_for_run
 from tests.storage.conftest import BACKENDS
 

@@ -26,16 +26,14 @@ from backtest.candidates import parse_candidate
 from backtest.engine import run_backtest
 from backtest.results import BacktestResult, SeriesResult
 from backtest.series import Series
-from service.app import create_app
-from service.jobs_request import stored_plan
-from service.key_admin import issue_key
+from service.http.app import create_app
 from service.settings import Settings
-from storage.engine import make_engine, session_factory
-from storage.queue import run_request
-from storage.results_store import write_series_result
-from storage.runs import finish_run, record_progress, start_run
-from storage.schema import ROLES
-from storage.series_store import load_series
+from service.usecases.keys import issue_key
+from service.worker.queued_specs import stored_plan
+from storage.db import ROLES, make_engine, session_factory
+from storage.results import write_series_result
+from storage.runs import finish_run, record_progress, run_request, start_run
+from storage.series import load_series
 from tests.storage.conftest import BACKENDS, migrated_store
 
 if TYPE_CHECKING:

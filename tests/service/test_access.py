@@ -10,11 +10,11 @@ import pytest
 from fastapi.routing import APIRoute
 from sqlalchemy import select
 
-from service.access import GRANTS
-from service.app import ROUTERS
-from service.key_tokens import new_token, parse_token, secret_hash, secret_matches
-from storage.keys import revoke_key
-from storage.schema import ROLES, ApiKey
+from service.http.access import GRANTS
+from service.http.app import ROUTERS
+from service.usecases.key_tokens import new_token, parse_token, secret_hash, secret_matches
+from storage.access import revoke_key
+from storage.db import ROLES, ApiKey
 from tests.service.conftest import Api, copied_store, series_body, serving
 from tests.storage.builders import monthly_series
 

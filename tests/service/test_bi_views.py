@@ -14,10 +14,9 @@ from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ProgrammingError
 
 from backtest.candidates import parse_candidate
-from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from storage.bi_views import BI_VIEWS
-from storage.engine import make_engine
+from service.cli.main import main
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.db import BI_VIEWS, make_engine
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

@@ -11,8 +11,8 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import calibration_chart
-from service.charts.calibration import DODGE, binomial_range, one_step_misses
+from service.views.charts import calibration_chart
+from service.views.charts.calibration import DODGE, binomial_range, one_step_misses
 
 
 @pytest.fixture(scope="module")

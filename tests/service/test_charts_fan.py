@@ -11,7 +11,7 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import ForecastBands, fan_chart
+from service.views.charts import ForecastBands, fan_chart
 
 
 @pytest.fixture(scope="module")

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from backtest.ledger import Flag, MonitoringReport, RealisedPoint, expectation_from_folds, monitor
-from service.charts import render
-from service.charts.monitoring import (
+from service.views.charts import render
+from service.views.charts.monitoring import (
     COVERAGE_AXIS,
     EMPTY_MESSAGE,
     MASE_AXIS,

@@ -9,8 +9,8 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import score_by_horizon_chart
-from service.charts.style import BENCHMARK_LOOK, BLUE, CANDIDATE_LOOKS
+from service.views.charts import score_by_horizon_chart
+from service.views.charts.style import BENCHMARK_LOOK, BLUE, CANDIDATE_LOOKS
 
 
 @pytest.fixture(scope="module")

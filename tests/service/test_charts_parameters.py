@@ -10,8 +10,8 @@ from backtest.candidates import parse_candidates
 from backtest.demo import DEMO_CANDIDATES, demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import parameter_path_chart
-from service.charts.parameters import default_names, parameter_paths
+from service.views.charts import parameter_path_chart
+from service.views.charts.parameters import default_names, parameter_paths
 
 AIRLINE = DEMO_CANDIDATES[3]
 

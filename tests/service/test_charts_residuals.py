@@ -9,8 +9,8 @@ from backtest.candidates import parse_candidates
 from backtest.demo import demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.charts import residual_chart
-from service.charts.residuals import normal_quantiles
+from service.views.charts import residual_chart
+from service.views.charts.residuals import normal_quantiles
 
 
 @pytest.fixture(scope="module")

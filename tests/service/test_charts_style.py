@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 from matplotlib.colors import to_rgb
 
-from service.charts import ForecastBands, fan_chart, render
-from service.charts.style import (
+from service.views.charts import ForecastBands, fan_chart, render
+from service.views.charts.style import (
     BENCHMARK_LOOK,
     CANDIDATE_LOOKS,
     candidate_looks,

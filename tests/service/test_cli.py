@@ -11,7 +11,7 @@ import pytest
 from backtest.demo import demo_series
 from tests.conftest import BRACKETED_LABEL
 
-FOLDLINE = [sys.executable, "-m", "service.cli"]
+FOLDLINE = [sys.executable, "-m", "service.cli.main"]
 
 
 def _run(*args, cwd=None):

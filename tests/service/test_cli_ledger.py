@@ -11,10 +11,10 @@ import pytest
 
 from backtest.candidates import parse_candidate
 from backtest.series import make_series
-from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from storage.engine import make_engine, session_factory
-from storage.series_store import save_series_version
+from service.cli.main import main
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.db import make_engine, session_factory
+from storage.series import save_series_version
 from tests.service.conftest import copied_store
 from tests.storage.builders import ACTOR, monthly_series, run_and_store
 

@@ -19,8 +19,8 @@ import pytest
 
 from backtest.series import make_series
 from backtest.tidy import csv_cell, write_csv
-from service.cli import main
-from service.outcome_scoring import score_due_outcomes
+from service.cli.main import main
+from service.usecases.score_outcomes import score_due_outcomes
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 

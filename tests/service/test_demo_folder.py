@@ -9,9 +9,9 @@ from pathlib import Path
 
 import pytest
 
-from service.demo import MARKER, OutputFolderError, demo_folder
-from service.key_admin import issue_key
-from storage.engine import make_engine, session_factory
+from service.demo.run import MARKER, OutputFolderError, demo_folder
+from service.usecases.keys import issue_key
+from storage.db import make_engine, session_factory
 from tests.storage.conftest import migrated_store
 
 
@@ -31,7 +31,7 @@ def test_the_demo_refuses_a_real_stores_folder_and_leaves_it_as_it_was(tmp_path:
     before = _snapshot(folder)
     assert "foldline.db" in before
 
-    done = subprocess.run([sys.executable, "-m", "service.cli", "demo", "--out", str(folder)],
+    done = subprocess.run([sys.executable, "-m", "service.cli.main", "demo", "--out", str(folder)],
                           capture_output=True, text=True, timeout=60)
 
     assert done.returncode == 2, done.stdout

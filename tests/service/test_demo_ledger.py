@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from backtest.demo import demo_series
-from service.demo_ledger import MONTHS, later_actuals
+from service.demo.ledger import MONTHS, later_actuals
 
 
 def _continued(seed: int) -> dict[str, list[float]]:

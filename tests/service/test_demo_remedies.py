@@ -8,7 +8,7 @@ from backtest.candidates import parse_candidates
 from backtest.demo import COMBINED, DEMO_CANDIDATES, DEMO_PLAN, RECALIBRATED, demo_series
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.demo_remedies import remedy_lines
+from service.demo.remedies import remedy_lines
 
 
 def test_recalibration_moves_the_fleet_fuel_verdict_to_consistent():

@@ -14,9 +14,9 @@ import pytest
 from sqlalchemy import select
 
 from backtest.candidates import parse_candidate
-from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from storage.schema import SeriesRecord, SeriesVersion
+from service.cli.main import main
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.db import SeriesRecord, SeriesVersion
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

@@ -9,11 +9,11 @@ import io
 
 import pytest
 
-from service.cli import main
-from service.monitoring import monitor_series
-from service.outcome_scoring import score_due_outcomes
-from service.pages.ledger_section import ledger_section
-from service.pages.ledger_view import load_ledger
+from service.cli.main import main
+from service.usecases.monitoring import monitor_series
+from service.usecases.score_outcomes import score_due_outcomes
+from service.views.pages.ledger_section import ledger_section
+from service.views.pages.ledger_view import load_ledger
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 

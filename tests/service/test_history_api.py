@@ -6,8 +6,8 @@ from datetime import timedelta
 
 from sqlalchemy import text
 
-from storage.queries import score_history
-from storage.types import utc_now
+from storage.db import utc_now
+from storage.results import score_history
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 

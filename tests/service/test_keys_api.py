@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 from sqlalchemy import text
 
-from service.cli import main
+from service.cli.main import main
 from tests.service.conftest import Api
 from tests.storage.builders import drop_guards
 

@@ -11,9 +11,9 @@ import pytest
 from backtest.candidates import parse_candidate
 from backtest.ledger import issue_forecast
 from backtest.series import make_series
-from service.outcome_scoring import score_due_outcomes
-from storage.outcomes import due_outcomes
-from storage.series_store import find_version, load_series
+from service.usecases.score_outcomes import score_due_outcomes
+from storage.ledger import due_outcomes
+from storage.series.versions import find_version, load_series
 from tests.service.conftest import CANDIDATES, Api
 from tests.storage.builders import monthly_series
 

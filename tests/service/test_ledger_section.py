@@ -16,18 +16,17 @@ from sqlalchemy.orm import Session, sessionmaker
 from backtest.ledger import realised_mase, score_outcomes
 from backtest.parameter_names import readable
 from backtest.series import Series, make_series
-from service.monitoring import monitor_series
-from service.pages import ledger_view
-from service.pages.forecast_detail import forecast_detail, history_window
-from service.pages.forecast_view import load_forecast_page
-from service.pages.ledger_section import ledger_section
-from service.pages.ledger_view import load_ledger
-from service.pages.series_list import STATES, monitoring_state, series_list
-from service.report.numbers import fixed
-from storage.champions import choose_champion, current_champion
-from storage.engine import make_engine, session_factory
-from storage.outcomes import record_outcomes
-from storage.series_store import load_series, save_series_version
+from service.usecases.monitoring import monitor_series
+from service.views.pages import ledger_view
+from service.views.pages.forecast_detail import forecast_detail, history_window
+from service.views.pages.forecast_view import load_forecast_page
+from service.views.pages.ledger_section import ledger_section
+from service.views.pages.ledger_view import load_ledger
+from service.views.pages.series_list import STATES, monitoring_state, series_list
+from service.views.report.numbers import fixed
+from storage.db import make_engine, session_factory
+from storage.ledger import choose_champion, current_champion, record_outcomes
+from storage.series import load_series, save_series_version
 from tests.service.conftest import copied_store, serving
 from tests.storage.builders import (
     ACTOR,

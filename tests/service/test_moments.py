@@ -7,7 +7,7 @@ from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from service.cli import main
+from service.cli.main import main
 from service.errors import InvalidInputError
 from service.moments import point_in_time
 from tests.service.conftest import Api

@@ -10,7 +10,7 @@ import sys
 import time
 from pathlib import Path
 
-from service.demo import _free_port
+from service.demo.run import _free_port
 from storage.runs import get_run
 from tests.service.worker_helpers import (
     FAST,
@@ -90,7 +90,7 @@ def test_a_server_stopped_with_sigterm_leaves_no_pool_process(tmp_path: Path):
                     "FOLDLINE_PRERENDER_REPORTS": "false"})
         log = tmp_path / "serve.log"
         with log.open("w") as out:
-            server = subprocess.Popen([sys.executable, "-m", "service.cli", "serve"],
+            server = subprocess.Popen([sys.executable, "-m", "service.cli.main", "serve"],
                                       cwd=REPO, env=env, stdout=out, stderr=subprocess.STDOUT,
                                       start_new_session=True)
         try:

@@ -8,8 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from storage.migrate import upgrade
-from storage.status import head_revision
+from storage.db import head_revision, upgrade
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 

@@ -12,11 +12,9 @@ from sqlalchemy.orm import Session
 
 from backtest.ledger import score_outcomes
 from backtest.series import Series, make_series
-from storage.contents import outcomes_subject
-from storage.ledger import get_issued
-from storage.outcomes import current_outcomes, due_outcomes
-from storage.series_store import load_series, save_series_version
-from storage.verify import verify_audit_log
+from storage.audit import outcomes_subject, verify_audit_log
+from storage.ledger import current_outcomes, due_outcomes, get_issued
+from storage.series import load_series, save_series_version
 from tests.service.worker_helpers import ANALYST, events, sessions_on, wait_until, workers
 from tests.storage.builders import issue_and_record, monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store

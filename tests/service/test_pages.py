@@ -13,11 +13,11 @@ from pathlib import Path
 
 import pytest
 
-from service.cli import build_parser
-from service.pages.series_list import series_list
-from service.pages.session import COOKIE, session_value
-from storage.champions import choose_champion
-from storage.keys import revoke_key
+from service.cli.main import build_parser
+from service.views.pages.series_list import series_list
+from service.views.pages.session import COOKIE, session_value
+from storage.access import revoke_key
+from storage.ledger import choose_champion
 from tests.service.conftest import Api, copied_store, serving
 from tests.storage.builders import monthly_series
 

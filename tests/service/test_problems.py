@@ -9,9 +9,8 @@ from starlette.requests import Request
 
 from backtest import errors as backtest_errors
 from service import errors as service_errors
-from service.problems import PROBLEMS, _problem, kind_of, pointer
+from service.http.problems import PROBLEMS, _problem, kind_of, pointer
 from storage import errors as storage_errors
-from storage.queue import LeaseLostError
 from tests.service.conftest import Api
 
 BASES = [backtest_errors.BacktestError, storage_errors.StorageError, service_errors.ServiceError]
@@ -26,12 +25,24 @@ def _leaves(base: type[Exception]) -> list[type[Exception]]:
 
 @pytest.mark.parametrize("base", BASES, ids=lambda b: b.__name__)
 def test_every_error_class_has_its_own_entry(base):
-    # Leaves raised only between storage and a worker need no answer of their own.
-    internal = {LeaseLostError}
-    missing = [leaf for leaf in [base, *_leaves(base)]
-               if leaf not in PROBLEMS and leaf not in internal]
+    missing = [leaf for leaf in [base, *_leaves(base)] if leaf not in PROBLEMS]
 
     assert missing == []
+
+
+def test_every_error_class_lives_in_its_packages_errors_module():
+    modules = {leaf.__module__ for base in BASES for leaf in [base, *_leaves(base)]}
+
+    assert modules == {"backtest.errors", "storage.errors", "service.errors",
+                       "backtest.ledger.errors"}
+
+
+def test_one_code_per_client_mistake_across_every_family():
+    codes = [leaf.code for base in BASES for leaf in [base, *_leaves(base)]]
+    repeated = sorted({code for code in codes if codes.count(code) > 1})
+
+    assert repeated == []
+    assert {"invalid_candidate", "invalid_plan", "lease_lost"} <= set(codes)
 
 
 def test_errors_a_client_causes_are_4xx_and_only_the_servers_are_5xx():
@@ -44,12 +55,6 @@ def test_errors_a_client_causes_are_4xx_and_only_the_servers_are_5xx():
     assert {PROBLEMS[e].status for e in (storage_errors.StorageError,
                                          storage_errors.ConfigurationError, Exception)} == {500}
     assert PROBLEMS[storage_errors.StoreUnavailableError].status == 503
-
-
-def test_codes_are_distinct_within_each_family():
-    for base in BASES:
-        codes = [leaf.code for leaf in [base, *_leaves(base)]]
-        assert len(codes) == len(set(codes)), base
 
 
 def test_an_unmapped_subclass_is_answered_as_its_family():

@@ -15,11 +15,12 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.engine import run_backtest
 from backtest.results import SeriesResult
-from storage.contents import run_subject
-from storage.errors import ImmutableRecordError
-from storage.queue import (
+from storage.audit import run_subject, verify_audit_log
+from storage.errors import ImmutableRecordError, LeaseLostError
+from storage.results import completed_units
+from storage.runs import fail_run, get_run
+from storage.runs.queue import (
     Claim,
-    LeaseLostError,
     cancel_requester,
     claim_run,
     hold_lease,
@@ -27,10 +28,7 @@ from storage.queue import (
     request_cancel,
     write_unit,
 )
-from storage.results_store import completed_units
-from storage.runs import fail_run, get_run
-from storage.series_store import load_series
-from storage.verify import verify_audit_log
+from storage.series import load_series
 from tests.service.worker_helpers import FAST, FAST_PLAN, events, queue, sessions_on, some_series
 from tests.storage.conftest import BACKENDS, migrated_store
 

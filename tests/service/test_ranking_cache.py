@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from service.ranking_cache import RankingCache
+from service.http.ranking_cache import RankingCache
 
 
 def test_a_table_is_computed_once_per_generation():

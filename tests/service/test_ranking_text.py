@@ -6,7 +6,7 @@ from dataclasses import asdict
 
 from backtest.ranking import rank_candidates
 from backtest.scoring import score_candidate
-from service.terminal import ranking_table
+from service.cli.terminal import ranking_table
 from tests.backtest.test_ranking import FOLDS, INFOS, SCORES, _fold
 
 

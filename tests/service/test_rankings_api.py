@@ -11,7 +11,7 @@ from datetime import datetime
 import pytest
 
 from backtest.results import SeriesResult
-from storage.queries import ranked_candidates
+from storage.results.queries import ranked_candidates
 from tests.service.conftest import Api, serving
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store

@@ -8,7 +8,7 @@ import csv
 import io
 
 from backtest.tidy import RANKING_COLUMNS
-from service.terminal import ranking_table
+from service.cli.terminal import ranking_table
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 

@@ -15,12 +15,11 @@ from backtest.demo import DEMO_CANDIDATES, demo_series
 from backtest.diagnosis import full_series_diagnostics
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
-from service.cli import build_parser
-from service.cli_report import register
-from service.report import full_fit_residuals, load_report_inputs, render_run_report
-from service.report.selection import charted_candidates
-from storage.engine import make_engine, session_factory
-from storage.migrate import upgrade
+from service.cli.main import build_parser
+from service.cli.report import register
+from service.views.report import full_fit_residuals, load_report_inputs, render_run_report
+from service.views.report.selection import charted_candidates
+from storage.db import make_engine, session_factory, upgrade
 from tests.storage.builders import monthly_series, run_and_store
 
 AIRLINE = DEMO_CANDIDATES[3]  # log airline model: the Kalman residuals skip 13 periods

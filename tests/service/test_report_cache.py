@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from service.report.cache import ReportCache, cache_directory, renderer_digest, report_key
+from service.views.report.cache import ReportCache, cache_directory, renderer_digest, report_key
 from storage.runs import RunInfo
 
 RUN = RunInfo(id=7, plan_id="p" * 16, seed=0, requested_by="planner", idempotency_key=None,

@@ -5,11 +5,12 @@ from __future__ import annotations
 import pytest
 from sqlalchemy import func, select
 
-from backtest.candidates import parse_candidates
+from backtest.candidates import parse_candidate, parse_candidates
 from backtest.engine import planned_fold_count, run_backtest
 from backtest.plan import parse_plan
-from storage.queue import claim_run
-from storage.schema import AuditEvent, Run, SeriesResultRecord
+from storage.db import AuditEvent, Run, SeriesResultRecord
+from storage.runs import claim_run, run_request
+from storage.series import load_series
 from tests.service.conftest import Api
 from tests.storage.builders import monthly_series
 
@@ -39,6 +40,19 @@ def test_a_submission_is_queued_and_answered_202_with_its_url(two_series: Api):
     assert two_series.get("reader", run["url"]).json()["status"] == "queued"
 
 
+def test_folds_are_counted_once_at_submission_and_handed_to_the_worker(two_series: Api):
+    run = two_series.submit(["a", "b"]).json()
+
+    with two_series.sessions.begin() as session:
+        request = run_request(session, run["id"])
+        series = [load_series(session, v) for v in request.run.series_version_ids]
+    candidates = [parse_candidate(s) for s in request.candidate_specs]
+    plan = parse_plan(request.plan_body)
+    engine_counts = tuple(planned_fold_count([one], candidates, plan) for one in series)
+    assert request.unit_folds == engine_counts
+    assert run["progress"]["folds_total"] == sum(engine_counts) > 0
+
+
 def test_a_tag_selection_takes_every_series_with_the_tags(two_series: Api):
     two_series.post_series(monthly_series("c", seed=3), tags={"group": "y"})
     body = {"series": {"tags": {"group": "x"}}, "candidates": [{"family": "theta"}],
@@ -66,7 +80,7 @@ def test_a_retried_submission_with_the_same_key_returns_the_original_run(two_ser
 def test_idempotency_keys_belong_to_the_key_that_used_them(two_series: Api):
     mine = two_series.submit(["a"], headers={"Idempotency-Key": "k1"})
     with two_series.sessions.begin() as session:
-        from service.key_admin import issue_key
+        from service.usecases.keys import issue_key
         token = issue_key(session, name="other-submitter", role="submitter", actor="t")[1]
     body = {"series": {"keys": ["a"]}, "candidates": [{"family": "theta"}],
             "plan": {"horizon": 2}}
@@ -79,18 +93,18 @@ def test_idempotency_keys_belong_to_the_key_that_used_them(two_series: Api):
 
 @pytest.mark.parametrize(("candidates", "plan", "code", "pointer"), [
     ([{"family": "crystal_ball"}], {"horizon": 3}, "invalid_request", "/candidates/0/family"),
-    ([{"family": "arima", "order": [9, 0, 0]}], {"horizon": 3}, "invalid_candidate_spec",
+    ([{"family": "arima", "order": [9, 0, 0]}], {"horizon": 3}, "invalid_candidate",
      "/candidates/0"),
     ([{"family": "theta"}, {"family": "theta", "season": "test"}], {"horizon": 3},
-     "invalid_candidate_spec", "/candidates/1"),
-    ([{"family": "theta"}], {"horizon": 0}, "invalid_plan_spec", "/plan"),
-    ([{"family": "theta"}], {"horizon": 3, "frequency": "weekly"}, "invalid_plan_spec",
+     "invalid_candidate", "/candidates/1"),
+    ([{"family": "theta"}], {"horizon": 0}, "invalid_plan", "/plan"),
+    ([{"family": "theta"}], {"horizon": 3, "frequency": "weekly"}, "invalid_plan",
      "/plan"),
-    ([{"family": "theta"}], {"horizon": 40}, "invalid_plan_spec", "/plan"),
+    ([{"family": "theta"}], {"horizon": 40}, "invalid_plan", "/plan"),
     ([{"family": "theta"}], {"horizon": 3, "first_origin": {"period": "2001-01"}},
-     "invalid_plan_spec", "/plan"),
+     "invalid_plan", "/plan"),
     ([{"family": "ets", "season": "multiplicative"}], {"horizon": 3, "first_origin": {
-        "train_size": 5}}, "invalid_plan_spec", "/plan"),
+        "train_size": 5}}, "invalid_plan", "/plan"),
 ])
 def test_an_impossible_submission_is_refused_and_nothing_is_queued(two_series: Api, candidates,
                                                                    plan, code, pointer):

@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 import pytest
 
-from service.cli import main
+from service.cli.main import main
 from service.settings import get_settings
 
 

@@ -7,9 +7,8 @@ from pathlib import Path
 
 import pytest
 
-from storage.contents import run_subject, unit_subject
+from storage.audit import run_subject, unit_subject, verify_audit_log
 from storage.runs import get_run
-from storage.verify import verify_audit_log
 from tests.service.worker_helpers import (
     SLOW,
     SLOW_PLAN,

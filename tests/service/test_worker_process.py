@@ -6,11 +6,9 @@ import signal
 from pathlib import Path
 
 from backtest.engine import run_backtest
-from storage.contents import run_subject
-from storage.queue import claim_run, request_cancel
-from storage.results_store import completed_units, load_run_result
-from storage.runs import get_run
-from storage.verify import verify_audit_log
+from storage.audit import run_subject, verify_audit_log
+from storage.results import completed_units, load_run_result
+from storage.runs import claim_run, get_run, request_cancel
 from tests.service.worker_helpers import (
     FAST,
     FAST_PLAN,

@@ -12,16 +12,15 @@ from backtest.candidates import parse_candidates
 from backtest.engine import run_backtest
 from backtest.plan import parse_plan
 from backtest.series import make_series
-from service.jobs_request import StoredSpecError, stored_candidates, stored_plan
-from service.report.cache import ReportCache, report_key
-from service.report.prerender import prerender_report
-from service.report.stored import stored_run_report
 from service.settings import Settings
-from service.worker import Worker
-from storage.contents import run_subject
-from storage.results_store import load_run_result
+from service.views.report.cache import ReportCache, report_key
+from service.views.report.prerender import prerender_report
+from service.views.report.stored import stored_run_report
+from service.worker.loop import Worker
+from service.worker.queued_specs import StoredSpecError, stored_candidates, stored_plan
+from storage.audit import run_subject, verify_audit_log
+from storage.results import load_run_result
 from storage.runs import get_run
-from storage.verify import verify_audit_log
 from tests.service.worker_helpers import FAST, FAST_PLAN, events, queue, sessions_on, some_series
 from tests.storage.conftest import BACKENDS, migrated_store
 

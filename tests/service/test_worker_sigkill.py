@@ -10,10 +10,9 @@ from pathlib import Path
 import pytest
 
 from backtest.engine import run_backtest
-from storage.contents import run_subject, unit_subject
-from storage.results_store import completed_units, load_run_result
+from storage.audit import run_subject, unit_subject, verify_audit_log
+from storage.results import completed_units, load_run_result
 from storage.runs import get_run
-from storage.verify import verify_audit_log
 from tests.service.worker_helpers import (
     SLOW,
     SLOW_PLAN,

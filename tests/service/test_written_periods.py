@@ -12,9 +12,9 @@ import re
 
 import pytest
 
-from service.cli import main
-from service.outcome_scoring import score_due_outcomes
-from service.pages.session import COOKIE
+from service.cli.main import main
+from service.usecases.score_outcomes import score_due_outcomes
+from service.views.pages.session import COOKIE
 from tests.service.conftest import Api
 
 QUARTERS = [f"{2018 + i // 4}-Q{i % 4 + 1}" for i in range(20)]  # 2018-Q1 .. 2022-Q4

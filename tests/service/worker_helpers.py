@@ -1,7 +1,7 @@
 """Real inputs and real processes for the queue and worker tests.
 
 Runs are queued through the storage API on a migrated store; workers are ``python -m
-service.cli worker`` processes in their own process group (so their pool processes die
+service.cli.main worker`` processes in their own process group (so their pool processes die
 with them), configured only through ``FOLDLINE_*`` variables, logging to a file.
 """
 
@@ -23,10 +23,9 @@ from backtest.candidates import Candidate, parse_candidates
 from backtest.plan import Plan, parse_plan
 from backtest.series import Series
 from storage.audit import AuditEntry, entry_of
-from storage.engine import make_engine, session_factory
+from storage.db import AuditEvent, make_engine, session_factory
 from storage.runs import queue_run
-from storage.schema import AuditEvent
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import monthly_series
 
 REPO = Path(__file__).resolve().parents[2]
@@ -98,7 +97,7 @@ class WorkerProcess:
         self.log = log
         with log.open("w") as out:
             self.process = subprocess.Popen(
-                [sys.executable, "-m", "service.cli", "worker"], cwd=REPO, env=env,
+                [sys.executable, "-m", "service.cli.main", "worker"], cwd=REPO, env=env,
                 stdout=out, stderr=subprocess.STDOUT, start_new_session=True)
 
     def wait_ready(self) -> None:

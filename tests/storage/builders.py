@@ -16,9 +16,9 @@ from backtest.plan import Plan, parse_plan
 from backtest.results import BacktestResult
 from backtest.series import Series, make_series
 from storage.ledger import IssuedRecord, record_issued_forecast
-from storage.results_store import write_series_result
+from storage.results import write_series_result
 from storage.runs import finish_run, queue_run, start_run
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 
 ACTOR = "analyst@example.org"
 

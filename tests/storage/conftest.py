@@ -21,8 +21,7 @@ from sqlalchemy.engine import make_url
 from sqlalchemy.exc import OperationalError
 from sqlalchemy.orm import Session
 
-from storage.engine import make_engine, session_factory
-from storage.migrate import upgrade
+from storage.db import make_engine, session_factory, upgrade
 
 SERVER_URL = os.environ.get("FOLDLINE_TEST_POSTGRES_URL",
                             "postgresql+psycopg://postgres@127.0.0.1:5432/test")

@@ -13,10 +13,9 @@ import pytest
 from sqlalchemy import select, text
 from sqlalchemy.orm import Session
 
-from storage.audit import GENESIS_HASH
-from storage.queries import audit_events_between
-from storage.schema import AuditEvent
-from storage.verify import verify_audit_log
+from storage.audit import audit_page, verify_audit_log
+from storage.audit.log import GENESIS_HASH
+from storage.db import AuditEvent
 from tests.storage.builders import monthly_series, run_and_store
 
 
@@ -143,9 +142,9 @@ def test_events_in_a_time_range(session: Session):
     events = session.scalars(select(AuditEvent).order_by(AuditEvent.seq)).all()
     start, end = events[3].occurred_at, events[-2].occurred_at
 
-    between = audit_events_between(session, start, end)
+    between = audit_page(session, start=start, end=end)
 
     expected = [e.seq for e in events if start <= e.occurred_at < end]
     assert [e.seq for e in between] == expected
     assert 0 < len(between) < len(events)
-    assert audit_events_between(session, end + timedelta(days=1), end + timedelta(days=2)) == []
+    assert audit_page(session, start=end + timedelta(days=1), end=end + timedelta(days=2)) == []

@@ -8,16 +8,16 @@ from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
-from storage.catalog import register_candidate
-from storage.champions import (
+from storage.audit import verify_audit_log
+from storage.db import AuditEvent, ChampionChoiceRecord
+from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
+from storage.ledger import (
     champion_history,
     choose_champion,
     current_champion,
     current_champions,
 )
-from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
-from storage.schema import AuditEvent, ChampionChoiceRecord
-from storage.verify import verify_audit_log
+from storage.specs import register_candidate
 from tests.storage.builders import (
     ACTOR,
     benchmark_candidates,

@@ -11,11 +11,10 @@ import pytest
 from sqlalchemy import select, text
 
 from service.settings import get_settings
-from storage.audit import event_hash
-from storage.contents import stored_digest
-from storage.engine import make_engine, session_factory
-from storage.keys import create_key
-from storage.schema import AuditEvent
+from storage.access import create_key
+from storage.audit.contents import stored_digest
+from storage.audit.log import event_hash
+from storage.db import AuditEvent, make_engine, session_factory
 from tests.storage.builders import drop_guards, monthly_series, run_and_store
 from tests.storage.test_cli_db import _run
 

@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 from sqlalchemy import inspect, text
 
-from service.cli_db import register
-from storage.engine import URL_SETTING, make_engine, session_factory
+from service.cli.db import register
+from storage.db import URL_SETTING, make_engine, session_factory
 from tests.storage.builders import monthly_series, run_and_store
 
 

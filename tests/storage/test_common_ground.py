@@ -9,10 +9,9 @@ from sqlalchemy.orm import Session
 from backtest.engine import run_backtest
 from backtest.ranking import rank_candidates
 from backtest.scoring import score_candidate
-from storage.result_tables import rank_table
-from storage.results_store import load_series_result, write_series_result
+from storage.results import load_series_result, rank_table, write_series_result
 from storage.runs import finish_run, queue_run, start_run
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, benchmark_candidates, monthly_series, small_plan
 
 

@@ -7,7 +7,7 @@ from datetime import UTC, datetime
 from backtest.candidates import parse_candidates
 from backtest.cost import estimate_cost
 from backtest.engine import run_backtest
-from storage.result_rows import unit_rows
+from storage.results.rows import unit_rows
 from tests.storage.builders import benchmark_candidates, monthly_series, small_plan
 
 

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 from sqlalchemy import text
 
-from storage.engine import (
+from storage.db import (
     URL_SETTING,
     database_url,
     default_sqlite_path,
@@ -79,7 +79,8 @@ def test_bad_urls_and_unreachable_servers_become_storage_errors():
 
 
 def test_importing_storage_builds_no_engine_and_no_service(tmp_path: Path):
-    code = ("import sys, storage.engine, storage.queries, storage.verify, storage.migrate\n"
+    code = ("import sys, storage.db.connection, storage.results.queries, storage.audit.verify,"
+            " storage.db.migrate\n"
             "print(','.join(m for m in ('service', 'fastapi') if m in sys.modules))")
     env = {"XDG_DATA_HOME": str(tmp_path), "PATH": ""}
 

@@ -8,7 +8,7 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from storage import errors
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, monthly_series
 
 LEAVES = [errors.NotFoundError, errors.ConflictError, errors.ImmutableRecordError,

@@ -7,10 +7,10 @@ from sqlalchemy import select, text
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
+from storage.db import Run, SeriesVersion
 from storage.errors import IMMUTABLE_MARKER, ImmutableRecordError, translate
 from storage.runs import fail_run, queue_run
-from storage.schema import Run, SeriesVersion
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import (
     ACTOR,
     benchmark_candidates,

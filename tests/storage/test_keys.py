@@ -7,10 +7,10 @@ from sqlalchemy import select, text
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
+from storage.access import create_key, find_credentials, list_keys, revoke_key
+from storage.audit import verify_audit_log
+from storage.db import AuditEvent
 from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
-from storage.keys import create_key, find_credentials, list_keys, revoke_key
-from storage.schema import AuditEvent
-from storage.verify import verify_audit_log
 from tests.storage.builders import drop_guards
 
 HASH = "ab" * 32

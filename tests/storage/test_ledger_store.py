@@ -15,8 +15,17 @@ from sqlalchemy.orm import Session
 
 from backtest.candidates import parse_candidate
 from backtest.ledger import IssuedForecast, issue_forecast
-from storage.bulk import FAST_MIN_ROWS
-from storage.engine import make_engine, session_factory
+from storage.audit import verify_audit_log
+from storage.db import (
+    AuditEvent,
+    CandidateRecord,
+    IssuedBound,
+    IssuedForecastRecord,
+    make_engine,
+    session_factory,
+    take_write_lock,
+)
+from storage.db.bulk import FAST_MIN_ROWS
 from storage.errors import (
     IMMUTABLE_MARKER,
     ConflictError,
@@ -24,11 +33,8 @@ from storage.errors import (
     NotFoundError,
 )
 from storage.ledger import IssuedRecord, get_issued, list_issued, record_issued_forecast
-from storage.ledger_rows import bound_rows
-from storage.schema import AuditEvent, CandidateRecord, IssuedBound, IssuedForecastRecord
-from storage.series_store import save_series_version
-from storage.verify import verify_audit_log
-from storage.write_lock import take_write_lock
+from storage.ledger.rows import bound_rows
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, drop_guards, issue_and_record, monthly_series
 
 THETA = parse_candidate({"family": "theta", "season": "always"})

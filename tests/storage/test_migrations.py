@@ -7,8 +7,8 @@ from alembic.migration import MigrationContext
 from alembic.script import ScriptDirectory
 from sqlalchemy import Column, Engine, Integer, MetaData, Table
 
-from storage.migrate import alembic_config, upgrade
-from storage.schema import Base
+from storage.db import Base
+from storage.db.migrate import alembic_config, upgrade
 
 
 def _differences(engine: Engine, metadata: MetaData) -> list:

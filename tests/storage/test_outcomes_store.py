@@ -14,20 +14,26 @@ from sqlalchemy.orm import Session
 
 from backtest.ledger import Outcome, score_outcomes
 from backtest.series import Series, make_series
-from storage.engine import make_engine, session_factory
+from storage.audit import verify_audit_log
+from storage.db import (
+    AuditEvent,
+    OutcomeLevel,
+    OutcomeRecord,
+    OutcomeSetRecord,
+    make_engine,
+    session_factory,
+    take_write_lock,
+)
 from storage.errors import IMMUTABLE_MARKER, ConflictError, NotFoundError
-from storage.ledger import IssuedRecord
-from storage.outcomes import (
+from storage.ledger import (
+    IssuedRecord,
     current_outcomes,
     due_outcomes,
     issued_with_outcomes,
     outcome_sets,
     record_outcomes,
 )
-from storage.schema import AuditEvent, OutcomeLevel, OutcomeRecord, OutcomeSetRecord
-from storage.series_store import save_series_version
-from storage.verify import verify_audit_log
-from storage.write_lock import take_write_lock
+from storage.series import save_series_version
 from tests.storage.builders import ACTOR, drop_guards, issue_and_record, monthly_series
 
 KEY = "sales/north"

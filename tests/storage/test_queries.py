@@ -6,14 +6,13 @@ import pytest
 from sqlalchemy.orm import Session
 
 from backtest.results import BacktestResult
-from storage.queries import (
+from storage.results.queries import (
     latest_successful_run,
     latest_successful_runs,
     ranked_candidates,
-    runs_using_version,
     score_history,
 )
-from storage.runs import fail_run, get_run, queue_run
+from storage.runs import fail_run, get_run, queue_run, runs_using_version
 from tests.storage.builders import (
     ACTOR,
     benchmark_candidates,

@@ -10,8 +10,8 @@ from __future__ import annotations
 from sqlalchemy import create_engine, event
 from sqlalchemy.orm import Session
 
-from storage.migrate import upgrade
-from storage.rankings import ranking_table
+from storage.db import upgrade
+from storage.results import ranking_table
 
 
 def test_ranking_plan_uses_the_unit_and_score_indexes(tmp_path):

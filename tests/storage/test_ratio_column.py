@@ -11,9 +11,9 @@ from alembic import command
 from sqlalchemy import inspect, text
 from sqlalchemy.exc import DBAPIError
 
-from storage.engine import make_engine, session_factory
-from storage.migrate import alembic_config, upgrade
-from storage.verify import verify_audit_log
+from storage.audit import verify_audit_log
+from storage.db import make_engine, session_factory
+from storage.db.migrate import alembic_config, upgrade
 from tests.storage.builders import monthly_series, run_and_store
 from tests.storage.conftest import BACKENDS, migrated_store
 

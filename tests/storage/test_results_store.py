@@ -12,10 +12,10 @@ from sqlalchemy.orm import Session
 
 from backtest.engine import run_backtest
 from backtest.results import FoldResult, RankRow, Score, SeriesResult
-from storage.contents import UNIT_TABLES
-from storage.engine import make_engine, session_factory
+from storage.audit import UNIT_TABLES
+from storage.db import ForecastRecord, make_engine, session_factory
 from storage.errors import ConflictError, ImmutableRecordError
-from storage.results_store import (
+from storage.results import (
     completed_units,
     load_candidate_folds,
     load_series_result,
@@ -23,8 +23,7 @@ from storage.results_store import (
     write_series_result,
 )
 from storage.runs import finish_run, get_run, queue_run, start_run
-from storage.schema import ForecastRecord
-from storage.series_store import save_series_version
+from storage.series import save_series_version
 from tests.storage.builders import (
     ACTOR,
     benchmark_candidates,
@@ -175,8 +174,8 @@ def test_digests_of_rows_written_before_the_convergence_columns_still_verify():
     """Migration 0006_h14a added ``fold_result.converged`` and
     ``rank_row.folds_not_converged``; a row holding the value older rows read back digests
     as it did without the column, and any other value changes the digest."""
-    from storage.digest import table_digest
-    from storage.schema import FoldRecord, RankRecord
+    from storage.audit.digest import table_digest
+    from storage.db import FoldRecord, RankRecord
 
     for table, column, old, new in ((FoldRecord.__table__, "converged", None, False),
                                     (RankRecord.__table__, "folds_not_converged", 0, 2)):

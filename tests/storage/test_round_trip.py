@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from sqlalchemy.orm import Session
 
-from storage.results_store import load_run_result, load_series_result
+from storage.results import load_run_result, load_series_result
 from tests.storage.builders import monthly_series, run_and_store
 
 

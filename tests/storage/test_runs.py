@@ -5,10 +5,17 @@ from __future__ import annotations
 import pytest
 from sqlalchemy.orm import Session
 
-from storage.catalog import plan_id_of
 from storage.errors import ConflictError, ImmutableRecordError, NotFoundError
-from storage.runs import fail_run, finish_run, get_run, queue_run, record_progress, start_run
-from storage.series_store import save_series_version
+from storage.runs import (
+    fail_run,
+    finish_run,
+    get_run,
+    queue_run,
+    record_progress,
+    start_run,
+)
+from storage.series import save_series_version
+from storage.specs import plan_id_of
 from tests.storage.builders import ACTOR, benchmark_candidates, monthly_series, small_plan
 
 

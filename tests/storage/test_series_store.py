@@ -8,7 +8,7 @@ from sqlalchemy.orm import Session
 
 from backtest.series import make_series
 from storage.errors import ConflictError, NotFoundError
-from storage.series_store import (
+from storage.series.versions import (
     find_version,
     get_version,
     list_versions,

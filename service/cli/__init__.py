@@ -1,0 +1,1 @@
+"""service.cli.main."""

@@ -1,0 +1,162 @@
+"""Command-line subcommands for the store: ``db upgrade``, ``db bi-reader``, ``audit verify``
+and ``audit checkpoint``.
+
+:func:`register` adds them to the main parser's subparsers; each sets ``handler`` to a
+function ``handler(args) -> int`` returning the exit code: 0 done, 1 the audit found a
+problem, 2 an error (reported on one line of stderr).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from sqlalchemy.engine import make_url
+
+from service.settings import InvalidSettingsError, checked_settings
+from storage.audit import (
+    CheckpointError,
+    extends,
+    make_checkpoint,
+    read_checkpoint,
+    verify_audit_log,
+)
+from storage.db import (
+    BI_VIEWS,
+    URL_SETTING,
+    database_url,
+    grant_bi_reader,
+    make_engine,
+    session_factory,
+    upgrade,
+)
+from storage.errors import StorageError
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    """Add the ``db`` and ``audit`` command groups."""
+    db = subparsers.add_parser("db", help="manage the Foldline database")
+    db_commands = db.add_subparsers(dest="db_command", required=True, metavar="COMMAND")
+    upgrade_parser = db_commands.add_parser("upgrade", help="apply the schema migrations")
+    _add_url_option(upgrade_parser)
+    upgrade_parser.set_defaults(handler=db_upgrade)
+    reader_parser = db_commands.add_parser(
+        "bi-reader", help="let a PostgreSQL role read the BI views and nothing else")
+    reader_parser.add_argument("role", metavar="ROLE", help="created without login if missing")
+    _add_url_option(reader_parser)
+    reader_parser.set_defaults(handler=db_bi_reader)
+
+    audit = subparsers.add_parser("audit", help="check the audit trail")
+    audit_commands = audit.add_subparsers(dest="audit_command", required=True,
+                                          metavar="COMMAND")
+    verify_parser = audit_commands.add_parser(
+        "verify", help="verify the audit log's hash chain and the content it vouches for")
+    verify_parser.add_argument("--checkpoint", metavar="FILE",
+                               help="also prove the store extends this signed checkpoint "
+                                    "(needs FOLDLINE_AUDIT_KEY)")
+    _add_url_option(verify_parser)
+    verify_parser.set_defaults(handler=audit_verify)
+    checkpoint_parser = audit_commands.add_parser(
+        "checkpoint", help="print the signed head of the audit chain (JSON) to keep elsewhere")
+    _add_url_option(checkpoint_parser)
+    checkpoint_parser.set_defaults(handler=audit_checkpoint)
+
+
+def db_upgrade(args: argparse.Namespace) -> int:
+    """Apply the migrations to the store; print where."""
+    url = args.database_url or database_url()
+    try:
+        upgrade(url)
+    except StorageError as exc:
+        return _error(exc)
+    print(f"database {_shown(url)} is at the latest schema")
+    return 0
+
+
+def db_bi_reader(args: argparse.Namespace) -> int:
+    """Grant a role SELECT on the BI views (PostgreSQL); print what was done."""
+    url = args.database_url or database_url()
+    try:
+        engine = make_engine(url)
+        try:
+            with session_factory(engine).begin() as session:
+                created = grant_bi_reader(session, args.role)
+        finally:
+            engine.dispose()
+    except StorageError as exc:
+        return _error(exc)
+    done = "created without login; it" if created else "already existed; it"
+    print(f"role {args.role} {done} may read {', '.join(BI_VIEWS)} in {_shown(url)} and "
+          "nothing else")
+    return 0
+
+
+def audit_verify(args: argparse.Namespace) -> int:
+    """Verify the audit log; print OK and the events checked, or the first broken link.
+    With ``--checkpoint``, the store must also still hold the checkpoint's head."""
+    url = args.database_url or database_url()
+    try:
+        checkpoint = None
+        if args.checkpoint is not None:
+            checkpoint = read_checkpoint(Path(args.checkpoint).read_text(), _audit_key())
+        engine = make_engine(url)
+        try:
+            with session_factory(engine).begin() as session:
+                report = verify_audit_log(session)
+                cut = extends(session, checkpoint) if checkpoint is not None else None
+        finally:
+            engine.dispose()
+    except (StorageError, CheckpointError, OSError, InvalidSettingsError) as exc:
+        return _error(exc)
+    if cut is not None:
+        print(f"BROKEN against the checkpoint: {cut}")
+        return 1
+    if report.ok:
+        print(f"OK: {report.events_checked} events checked, head {report.head_hash}")
+        return 0
+    where = f"event {report.broken_at}" if report.broken_at is not None else "stored records"
+    print(f"BROKEN at {where}: {report.problem} "
+          f"({report.events_checked} events verified before it)")
+    return 1
+
+
+def audit_checkpoint(args: argparse.Namespace) -> int:
+    """Print the signed head of the chain as one line of JSON."""
+    url = args.database_url or database_url()
+    try:
+        key = _audit_key()
+        engine = make_engine(url)
+        try:
+            with session_factory(engine).begin() as session:
+                checkpoint = make_checkpoint(session, key)
+        finally:
+            engine.dispose()
+    except (StorageError, InvalidSettingsError) as exc:
+        return _error(exc)
+    print(checkpoint.to_json())
+    return 0
+
+
+def _audit_key() -> bytes:
+    key = checked_settings().audit_key
+    if key is None:
+        raise InvalidSettingsError("FOLDLINE_AUDIT_KEY is not set: checkpoints are signed "
+                                   "with it")
+    return key.encode()
+
+
+def _add_url_option(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--database-url", metavar="URL",
+                        help=f"SQLAlchemy URL of the store (default: ${URL_SETTING}, "
+                             "else the SQLite file in $XDG_DATA_HOME/foldline)")
+
+
+def _error(exc: Exception) -> int:
+    message = " ".join(str(exc).split())
+    print(f"foldline: error: {message}", file=sys.stderr)
+    return 2
+
+
+def _shown(url: str) -> str:
+    return make_url(url).render_as_string(hide_password=True)

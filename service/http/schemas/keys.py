@@ -1,0 +1,46 @@
+"""API keys as the admin routes show them; the secret appears only in the creation answer."""
+
+from __future__ import annotations
+
+from datetime import datetime
+from typing import Annotated, Literal
+
+from pydantic import BaseModel, Field, StringConstraints
+
+from service.http.schemas.common import Strict
+from service.usecases.keys import KEY_NAME, ROLES
+
+Role = Literal[ROLES]  # type: ignore[valid-type]
+KeyName = Annotated[str, StringConstraints(pattern=f"^{KEY_NAME.pattern}$")]
+
+
+class KeyIn(Strict):
+    """A key to create: who holds it (names appear in the audit log) and their role."""
+
+    name: KeyName = Field(examples=["bi-dashboard"])
+    role: Role
+
+
+class KeyOut(BaseModel):
+    """A key, without its secret."""
+
+    id: str
+    name: str
+    role: Role
+    created_at: datetime
+    created_by: str
+    revoked_at: datetime | None
+    revoked_by: str | None
+
+
+class KeyCreatedOut(BaseModel):
+    """A new key. ``token`` is shown this once; only its hash is stored."""
+
+    key: KeyOut
+    token: str = Field(description="send as 'Authorization: Bearer <token>'")
+
+
+class KeyList(BaseModel):
+    """Every key, revoked ones included, oldest first."""
+
+    items: list[KeyOut]

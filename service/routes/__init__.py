@@ -1,1 +1,0 @@
-"""The HTTP API's routers, one module per resource; :mod:`service.app` includes them."""
