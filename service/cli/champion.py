@@ -8,10 +8,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.cli.ledger_text import champion_lines, suggestion_lines
 from service.cli.store import add_store_option, operator, run_in_store
-from service.usecases.champions import choose, suggestions
-from service.usecases.transactions import write
-from storage.ledger import champion_history, current_champion
-from storage.series import get_series
+from service.usecases import champions
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -40,18 +37,16 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def champion_set(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        choice = write(sessions, lambda session: choose(
-            session, series_key=args.series, candidate_id=args.candidate, run_id=args.run,
-            reason=args.reason, actor=operator()))
+        choice = champions.choose(sessions, series_key=args.series,
+                                  candidate_id=args.candidate, run_id=args.run,
+                                  reason=args.reason, actor=operator())
         return "\n".join(champion_lines([choice]))
     return run_in_store(args, work)
 
 
 def champion_show(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        with sessions.begin() as session:
-            get_series(session, args.series)
-            choice = current_champion(session, args.series)
+        choice = champions.champion_of(sessions, args.series)
         return "\n".join(champion_lines([choice])) if choice else \
             f"series {args.series} has no champion"
     return run_in_store(args, work)
@@ -59,14 +54,11 @@ def champion_show(args: argparse.Namespace) -> int:
 
 def champion_history_command(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        with sessions.begin() as session:
-            get_series(session, args.series)
-            return "\n".join(champion_lines(champion_history(session, args.series)))
+        return "\n".join(champion_lines(champions.champion_choices(sessions, args.series)))
     return run_in_store(args, work)
 
 
 def champion_suggest(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        with sessions.begin() as session:
-            return "\n".join(suggestion_lines(suggestions(session, args.run_id)))
+        return "\n".join(suggestion_lines(champions.suggestions(sessions, args.run_id)))
     return run_in_store(args, work)

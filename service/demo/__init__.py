@@ -1,1 +1,2 @@
-"""service.demo.run."""
+"""``foldline demo``: the invented scenario, end to end through the service.
+"""

@@ -1,4 +1,5 @@
-"""Choosing a series' champion, and the champions a run suggests.
+"""Choosing a series' champion, reading champions and their history (as they stood at a
+point in time), and the champions a run suggests.
 
 A choice names the succeeded run that justified it, which must have backtested the
 candidate on the series. A run suggests, per series, its best-ranked candidate among those
@@ -9,12 +10,20 @@ person confirms a suggestion by choosing it.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import datetime
 
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
 from service.errors import FieldError, InvalidInputError
+from service.usecases.transactions import write
 from storage.errors import NotFoundError
-from storage.ledger import ChampionChoice, choose_champion, current_champions
+from storage.ledger import (
+    ChampionChoice,
+    champion_history,
+    choose_champion,
+    current_champion,
+    current_champions,
+)
 from storage.results import rank_table
 from storage.runs import get_run, run_versions
 from storage.series import get_series
@@ -36,17 +45,49 @@ class Suggestion:
     current_champion: str | None
 
 
-def choose(session: Session, *, series_key: str, candidate_id: str, run_id: int, reason: str,
-           actor: str) -> ChampionChoice:
+def choose(sessions: sessionmaker[Session], *, series_key: str, candidate_id: str, run_id: int,
+           reason: str, actor: str) -> ChampionChoice:
     """Record ``candidate_id`` as the series' champion, justified by run ``run_id``."""
-    get_series(session, series_key)
-    _check_justified(session, series_key, run_id)
-    return choose_champion(session, series_key=series_key, candidate_id=candidate_id,
-                           run_id=run_id, reason=reason, actor=actor)
+    def record(session: Session) -> ChampionChoice:
+        get_series(session, series_key)
+        _check_justified(session, series_key, run_id)
+        return choose_champion(session, series_key=series_key, candidate_id=candidate_id,
+                               run_id=run_id, reason=reason, actor=actor)
+
+    return write(sessions, record)
 
 
-def suggestions(session: Session, run_id: int) -> list[Suggestion]:
+def champion_of(sessions: sessionmaker[Session], series_key: str,
+                as_of: datetime | None = None) -> ChampionChoice | None:
+    """The series' champion now, or the one in force at ``as_of`` (``None`` if none was
+    chosen by then)."""
+    with sessions.begin() as session:
+        get_series(session, series_key)
+        return current_champion(session, series_key, as_of)
+
+
+def champion_choices(sessions: sessionmaker[Session], series_key: str,
+                     as_of: datetime | None = None) -> list[ChampionChoice]:
+    """Every champion choice of the series (made by ``as_of``), oldest first."""
+    with sessions.begin() as session:
+        get_series(session, series_key)
+        return champion_history(session, series_key, as_of)
+
+
+def all_champions(sessions: sessionmaker[Session],
+                  as_of: datetime | None = None) -> dict[str, ChampionChoice]:
+    """Every series' champion (in force at ``as_of``), by series key."""
+    with sessions.begin() as session:
+        return current_champions(session, as_of)
+
+
+def suggestions(sessions: sessionmaker[Session], run_id: int) -> list[Suggestion]:
     """Per series of a run, in its order: the candidate the run suggests as champion."""
+    with sessions.begin() as session:
+        return _suggestions(session, run_id)
+
+
+def _suggestions(session: Session, run_id: int) -> list[Suggestion]:
     get_run(session, run_id)
     champions = current_champions(session)
     by_series: dict[str, list[dict]] = {}

@@ -1,1 +1,2 @@
-"""service.worker.loop."""
+"""The job worker: claiming queued runs, computing each under a lease, storing each unit.
+"""

@@ -1,4 +1,4 @@
-"""Finding runs and what they used: by idempotency key, by filters (the run listing), by the
+"""Finding runs and what they used: by filters (the run listing), by the
 series version they asked for, the series versions and the candidates' labels of a run."""
 
 from __future__ import annotations
@@ -21,13 +21,6 @@ from storage.db import (
 from storage.errors import translates_errors
 from storage.runs.lifecycle import RunInfo, get_run
 from storage.series import VersionInfo, version_info
-
-
-@translates_errors
-def run_with_idempotency_key(session: Session, key: str) -> RunInfo | None:
-    """The run queued with this idempotency key, if any."""
-    run_id = session.scalar(select(Run.id).where(Run.idempotency_key == key))
-    return None if run_id is None else get_run(session, run_id)
 
 
 @translates_errors

@@ -6,7 +6,6 @@ from __future__ import annotations
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Request, Response
-from sqlalchemy.orm import Session
 
 from service.http.access import Caller, require
 from service.http.app_state import Sessions
@@ -33,12 +32,9 @@ from service.http.tables import (
     next_link,
 )
 from service.moments import point_in_time
-from service.usecases.champions import choose, suggestions
-from service.usecases.transactions import write
+from service.usecases import champions
 from service.views.ledger_answers import champion_row
 from storage.errors import NotFoundError
-from storage.ledger import champion_history, current_champion, current_champions
-from storage.series import get_series
 
 router = APIRouter(prefix="/v1", tags=["champions"])
 Writer = Annotated[Caller, Depends(require("write"))]
@@ -57,11 +53,9 @@ def choose_champion(key: str, body: ChampionIn, response: Response, caller: Writ
                     sessions: Sessions) -> ChampionRow:
     """Choose a candidate as the series' champion, naming the succeeded run that
     backtested it and why; it joins the series' champion history (201)."""
-    def store(session: Session) -> ChampionRow:
-        return champion_row(choose(session, series_key=key, candidate_id=body.candidate_id,
-                                   run_id=body.run_id, reason=body.reason, actor=caller.name))
-
-    answer = write(sessions, store)
+    answer = champion_row(champions.choose(sessions, series_key=key,
+                                           candidate_id=body.candidate_id, run_id=body.run_id,
+                                           reason=body.reason, actor=caller.name))
     response.headers["Location"] = champion_url(key)
     return answer
 
@@ -75,9 +69,7 @@ def read_champion_history(key: str, request: Request, caller: Reader, sessions: 
     what, when and why."""
     chosen = chosen_format(request, output)
     moment = point_in_time("as_of", as_of, day_end=True)
-    with sessions.begin() as session:
-        get_series(session, key)
-        rows = [champion_row(c) for c in champion_history(session, key, moment)]
+    rows = [champion_row(c) for c in champions.champion_choices(sessions, key, moment)]
     if chosen == "csv":
         return csv_response((r.model_dump() for r in rows), columns(ChampionRow), None)
     return ChampionHistory(series_key=key, items=rows, next=None)
@@ -90,9 +82,7 @@ def read_champion(key: str, caller: Reader, sessions: Sessions,
     """The series' current champion, or the one in force at ``as_of`` (404 if none was
     chosen by then)."""
     moment = point_in_time("as_of", as_of, day_end=True)
-    with sessions.begin() as session:
-        get_series(session, key)
-        choice = current_champion(session, key, moment)
+    choice = champions.champion_of(sessions, key, moment)
     if choice is None:
         raise NotFoundError(f"series {key!r} has no champion yet" if moment is None else
                             f"series {key!r} had no champion at {moment.isoformat()}")
@@ -109,8 +99,7 @@ def list_champions(request: Request, response: Response, caller: Reader, session
     ``as_of``), by series key."""
     chosen = chosen_format(request, output)
     moment = point_in_time("as_of", as_of, day_end=True)
-    with sessions.begin() as session:
-        found = current_champions(session, moment)
+    found = champions.all_champions(sessions, moment)
     keys = sorted(found)[offset:offset + limit + 1]
     link = next_link(request, offset, limit, len(keys) > limit)
     rows = [champion_row(found[key]) for key in keys[:limit]]
@@ -128,8 +117,7 @@ def run_champion_suggestions(run_id: Id, request: Request, caller: Reader, sessi
     """Per series of the run, the candidate it suggests as champion: the best-ranked in the
     model confidence set. Confirm one by posting it to the series' champion."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        rows = [SuggestionRow(**vars(s)) for s in suggestions(session, run_id)]
+    rows = [SuggestionRow(**vars(s)) for s in champions.suggestions(sessions, run_id)]
     if chosen == "csv":
         return csv_response((r.model_dump() for r in rows), columns(SuggestionRow), None)
     return SuggestionPage(items=rows, next=None)
