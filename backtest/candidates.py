@@ -80,10 +80,10 @@ def parse_candidates(bodies: Iterable[object]) -> tuple[Candidate, ...]:
         try:
             candidate = parse_candidate(body)
         except CandidateError as exc:
-            raise CandidateError(f"candidate {position}: {exc}") from None
+            raise CandidateError(f"candidate {position}: {exc}", position=position) from None
         if any(c.id == candidate.id for c in out):
             raise CandidateError(f"candidate {position} repeats an earlier candidate "
-                                 f"({candidate.canonical_json})")
+                                 f"({candidate.canonical_json})", position=position)
         out.append(candidate)
     if not out:
         raise CandidateError("the candidate list is empty")

@@ -49,9 +49,14 @@ class TooManySeriesError(SeriesError):
 
 
 class CandidateError(BacktestError):
-    """A candidate model specification is malformed or impossible."""
+    """A candidate model specification is malformed or impossible; ``position`` is its place
+    in a list of candidates, counting from 1, when one was given."""
 
     code = "invalid_candidate"
+
+    def __init__(self, message: str, *, position: int | None = None) -> None:
+        super().__init__(message)
+        self.position = position
 
 
 class PlanError(BacktestError):

@@ -10,15 +10,21 @@ Accepted period labels
 - month-based: ``YYYY-MM`` or ``YYYY-MM-01``; ``P3M`` also takes ``YYYY-Qn``; ``P1Y``
   also takes ``YYYY``.
 
-Canonical labels written back are ``YYYY-MM-DD`` (day-based), ``YYYY-MM`` (month-based
-other than yearly) and ``YYYY`` (yearly).
+Labels are written back in the notation of the series' first period (:func:`notation_of`),
+so ``2020-Q1``, ``2020-W07``, ``2020-03`` and ``2020-03-01`` come back as they were written:
+``quarter`` (``YYYY-Qn``), ``week`` (``YYYY-Www``), ``year`` (``YYYY``), ``month``
+(``YYYY-MM``) and ``day`` (``YYYY-MM-DD``; ``YYYY-MM-01`` for a month-based frequency). A period the
+notation cannot write (a February in quarter notation, a Tuesday in week notation) falls
+back to the canonical label: ``YYYY-MM-DD`` (day-based), ``YYYY-MM`` (month-based other
+than yearly) and ``YYYY`` (yearly). Without a notation the canonical labels are written,
+as they were before notations were kept (so stored fingerprints do not change).
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from backtest.errors import SeriesError
 
@@ -34,6 +40,7 @@ class Frequency:
     duration: str
     unit: str  # "day" or "month"
     step: int
+    notation: str = ""  # "" (canonical) or one of NOTATIONS
 
     @property
     def default_season_length(self) -> int:
@@ -47,13 +54,27 @@ class Frequency:
         return _parse_month(label)
 
     def label(self, position: int) -> str:
-        """Return the canonical label of a grid position."""
+        """Return the label of a grid position in the frequency's notation."""
         if self.unit == "day":
-            return (_EPOCH + dt.timedelta(days=position)).isoformat()
+            day = _EPOCH + dt.timedelta(days=position)
+            if self.notation == "week" and day.weekday() == 0:
+                year, week, _ = day.isocalendar()
+                return f"{year:04d}-W{week:02d}"
+            return day.isoformat()
         year, month0 = divmod(position, 12)
-        if self.step == 12 and month0 == 0:
+        if self.notation == "quarter" and month0 % 3 == 0:
+            return f"{year:04d}-Q{month0 // 3 + 1}"
+        if self.notation == "month":
+            return f"{year:04d}-{month0 + 1:02d}"
+        if self.notation == "day":
+            return f"{year:04d}-{month0 + 1:02d}-01"
+        if month0 == 0 and (self.notation == "year" or self.step == 12 and not self.notation):
             return f"{year:04d}"
         return f"{year:04d}-{month0 + 1:02d}"
+
+    def written_as(self, label: str) -> Frequency:
+        """This frequency writing labels the way ``label`` is written."""
+        return replace(self, notation=notation_of(label))
 
 
 def parse_frequency(duration: str) -> Frequency:
@@ -75,6 +96,20 @@ def parse_frequency(duration: str) -> Frequency:
     return Frequency(canonical, "month", 12 * n)
 
 
+NOTATIONS = ("quarter", "week", "year", "month", "day")
+
+
+def notation_of(label: str) -> str:
+    """The notation a period label is written in (see the module's docstring)."""
+    text = str(label).strip()
+    for notation, pattern in (("quarter", _QUARTER), ("week", _ISO_WEEK), ("year", _YEAR),
+                              ("month", _MONTH_ONLY)):
+        if pattern.match(text):
+            return notation
+    return "day"
+
+
+_MONTH_ONLY = re.compile(r"^\d{4}-\d{2}$")
 _ISO_WEEK = re.compile(r"^(\d{4})-W(\d{2})$")
 _QUARTER = re.compile(r"^(\d{4})-Q([1-4])$")
 _MONTH = re.compile(r"^(\d{4})-(\d{2})(?:-(\d{2}))?$")

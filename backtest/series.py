@@ -107,13 +107,18 @@ def make_series(
     season_length: int | None = None,
     fill: FillPolicy = "reject",
     max_length: int | None = None,
+    places: Sequence[str] | None = None,
 ) -> Series:
     """Validate observations and build a :class:`Series`.
 
-    Raises :class:`SeriesError` naming the series, the period and the row (1-based) for
-    duplicate, unsorted or off-grid periods, non-finite values and, unless ``fill`` is
-    ``"linear"``, missing periods. With ``max_length``, a series spanning more periods
-    raises :class:`SeriesTooLongError` before any gap is filled or listed.
+    Observations may come in any order: they are sorted by period. Labels are kept in the
+    notation of the earliest period (``2020-Q1`` stays ``2020-Q1``; see
+    :mod:`backtest.frequency`). Raises :class:`SeriesError` naming the series, the period
+    and where the observation came from (``places[i]``, e.g. ``"line 7"`` of a file;
+    default ``"observation i"``, counting from 1) for duplicate or off-grid periods,
+    non-finite values and, unless ``fill`` is ``"linear"``, missing periods. With
+    ``max_length``, a series spanning more periods raises :class:`SeriesTooLongError`
+    before any gap is filled or listed.
     """
     key = str(key).strip()
     if not key:
@@ -130,49 +135,52 @@ def make_series(
         raise SeriesError(f"series {key!r} has no observations")
     if max_length is not None and len(rows) > max_length:
         raise SeriesTooLongError(key, len(rows), max_length)
-    positions = _positions(key, freq, rows)
+    where = list(places) if places is not None else [f"observation {i}"
+                                                     for i in range(1, len(rows) + 1)]
+    order, positions = _sorted_positions(key, freq, rows, where)
     span = (positions[-1] - positions[0]) // freq.step + 1
     if max_length is not None and span > max_length:
         raise SeriesTooLongError(key, span, max_length)
-    values = _values(key, rows)
-    return _regularise(key, freq, m, positions, values, fill)
+    values = _values(key, [rows[i] for i in order], [where[i] for i in order])
+    written = freq.written_as(rows[order[0]][0])
+    return _regularise(key, written, m, positions, values, fill)
 
 
-def _positions(key: str, freq: Frequency, rows: Sequence[tuple[str, float]]) -> list[int]:
-    positions: list[int] = []
-    for row, (label, _) in enumerate(rows, start=1):
+def _sorted_positions(key: str, freq: Frequency, rows: Sequence[tuple[str, float]],
+                      where: Sequence[str]) -> tuple[list[int], list[int]]:
+    """The rows' order by period and their sorted grid positions."""
+    found: list[int] = []
+    for place, (label, _) in zip(where, rows):
         try:
-            pos = freq.position(label)
+            found.append(freq.position(label))
         except SeriesError as exc:
-            raise SeriesError(f"series {key!r}, row {row}: {exc}") from None
-        if positions:
-            prev = positions[-1]
-            if pos == prev:
-                raise SeriesError(f"series {key!r}: period {label!r} appears twice "
-                                  f"(rows {row - 1} and {row})")
-            if pos < prev:
-                raise SeriesError(f"series {key!r}: period {label!r} (row {row}) comes after "
-                                  f"{freq.label(prev)!r} (row {row - 1}); sort by period")
-            if (pos - positions[0]) % freq.step:
-                start = freq.label(positions[0])
-                raise SeriesError(f"series {key!r}: period {label!r} (row {row}) is off the "
-                                  f"{freq.duration} grid that starts at {start!r}")
-        positions.append(pos)
-    return positions
+            raise SeriesError(f"series {key!r}, {place}: {exc}") from None
+    order = sorted(range(len(rows)), key=lambda i: (found[i], i))
+    positions = [found[i] for i in order]
+    for before, after in zip(order, order[1:]):
+        if found[before] == found[after]:
+            raise SeriesError(f"series {key!r}: period {rows[after][0]!r} appears twice "
+                              f"({where[before]} and {where[after]})")
+    start = positions[0]
+    for i in order:
+        if (found[i] - start) % freq.step:
+            raise SeriesError(f"series {key!r}, {where[i]}: period {rows[i][0]!r} is off the "
+                              f"{freq.duration} grid that starts at {rows[order[0]][0]!r}")
+    return order, positions
 
 
-def _values(key: str, rows: Sequence[tuple[str, float]]) -> np.ndarray:
+def _values(key: str, rows: Sequence[tuple[str, float]], where: Sequence[str]) -> np.ndarray:
     out = np.empty(len(rows))
-    for row, (label, value) in enumerate(rows, start=1):
+    for index, (place, (label, value)) in enumerate(zip(where, rows)):
         try:
             number = float(value)
         except (TypeError, ValueError):
-            raise SeriesError(f"series {key!r}: value {value!r} at period {label!r} "
-                              f"(row {row}) is not a number") from None
+            raise SeriesError(f"series {key!r}, {place}: value {value!r} at period {label!r} "
+                              "is not a number") from None
         if not math.isfinite(number):
-            raise SeriesError(f"series {key!r}: value at period {label!r} (row {row}) "
+            raise SeriesError(f"series {key!r}, {place}: value at period {label!r} "
                               f"is not finite ({number})")
-        out[row - 1] = number
+        out[index] = number
     return out
 
 

@@ -1,9 +1,11 @@
 """Tidy CSV in and out: series files in, fold and score tables out.
 
 Series CSV: a header row, then one row per observation. Required columns ``series_key``,
-``period``, ``value``; optional ``frequency`` (ISO 8601 duration) and ``season_length``,
-constant within a series. Several series may share a file: rows are grouped by key in
-order of first appearance, and each series' rows keep their file order.
+``period``, ``value``; optional ``frequency`` (ISO 8601 duration), ``season_length`` and
+``unit``, constant within a series. Several series may share a file: rows are grouped by
+key in order of first appearance, and each series' rows are sorted by period. Periods keep
+the notation they are written in (``2020-Q1``, ``2020-W07``, ``2020-03``). Every error
+names the file line (the header is line 1) and the series key.
 
 Output columns are listed in :data:`FOLD_COLUMNS` and :data:`SCORE_COLUMNS`; they are a
 stable, documented interface (DEVELOPERS.md, "Output tables").
@@ -20,6 +22,7 @@ import csv
 import io
 import re
 from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
@@ -29,7 +32,7 @@ from backtest.series import FillPolicy, Series, make_series
 
 PLAIN_DECIMAL = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 REQUIRED = ("series_key", "period", "value")
-OPTIONAL = ("frequency", "season_length")
+OPTIONAL = ("frequency", "season_length", "unit")
 FOLD_COLUMNS = ("series_key", "candidate_id", "candidate", "fold", "origin", "train_start",
                 "train_size", "reestimated", "status", "horizon", "period", "actual", "point",
                 "level", "lower", "upper")
@@ -43,14 +46,26 @@ RANKING_COLUMNS = ("series_key", "rank", "candidate_id", "candidate", "score", "
                    "common_folds", "score_count", "score_possible")
 
 
-def read_series_csv(text: str, *, frequency: str | None = None,
-                    season_length: int | None = None,
-                    fill: FillPolicy = "reject", max_length: int | None = None,
-                    max_series: int | None = None) -> list[Series]:
-    """Parse a tidy series CSV; errors name the file line (header = line 1).
+@dataclass(frozen=True)
+class FileSeries:
+    """A series read from a file, with the unit the file gives it (if any)."""
 
-    ``max_series`` and ``max_length`` (see :func:`make_series`) are checked on the rows as
-    read, before any series is built or any gap filled.
+    series: Series
+    unit: str | None
+
+
+def read_series_csv(text: str, *, frequency: str | None = None,
+                    season_length: int | None = None, unit: str | None = None,
+                    fill: FillPolicy = "reject", max_length: int | None = None,
+                    max_series: int | None = None,
+                    frequency_option: str = "give one for the whole file") -> list[FileSeries]:
+    """Parse a tidy series CSV; errors name the file line (header = line 1) and the key.
+
+    ``frequency``, ``season_length`` and ``unit`` apply to series without the column;
+    ``frequency_option`` says how the caller takes the whole file's frequency (the error
+    for a series without one shows it). ``max_series`` and ``max_length`` (see
+    :func:`make_series`) are checked on the rows as read, before any series is built or
+    any gap filled.
     """
     reader = csv.DictReader(io.StringIO(text))
     header = reader.fieldnames or []
@@ -60,7 +75,8 @@ def read_series_csv(text: str, *, frequency: str | None = None,
                           f"the header must include {', '.join(REQUIRED)}")
     unknown = [c for c in header if c not in REQUIRED + OPTIONAL]
     if unknown:
-        raise SeriesError(f"line 1: unknown column(s) {', '.join(unknown)}")
+        raise SeriesError(f"line 1: unknown column(s) {', '.join(unknown)}; the columns are "
+                          f"{', '.join(REQUIRED + OPTIONAL)}")
     groups: dict[str, dict[str, Any]] = {}
     for line, row in enumerate(reader, start=2):
         if None in row or any(row.get(c) is None for c in REQUIRED):
@@ -70,13 +86,15 @@ def read_series_csv(text: str, *, frequency: str | None = None,
             raise SeriesError(f"line {line}: series_key is empty")
         if max_series is not None and key not in groups and len(groups) == max_series:
             raise TooManySeriesError(len(groups) + 1, max_series)
-        group = groups.setdefault(key, {"rows": [], "line": line,
+        group = groups.setdefault(key, {"rows": [], "lines": [], "line": line,
                                         **{c: row.get(c) or None for c in OPTIONAL}})
         _check_constant(group, row, line, key)
-        group["rows"].append((row["period"], _number(row["value"], line)))
+        group["rows"].append((row["period"], _number(row["value"], line, key)))
+        group["lines"].append(f"line {line}")
     if not groups:
         raise SeriesError("the file has no observations")
-    return [_build(key, g, frequency, season_length, fill, max_length)
+    return [FileSeries(_build(key, g, frequency, season_length, fill, max_length,
+                              frequency_option), g["unit"] or unit)
             for key, g in groups.items()]
 
 
@@ -84,34 +102,36 @@ def _check_constant(group: dict[str, Any], row: dict[str, Any], line: int, key: 
     for column in OPTIONAL:
         value, first = row.get(column) or None, group[column]
         if value is not None and first is not None and str(value) != str(first):
-            raise SeriesError(f"line {line}: {column} {value!r} differs from {first!r} "
-                              f"given earlier for series {key!r}")
+            raise SeriesError(f"series {key!r}, line {line}: {column} {value!r} differs from "
+                              f"{first!r} given earlier (line {group['line']})")
 
 
-def _number(text: str, line: int) -> float:
+def _number(text: str, line: int, key: str) -> float:
     """A value written as a plain decimal number (``-12``, ``3.5``, ``1e6``): not the other
     spellings Python's ``float`` takes (``1_000``, non-ASCII digits, ``inf``, ``nan``)."""
     if not PLAIN_DECIMAL.fullmatch(text.strip()):
-        raise SeriesError(f"line {line}: value {text[:40]!r} is not a number (write plain "
-                          "decimals: digits 0-9, an optional sign, point and exponent)")
+        raise SeriesError(f"series {key!r}, line {line}: value {text[:40]!r} is not a number "
+                          "(write plain decimals: digits 0-9, an optional sign, point and "
+                          "exponent)")
     return float(text)
 
 
 def _build(key: str, group: dict[str, Any], frequency: str | None, season_length: int | None,
-           fill: FillPolicy, max_length: int | None) -> Series:
+           fill: FillPolicy, max_length: int | None, frequency_option: str) -> Series:
     frequency = group["frequency"] or frequency
     if not frequency:
-        raise SeriesError(f"series {key!r} (from line {group['line']}): no frequency; add a "
-                          "frequency column or give one for the whole file")
+        raise SeriesError(f"series {key!r}, line {group['line']}: no frequency; add a "
+                          "frequency column (an ISO 8601 duration such as P1M, P3M, P1W) "
+                          f"or {frequency_option}")
     m = season_length
     if group["season_length"] is not None:
         try:
             m = int(group["season_length"])
         except ValueError:
-            raise SeriesError(f"series {key!r}: season_length {group['season_length']!r} "
-                              "is not an integer") from None
+            raise SeriesError(f"series {key!r}, line {group['line']}: season_length "
+                              f"{group['season_length']!r} is not an integer") from None
     return make_series(key, frequency, group["rows"], season_length=m, fill=fill,
-                       max_length=max_length)
+                       max_length=max_length, places=group["lines"])
 
 
 def fold_rows(result: BacktestResult) -> Iterator[dict[str, Any]]:

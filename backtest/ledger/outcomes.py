@@ -69,12 +69,12 @@ def realised_mase(outcomes: Sequence[Outcome]) -> float | None:
 def _indices_on_grid(issued: IssuedForecast, actuals: Series) -> list[int]:
     """Indices in ``actuals`` of the origin and the target periods, one step apart."""
     labels = (issued.origin, *issued.periods)
-    try:
-        first = actuals.index_of(issued.origin)
+    try:  # by grid position, so a version whose labels are written otherwise still matches
+        indices = [actuals.index_of(label) for label in labels]
     except SeriesError:
-        first = None
-    if first is None or any(actuals.label(first + k) != label
-                            for k, label in enumerate(labels)):
+        indices = []
+    first = indices[0] if indices else None
+    if first is None or indices != list(range(first, first + len(labels))):
         raise LedgerError(f"the issued periods {issued.origin}, {', '.join(issued.periods)} "
                           f"are not consecutive periods of the {actuals.frequency.duration} "
                           f"actuals of series {actuals.key!r}")

@@ -10,8 +10,10 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.tidy import write_csv
 from service.cli.store import add_store_option, run_in_store
+from service.errors import InvalidInputError
 from service.http.schemas.dossier import ChampionEntryOut, DossierOut, StepRow
 from service.http.schemas.results import columns
+from service.limits import MAX_DOSSIER_ITEMS
 from service.moments import point_in_time
 from service.usecases.dossier import read_dossier_of
 from service.views.dossier import dossier_out, step_rows
@@ -37,6 +39,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def dossier_command(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
+        if not 1 <= args.limit <= MAX_DOSSIER_ITEMS:
+            raise InvalidInputError(f"--limit {args.limit}: give 1 to {MAX_DOSSIER_ITEMS} "
+                                    "(the API's limit too)")
         dossier = read_dossier_of(
             sessions, args.series, as_of=point_in_time("--as-of", args.as_of, day_end=True),
             limit=args.limit, issued_from=point_in_time("--issued-from", args.issued_from),

@@ -16,6 +16,7 @@ from service.cli.store import add_store_option, operator, run_in_store
 from service.http.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.http.schemas.results import columns
 from service.moments import MOMENT_HELP, point_in_time
+from service.settings import checked_settings
 from service.usecases.issue_forecast import IssueRequest, issue
 from service.views.ledger_answers import forecast_out, forecast_rows, outcome_rows, outcome_set_out
 from storage.ledger import IssuedRecord, current_outcomes, get_issued, list_issued, outcome_sets
@@ -63,7 +64,7 @@ def forecast_issue(args: argparse.Namespace) -> int:
         request = IssueRequest(series_key=args.series, horizon=args.horizon,
                                levels=args.levels, seed=args.seed,
                                version=args.version, candidate_id=args.candidate)
-        record, created = issue(sessions, request, actor=operator())
+        record, created = issue(sessions, request, checked_settings(), actor=operator())
         with sessions.begin() as session:
             out = _out(session, record)
         note = "" if created else "identical inputs were issued before: "

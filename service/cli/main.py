@@ -11,10 +11,9 @@ import sys
 from collections.abc import Sequence
 from pathlib import Path
 
-from backtest.candidates import parse_candidates
+from backtest.cost import estimate_cost
 from backtest.engine import run_backtest
 from backtest.errors import BacktestError
-from backtest.plan import parse_plan
 from backtest.results import BacktestResult
 from backtest.tidy import (
     FOLD_COLUMNS,
@@ -37,6 +36,13 @@ from service.cli import serve as cli_serve
 from service.cli import worker as cli_run
 from service.cli.terminal import ProgressBar, ranking_report
 from service.demo.run import OutputFolderError, run_demo
+from service.errors import ServiceError
+from service.limits import check_cost, series_limits
+from service.settings import InvalidSettingsError, checked_settings
+from service.usecases.submit_run import parse_run_inputs
+
+#: How ``foldline backtest`` takes the frequency of series without a frequency column.
+FREQUENCY_OPTION = "add the --frequency option (e.g. --frequency P1M) for the whole file"
 
 
 class UsageError(Exception):
@@ -70,13 +76,18 @@ def _cmd_backtest(args: argparse.Namespace) -> int:
         text = Path(args.series).read_text()
     except OSError as exc:
         raise UsageError(f"series file {args.series}: {exc.strerror}") from None
+    settings = checked_settings()
     try:
-        series = read_series_csv(text, frequency=args.frequency,
-                                 season_length=args.season_length, fill=args.fill)
-    except BacktestError as exc:
+        with series_limits(settings, ""):
+            series = [one.series for one in read_series_csv(
+                text, frequency=args.frequency, season_length=args.season_length,
+                fill=args.fill, max_length=settings.max_observations,
+                max_series=settings.max_series_per_upload, frequency_option=FREQUENCY_OPTION)]
+    except (BacktestError, ServiceError) as exc:
         raise UsageError(f"series file {args.series}: {exc}") from None
-    candidates = parse_candidates(_read_json(args.candidates, "candidates"))
-    plan = parse_plan(_read_json(args.plan, "plan"))
+    candidates, plan = parse_run_inputs(_read_json(args.candidates, "candidates"),
+                                        _read_json(args.plan, "plan"), settings)
+    check_cost(estimate_cost(series, candidates, plan), settings)
     progress = None if args.json else ProgressBar()
     result = run_backtest(series, candidates, plan, n_jobs=args.jobs, progress=progress)
     if args.out:
@@ -105,7 +116,7 @@ def build_parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", required=True)
     bt = commands.add_parser("backtest", help="backtest candidates on series from a CSV file")
     bt.add_argument("series", help="tidy CSV: series_key, period, value [, frequency, "
-                    "season_length]")
+                    "season_length, unit]; rows in any order")
     bt.add_argument("--candidates", required=True, help="JSON list of candidate specs")
     bt.add_argument("--plan", required=True, help="JSON backtest plan")
     bt.add_argument("--out", help="directory for result.json and the CSV tables")
@@ -140,8 +151,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
     try:
         return args.handler(args)
-    except (UsageError, BacktestError) as exc:
-        print(f"foldline: error: {exc}", file=sys.stderr)
+    except (UsageError, BacktestError, ServiceError, InvalidSettingsError) as exc:
+        print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
 
 

@@ -1,8 +1,8 @@
 """Running a command-line command against the store: one engine, one-line errors.
 
 Commands that work on the store directly (champions, forecasts, monitoring) share this:
-they get a session factory, return what to print, and any storage, service or backtest
-error ends as ``foldline: error: ...`` on stderr with exit code 2.
+they get a session factory, return what to print, and any storage, service, backtest or
+settings error ends as ``foldline: error: ...`` on stderr with exit code 2.
 """
 
 from __future__ import annotations

@@ -19,11 +19,10 @@ from fastapi.responses import Response
 
 from backtest.tidy import write_csv
 from service.errors import NotAcceptableError
-from service.http.schemas.common import MAX_ID
+from service.limits import MAX_ID, MAX_PAGE
 
 Format = Literal["json", "csv"]
 FORMATS = {"json": "application/json", "csv": "text/csv"}
-MAX_PAGE = 10_000
 
 FormatParam = Annotated[Format | None, Query(
     alias="format", description="json or csv; overrides the Accept header")]

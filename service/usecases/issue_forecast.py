@@ -18,6 +18,8 @@ from backtest.ledger import issue_forecast
 from backtest.results import FoldResult
 from backtest.series import Series
 from service.errors import FieldError, InvalidInputError
+from service.limits import check_horizon_and_levels
+from service.settings import Settings
 from service.usecases.backtest_lookup import latest_backtest
 from service.usecases.transactions import write
 from storage.errors import ConflictError, NotFoundError
@@ -45,9 +47,11 @@ class _Inputs:
     folds: tuple[FoldResult, ...]
 
 
-def issue(sessions: sessionmaker[Session], request: IssueRequest, *,
+def issue(sessions: sessionmaker[Session], request: IssueRequest, settings: Settings, *,
           actor: str) -> tuple[IssuedRecord, bool]:
-    """The ledger record of the forecast, and whether this call created it."""
+    """The ledger record of the forecast, and whether this call created it; the horizon and
+    levels are held to the settings' limits first, as for a run's plan."""
+    check_horizon_and_levels(request.horizon, len(request.levels), settings, "")
     with sessions.begin() as session:
         inputs = _inputs(session, request)
     forecast = issue_forecast(inputs.series, inputs.candidate, horizon=request.horizon,

@@ -24,7 +24,8 @@ from collections.abc import Iterable
 from typing import Protocol
 
 from service.errors import FieldError, InvalidInputError, PermissionDeniedError
-from service.usecases.series_keys import MAX_LENGTH, SeriesKeyError, normalised_key
+from service.limits import MAX_KEY_LENGTH
+from service.usecases.series_keys import SeriesKeyError, normalised_key
 
 SCOPED_ROLES = ("submitter",)
 
@@ -49,8 +50,8 @@ def parsed_scope(scope: str | None, role: str) -> str | None:
         prefix = normalised_key(scope.removesuffix("/"))
     except SeriesKeyError as exc:
         raise _invalid(f"scope {scope!r} is not a series-key prefix: {exc}") from None
-    if len(prefix) >= MAX_LENGTH:
-        raise _invalid(f"a scope has at most {MAX_LENGTH} characters with its closing '/'")
+    if len(prefix) >= MAX_KEY_LENGTH:
+        raise _invalid(f"a scope has at most {MAX_KEY_LENGTH} characters with its closing '/'")
     return prefix + "/"
 
 

@@ -22,7 +22,8 @@ from __future__ import annotations
 
 import unicodedata
 
-MAX_LENGTH = 200
+from service.limits import MAX_KEY_LENGTH
+
 RESERVED = frozenset({"champion", "history", "versions", "monitoring", "observations",
                       "upload"})
 _REFUSED_CATEGORIES = {"Cc", "Cf", "Co", "Cs", "Cn", "Zl", "Zp"}
@@ -36,8 +37,8 @@ class SeriesKeyError(ValueError):
 def normalised_key(key: str) -> str:
     """``key`` in NFC, checked against the rules above; raise :class:`SeriesKeyError`."""
     key = unicodedata.normalize("NFC", key)
-    if not key or len(key) > MAX_LENGTH:
-        raise SeriesKeyError(f"a series key has 1 to {MAX_LENGTH} characters")
+    if not key or len(key) > MAX_KEY_LENGTH:
+        raise SeriesKeyError(f"a series key has 1 to {MAX_KEY_LENGTH} characters")
     if key != key.strip():
         raise SeriesKeyError("a series key does not start or end with white space")
     for char in key:

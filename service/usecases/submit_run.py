@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 from sqlalchemy.orm import Session, sessionmaker
 
-from backtest.candidates import Candidate, parse_candidate
+from backtest.candidates import Candidate, parse_candidates
 from backtest.cost import RunCost, estimate_cost
 from backtest.errors import CandidateError, PlanError, SeriesError
 from backtest.plan import Plan, parse_plan
@@ -25,9 +25,9 @@ from service.errors import (
     FieldError,
     InvalidInputError,
     InvalidSelectionError,
-    LimitExceededError,
 )
 from service.http.schemas.runs import RunIn, SeriesSelection
+from service.limits import MAX_SEED, check_candidate_count, check_cost, check_horizon_and_levels
 from service.settings import Settings
 from service.usecases.ownership import KeyHolder, check_writes
 from service.usecases.quotas import check_quotas
@@ -35,8 +35,6 @@ from service.usecases.transactions import write
 from storage.errors import ConflictError, NotFoundError
 from storage.runs import RunInfo, queue_run, run_with_idempotency_key
 from storage.series import VersionInfo, find_series, get_series, load_series
-
-MAX_SEED = 2**31 - 1
 
 
 @dataclass(frozen=True)
@@ -51,44 +49,31 @@ class PreparedRun:
 
 def parse_request(body: RunIn, settings: Settings) -> tuple[tuple[Candidate, ...], Plan]:
     """The candidates and plan of a submission; errors point at the field at fault."""
-    if len(body.candidates) > settings.max_candidates:
-        raise LimitExceededError(
-            f"the run lists {len(body.candidates)} candidates; at most "
-            f"{settings.max_candidates} are accepted (FOLDLINE_MAX_CANDIDATES)",
-            errors=[FieldError("body", "/candidates", "too many candidates")])
-    candidates: list[Candidate] = []
-    for index, spec in enumerate(body.candidates):
-        candidate = _candidate(spec.model_dump(), index)
-        if any(c.id == candidate.id for c in candidates):
-            raise CandidateError(f"candidate {index} repeats an earlier one").at(
-                f"/candidates/{index}")
-        candidates.append(candidate)
+    return parse_run_inputs([spec.model_dump() for spec in body.candidates], body.plan,
+                            settings)
+
+
+def parse_run_inputs(candidate_specs: object, plan_spec: object,
+                     settings: Settings) -> tuple[tuple[Candidate, ...], Plan]:
+    """Candidates and plan as the API and ``foldline backtest`` both take them: the same
+    checks, limits and messages (candidates numbered from 1; the JSON pointer of the
+    problem counts from 0, as RFC 6901 does)."""
+    if isinstance(candidate_specs, list):
+        check_candidate_count(len(candidate_specs), settings)
     try:
-        plan = parse_plan(body.plan)
+        candidates = parse_candidates(candidate_specs)
+    except CandidateError as exc:
+        pointer = "/candidates" if exc.position is None else f"/candidates/{exc.position - 1}"
+        raise exc.at(pointer) from None
+    try:
+        plan = parse_plan(plan_spec)
     except PlanError as exc:
         raise PlanError(str(exc)).at("/plan") from None
     if plan.seed > MAX_SEED:
         raise PlanError(f"plan seed must be at most {MAX_SEED} (the store keeps 32-bit "
                         f"signed seeds), got {plan.seed}").at("/plan/seed")
     check_horizon_and_levels(plan.horizon, len(plan.levels), settings, "/plan")
-    return tuple(candidates), plan
-
-
-def check_horizon_and_levels(horizon: int, levels: int, settings: Settings,
-                             pointer: str) -> None:
-    """Refuse a horizon or a number of interval levels beyond the settings."""
-    if horizon > settings.max_horizon:
-        raise LimitExceededError(
-            f"the horizon is {horizon} steps; at most {settings.max_horizon} are accepted "
-            "(FOLDLINE_MAX_HORIZON)", errors=[FieldError("body", f"{pointer}/horizon",
-                                                         "horizon too long")],
-            estimate={"horizon": horizon}, limit={"horizon": settings.max_horizon})
-    if levels > settings.max_levels:
-        raise LimitExceededError(
-            f"{levels} interval levels are asked for; at most {settings.max_levels} are "
-            "accepted (FOLDLINE_MAX_LEVELS)",
-            errors=[FieldError("body", f"{pointer}/levels", "too many levels")],
-            estimate={"levels": levels}, limit={"levels": settings.max_levels})
+    return candidates, plan
 
 
 def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRun:
@@ -104,29 +89,6 @@ def prepare_run(session: Session, body: RunIn, settings: Settings) -> PreparedRu
         raise PlanError(str(exc)).at("/plan") from None
     check_cost(cost, settings)
     return PreparedRun(tuple(versions), candidates, plan, cost)
-
-
-def check_cost(cost: RunCost, settings: Settings) -> None:
-    """Refuse a run whose estimated cost exceeds a limit; the problem shows both."""
-    limits = {"folds": settings.max_folds, "total_fits": settings.max_run_fits,
-              "rows": settings.max_run_rows}
-    estimate = cost.to_dict()
-    over = [name for name, limit in limits.items() if estimate[name] > limit]
-    if not over:
-        return
-    parts = {"folds": f"{cost.folds} folds (series x candidates x origins, the benchmark "
-                      f"included; at most {settings.max_folds}, FOLDLINE_MAX_FOLDS)",
-             "total_fits": f"{cost.total_fits} model fits (at most {settings.max_run_fits}, "
-                           "FOLDLINE_MAX_RUN_FITS)",
-             "rows": f"{cost.rows} result rows (at most {settings.max_run_rows}, "
-                     "FOLDLINE_MAX_RUN_ROWS)"}
-    raise LimitExceededError(
-        "the run would compute " + " and ".join(parts[name] for name in over)
-        + ": select fewer series or candidates, a shorter horizon or fewer levels, or set "
-        "max_origins or a less frequent refit; nothing was queued",
-        errors=[FieldError("body", "", f"too many {name.replace('total_', '')}")
-                for name in over],
-        estimate=estimate, limit=limits)
 
 
 def selected_versions(session: Session, selection: SeriesSelection) -> list[VersionInfo]:
@@ -148,13 +110,6 @@ def selected_versions(session: Session, selection: SeriesSelection) -> list[Vers
             raise _invalid(InvalidSelectionError, f"series {key!r} does not exist",
                            f"/series/keys/{index}") from None
     return versions
-
-
-def _candidate(spec: dict, index: int) -> Candidate:
-    try:
-        return parse_candidate(spec)
-    except CandidateError as exc:
-        raise CandidateError(f"candidate {index}: {exc}").at(f"/candidates/{index}") from None
 
 
 def _invalid(kind: type[InvalidInputError], message: str, pointer: str) -> InvalidInputError:

@@ -10,12 +10,15 @@ after ``as_of`` is left out, and so is every audit event after it.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from datetime import datetime
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from backtest.errors import SeriesError
+from backtest.frequency import parse_frequency
 from backtest.ledger.outcomes import Outcome
 from storage.audit import (
     AuditEntry,
@@ -47,8 +50,10 @@ from storage.series import SeriesInfo, VersionInfo, get_series, list_versions
 @dataclass(frozen=True)
 class ForecastWindow:
     """Which issued forecasts a dossier shows: issue times in ``[issued_from, issued_to)``,
-    origins and target periods between the given period labels (inclusive); ``None`` does
-    not filter. A forecast is shown when any of its target periods is in the window."""
+    origins and target periods between the given period labels (inclusive, compared as
+    periods of the series' frequency, so ``2025-Q1`` and ``2025-01`` name the same quarter);
+    ``None`` does not filter. A forecast is shown when any of its target periods is in the
+    window."""
 
     issued_from: datetime | None = None
     issued_to: datetime | None = None
@@ -117,7 +122,8 @@ def series_dossier(session: Session, series_key: str, *, as_of: datetime,
     champions = tuple(_entry(session, choice, numbers)
                       for choice in champion_history(session, series_key)
                       if choice.chosen_at <= as_of)
-    forecasts = _forecasts(session, series_key, as_of, window, limit, champions, numbers)
+    forecasts = _forecasts(session, series_key, as_of, _Bounds(series.frequency, window),
+                           limit, champions, numbers)
     events = _events(session, series_key, as_of, limit)
     return Dossier(series, as_of, champions[-1] if champions else None, champions, versions,
                    forecasts, events, describe_subjects(session, (e.subject for e in events)))
@@ -150,30 +156,48 @@ def _justification(session: Session, choice: ChampionChoice,
                          {int(h): float(v) for h, v in by_horizon})
 
 
-def _forecasts(session: Session, series_key: str, as_of: datetime, window: ForecastWindow,
+class _Bounds:
+    """A forecast window's period bounds as grid positions of the series' frequency."""
+
+    def __init__(self, duration: str, window: ForecastWindow) -> None:
+        self.window, self.frequency = window, parse_frequency(duration)
+        self.origin = self._range("origin", window.origin_from, window.origin_to)
+        self.target = self._range("target", window.target_from, window.target_to)
+
+    def _range(self, name: str, low: str | None, high: str | None) -> tuple[float, float]:
+        return (self._position(f"{name}_from", low, -math.inf),
+                self._position(f"{name}_to", high, math.inf))
+
+    def _position(self, name: str, label: str | None, default: float) -> float:
+        if label is None:
+            return default
+        try:
+            return self.frequency.position(label)
+        except SeriesError as exc:
+            raise SeriesError(f"{name}: {exc} ({self.frequency.duration} series)") from None
+
+    def holds(self, record: IssuedRecord) -> bool:
+        origin = self.frequency.position(record.forecast.origin)
+        if not self.origin[0] <= origin <= self.origin[1]:
+            return False
+        return any(self.target[0] <= self.frequency.position(p) <= self.target[1]
+                   for p in record.forecast.periods)
+
+
+def _forecasts(session: Session, series_key: str, as_of: datetime, window: _Bounds,
                limit: int, champions: tuple[ChampionEntry, ...],
                numbers: dict[int, int]) -> tuple[DossierForecast, ...]:
     f = IssuedForecastRecord
     conditions = [f.series_id == select(SeriesRecord.id).where(SeriesRecord.key == series_key)
                   .scalar_subquery(), f.issued_at <= as_of]
-    if window.issued_from is not None:
-        conditions.append(f.issued_at >= window.issued_from)
-    if window.issued_to is not None:
-        conditions.append(f.issued_at < window.issued_to)
+    if window.window.issued_from is not None:
+        conditions.append(f.issued_at >= window.window.issued_from)
+    if window.window.issued_to is not None:
+        conditions.append(f.issued_at < window.window.issued_to)
     chosen = [r for r in issued_records(session, conditions, by_issue_time=True)
-              if _in_window(r, window)][-limit:]
+              if window.holds(r)][-limit:]
     return tuple(_dossier_forecast(session, record, as_of, champions, numbers)
                  for record in chosen)
-
-
-def _in_window(record: IssuedRecord, window: ForecastWindow) -> bool:
-    origin, periods = record.forecast.origin, record.forecast.periods
-    if window.origin_from is not None and origin < window.origin_from:
-        return False
-    if window.origin_to is not None and origin > window.origin_to:
-        return False
-    return any((window.target_from is None or p >= window.target_from)
-               and (window.target_to is None or p <= window.target_to) for p in periods)
 
 
 def _dossier_forecast(session: Session, record: IssuedRecord, as_of: datetime,

@@ -95,7 +95,8 @@ def load_series(session: Session, version_id: int) -> Series:
         select(Observation.period, Observation.value, Observation.filled)
         .where(Observation.series_version_id == version_id).order_by(Observation.position)
     ).all()
-    frequency = parse_frequency(record.frequency)
+    # labels are stored as written; the first one gives the notation of all the others
+    frequency = parse_frequency(record.frequency).written_as(rows[0].period)
     values = np.array([row.value for row in rows], dtype=float)
     values.setflags(write=False)
     filled = tuple(row.period for row in rows if row.filled)

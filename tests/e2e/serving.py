@@ -20,7 +20,7 @@ from tests.storage.conftest import migrated_store
 def cli(env: dict[str, str], *args: str) -> str:
     """Run ``foldline ARGS`` with ``env``; its standard output (it must succeed)."""
     done = subprocess.run([sys.executable, "-m", "service.cli.main", *args], env=env,
-                          capture_output=True, text=True, timeout=60)
+                          capture_output=True, text=True, timeout=240)
     assert done.returncode == 0, done.stderr
     return done.stdout
 
@@ -46,7 +46,7 @@ def served_store(backend: str, tmp_path: Path, roles: Sequence[str], **settings:
                **{f"FOLDLINE_{name.upper()}": value for name, value in settings.items()}}
         tokens = {role: cli(env, "keys", "create", "--role", role, "--name", f"e2e-{role}")
                   .splitlines()[0] for role in roles}
-        with running_server(env, tmp_path / "server.log") as base:
+        with running_server(env, tmp_path / "server.log", timeout=300) as base:
             yield base, tokens, url
 
 

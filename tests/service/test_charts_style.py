@@ -101,6 +101,11 @@ def test_period_ticks_sit_at_regular_calendar_positions():
     assert _ticks(days) == [f"2024-{m:02d}-01" for m in range(1, 7)]
 
 
+def test_quarter_labels_tick_on_the_calendar_as_written():
+    quarters = [f"{2015 + i // 4}-Q{i % 4 + 1}" for i in range(40)]
+    assert _ticks(quarters) == [f"{y}-Q1" for y in range(2016, 2025, 2)]
+
+
 def test_labels_without_a_calendar_are_thinned():
     assert _ticks([f"w{i}" for i in range(24)], 6) == [f"w{i}" for i in range(0, 24, 4)]
 

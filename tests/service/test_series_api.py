@@ -90,7 +90,8 @@ def test_an_invalid_series_is_a_problem_naming_the_row(api: Api):
 
     assert response.status_code == 422
     assert response.json()["title"] == "Invalid series"
-    assert "appears twice" in response.json()["detail"]
+    # observations are numbered from 1: the 5th and 6th are /observations/4 and /5
+    assert "appears twice (observation 5 and observation 6)" in response.json()["detail"]
     assert api.get("reader", "/v1/series/s").status_code == 404
 
 

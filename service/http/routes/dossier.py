@@ -12,6 +12,7 @@ from service.http.problems import problem_responses
 from service.http.schemas.dossier import DossierOut, StepRow
 from service.http.schemas.results import columns
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response
+from service.limits import MAX_DOSSIER_ITEMS
 from service.moments import point_in_time
 from service.usecases.dossier import read_dossier_of
 from service.views.dossier import dossier_out, step_rows
@@ -19,7 +20,6 @@ from service.views.dossier import dossier_out, step_rows
 router = APIRouter(prefix="/v1", tags=["dossier"])
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 404, 406, 422, 500, 503)
-MAX_ITEMS = 1000
 PERIOD = r"^[0-9]{4}(-(Q[1-4]|W[0-9]{2}|[0-9]{2}(-[0-9]{2})?))?$"
 Period = Annotated[str | None, Query(pattern=PERIOD, description="a period label, e.g. "
                                      "2025-03, 2025-Q1, 2025-W07 or 2025-03-31")]
@@ -38,7 +38,7 @@ def read_dossier(
         issued_to: Annotated[str | None, Query(description="ISO 8601; issued before")] = None,
         origin_from: Period = None, origin_to: Period = None,
         target_from: Period = None, target_to: Period = None,
-        limit: Annotated[int, Query(ge=1, le=MAX_ITEMS, description=(
+        limit: Annotated[int, Query(ge=1, le=MAX_DOSSIER_ITEMS, description=(
             "at most this many forecasts (the latest issued) and audit events"))] = 200) -> Any:
     """Which model was trusted for the series, why, and how the forecasts issued with it
     fared: the champion in force at ``as_of`` and every earlier choice with the run that

@@ -11,12 +11,10 @@ from fastapi import APIRouter, Depends, Query, Request, Response
 from sqlalchemy.orm import Session
 
 from service.http.access import Caller, require
-from service.http.app_state import Sessions
+from service.http.app_state import AppSettings, Sessions
 from service.http.problems import problem_responses
 from service.http.routes.params import AsOfParam, Id
-from service.http.schemas.common import MAX_ID
 from service.http.schemas.forecasts import (
-    MAX_HORIZON,
     ForecastIn,
     ForecastOut,
     ForecastPage,
@@ -26,6 +24,7 @@ from service.http.schemas.forecasts import (
 )
 from service.http.schemas.results import columns
 from service.http.tables import FormatParam, Limit, chosen_format, csv_openapi, csv_response
+from service.limits import MAX_ID
 from service.moments import MOMENT_HELP, point_in_time
 from service.usecases.issue_forecast import IssueRequest, issue
 from service.usecases.ownership import check_writes
@@ -50,7 +49,7 @@ ERRORS = (401, 403, 422, 500, 503)
                               "issued before: that forecast"},
                         **problem_responses(*ERRORS, 409, 413)})
 def issue_forecast(body: ForecastIn, response: Response, caller: Writer,
-                   sessions: Sessions) -> ForecastOut:
+                   sessions: Sessions, settings: AppSettings) -> ForecastOut:
     """Fit the series' champion (or the named candidate) on all data of a version (default:
     the latest) and record its forecast in the ledger (201). Identical inputs answer the
     forecast issued before (200)."""
@@ -58,7 +57,7 @@ def issue_forecast(body: ForecastIn, response: Response, caller: Writer,
     request = IssueRequest(series_key=body.series_key, horizon=body.horizon,
                            levels=tuple(body.levels), seed=body.seed, version=body.version,
                            candidate_id=body.candidate_id)
-    record, created = issue(sessions, request, actor=caller.name)
+    record, created = issue(sessions, request, settings, actor=caller.name)
     with sessions.begin() as session:
         answer = forecast_out(record, get_version(session, record.series_version_id).number)
     response.status_code = 201 if created else 200
@@ -78,7 +77,7 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
                    issued_to: Annotated[str | None, Query(
                        description=f"issued before: {MOMENT_HELP}")] = None,
                    horizon: Annotated[int | None, Query(
-                       ge=1, le=MAX_HORIZON, description="only this step ahead")] = None,
+                       ge=1, le=MAX_ID, description="only this step ahead")] = None,
                    after: Annotated[int, Query(ge=0, le=MAX_ID,
                                                description="forecast id to page after")] = 0,
                    as_of: AsOfParam = None, limit: Limit = 100) -> Any:

@@ -13,7 +13,6 @@ from service.http.flat_rows import flat_columns, flat_rows
 from service.http.problems import problem_responses
 from service.http.routes.params import PooledByDefault, horizon_or_pooled
 from service.http.routes.runs import run_url
-from service.http.schemas.common import MAX_ID
 from service.http.schemas.history import (
     AuditEventOut,
     AuditEventPage,
@@ -31,6 +30,7 @@ from service.http.tables import (
     csv_response,
     link_headers,
 )
+from service.limits import MAX_ID
 from service.moments import MOMENT_HELP, point_in_time
 from service.usecases import audit_trail
 

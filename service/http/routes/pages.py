@@ -20,7 +20,7 @@ from service.http.access import Caller
 from service.http.app_state import AppSettings, Sessions
 from service.http.routes.params import Id
 from service.http.routes.reports import report_response
-from service.http.schemas.common import MAX_ID
+from service.limits import MAX_ID
 from service.settings import Settings
 from service.views.pages.answers import PageRoute
 from service.views.pages.forecast_detail import forecast_detail

@@ -7,7 +7,8 @@ from typing import Annotated
 from fastapi import Depends, Path, Query
 
 from service.errors import FieldError, InvalidInputError
-from service.http.schemas.common import MAX_ID, MAX_TAGS, TAG_NAME, TAG_VALUE
+from service.http.schemas.common import TAG_NAME, TAG_VALUE
+from service.limits import MAX_ID, MAX_TAGS
 
 
 def tag_filter(tag: Annotated[list[str] | None, Query(

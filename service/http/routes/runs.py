@@ -24,6 +24,7 @@ from service.http.schemas.runs import (
     TimingsOut,
 )
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
+from service.limits import MAX_RUNS_PAGE
 from service.usecases import runs as run_cases
 from service.usecases import submit_run as submission
 from service.usecases.runs import RunInfo, RunView
@@ -33,7 +34,6 @@ Writer = Annotated[Caller, Depends(require("write"))]
 Canceller = Annotated[Caller, Depends(require("cancel"))]
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 422, 500, 503)
-MAX_PAGE = 100
 IdempotencyKey = Annotated[str | None, Header(
     alias="Idempotency-Key", min_length=1, max_length=100, pattern=r"^[\x21-\x7e]+$",
     description="retrying a submission with the same key returns the original run")]
@@ -75,7 +75,7 @@ def list_all_runs(
             description="only runs finished before this ISO 8601 time")] = None,
         before: Annotated[int | None, Query(ge=1, description=(
             "cursor: only runs with a smaller id (the ``next`` link sets it)"))] = None,
-        limit: Annotated[int, Query(ge=1, le=MAX_PAGE)] = 50) -> Any:
+        limit: Annotated[int, Query(ge=1, le=MAX_RUNS_PAGE)] = 50) -> Any:
     """Runs, newest first, filtered; paged by a cursor so pages stay put as runs arrive.
     CSV: one row per run (lists as JSON cells)."""
     chosen = chosen_format(request, output)

@@ -37,6 +37,7 @@ from service.http.tables import (
     link_headers,
     next_link,
 )
+from service.limits import MAX_SEASON_LENGTH, MAX_UNIT_LENGTH
 from service.usecases.ownership import check_writes
 from service.usecases.series_input import series_from_csv, series_from_json, with_appended
 from service.usecases.transactions import write
@@ -93,16 +94,21 @@ async def upload_series(request: Request, response: Response, caller: Writer, se
                         settings: AppSettings, tag: TagFilter,
                         frequency: Annotated[str | None, Query(
                             description="for series without a frequency column")] = None,
-                        season_length: Annotated[int | None, Query(ge=1, le=1000)] = None,
+                        season_length: Annotated[int | None, Query(
+                            ge=1, le=MAX_SEASON_LENGTH)] = None,
+                        unit: Annotated[str | None, Query(
+                            min_length=1, max_length=MAX_UNIT_LENGTH,
+                            description="for series without a unit column, e.g. EUR")] = None,
                         fill: Literal["reject", "linear"] = "reject") -> UploadOut:
     """Post several series as one tidy CSV (``series_key, period, value [, frequency,
-    season_length]``); all are stored, or none. ``tag`` (``name:value``) applies to each.
-    201 if any new version was stored, else 200."""
+    season_length, unit]``); all are stored, or none. Rows may come in any order; periods
+    are kept as written (``2020-Q1``, ``2020-W07``). ``tag`` (``name:value``) applies to
+    each. 201 if any new version was stored, else 200."""
     if request.headers.get("content-type", "").split(";")[0].strip().lower() != "text/csv":
         raise UnsupportedMediaTypeError("send the CSV with Content-Type: text/csv")
     data = await request.body()
     outcome = await run_in_threadpool(_store_upload, data, caller, sessions, settings, tag,
-                                      frequency, season_length, fill)
+                                      frequency, season_length, unit, fill)
     response.status_code = 201 if outcome.versions_created else 200
     return outcome
 
@@ -168,12 +174,13 @@ def read_series(key: str, caller: Reader, sessions: Sessions) -> SeriesDetailOut
 
 def _store_upload(data: bytes, caller: Caller, sessions: Sessions, settings: AppSettings,
                   tags: dict[str, str], frequency: str | None, season_length: int | None,
-                  fill: Literal["reject", "linear"]) -> UploadOut:
+                  unit: str | None, fill: Literal["reject", "linear"]) -> UploadOut:
     parsed = series_from_csv(data, settings, frequency=frequency,
-                             season_length=season_length, fill=fill)
+                             season_length=season_length, unit=unit, fill=fill)
     check_writes(caller, (s.key for s in parsed))
     outcomes = write(sessions, lambda session: [
-        save(session, s, actor=caller.name, tags=tags or None) for s in parsed])
+        save(session, one.series, actor=caller.name, unit=one.unit, tags=tags or None)
+        for one in parsed])
     written = [_write_out(o) for o in outcomes]
     return UploadOut(versions_created=sum(o.created for o in outcomes), series=written)
 

@@ -6,8 +6,9 @@ from datetime import datetime
 
 from pydantic import Field
 
-from service.http.schemas.common import MAX_ID, Page, Strict
+from service.http.schemas.common import Page, Strict
 from service.http.schemas.results import Row
+from service.limits import MAX_ID
 
 CANDIDATE_ID = r"^c[0-9a-f]{16}$"
 

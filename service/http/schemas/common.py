@@ -7,15 +7,11 @@ from typing import Annotated
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, StringConstraints
 
+from service.limits import MAX_TAGS
 from service.usecases.series_keys import normalised_key
 
-MAX_ID = 2**31 - 1
-"""Largest id, version number, offset or sequence number a request may name (the store's
-integer columns hold no more)."""
 TAG_NAME = re.compile(r"[A-Za-z0-9_.-]{1,64}")
 TAG_VALUE = re.compile(r"[^\x00-\x1f]{1,200}")
-MAX_TAGS = 20
-"""Most tags a series carries, and most tag filters a request gives."""
 TagName = Annotated[str, StringConstraints(pattern=f"^{TAG_NAME.pattern}$")]
 TagValue = Annotated[str, StringConstraints(pattern=f"^{TAG_VALUE.pattern}$")]
 Tags = Annotated[dict[TagName, TagValue], Field(max_length=MAX_TAGS)]

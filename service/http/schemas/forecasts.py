@@ -8,10 +8,9 @@ from typing import Any
 from pydantic import BaseModel, Field, field_validator
 
 from service.http.schemas.champions import CANDIDATE_ID
-from service.http.schemas.common import MAX_ID, Page, SeriesKey, Strict
+from service.http.schemas.common import Page, SeriesKey, Strict
 from service.http.schemas.results import Row
-
-MAX_HORIZON = 120
+from service.limits import MAX_ID, MAX_LEVEL, MIN_LEVEL
 
 
 class ForecastIn(Strict):
@@ -22,16 +21,17 @@ class ForecastIn(Strict):
     version: int | None = Field(None, ge=1, le=MAX_ID, description="default: the latest")
     candidate_id: str | None = Field(None, pattern=CANDIDATE_ID,
                                      description="default: the series' current champion")
-    horizon: int = Field(ge=1, le=MAX_HORIZON, examples=[6])
-    levels: list[int] = Field([80, 95], min_length=1, max_length=10,
-                              description="central interval levels in %")
+    horizon: int = Field(ge=1, le=MAX_ID, examples=[6],
+                         description="steps ahead; at most FOLDLINE_MAX_HORIZON")
+    levels: list[int] = Field([80, 95], min_length=1, description="central interval levels "
+                              "in %; at most FOLDLINE_MAX_LEVELS of them")
     seed: int = Field(0, ge=0, le=MAX_ID, description="seeds any simulated intervals")
 
     @field_validator("levels")
     @classmethod
     def _distinct_percentages(cls, levels: list[int]) -> list[int]:
-        if any(not 1 <= level <= 99 for level in levels):
-            raise ValueError("levels are whole percentages from 1 to 99")
+        if any(not MIN_LEVEL <= level <= MAX_LEVEL for level in levels):
+            raise ValueError(f"levels are whole percentages from {MIN_LEVEL} to {MAX_LEVEL}")
         if len(set(levels)) != len(levels):
             raise ValueError("levels repeat a value")
         return sorted(levels)

@@ -8,12 +8,18 @@ from typing import Literal
 from pydantic import BaseModel, Field
 
 from service.http.schemas.common import Page, SeriesKey, Strict, Tags
+from service.limits import (
+    MAX_PERIOD_LENGTH,
+    MAX_SEASON_LENGTH,
+    MAX_UNIT_LENGTH,
+    UNIT_PATTERN,
+)
 
 
 class ObservationIn(Strict):
     """One observation: a period label (e.g. ``2024-03``) and its value."""
 
-    period: str = Field(min_length=1, max_length=32, examples=["2024-03"])
+    period: str = Field(min_length=1, max_length=MAX_PERIOD_LENGTH, examples=["2024-03"])
     value: float = Field(allow_inf_nan=False)
 
 
@@ -23,9 +29,10 @@ class SeriesIn(Strict):
     key: SeriesKey = Field(examples=["sales/north"])
     frequency: str = Field(pattern=r"^P[1-9][0-9]{0,3}[DWMY]$", examples=["P1M"],
                            description="ISO 8601 duration: P1D, P1W, P1M, P3M, P1Y, ...")
-    season_length: int | None = Field(None, ge=1, le=1000,
+    season_length: int | None = Field(None, ge=1, le=MAX_SEASON_LENGTH,
                                       description="default: from the frequency (P1M: 12)")
-    unit: str | None = Field(None, max_length=32, pattern=r"^[^\x00-\x1f]*$")
+    unit: str | None = Field(None, max_length=MAX_UNIT_LENGTH, pattern=UNIT_PATTERN,
+                             examples=["EUR"], description="shown on charts' value axes")
     tags: Tags | None = Field(None, description="fixed by the first post; null keeps them")
     fill: Literal["reject", "linear"] = Field(
         "reject", description="missing periods: refuse them, or interpolate linearly")

@@ -164,8 +164,8 @@ def label_periods(ax: Axes, labels: Sequence[str], positions: Sequence[float], *
     second January ...), the finest stride that gives at most ``max_ticks`` ticks.
 
     A tick goes on the first period of each calendar block of the stride, except a first
-    period that starts mid-block; labels that are not ``YYYY``, ``YYYY-MM`` or
-    ``YYYY-MM-DD`` are thinned to every n-th instead.
+    period that starts mid-block; labels that are not ``YYYY``, ``YYYY-Qn``, ``YYYY-MM`` or
+    ``YYYY-MM-DD`` (ISO weeks) are thinned to every n-th instead.
     """
     labels, positions = list(labels), list(positions)
     months = [_month_index(label) for label in labels]
@@ -182,9 +182,11 @@ def label_periods(ax: Axes, labels: Sequence[str], positions: Sequence[float], *
 
 
 def _month_index(label: str) -> int | None:
-    """Months since year 0 of a ``YYYY``, ``YYYY-MM`` or ``YYYY-MM-DD`` label (days fall
-    into their month), else ``None``."""
+    """Months since year 0 of a ``YYYY``, ``YYYY-Qn``, ``YYYY-MM`` or ``YYYY-MM-DD`` label
+    (days fall into their month, a quarter starts at its first month), else ``None``."""
     parts = label.split("-")
+    if len(parts) == 2 and parts[0].isdigit() and parts[1] in ("Q1", "Q2", "Q3", "Q4"):
+        return int(parts[0]) * 12 + 3 * (int(parts[1][1]) - 1)
     if not 1 <= len(parts) <= 3 or not all(p.isdigit() for p in parts):
         return None
     month = int(parts[1]) if len(parts) > 1 else 1

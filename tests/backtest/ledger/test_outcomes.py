@@ -42,7 +42,7 @@ def issued():
 
 def test_issued_forecast_and_scales_match_the_hand_values(issued):
     assert issued.point == (15.0, 18.0, 24.0, 17.0)
-    assert issued.periods == ("2020-01", "2020-04", "2020-07", "2020-10")
+    assert issued.periods == ("2020-Q1", "2020-Q2", "2020-Q3", "2020-Q4")  # as written
     assert issued.scale == pytest.approx(13 / 8, abs=1e-12)
     assert issued.scale_sq == pytest.approx(255 / 11, abs=1e-12)
     half80 = 1.281552 * math.sqrt(23 / 8)  # z_0.90 (normal table) times s
@@ -88,8 +88,8 @@ def test_reference_sheet_interval_scores(issued):
 def test_unobserved_and_interpolated_periods_give_no_outcome(issued):
     assert score_outcomes(issued, quarterly(TRAIN)) == ()
     assert [o.period for o in score_outcomes(issued, quarterly(TRAIN + [16, 21]))] == [
-        "2020-01", "2020-04"]
-    gap = quarterly(TRAIN + [16, None, 25], fill="linear")  # 2020-04 interpolated
+        "2020-Q1", "2020-Q2"]
+    gap = quarterly(TRAIN + [16, None, 25], fill="linear")  # 2020-Q2 interpolated
     assert [o.horizon for o in score_outcomes(issued, gap)] == [1, 3]
 
 
@@ -102,11 +102,11 @@ def test_smape_term_is_none_where_undefined(issued):
 def test_other_series_or_frequency_is_refused(issued):
     with pytest.raises(LedgerError, match="actuals are of series 'other'"):
         score_outcomes(issued, quarterly(TRAIN + [16], key="other"))
-    # the quarterly labels 2020-01, 2020-04, ... also exist on a monthly grid
+    # the quarters 2020-Q1, 2020-Q2, ... are months 2020-01, 2020-04, ... on a monthly grid
     months = make_series("toy", "P1M", [(f"2020-{i:02d}", 1.0) for i in range(1, 13)])
     with pytest.raises(LedgerError, match="not consecutive periods of the P1M actuals"):
         score_outcomes(issued, months)
-    days = make_series("toy", "P1D", [("2020-01-01", 1.0)])
+    days = make_series("toy", "P1D", [("2020-01-01", 1.0)])  # no quarter is a day
     with pytest.raises(LedgerError, match="not consecutive periods of the P1D actuals"):
         score_outcomes(issued, days)
 
