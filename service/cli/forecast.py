@@ -17,10 +17,9 @@ from service.http.schemas.forecasts import ForecastOut, ForecastRow, OutcomeRow
 from service.http.schemas.results import columns
 from service.moments import MOMENT_HELP, point_in_time
 from service.settings import checked_settings
+from service.usecases import forecasts
 from service.usecases.issue_forecast import IssueRequest, issue
 from service.views.ledger_answers import forecast_out, forecast_rows, outcome_rows, outcome_set_out
-from storage.ledger import IssuedRecord, current_outcomes, get_issued, list_issued, outcome_sets
-from storage.series import get_version
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -65,8 +64,7 @@ def forecast_issue(args: argparse.Namespace) -> int:
                                levels=args.levels, seed=args.seed,
                                version=args.version, candidate_id=args.candidate)
         record, created = issue(sessions, request, checked_settings(), actor=operator())
-        with sessions.begin() as session:
-            out = _out(session, record)
+        out = _out(forecasts.issued_forecast(sessions, record.forecast_id))
         note = "" if created else "identical inputs were issued before: "
         return note + "\n".join(forecast_lines(out))
     return run_in_store(args, work)
@@ -76,11 +74,9 @@ def forecast_list(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
         issued_from = point_in_time("--from", args.issued_from)
         issued_to = point_in_time("--to", args.issued_to)
-        with sessions.begin() as session:
-            records = list_issued(session, series_key=args.series, candidate_id=args.candidate,
-                                  issued_from=issued_from, issued_to=issued_to,
-                                  limit=1_000_000)
-            outs = [_out(session, record) for record in records]
+        outs = [_out(n) for n in forecasts.issued_forecasts(
+            sessions, series_key=args.series, candidate_id=args.candidate,
+            issued_from=issued_from, issued_to=issued_to, limit=1_000_000)]
         if args.csv:
             return _csv((row for out in outs for row in forecast_rows(out, args.horizon)),
                         columns(ForecastRow))
@@ -91,31 +87,25 @@ def forecast_list(args: argparse.Namespace) -> int:
 
 def forecast_show(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        with sessions.begin() as session:
-            return "\n".join(forecast_lines(_out(session, get_issued(session,
-                                                                     args.forecast_id))))
+        return "\n".join(forecast_lines(_out(forecasts.issued_forecast(sessions,
+                                                                       args.forecast_id))))
     return run_in_store(args, work)
 
 
 def forecast_outcomes(args: argparse.Namespace) -> int:
     def work(sessions: sessionmaker[Session]) -> str:
-        with sessions.begin() as session:
-            out = _out(session, get_issued(session, args.forecast_id))
-            current = current_outcomes(session, args.forecast_id)
-            found = outcome_sets(session, args.forecast_id) if args.all else \
-                [s for s in [current] if s]
-            sets = [outcome_set_out(s, get_version(session, s.series_version_id).number,
-                                    current is not None
-                                    and s.series_version_id == current.series_version_id)
-                    for s in found]
+        found = forecasts.forecast_outcomes(sessions, args.forecast_id, every=args.all)
+        out = _out(found.forecast)
+        sets = [outcome_set_out(s, number, s.series_version_id == found.current_version_id)
+                for s, number in found.sets]
         if args.csv:
             return _csv(outcome_rows(out, sets), columns(OutcomeRow))
         return "\n".join([*forecast_lines(out), *outcome_lines(sets)])
     return run_in_store(args, work)
 
 
-def _out(session: Session, record: IssuedRecord) -> ForecastOut:
-    return forecast_out(record, get_version(session, record.series_version_id).number)
+def _out(issued: forecasts.Numbered) -> ForecastOut:
+    return forecast_out(issued.record, issued.version)
 
 
 def _lines(out: ForecastOut, horizon: int | None) -> list[str]:

@@ -8,7 +8,6 @@ from __future__ import annotations
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Query, Request, Response
-from sqlalchemy.orm import Session
 
 from service.http.access import Caller, require
 from service.http.app_state import AppSettings, Sessions
@@ -26,6 +25,7 @@ from service.http.schemas.results import columns
 from service.http.tables import FormatParam, Limit, chosen_format, csv_openapi, csv_response
 from service.limits import MAX_ID
 from service.moments import MOMENT_HELP, point_in_time
+from service.usecases import forecasts
 from service.usecases.issue_forecast import IssueRequest, issue
 from service.usecases.ownership import check_writes
 from service.views.ledger_answers import (
@@ -35,8 +35,6 @@ from service.views.ledger_answers import (
     outcome_rows,
     outcome_set_out,
 )
-from storage.ledger import IssuedRecord, get_issued, list_issued, outcome_sets
-from storage.series import get_version
 
 router = APIRouter(prefix="/v1", tags=["forecasts"])
 Writer = Annotated[Caller, Depends(require("write"))]
@@ -58,8 +56,8 @@ def issue_forecast(body: ForecastIn, response: Response, caller: Writer,
                            levels=tuple(body.levels), seed=body.seed, version=body.version,
                            candidate_id=body.candidate_id)
     record, created = issue(sessions, request, settings, actor=caller.name)
-    with sessions.begin() as session:
-        answer = forecast_out(record, get_version(session, record.series_version_id).number)
+    issued = forecasts.issued_forecast(sessions, record.forecast_id)
+    answer = forecast_out(issued.record, issued.version)
     response.status_code = 201 if created else 200
     response.headers["Location"] = answer.url
     return answer
@@ -86,17 +84,18 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
     level. Paged with ``after``."""
     chosen = chosen_format(request, output)
     moment = point_in_time("as_of", as_of, day_end=True)
-    with sessions.begin() as session:
-        records = list_issued(session, series_key=series_key, candidate_id=candidate_id,
-                              issued_from=point_in_time("issued_from", issued_from),
-                              issued_to=point_in_time("issued_to", issued_to), as_of=moment,
-                              after_id=after, limit=limit + 1)
-        items = _outs(session, records[:limit])
+    records = forecasts.issued_forecasts(
+        sessions, series_key=series_key, candidate_id=candidate_id,
+        issued_from=point_in_time("issued_from", issued_from),
+        issued_to=point_in_time("issued_to", issued_to), as_of=moment, after_id=after,
+        limit=limit + 1)
+    items = [forecast_out(n.record, n.version) for n in records[:limit]]
     if horizon is not None:
         items = [_only_step(item, horizon) for item in items if item.horizon >= horizon]
     link = None
     if len(records) > limit:
-        query = request.url.include_query_params(after=records[limit - 1].forecast_id).query
+        query = request.url.include_query_params(
+            after=records[limit - 1].record.forecast_id).query
         link = f"{request.url.path}?{query}"
     if chosen == "csv":
         rows = (row for item in items for row in forecast_rows(item))
@@ -110,8 +109,8 @@ def list_forecasts(request: Request, response: Response, caller: Reader, session
             responses=problem_responses(*ERRORS, 404))
 def read_forecast(forecast_id: Id, caller: Reader, sessions: Sessions) -> ForecastOut:
     """One issued forecast, as recorded."""
-    with sessions.begin() as session:
-        return _outs(session, [get_issued(session, forecast_id)])[0]
+    issued = forecasts.issued_forecast(sessions, forecast_id)
+    return forecast_out(issued.record, issued.version)
 
 
 @router.get("/forecasts/{forecast_id}/outcomes", response_model=OutcomesOut,
@@ -127,31 +126,15 @@ def read_outcomes(forecast_id: Id, request: Request, caller: Reader, sessions: S
     scored by then. Empty until actuals arrive."""
     chosen = chosen_format(request, output)
     moment = point_in_time("as_of", as_of, day_end=True)
-    with sessions.begin() as session:
-        forecast = _outs(session, [get_issued(session, forecast_id)])[0]
-        scored = [s for s in outcome_sets(session, forecast_id)
-                  if moment is None or s.scored_at <= moment]
-        current = max(scored, key=lambda s: get_version(session, s.series_version_id).number,
-                      default=None)
-        found = scored if every else [s for s in [current] if s]
-        sets = [outcome_set_out(s, get_version(session, s.series_version_id).number,
-                                current is not None
-                                and s.series_version_id == current.series_version_id)
-                for s in found]
+    found = forecasts.forecast_outcomes(sessions, forecast_id, every=every, as_of=moment)
+    forecast = forecast_out(found.forecast.record, found.forecast.version)
+    sets = [outcome_set_out(s, number, s.series_version_id == found.current_version_id)
+            for s, number in found.sets]
     if chosen == "csv":
         return csv_response(outcome_rows(forecast, sets), columns(OutcomeRow), None)
     return OutcomesOut(forecast_id=forecast_id, forecast_url=forecast_url(forecast_id),
                        series_key=forecast.series_key, candidate_id=forecast.candidate_id,
                        sets=sets)
-
-
-def _outs(session: Session, records: list[IssuedRecord]) -> list[ForecastOut]:
-    numbers: dict[int, int] = {}
-    for record in records:
-        if record.series_version_id not in numbers:
-            numbers[record.series_version_id] = get_version(session,
-                                                            record.series_version_id).number
-    return [forecast_out(r, numbers[r.series_version_id]) for r in records]
 
 
 def _only_step(item: ForecastOut, horizon: int) -> ForecastOut:

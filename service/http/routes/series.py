@@ -6,7 +6,6 @@ from typing import Annotated, Any, Literal
 from urllib.parse import quote
 
 from fastapi import APIRouter, Depends, Query, Request, Response
-from sqlalchemy.orm import Session
 from starlette.concurrency import run_in_threadpool
 
 from service.errors import UnsupportedMediaTypeError
@@ -38,21 +37,9 @@ from service.http.tables import (
     next_link,
 )
 from service.limits import MAX_SEASON_LENGTH, MAX_UNIT_LENGTH
+from service.usecases import series as stored_series
 from service.usecases.ownership import check_writes
 from service.usecases.series_input import series_from_csv, series_from_json, with_appended
-from service.usecases.transactions import write
-from storage.errors import ConflictError
-from storage.series import (
-    SaveOutcome,
-    SeriesInfo,
-    VersionInfo,
-    find_series,
-    get_series,
-    list_versions,
-    load_series,
-    version_by_number,
-)
-from storage.series import save_series_version as save
 
 router = APIRouter(prefix="/v1", tags=["series"])
 Writer = Annotated[Caller, Depends(require("write"))]
@@ -74,16 +61,8 @@ def post_series(body: SeriesIn, response: Response, caller: Writer, sessions: Se
     series = series_from_json(body, settings)
     check_writes(caller, [series.key])
 
-    def store(session: Session) -> SaveOutcome:
-        return save(session, series, actor=caller.name, unit=body.unit, tags=body.tags)
-
-    try:
-        outcome = write(sessions, store)
-    except ConflictError:
-        # Two clients posting the same new data at once: the loser's insert conflicts; on a
-        # second try it finds the winner's version and answers like a repeated post.
-        outcome = write(sessions, store)
-    return _written(outcome, response)
+    return _written(stored_series.save_one(sessions, series, actor=caller.name, unit=body.unit,
+                                           tags=body.tags), response)
 
 
 @router.post("/series/upload", status_code=201, response_model=UploadOut,
@@ -122,8 +101,8 @@ def list_series(request: Request, response: Response, caller: Reader, sessions: 
                 limit: Limit = 100, offset: Offset = 0) -> Any:
     """Series whose key starts with ``prefix`` and that carry every ``tag``, by key."""
     chosen = chosen_format(request, output)
-    with sessions.begin() as session:
-        found = find_series(session, prefix=prefix, tags=tag, limit=limit + 1, offset=offset)
+    found = stored_series.find(sessions, prefix=prefix, tags=tag, limit=limit + 1,
+                               offset=offset)
     link = next_link(request, offset, limit, len(found) > limit)
     items = [_series_out(s) for s in found[:limit]]
     if chosen == "csv":
@@ -136,9 +115,7 @@ def list_series(request: Request, response: Response, caller: Reader, sessions: 
             responses=problem_responses(*ERRORS, 404))
 def read_version(key: str, number: Id, caller: Reader, sessions: Sessions) -> VersionDataOut:
     """One version of a series with its observations."""
-    with sessions.begin() as session:
-        version = version_by_number(session, key, number)
-        series = load_series(session, version.id)
+    version, series = stored_series.version_with_data(sessions, key, number)
     filled = set(series.filled)
     observations = [ObservationOut(period=label, value=float(value), filled=label in filled)
                     for label, value in zip(series.labels(), series.values)]
@@ -153,21 +130,16 @@ def append_observations(key: str, body: AppendIn, response: Response, caller: Wr
     """Append new actuals as a new version (201); nothing new answers 200."""
     check_writes(caller, [key])
 
-    def append(session: Session) -> SaveOutcome:
-        stored = load_series(session, get_series(session, key).latest.id)
-        return save(session, with_appended(stored, body.observations, settings),
-                    actor=caller.name)
-
-    return _written(write(sessions, append), response)
+    return _written(stored_series.append(
+        sessions, key, lambda stored: with_appended(stored, body.observations, settings),
+        actor=caller.name), response)
 
 
 @router.get("/series/{key:path}", response_model=SeriesDetailOut,
             responses=problem_responses(*ERRORS, 404))
 def read_series(key: str, caller: Reader, sessions: Sessions) -> SeriesDetailOut:
     """A series with all its versions, oldest first."""
-    with sessions.begin() as session:
-        info = get_series(session, key)
-        versions = list_versions(session, key)
+    info, versions = stored_series.series_with_versions(sessions, key)
     return SeriesDetailOut(**_series_out(info).model_dump(),
                            versions=[_version_out(v) for v in versions])
 
@@ -177,34 +149,32 @@ def _store_upload(data: bytes, caller: Caller, sessions: Sessions, settings: App
                   unit: str | None, fill: Literal["reject", "linear"]) -> UploadOut:
     parsed = series_from_csv(data, settings, frequency=frequency,
                              season_length=season_length, unit=unit, fill=fill)
-    check_writes(caller, (s.key for s in parsed))
-    outcomes = write(sessions, lambda session: [
-        save(session, one.series, actor=caller.name, unit=one.unit, tags=tags or None)
-        for one in parsed])
+    check_writes(caller, (one.series.key for one in parsed))
+    outcomes = stored_series.save_file(sessions, parsed, actor=caller.name, tags=tags or None)
     written = [_write_out(o) for o in outcomes]
     return UploadOut(versions_created=sum(o.created for o in outcomes), series=written)
 
 
-def _written(outcome: SaveOutcome, response: Response) -> SeriesWriteOut:
+def _written(outcome: stored_series.SaveOutcome, response: Response) -> SeriesWriteOut:
     response.status_code = 201 if outcome.created else 200
     response.headers["Location"] = series_url(outcome.version.series_key)
     return _write_out(outcome)
 
 
-def _write_out(outcome: SaveOutcome) -> SeriesWriteOut:
+def _write_out(outcome: stored_series.SaveOutcome) -> SeriesWriteOut:
     key = outcome.version.series_key
     return SeriesWriteOut(series_key=key, url=series_url(key), created=outcome.created,
                           version=_version_out(outcome.version))
 
 
-def _series_out(info: SeriesInfo) -> SeriesOut:
+def _series_out(info: stored_series.SeriesInfo) -> SeriesOut:
     return SeriesOut(key=info.key, url=series_url(info.key), frequency=info.frequency,
                      season_length=info.season_length, unit=info.unit, tags=info.tags,
                      created_at=info.created_at, created_by=info.created_by,
                      latest_version=_version_out(info.latest))
 
 
-def _version_out(version: VersionInfo) -> VersionOut:
+def _version_out(version: stored_series.VersionInfo) -> VersionOut:
     return VersionOut(number=version.number, fingerprint=version.fingerprint,
                       change=version.change, n_obs=version.n_obs,
                       first_period=version.first_period, last_period=version.last_period,
