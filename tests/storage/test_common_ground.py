@@ -106,7 +106,7 @@ def _view(url: str) -> dict[str, dict]:
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_the_view_ranks_on_common_ground_and_older_rows_on_their_own_folds(backend: str,
                                                                            tmp_path: Path):
-    """At head the view ranks on the common origins; at 0008_h17 (before) it ranked each
+    """At head the view ranks on the common origins; at 0009_h19b (before) it ranked each
     candidate's own folds; rows without common-ground figures (as after a downgrade, or
     written before 0009_h14) read back their own-folds figures with common_folds null. On
     PostgreSQL a BI role's grant on the view survives the upgrade (the view is replaced in
@@ -120,7 +120,7 @@ def test_the_view_ranks_on_common_ground_and_older_rows_on_their_own_folds(backe
         assert head[fragile]["value"] == head[fragile]["value_own_folds"]
         own = {cid: row["value_own_folds"] for cid, row in head.items()}
 
-        _downgrade(url, "0008_h17")
+        _downgrade(url, "0009_h19b")
         before = _view(url)
         assert "common_folds" not in before[other]
         assert {cid: row["value"] for cid, row in before.items()} == own
