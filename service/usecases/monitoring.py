@@ -45,11 +45,12 @@ def monitor_series(session: Session, series_key: str, candidate_id: str | None =
     as it stood then: the champion, forecasts, outcomes and runs recorded by that time."""
     get_series(session, series_key)
     champion = current_champion(session, series_key, as_of)
-    if candidate_id is None and champion is None:
-        message = (f"series {series_key!r} has no champion; name the candidate to monitor")
-        raise InvalidInputError(message, errors=[FieldError("query", "/candidate_id",
-                                                            message)])
-    candidate_id = candidate_id or champion.candidate_id  # type: ignore[union-attr]
+    if not candidate_id:
+        if champion is None:
+            message = f"series {series_key!r} has no champion; name the candidate to monitor"
+            raise InvalidInputError(message, errors=[FieldError("query", "/candidate_id",
+                                                                message)])
+        candidate_id = champion.candidate_id
     history = issued_with_outcomes(session, series_key, candidate_id, as_of)
     is_champion = champion is not None and champion.candidate_id == candidate_id
     expectation = _expectation(session, series_key, candidate_id, as_of)

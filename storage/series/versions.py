@@ -102,7 +102,7 @@ def load_series(session: Session, version_id: int) -> Series:
     filled = tuple(row.period for row in rows if row.filled)
     return Series(record.key, frequency, record.season_length,
                   frequency.position(rows[0].period), values, filled,
-                  version.fill_policy)  # type: ignore[arg-type]
+                  version.fill_policy)  # type: ignore[arg-type]  # stored from a FillPolicy
 
 
 @translates_errors

@@ -59,7 +59,7 @@ PAGE_HEADERS = {"Content-Security-Policy": "default-src 'none'; style-src 'unsaf
 
 Reviewer = Annotated[Caller, Depends(reviewer)]
 #: A monitoring state of the series list, or "" (the form's "any").
-MonitoringState = Literal[("", *STATES)]  # type: ignore[valid-type] - the page's own list
+MonitoringState = Literal[("", *STATES)]  # type: ignore[valid-type]  # from a runtime tuple
 
 
 async def posted_form(request: Request) -> dict[str, str]:

@@ -44,7 +44,7 @@ from service.usecases import results
 router = APIRouter(prefix="/v1/runs/{run_id}", tags=["results"])
 Reader = Annotated[Caller, Depends(require("read"))]
 ERRORS = (401, 403, 404, 406, 422, 500, 503)
-ScoreMetricFilter = Annotated[Literal[POINT_METRICS + DISTRIBUTION_METRICS + LEVEL_METRICS] | None,  # type: ignore[valid-type]
+ScoreMetricFilter = Annotated[Literal[POINT_METRICS + DISTRIBUTION_METRICS + LEVEL_METRICS] | None,  # type: ignore[valid-type]  # from a runtime tuple
                               Query(description="one score's name")]
 SeriesKeyFilter = Annotated[str | None, Query(max_length=200, description="one series")]
 CandidateFilter = Annotated[str | None, Query(max_length=17, description="one candidate id")]

@@ -119,7 +119,7 @@ def run_out(view: RunView) -> RunOut:
     run, versions, labels = view.run, view.versions, view.labels
     url = run_url(run.id)
     return RunOut(
-        id=run.id, url=url, status=run.status, requested_by=run.requested_by,  # type: ignore[arg-type]
+        id=run.id, url=url, status=run.status, requested_by=run.requested_by,  # type: ignore[arg-type]  # a stored status, one of the Literal
         idempotency_key=run.idempotency_key.split(":", 1)[1] if run.idempotency_key else None,
         plan_id=run.plan_id, seed=run.seed, attempts=run.attempts,
         failure_reason=run.failure_reason, cancel_requested_by=view.cancel_requested_by,

@@ -10,7 +10,7 @@ from pydantic import BaseModel, Field, StringConstraints
 from service.http.schemas.common import Strict
 from service.usecases.keys import KEY_NAME, ROLES
 
-Role = Literal[ROLES]  # type: ignore[valid-type]
+Role = Literal[ROLES]  # type: ignore[valid-type]  # from a runtime tuple: values and docs never drift
 KeyName = Annotated[str, StringConstraints(pattern=f"^{KEY_NAME.pattern}$")]
 
 

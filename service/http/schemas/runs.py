@@ -10,7 +10,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from backtest.models import FAMILIES
 from service.http.schemas.common import SeriesKey, Strict, Tags
 
-Family = Literal[tuple(sorted(FAMILIES))]  # type: ignore[valid-type]
+Family = Literal[tuple(sorted(FAMILIES))]  # type: ignore[valid-type]  # from a runtime tuple: values and docs never drift
 PLAN_EXAMPLE = {"horizon": 6, "max_origins": 12, "levels": [80, 95], "rank_by": "mase"}
 
 
