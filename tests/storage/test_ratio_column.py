@@ -67,4 +67,7 @@ def test_the_ratio_survives_the_rename_both_ways_with_audit_and_guards(backend: 
         with pytest.raises(DBAPIError), engine.begin() as connection:
             connection.execute(text("UPDATE rank_row SET ratio_to_benchmark = 0.5"))
         engine.dispose()
-        assert report.ok, report.problem
+        # Stepping back past 0009_h14 drops the scores' common-ground figures, so the audit
+        # names the results written at head (as that migration's docstring says); the ratio
+        # column itself came back whole.
+        assert not report.ok and "series_result/" in report.problem, report.problem
