@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime
 
-from sqlalchemy import func, select
+from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
 from storage.audit import (
@@ -86,7 +86,7 @@ def find_credentials(session: Session, key_id: str) -> KeyCredentials | None:
     recorded = dict(session.execute(
         select(AuditEvent.action, AuditEvent.digest)
         .where(AuditEvent.subject == key_subject(key_id),
-               AuditEvent.action.in_(("api_key.created", "api_key.revoked")))).all())
+               AuditEvent.action.in_(("api_key.created", "api_key.revoked")))).tuples().all())
     audited = (recorded.get("api_key.created") == key_digest([as_row(key)])
                and recorded.get("api_key.revoked") == (
                    None if revocation is None else revocation_digest([as_row(revocation)])))
@@ -130,7 +130,9 @@ def _active_admins(session: Session) -> int:
     return session.scalar(query) or 0
 
 
-def _with_revocation():
+def _with_revocation() -> Select[tuple[ApiKey, ApiKeyRevocation]]:
+    # Outer join: the revocation is None for a key not revoked (the row type cannot say so:
+    # SQLAlchemy types select(A, B) as Select[tuple[A, B]], and Select is invariant).
     return select(ApiKey, ApiKeyRevocation).outerjoin(ApiKeyRevocation)
 
 

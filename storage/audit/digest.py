@@ -21,7 +21,9 @@ from sqlalchemy import JSON, Column, Table
 
 from storage.db import ADDED_LATER, UtcDateTime
 
-Row = Mapping[str, Any]
+# Keyed by column name. The key type is Any because SQLAlchemy's RowMapping (also keyed by
+# column objects) is not a Mapping[str, Any]: Mapping is invariant in its key type.
+Row = Mapping[Any, Any]
 
 
 def sha256_text(text: str) -> str:
@@ -57,8 +59,8 @@ def combine(digests: Iterable[str]) -> str:
 
 
 def _tuple_maker(table: Table, names: list[str]) -> Callable[[Row], tuple[Any, ...]]:
-    converters = [(i, _converter(table.columns[n])) for i, n in enumerate(names)]
-    converters = [(i, conv) for i, conv in converters if conv is not None]
+    converters = [(i, conv) for i, n in enumerate(names)
+                  if (conv := _converter(table.columns[n])) is not None]
     pick = itemgetter(*names)
     if len(names) == 1:
         return lambda row: (pick(row),)

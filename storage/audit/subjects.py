@@ -61,10 +61,10 @@ def describe_subjects(session: Session, subjects: Iterable[str]) -> dict[str, st
     }
     answer = {}
     for kind, found in parts.items():
-        for rest in found:
-            subject = f"{kind}/{'/'.join(rest)}"
+        for path in found:
+            subject = f"{kind}/{'/'.join(path)}"
             try:
-                answer[subject] = described[kind](rest)
+                answer[subject] = described[kind](path)
             except (KeyError, ValueError, IndexError):  # a subject this store cannot resolve
                 answer[subject] = subject
     return answer
@@ -79,21 +79,21 @@ def _versions(session: Session, ids: set[int]) -> dict[int, str]:
 
 def _series(session: Session, ids: set[int]) -> dict[int, str]:
     return dict(session.execute(select(SeriesRecord.id, SeriesRecord.key)
-                                .where(SeriesRecord.id.in_(ids))).all())
+                                .where(SeriesRecord.id.in_(ids))).tuples().all())
 
 
 def _forecasts(session: Session, ids: set[int]) -> dict[int, str]:
     return dict(session.execute(
         select(IssuedForecastRecord.id, SeriesRecord.key)
         .join(SeriesRecord, SeriesRecord.id == IssuedForecastRecord.series_id)
-        .where(IssuedForecastRecord.id.in_(ids))).all())
+        .where(IssuedForecastRecord.id.in_(ids))).tuples().all())
 
 
 def _choices(session: Session, ids: set[int]) -> dict[int, str]:
     return dict(session.execute(
         select(ChampionChoiceRecord.id, SeriesRecord.key)
         .join(SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id)
-        .where(ChampionChoiceRecord.id.in_(ids))).all())
+        .where(ChampionChoiceRecord.id.in_(ids))).tuples().all())
 
 
 def _candidate_specs(session: Session, ids: set[str]) -> dict[str, str]:

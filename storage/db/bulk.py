@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 from operator import itemgetter
-from typing import Any
+from typing import Any, cast
 
 import psycopg
 from sqlalchemy import JSON, Table, insert
@@ -58,7 +58,10 @@ def _copy(session: Session, table: Table, names: list[str],
     quote = session.get_bind().dialect.identifier_preparer.quote
     statement = (f"COPY {quote(table.name)} ({', '.join(quote(n) for n in names)}) "
                  "FROM STDIN")
-    driver_connection = session.connection().connection.driver_connection
+    # COPY runs only on PostgreSQL, whose driver here is psycopg; a checked-out connection
+    # always has its driver connection (SQLAlchemy types it as optional and Any).
+    driver_connection = cast(psycopg.Connection[Any],
+                             session.connection().connection.driver_connection)
     try:
         with driver_connection.cursor() as cursor, cursor.copy(statement) as copy:
             for row in values:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 from sqlalchemy import inspect
@@ -24,7 +25,8 @@ def refuse_changes_to_frozen_records(session: Session, _context: Any, _instances
 
 def _status_before(run: Run) -> str:
     history = inspect(run).attrs.status.history
-    return (history.deleted or history.unchanged)[0]
+    statuses: Sequence[str] = history.deleted or history.unchanged
+    return statuses[0]
 
 
 def _describe(record: Base) -> str:

@@ -18,7 +18,7 @@ frozen once its status is final. On SQLite, tables with composite natural keys a
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any, ClassVar
 
 from sqlalchemy import (
     CheckConstraint,
@@ -28,6 +28,7 @@ from sqlalchemy import (
     Index,
     MetaData,
     String,
+    Table,
     Text,
     UniqueConstraint,
 )
@@ -63,6 +64,10 @@ class Base(DeclarativeBase):
     """Declarative base with the naming convention and the shared column types."""
 
     metadata = MetaData(naming_convention=NAMING_CONVENTION)
+    if TYPE_CHECKING:
+        # Every model here declares its own table, so its __table__ is a Table, not just
+        # the FromClause that DeclarativeBase promises (SQLAlchemy also maps views and joins).
+        __table__: ClassVar[Table]
     type_annotation_map = {
         Json: JsonType,
         datetime: UtcDateTime(),

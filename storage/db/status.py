@@ -28,11 +28,12 @@ def schema_revision(session: Session) -> str | None:
 @translates_errors
 def run_counts(session: Session) -> dict[str, int]:
     """How many runs are in each status (every status listed, zeros included)."""
-    counts = dict(session.execute(select(Run.status, func.count()).group_by(Run.status)).all())
+    counts = dict(session.execute(select(Run.status, func.count()).group_by(Run.status))
+                  .tuples().all())
     return {status: counts.get(status, 0) for status in RUN_STATUSES}
 
 
 @translates_errors
 def folds_computed(session: Session) -> int:
     """Folds computed over all runs, finished or not."""
-    return int(session.scalar(select(func.coalesce(func.sum(Run.folds_done), 0))))
+    return int(session.execute(select(func.coalesce(func.sum(Run.folds_done), 0))).scalar_one())

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from sqlalchemy import ColumnElement, Select, exists, func, select
 from sqlalchemy.orm import Session
@@ -126,7 +127,8 @@ def _check_run_backtested(session: Session, run_id: int, series_id: int, series_
                             f"{series_key!r}, so it cannot justify choosing it")
 
 
-def _choices(as_of: datetime | None = None) -> Select:
+def _choices(as_of: datetime | None = None
+             ) -> Select[tuple[ChampionChoiceRecord, str, int, dict[str, Any]]]:
     return (select(ChampionChoiceRecord, SeriesRecord.key, SeriesRecord.season_length,
                    CandidateRecord.spec)
             .join(SeriesRecord, SeriesRecord.id == ChampionChoiceRecord.series_id)
@@ -139,7 +141,7 @@ def _made_by(as_of: datetime | None) -> list[ColumnElement[bool]]:
 
 
 def _choice(record: ChampionChoiceRecord, series_key: str, season_length: int,
-            spec: dict) -> ChampionChoice:
+            spec: dict[str, Any]) -> ChampionChoice:
     return ChampionChoice(record.id, series_key, record.candidate_id,
                           parse_candidate(spec).label(season_length), record.run_id,
                           record.reason, record.chosen_by, record.chosen_at)

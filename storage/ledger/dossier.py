@@ -218,7 +218,8 @@ def _events(session: Session, series_key: str, as_of: datetime,
             limit: int) -> tuple[AuditEntry, ...]:
     """The latest ``limit`` audit events on the series, its versions, results, champion
     choices and issued forecasts (with their outcome sets), oldest first."""
-    series_id = session.scalar(select(SeriesRecord.id).where(SeriesRecord.key == series_key))
+    series_id = session.execute(select(SeriesRecord.id)
+                                .where(SeriesRecord.key == series_key)).scalar_one()
     version_ids = list(session.scalars(select(SeriesVersion.id)
                                        .where(SeriesVersion.series_id == series_id)))
     units = session.execute(select(RunSeries.run_id, RunSeries.series_version_id)

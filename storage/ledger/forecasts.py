@@ -158,7 +158,8 @@ def issued_records(session: Session, conditions: Sequence[ColumnElement[bool]], 
             for header, key, season_length, fingerprint, spec in headers]
 
 
-def _by_forecast(session: Session, table: Table, chosen: Select) -> dict[int, list[Row]]:
+def _by_forecast(session: Session, table: Table,
+                 chosen: Select[tuple[int]]) -> dict[int, list[Row]]:
     grouped: dict[int, list[Row]] = {}
     for row in session.execute(select(table).where(table.c.forecast_id.in_(chosen))).mappings():
         grouped.setdefault(row["forecast_id"], []).append(row)

@@ -133,7 +133,7 @@ def issued_with_outcomes(session: Session, series_key: str, candidate_id: str,
     conditions = [f.candidate_id == candidate_id,
                   f.series_id == select(SeriesRecord.id)
                   .where(SeriesRecord.key == series_key).scalar_subquery()]
-    scored = [SETS.c.forecast_id.in_(select(f.id).where(*conditions))]
+    scored: list[ColumnElement[bool]] = [SETS.c.forecast_id.in_(select(f.id).where(*conditions))]
     if as_of is not None:
         conditions.append(f.issued_at <= as_of)
         scored.append(SETS.c.scored_at <= as_of)
@@ -162,7 +162,7 @@ def _check_scorable(session: Session, forecast_id: int, series_version_id: int,
         raise ConflictError(f"series version {series_version_id} is not a later version of "
                             f"the series forecast {forecast_id} was issued for")
     periods = dict(session.execute(select(IssuedPoint.horizon, IssuedPoint.period)
-                                   .where(IssuedPoint.forecast_id == forecast_id)).all())
+                                   .where(IssuedPoint.forecast_id == forecast_id)).tuples().all())
     levels = {int(level) for level in forecast.levels.split(",")}
     horizons = [o.horizon for o in outcomes]
     if len(set(horizons)) != len(horizons):
@@ -185,7 +185,7 @@ def _insert_once(session: Session, header: dict[str, Any]) -> bool:
     return session.execute(statement).first() is not None
 
 
-def _sets(conditions: Sequence[ColumnElement[bool]]) -> Select:
+def _sets(conditions: Sequence[ColumnElement[bool]]) -> Select[tuple[Any, ...]]:
     return (select(SETS, SeriesVersion.number)
             .join(SeriesVersion, SeriesVersion.id == SETS.c.series_version_id)
             .where(*conditions))

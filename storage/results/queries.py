@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import Select, case, func, select
+from sqlalchemy import ColumnElement, Select, case, func, select
 from sqlalchemy.orm import Session
 
 from storage.db import (
@@ -86,7 +86,8 @@ def score_history(session: Session, series_key: str, candidate_id: str, *, metri
     return [ScorePoint(*row) for row in rows]
 
 
-def latest_runs_query(series_key: str | None = None, as_of: datetime | None = None) -> Select:
+def latest_runs_query(series_key: str | None = None,
+                      as_of: datetime | None = None) -> Select[tuple[Any, ...]]:
     """Columns series_key, series_version_id, version_number, run_id, finished_at,
     benchmark_id: the latest successful run of every series (or of one), among the runs
     finished by ``as_of`` if given.
@@ -117,7 +118,8 @@ def latest_runs_query(series_key: str | None = None, as_of: datetime | None = No
                   ).where(latest.c.recency == 1)
 
 
-def _score_filter(metric: str, horizon: int | None, level: int | None) -> list:
+def _score_filter(metric: str, horizon: int | None,
+                  level: int | None) -> list[ColumnElement[bool]]:
     return [ScoreRecord.metric == metric, ScoreRecord.horizon.is_not_distinct_from(horizon),
             ScoreRecord.level.is_not_distinct_from(level)]
 

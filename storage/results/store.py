@@ -85,7 +85,7 @@ def load_series_result(session: Session, run_id: int, series_version_id: int) ->
                             f"{series_version_id}")
     ids = {r["candidate_id"] for r in rows[ResultCandidate.__table__]}
     specs = dict(session.execute(select(CandidateRecord.id, CandidateRecord.spec)
-                                 .where(CandidateRecord.id.in_(ids))).all())
+                                 .where(CandidateRecord.id.in_(ids))).tuples().all())
     key = session.scalars(select(SeriesRecord.key).join(SeriesVersion)
                           .where(SeriesVersion.id == series_version_id)).one()
     return series_result_of(key, rows, specs)

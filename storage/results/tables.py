@@ -121,8 +121,8 @@ def evidence_table(session: Session, run_id: int, *, series_key: str | None = No
     return _rows(session, query.order_by(RunSeries.position), limit, offset)
 
 
-def _per_candidate(query: Select, table: Any, run_id: int, series_key: str | None,
-                   candidate_id: str | None) -> Select:
+def _per_candidate(query: Select[Any], table: Any, run_id: int, series_key: str | None,
+                   candidate_id: str | None) -> Select[Any]:
     """Add the series key and version, the candidate's label, and the filters."""
     query = (query.add_columns(SeriesRecord.key.label("series_key"),
                                SeriesVersion.number.label("series_version"))
@@ -142,6 +142,6 @@ def _per_candidate(query: Select, table: Any, run_id: int, series_key: str | Non
     return query
 
 
-def _rows(session: Session, query: Select, limit: int | None,
+def _rows(session: Session, query: Select[Any], limit: int | None,
           offset: int) -> list[dict[str, Any]]:
     return [dict(row) for row in session.execute(query.limit(limit).offset(offset)).mappings()]

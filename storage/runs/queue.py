@@ -32,9 +32,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime, timedelta
-from typing import Any
+from typing import Any, cast
 
-from sqlalchemy import and_, case, func, or_, select, update
+from sqlalchemy import CursorResult, Update, and_, case, func, or_, select, update
 from sqlalchemy.orm import Session, aliased
 
 from backtest.results import SeriesResult
@@ -168,8 +168,8 @@ def hold_lease(session: Session, lease: Lease, *, folds_done: int | None = None)
     if folds_done is not None:
         values["folds_done"] = case((Run.folds_done < folds_done, folds_done),
                                     else_=Run.folds_done)
-    renewed = session.execute(
-        update(Run).where(Run.id == lease.run_id, Run.lease_owner == lease.owner,
+    renewed = _executed_dml(
+        session, update(Run).where(Run.id == lease.run_id, Run.lease_owner == lease.owner,
                           Run.status == "running")
         .values(**values).execution_options(synchronize_session=False))
     if renewed.rowcount != 1:
@@ -188,8 +188,8 @@ def write_unit(session: Session, lease: Lease, series_version_id: int, result: S
 @translates_errors
 def release_lease(session: Session, lease: Lease) -> bool:
     """Give the run back so that any worker may claim it now; ``False`` if not held."""
-    released = session.execute(
-        update(Run).where(Run.id == lease.run_id, Run.lease_owner == lease.owner,
+    released = _executed_dml(
+        session, update(Run).where(Run.id == lease.run_id, Run.lease_owner == lease.owner,
                           Run.status == "running")
         .values(lease_owner=None, lease_expires_at=None)
         .execution_options(synchronize_session=False))
@@ -251,8 +251,8 @@ def _lock_unfinished(session: Session, run_id: int) -> bool:
     # A write that changes nothing, so that the row lock (on SQLite the write lock) is taken
     # before anything is read: a read-then-write transaction on SQLite fails at once if
     # another process committed in between.
-    locked = session.execute(
-        update(Run).where(Run.id == run_id, Run.status.not_in(FINAL_STATUSES))
+    locked = _executed_dml(
+        session, update(Run).where(Run.id == run_id, Run.status.not_in(FINAL_STATUSES))
         .values(status=Run.status).execution_options(synchronize_session=False))
     return locked.rowcount == 1
 
@@ -265,3 +265,9 @@ def _claimable(run: Any, now: datetime) -> Any:
 def _audit(session: Session, actor: str, action: str, run_id: int, **state: Any) -> None:
     record_event(session, actor=actor, action=action, subject=run_subject(run_id),
                  digest=sha256_text(canonical_json({"run_id": run_id, **state})))
+
+
+def _executed_dml(session: Session, statement: Update) -> CursorResult[Any]:
+    # An UPDATE without RETURNING gives a CursorResult (which has rowcount); Session.execute
+    # is typed with the general Result for every kind of statement.
+    return cast(CursorResult[Any], session.execute(statement))

@@ -8,8 +8,10 @@ same key at once are counted one after the other and cannot both slip under a li
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from typing import cast
 
 from sqlalchemy import and_, func, not_, select
 from sqlalchemy.orm import Session
@@ -49,7 +51,8 @@ def requester_usage(session: Session, requested_by: str, *, since: datetime) -> 
         .where(Run.requested_by == requested_by, Run.queued_at >= since,
                Run.estimated_fits.is_not(None), not_(never_ran))
         .order_by(Run.queued_at, Run.id)).tuples().all()
-    return Usage(queued, tuple(spent))
+    # Rows without an estimate are filtered out above, so every estimated_fits is an int.
+    return Usage(queued, tuple(cast(Sequence[tuple[datetime, int]], spent)))
 
 
 @translates_errors

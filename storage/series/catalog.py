@@ -74,7 +74,7 @@ def version_info(version: SeriesVersion, key: str) -> VersionInfo:
                        version.created_at, version.created_by)
 
 
-def _with_latest() -> Select:
+def _with_latest() -> Select[tuple[SeriesRecord, SeriesVersion]]:
     latest = (select(SeriesVersion.series_id, func.max(SeriesVersion.number).label("number"))
               .group_by(SeriesVersion.series_id).subquery())
     return (select(SeriesRecord, SeriesVersion)

@@ -14,6 +14,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 import numpy as np
 from sqlalchemy import func, insert, select
@@ -199,7 +200,7 @@ def _latest(session: Session, series_id: int) -> SeriesVersion | None:
     ).scalar_one_or_none()
 
 
-def _change(session: Session, previous: SeriesVersion | None, rows: list[dict]) -> str:
+def _change(session: Session, previous: SeriesVersion | None, rows: list[dict[str, Any]]) -> str:
     if previous is None:
         return "initial"
     before = session.execute(
@@ -211,7 +212,7 @@ def _change(session: Session, previous: SeriesVersion | None, rows: list[dict]) 
     return "append" if unchanged else "revision"
 
 
-def _observation_rows(series: Series) -> list[dict]:
+def _observation_rows(series: Series) -> list[dict[str, Any]]:
     filled = set(series.filled)
     return [{"series_version_id": None, "position": i, "period": label, "value": float(value),
              "filled": label in filled}

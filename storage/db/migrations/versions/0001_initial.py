@@ -10,6 +10,7 @@ row is frozen once its status is final. Their messages contain ``foldline_immuta
 """
 
 from collections.abc import Sequence
+from typing import Any
 
 import sqlalchemy as sa
 from alembic import op
@@ -94,15 +95,15 @@ def _create_tables() -> None:
     _create_results()
 
 
-def _int(name: str, nullable: bool = False) -> sa.Column:
+def _int(name: str, nullable: bool = False) -> sa.Column[int]:
     return sa.Column(name, sa.Integer(), nullable=nullable)
 
 
-def _str(name: str, length: int, nullable: bool = False) -> sa.Column:
+def _str(name: str, length: int, nullable: bool = False) -> sa.Column[str]:
     return sa.Column(name, sa.String(length=length), nullable=nullable)
 
 
-def _float(name: str, nullable: bool = True) -> sa.Column:
+def _float(name: str, nullable: bool = True) -> sa.Column[float]:
     return sa.Column(name, sa.Double(), nullable=nullable)
 
 
@@ -112,11 +113,11 @@ def _references(table: str, columns: list[str], target: str, target_columns: lis
                                    name=op.f(f"fk_{table}_{columns[0]}_{target}"))
 
 
-def _unit_key(*extra: str) -> list[sa.Column]:
+def _unit_key(*extra: str) -> list[sa.Column[int]]:
     return [_int("run_id"), _int("series_version_id"), *(_int(name) for name in extra)]
 
 
-def _fold_key(*extra: str) -> list[sa.Column]:
+def _fold_key(*extra: str) -> list[sa.Column[Any]]:
     return [_int("run_id"), _int("series_version_id"), _str("candidate_id", 17), _int("fold"),
             *(_int(name) for name in extra)]
 

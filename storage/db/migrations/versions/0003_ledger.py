@@ -46,15 +46,15 @@ def downgrade() -> None:
     op.drop_index(op.f("ix_observation_series_version_id"), "observation")
 
 
-def _int(name: str, nullable: bool = False) -> sa.Column:
+def _int(name: str, nullable: bool = False) -> sa.Column[int]:
     return sa.Column(name, sa.Integer(), nullable=nullable)
 
 
-def _str(name: str, length: int, nullable: bool = False) -> sa.Column:
+def _str(name: str, length: int, nullable: bool = False) -> sa.Column[str]:
     return sa.Column(name, sa.String(length=length), nullable=nullable)
 
 
-def _float(name: str) -> sa.Column:
+def _float(name: str) -> sa.Column[float]:
     return sa.Column(name, sa.Double(), nullable=True)
 
 

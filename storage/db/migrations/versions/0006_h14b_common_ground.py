@@ -11,6 +11,7 @@ ranking rests on (``common_folds``) and how many of its possible points carry th
 """
 
 from collections.abc import Sequence
+from typing import Any
 
 import sqlalchemy as sa
 from alembic import op
@@ -20,8 +21,12 @@ down_revision: str | Sequence[str] | None = "0006_h14a"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
-COLUMNS = (("score_own_folds", sa.Double()), ("common_folds", sa.Integer()),
-           ("score_count", sa.Integer()), ("score_possible", sa.Integer()))
+COLUMNS: tuple[tuple[str, sa.types.TypeEngine[Any]], ...] = (
+    ("score_own_folds", sa.Double()),
+    ("common_folds", sa.Integer()),
+    ("score_count", sa.Integer()),
+    ("score_possible", sa.Integer()),
+)
 
 
 def upgrade() -> None:

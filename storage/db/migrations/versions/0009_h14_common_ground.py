@@ -17,6 +17,7 @@ those runs.
 """
 
 from collections.abc import Sequence
+from typing import Any
 
 import sqlalchemy as sa
 from alembic import op
@@ -26,8 +27,12 @@ down_revision: str | Sequence[str] | None = "0009_h19b"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
-COLUMNS = (("common_value", sa.Double()), ("common_count", sa.Integer()),
-           ("common_note", sa.Text()), ("common_folds", sa.Integer()))
+COLUMNS: tuple[tuple[str, sa.types.TypeEngine[Any]], ...] = (
+    ("common_value", sa.Double()),
+    ("common_count", sa.Integer()),
+    ("common_note", sa.Text()),
+    ("common_folds", sa.Integer()),
+)
 
 LATEST_RUNS = """
 SELECT s.key AS series_key, s.id AS series_id, v.id AS series_version_id,
