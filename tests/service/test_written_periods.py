@@ -16,6 +16,7 @@ from service.cli.main import main
 from service.usecases.score_outcomes import score_due_outcomes
 from service.views.pages.session import COOKIE
 from tests.service.conftest import Api
+from tests.service.test_pages import sign_in
 
 QUARTERS = [f"{2018 + i // 4}-Q{i % 4 + 1}" for i in range(20)]  # 2018-Q1 .. 2022-Q4
 WEEKS = [f"2021-W{w:02d}" for w in range(1, 53)] + ["2022-W01", "2022-W02"]
@@ -185,8 +186,7 @@ def test_the_report_and_the_pages_show_the_quarters_and_the_unit(api: Api):
     assert "2022-Q4" in report.text and "value (EUR)" in report.text
     assert "series units" not in report.text
     assert not re.search(r">20(18|19|20|21|22)-(01|04|07|10)<", report.text)
-    signed = api.client.post("/pages/sign-in", data={"key": api.tokens["reader"]},
-                             follow_redirects=False)
+    signed = sign_in(api, api.tokens["reader"])
     cookie = re.match(rf"{COOKIE}=([^;]+)", signed.headers["set-cookie"])[1]
     api.client.cookies.clear()
     page = api.client.get(f"/pages/series/{KEY}", headers={"Cookie": f"{COOKIE}={cookie}"})
