@@ -7,6 +7,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 
 @dataclass(frozen=True)
@@ -55,7 +56,8 @@ class LimitExceededError(ServiceError):
     code = "limit_exceeded"
 
     def __init__(self, detail: str, *, errors: Sequence[FieldError] = (),
-                 estimate: dict | None = None, limit: dict | None = None) -> None:
+                 estimate: dict[str, Any] | None = None,
+                 limit: dict[str, Any] | None = None) -> None:
         super().__init__(detail, errors=errors)
         self.estimate, self.limit = estimate, limit
 
@@ -66,7 +68,8 @@ class QuotaExceededError(ServiceError):
 
     code = "quota_exceeded"
 
-    def __init__(self, detail: str, *, retry_after: int, usage: dict, limit: dict) -> None:
+    def __init__(self, detail: str, *, retry_after: int, usage: dict[str, Any],
+                 limit: dict[str, Any]) -> None:
         super().__init__(detail)
         self.retry_after, self.usage, self.limit = retry_after, usage, limit
 

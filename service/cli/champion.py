@@ -11,7 +11,7 @@ from service.cli.store import add_store_option, operator, run_in_store
 from service.usecases import champions
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``champion`` command group."""
     group = subparsers.add_parser("champion", help="choose and read series' champions")
     commands = group.add_subparsers(dest="champion_command", required=True, metavar="COMMAND")

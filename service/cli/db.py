@@ -27,7 +27,7 @@ from service.usecases.store import (
 from storage.errors import StorageError
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``db`` and ``audit`` command groups."""
     db = subparsers.add_parser("db", help="manage the Foldline database")
     db_commands = db.add_subparsers(dest="db_command", required=True, metavar="COMMAND")

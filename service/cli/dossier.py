@@ -19,7 +19,7 @@ from service.usecases.dossier import read_dossier_of
 from service.views.dossier import dossier_out, step_rows
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``dossier`` command."""
     command = subparsers.add_parser(
         "dossier", help="which model a series trusted, why, and how its forecasts fared")

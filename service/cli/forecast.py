@@ -22,7 +22,7 @@ from service.usecases.issue_forecast import IssueRequest, issue
 from service.views.ledger_answers import forecast_out, forecast_rows, outcome_rows, outcome_set_out
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``forecast`` command group."""
     group = subparsers.add_parser("forecast", help="issue forecasts and read the ledger")
     commands = group.add_subparsers(dest="forecast_command", required=True, metavar="COMMAND")

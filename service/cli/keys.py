@@ -25,7 +25,7 @@ Output = tuple[str, str | None]
 """What a command prints: stdout text, and a note for stderr."""
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``keys`` command group."""
     keys = subparsers.add_parser("keys", help="manage API keys")
     commands = keys.add_subparsers(dest="keys_command", required=True, metavar="COMMAND")

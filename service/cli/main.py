@@ -8,7 +8,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from backtest.cost import estimate_cost
@@ -149,8 +149,9 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``foldline`` console script."""
     args = build_parser().parse_args(argv)
+    handler: Callable[[argparse.Namespace], int] = args.handler
     try:
-        return args.handler(args)
+        return handler(args)
     except (UsageError, BacktestError, ServiceError, InvalidSettingsError) as exc:
         print(f"foldline: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2

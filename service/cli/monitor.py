@@ -14,7 +14,7 @@ from service.usecases.monitoring import monitor_champions, monitor_series
 from service.views.ledger_answers import monitoring_out
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``monitor`` command."""
     parser = subparsers.add_parser("monitor", help="realised accuracy and flags of champions")
     parser.add_argument("series", nargs="?", metavar="SERIES",

@@ -18,7 +18,7 @@ from service.views.report.stored import stored_run_report
 from storage.errors import StorageError
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``report`` command."""
     parser = subparsers.add_parser("report", help="write a stored run's HTML report")
     parser.add_argument("run_id", type=int, metavar="RUN_ID", help="the run's number")

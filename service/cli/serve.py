@@ -8,6 +8,7 @@ one command gives a working service; on a shared PostgreSQL store they are appli
 from __future__ import annotations
 
 import argparse
+import socket
 import sys
 
 import uvicorn
@@ -19,7 +20,7 @@ from service.usecases.store import migrate_store
 from service.worker.loop import start_embedded
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``serve`` command."""
     serve = subparsers.add_parser(
         "serve", help="run the HTTP API (and a job worker unless FOLDLINE_EMBEDDED_WORKER=false)",
@@ -53,7 +54,7 @@ class _AnnouncingServer(uvicorn.Server):
         super().__init__(config)
         self.settings = settings
 
-    async def startup(self, sockets=None) -> None:  # noqa: ANN001 - uvicorn's signature
+    async def startup(self, sockets: list[socket.socket] | None = None) -> None:
         await super().startup(sockets)
         if self.started:
             print(listening_line(self.settings), flush=True)

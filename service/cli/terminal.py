@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 from collections.abc import Mapping, Sequence
-from typing import TextIO
+from typing import Any, TextIO
 
 from backtest.results import BacktestResult, SeriesResult
 from backtest.tidy import ranking_rows
@@ -41,12 +41,12 @@ def coverage_by_candidate(sr: SeriesResult) -> dict[str, dict[int, float | None]
     """Pooled empirical coverage per candidate and level."""
     out: dict[str, dict[int, float | None]] = {}
     for s in sr.scores:
-        if s.metric == "coverage" and s.horizon is None:
+        if s.metric == "coverage" and s.horizon is None and s.level is not None:
             out.setdefault(s.candidate_id, {})[s.level] = s.value
     return out
 
 
-def ranking_table(title: str, rows: Sequence[Mapping], score_name: str,
+def ranking_table(title: str, rows: Sequence[Mapping[str, Any]], score_name: str,
                   coverage: Mapping[str, Mapping[int, float | None]] | None = None) -> str:
     """Ranked candidates of one series as a fixed-width table.
 
@@ -92,8 +92,8 @@ def ranking_report(result: BacktestResult) -> str:
     return "\n\n".join(tables)
 
 
-def _rows_by_series(result: BacktestResult) -> list[list[dict]]:
-    grouped: dict[str, list[dict]] = {}
+def _rows_by_series(result: BacktestResult) -> list[list[dict[str, Any]]]:
+    grouped: dict[str, list[dict[str, Any]]] = {}
     for row in ranking_rows(result):
         grouped.setdefault(row["series_key"], []).append(row)
     return [grouped[sr.series["key"]] for sr in result.series]

@@ -21,7 +21,7 @@ from storage.errors import StorageError
 log = logging.getLogger("foldline.worker")
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:
+def register(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the ``worker`` command."""
     worker = subparsers.add_parser(
         "worker", help="claim queued runs from the store and compute them",

@@ -14,6 +14,7 @@ from __future__ import annotations
 import sys
 import time
 from pathlib import Path
+from typing import Any
 from urllib.parse import quote
 
 import httpx
@@ -94,11 +95,12 @@ def _choose_champions(client: httpx.Client, run_id: int) -> None:
         print(f"  {s['series_key']:<28} {s['candidate']}")
 
 
-def _issue(client: httpx.Client, key: str) -> dict:
+def _issue(client: httpx.Client, key: str) -> dict[str, Any]:
     answer = client.post("/v1/forecasts", json={"series_key": key, "horizon": HORIZON,
                                                 "levels": [80, 95], "seed": 7})
     answer.raise_for_status()
-    return answer.json()
+    issued: dict[str, Any] = answer.json()
+    return issued
 
 
 def _append(client: httpx.Client, key: str, period: str, value: float) -> None:
@@ -107,7 +109,7 @@ def _append(client: httpx.Client, key: str, period: str, value: float) -> None:
     answer.raise_for_status()
 
 
-def _wait_for_outcomes(client: httpx.Client, issued: list[dict], last: str,
+def _wait_for_outcomes(client: httpx.Client, issued: list[dict[str, Any]], last: str,
                        timeout: float = 60.0) -> None:
     """Until every forecast's current outcomes cover its periods observed up to ``last``."""
     waiting = list(issued)
@@ -120,7 +122,7 @@ def _wait_for_outcomes(client: httpx.Client, issued: list[dict], last: str,
         raise RuntimeError(f"{len(waiting)} forecasts were not scored within {timeout:.0f} s")
 
 
-def _scored(client: httpx.Client, forecast: dict, last: str) -> bool:
+def _scored(client: httpx.Client, forecast: dict[str, Any], last: str) -> bool:
     due = sum(step["period"] <= last for step in forecast["steps"])
     sets = client.get(forecast["links"]["outcomes"]).json()["sets"]
     return bool(sets) and len(sets[0]["outcomes"]) == due and \

@@ -3,17 +3,18 @@ changed a model's calibration verdict, and where each combination ranked."""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from backtest.candidates import parse_candidate
 from backtest.demo import COMBINED, DEMO_CANDIDATES, RECALIBRATED
 
 
-def remedy_lines(rows: Sequence[dict]) -> list[str]:
+def remedy_lines(rows: Sequence[Mapping[str, Any]]) -> list[str]:
     """One line per series where recalibration changed the verdict at h = 1, and one per
     series and combination with its rank; ``rows`` are the run's ranking items."""
     ids = [parse_candidate(spec).id for spec in DEMO_CANDIDATES]
-    by_series: dict[str, dict[str, dict]] = {}
+    by_series: dict[str, dict[str, Mapping[str, Any]]] = {}
     for row in rows:
         by_series.setdefault(row["series_key"], {})[row["candidate_id"]] = row
     lines = []
@@ -25,10 +26,10 @@ def remedy_lines(rows: Sequence[dict]) -> list[str]:
                              f"{own['calibration_zone']}; with empirical intervals "
                              f"{empirical['calibration_zone']}")
         for position in COMBINED:
-            row = found.get(ids[position])
-            if row and row["rank"] is not None:
-                where = ", in the confidence set" if row["in_confidence_set"] else ""
-                lines.append(f"{key}: {row['candidate']} ranked {row['rank']} of "
+            combined = found.get(ids[position])
+            if combined and combined["rank"] is not None:
+                where = ", in the confidence set" if combined["in_confidence_set"] else ""
+                lines.append(f"{key}: {combined['candidate']} ranked {combined['rank']} of "
                              f"{len(found)}{where}")
     return lines
 

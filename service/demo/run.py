@@ -25,6 +25,7 @@ import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
+from typing import Any
 
 import httpx
 
@@ -75,7 +76,8 @@ def demo_folder(out: Path) -> Path:
 def _free_port() -> int:
     with socket.socket() as probe:
         probe.bind(("127.0.0.1", 0))
-        return probe.getsockname()[1]
+        port: int = probe.getsockname()[1]
+        return port
 
 
 def _scenario_csv() -> str:
@@ -105,7 +107,7 @@ def running_server(env: dict[str, str], log: Path, timeout: float = 90.0) -> Ite
                 server.wait()
 
 
-def _wait_ready(url: str, server: subprocess.Popen, timeout: float) -> None:
+def _wait_ready(url: str, server: subprocess.Popen[bytes], timeout: float) -> None:
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
         if server.poll() is not None:
@@ -189,10 +191,10 @@ def _write_report(client: httpx.Client, run_url: str, out: Path) -> Path:
     return path
 
 
-def _follow(client: httpx.Client, location: str) -> dict:
+def _follow(client: httpx.Client, location: str) -> dict[str, Any]:
     bar = ProgressBar()
     while True:
-        run = client.get(location).json()
+        run: dict[str, Any] = client.get(location).json()
         total = run["progress"]["folds_total"]
         if total:
             bar(run["progress"]["folds_done"], total)
@@ -201,8 +203,8 @@ def _follow(client: httpx.Client, location: str) -> dict:
         time.sleep(0.5)
 
 
-def _print_ranking(rows: list[dict]) -> None:
-    by_series: dict[str, list[dict]] = {}
+def _print_ranking(rows: list[dict[str, Any]]) -> None:
+    by_series: dict[str, list[dict[str, Any]]] = {}
     for row in rows:
         by_series.setdefault(row["series_key"], []).append(row)
     score = DEMO_PLAN.get("rank_by", "mase").upper()

@@ -1,5 +1,8 @@
 """What ``create_app`` puts on ``app.state`` for the handlers: settings, sessions, caches.
 
+``app.state`` is untyped (any attribute, of any type); each getter names the type
+``create_app`` stored there.
+
 Handlers own their transactions (``with sessions.begin() as session:``), so a response is
 sent only after its writes are committed, and an error rolls back everything the request
 wrote.
@@ -19,22 +22,26 @@ from service.usecases.audit_verification import Verifier
 
 def get_sessions(request: Request) -> sessionmaker[Session]:
     """The application's session factory."""
-    return request.app.state.sessions
+    sessions: sessionmaker[Session] = request.app.state.sessions
+    return sessions
 
 
 def get_settings_of_app(request: Request) -> Settings:
     """The settings the application was created with."""
-    return request.app.state.settings
+    settings: Settings = request.app.state.settings
+    return settings
 
 
 def get_verifier(request: Request) -> Verifier:
     """The application's audit verifier (one verification at a time)."""
-    return request.app.state.verifier
+    verifier: Verifier = request.app.state.verifier
+    return verifier
 
 
 def get_ranking_cache(request: Request) -> RankingCache:
     """The application's cache of whole ranking tables."""
-    return request.app.state.ranking_cache
+    ranking_cache: RankingCache = request.app.state.ranking_cache
+    return ranking_cache
 
 
 Sessions = Annotated[sessionmaker[Session], Depends(get_sessions)]

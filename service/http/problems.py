@@ -10,8 +10,10 @@ sees a stack trace or a database message. Besides the standard members a problem
 from __future__ import annotations
 
 import logging
+from collections.abc import Sequence
 from dataclasses import dataclass
 from http import HTTPStatus
+from typing import Any
 
 from fastapi import Request
 from fastapi.exceptions import RequestValidationError
@@ -126,12 +128,13 @@ class Problem(BaseModel):
     code: str = Field(description="stable machine-readable code")
     errors: list[ProblemField] = Field(default_factory=list,
                                        description="field-level errors of invalid input")
-    estimate: dict | None = Field(None, description="limit_exceeded: what the request would "
-                                  "cost (e.g. a run's folds, fits by family, rows)")
-    limit: dict | None = Field(None, description="limit_exceeded, quota_exceeded: the "
-                               "configured limits it was measured against")
-    usage: dict | None = Field(None, description="quota_exceeded: what the API key has used "
-                               "of each quota")
+    estimate: dict[str, Any] | None = Field(None, description="limit_exceeded: what the "
+                                            "request would cost (e.g. a run's folds, fits by "
+                                            "family, rows)")
+    limit: dict[str, Any] | None = Field(None, description="limit_exceeded, quota_exceeded: "
+                                         "the configured limits it was measured against")
+    usage: dict[str, Any] | None = Field(None, description="quota_exceeded: what the API key "
+                                         "has used of each quota")
     retry_after: int | None = Field(None, description="quota_exceeded: seconds until a retry "
                                     "may succeed (also the Retry-After header)")
 
@@ -225,7 +228,7 @@ def _field_errors(exc: Exception) -> list[FieldError]:
     return []
 
 
-def _field_error(error: dict) -> FieldError:
+def _field_error(error: dict[str, Any]) -> FieldError:
     location, *path = error["loc"] or ("body",)
     if error.get("type") == "json_invalid":
         return FieldError(location, "", f"the body is not valid JSON: "
@@ -233,12 +236,12 @@ def _field_error(error: dict) -> FieldError:
     return FieldError(str(location), pointer(path), error["msg"])
 
 
-def pointer(path: list) -> str:
+def pointer(path: Sequence[object]) -> str:
     """A JSON pointer (RFC 6901) for a path of keys and indices."""
     escaped = (str(part).replace("~", "~0").replace("/", "~1") for part in path)
     return "".join("/" + part for part in escaped)
 
 
-def problem_responses(*statuses: int) -> dict[int | str, dict]:
+def problem_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
     """OpenAPI entries for the problem answers a route can give."""
     return {status: {"model": Problem, "description": _phrase(status)} for status in statuses}

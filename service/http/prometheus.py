@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import threading
 import time
-from collections import Counter
+from collections import Counter, defaultdict
 from collections.abc import Iterable, Mapping
 
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
@@ -24,7 +24,7 @@ class RequestMetrics:
     def __init__(self) -> None:
         self._lock = threading.Lock()
         self.counts: Counter[tuple[str, str, str]] = Counter()
-        self.seconds: Counter[tuple[str, str, str]] = Counter()
+        self.seconds: defaultdict[tuple[str, str, str], float] = defaultdict(float)
 
     def observe(self, method: str, route: str, status: int, seconds: float) -> None:
         key = (method, route, str(status))

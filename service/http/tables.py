@@ -11,8 +11,8 @@ A page that has a successor names it in the JSON ``next`` member and in a
 from __future__ import annotations
 
 import io
-from collections.abc import Iterable, Sequence
-from typing import Annotated, Literal
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Annotated, Any, Literal
 
 from fastapi import Query, Request
 from fastapi.responses import Response
@@ -22,7 +22,7 @@ from service.errors import NotAcceptableError
 from service.limits import MAX_ID, MAX_PAGE
 
 Format = Literal["json", "csv"]
-FORMATS = {"json": "application/json", "csv": "text/csv"}
+FORMATS: dict[Format, str] = {"json": "application/json", "csv": "text/csv"}
 
 FormatParam = Annotated[Format | None, Query(
     alias="format", description="json or csv; overrides the Accept header")]
@@ -30,7 +30,7 @@ Limit = Annotated[int, Query(ge=1, le=MAX_PAGE, description="rows per page")]
 Offset = Annotated[int, Query(ge=0, le=MAX_ID, description="rows to skip")]
 
 
-def csv_openapi(columns: Sequence[str]) -> dict:
+def csv_openapi(columns: Sequence[str]) -> dict[int | str, dict[str, Any]]:
     """The OpenAPI entry of a 200 answer that may also be CSV with these columns."""
     return {200: {"content": {"text/csv": {"schema": {"type": "string"}}},
                   "description": "JSON, or CSV (Accept: text/csv or ?format=csv) with columns "
@@ -60,7 +60,8 @@ def next_link(request: Request, offset: int, limit: int, has_more: bool) -> str 
     return f"{request.url.path}?{query}"
 
 
-def csv_response(rows: Iterable[dict], columns: Sequence[str], link: str | None) -> Response:
+def csv_response(rows: Iterable[Mapping[str, Any]], columns: Sequence[str],
+                 link: str | None) -> Response:
     """A CSV answer with exactly ``columns``, in order; ``link`` is the next page."""
     out = io.StringIO()
     write_csv(({name: row.get(name) for name in columns} for row in rows), columns, out)

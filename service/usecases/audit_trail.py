@@ -30,7 +30,7 @@ __all__ = ["AuditEntry", "AuditReport", "Checkpoint", "CheckpointError", "RunInf
 
 
 def scores_over_runs(sessions: sessionmaker[Session], series_key: str, candidate_id: str, *,
-                     metric: str, horizon: int | str, level: int | None) -> list[ScorePoint]:
+                     metric: str, horizon: int | None, level: int | None) -> list[ScorePoint]:
     """A candidate's score on a series in every successful run, oldest first."""
     with sessions.begin() as session:
         get_series(session, series_key)

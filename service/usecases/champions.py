@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from sqlalchemy.orm import Session, sessionmaker
 
@@ -27,6 +28,9 @@ from storage.ledger import (
 from storage.results import rank_table
 from storage.runs import get_run, run_versions
 from storage.series import get_series
+
+__all__ = ["ChampionChoice", "Suggestion", "all_champions", "champion_choices", "champion_of",
+           "choose", "suggestions"]
 
 
 @dataclass(frozen=True)
@@ -90,7 +94,7 @@ def suggestions(sessions: sessionmaker[Session], run_id: int) -> list[Suggestion
 def _suggestions(session: Session, run_id: int) -> list[Suggestion]:
     get_run(session, run_id)
     champions = current_champions(session)
-    by_series: dict[str, list[dict]] = {}
+    by_series: dict[str, list[dict[str, Any]]] = {}
     for row in rank_table(session, run_id):
         if row["rank"] is not None:
             by_series.setdefault(row["series_key"], []).append(row)

@@ -31,11 +31,18 @@ SCOPED_ROLES = ("submitter",)
 
 
 class KeyHolder(Protocol):
-    """Who makes a request: an API key's name, role and scope (the HTTP layer's caller)."""
+    """Who makes a request: an API key's name, role and scope (the HTTP layer's caller).
 
-    name: str
-    role: str
-    scope: str | None
+    Read-only, so a frozen dataclass such as the HTTP layer's caller satisfies it."""
+
+    @property
+    def name(self) -> str: ...
+
+    @property
+    def role(self) -> str: ...
+
+    @property
+    def scope(self) -> str | None: ...
 
 
 def parsed_scope(scope: str | None, role: str) -> str | None:

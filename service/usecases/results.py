@@ -64,7 +64,7 @@ def evidence_rows(sessions: sessionmaker[Session], run_id: int, **filters: Any) 
 
 
 def latest_ranking(sessions: sessionmaker[Session], cache: RankingTables, *, metric: str,
-                   horizon: int | str, level: int | None, prefix: str | None,
+                   horizon: int | None, level: int | None, prefix: str | None,
                    tags: dict[str, str] | None, as_of: datetime | None) -> Rows:
     """Every series' candidates ranked on its latest successful run, from the cache while no
     run has finished since it was built."""

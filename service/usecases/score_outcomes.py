@@ -10,6 +10,7 @@ the second finds it recorded (or loses the insert) and moves on.
 from __future__ import annotations
 
 import logging
+from functools import partial
 
 from sqlalchemy.orm import Session, sessionmaker
 
@@ -29,8 +30,8 @@ def score_due_outcomes(session_factory: sessionmaker[Session], actor: str) -> in
     recorded = 0
     for forecast_id, version_id in due:
         try:
-            recorded += write(session_factory, lambda session, f=forecast_id, v=version_id:
-                              _score(session, f, v, actor))
+            recorded += write(session_factory, partial(_score, forecast_id=forecast_id,
+                                                       version_id=version_id, actor=actor))
         except ConflictError:
             log.info("outcomes of forecast %s on version %s were recorded by another worker",
                      forecast_id, version_id)

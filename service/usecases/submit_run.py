@@ -13,7 +13,9 @@ plan's horizon and levels are bounded first (``FOLDLINE_MAX_HORIZON``,
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
+from typing import cast
 
 from sqlalchemy.orm import Session, sessionmaker
 
@@ -61,7 +63,8 @@ def parse_run_inputs(candidate_specs: object, plan_spec: object,
     if isinstance(candidate_specs, list):
         check_candidate_count(len(candidate_specs), settings)
     try:
-        candidates = parse_candidates(candidate_specs)
+        # parse_candidates refuses anything but a list itself, with the API's words
+        candidates = parse_candidates(cast(Iterable[object], candidate_specs))
     except CandidateError as exc:
         pointer = "/candidates" if exc.position is None else f"/candidates/{exc.position - 1}"
         raise exc.at(pointer) from None

@@ -3,7 +3,7 @@ flat rows, for the API and the command line alike."""
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Iterator, Mapping, Sequence
 from typing import Any
 
 from backtest.ledger import MonitoringReport
@@ -131,7 +131,7 @@ def flag_rows(monitored: Monitored) -> Iterator[dict[str, Any]]:
 def realised_rows(out: MonitoringOut) -> Iterator[dict[str, Any]]:
     """The monitoring CSV of one series: one row per period and level."""
     for point in out.realised:
-        levels = sorted(int(lv) for lv in point.coverage) or [None]
+        levels: Sequence[int | None] = sorted(int(lv) for lv in point.coverage) or [None]
         for level in levels:
             yield {"series_key": out.series_key, "candidate_id": out.candidate_id,
                    "candidate": out.candidate, "period": point.period, "count": point.count,
@@ -151,5 +151,5 @@ def _expectation(report: MonitoringReport) -> ExpectationOut | None:
                           coverage_by_level=_by_level(e.coverage_by_level))
 
 
-def _by_level(values: dict) -> dict[str, Any]:
+def _by_level(values: Mapping[int, float]) -> dict[str, float | None]:
     return {str(key): value for key, value in values.items()}

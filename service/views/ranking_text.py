@@ -4,9 +4,10 @@ and a score carried by a minority of its points."""
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 
-def score_cell(row: Mapping, shown: str) -> str:
+def score_cell(row: Mapping[str, Any], shown: str) -> str:
     """The ranking score as shown, with ``(n of N points)`` when fewer than half of its
     possible points carry it (the rest had an undefined or zero training scale)."""
     count, possible = row.get("score_count"), row.get("score_possible")
@@ -15,7 +16,7 @@ def score_cell(row: Mapping, shown: str) -> str:
     return f"{shown} ({count} of {possible} points)"
 
 
-def common_ground(rows: Sequence[Mapping]) -> str:
+def common_ground(rows: Sequence[Mapping[str, Any]]) -> str:
     """``; scores on the N origins all ranked candidates completed`` when some candidate
     failed folds (its own-folds figure is then the ``own folds`` column), else empty."""
     common = next((r.get("common_folds") for r in rows if r.get("common_folds") is not None),

@@ -186,7 +186,7 @@ def _unit_folds(request: RunRequest, series: dict[int, Series],
     """Each unit's folds as counted at submission; counted here only for runs queued before
     the counts were stored."""
     counted = dict(zip(request.run.series_version_ids, request.unit_folds))
-    return {version: counted[version] if counted[version] is not None
+    return {version: known if (known := counted[version]) is not None
             else planned_fold_count([one], candidates, plan) for version, one in series.items()}
 
 

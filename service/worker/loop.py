@@ -16,6 +16,7 @@ import secrets
 import socket
 import threading
 
+from sqlalchemy import Engine
 from sqlalchemy.orm import Session, sessionmaker
 
 from backtest.models import fast_arima, fast_ets
@@ -44,8 +45,11 @@ class Worker:
                  worker_id: str | None = None) -> None:
         self.settings = settings
         self.id = worker_id or new_worker_id()
-        self._engine = None if session_factory else make_engine(settings.database_url)
-        self._sessions = session_factory or sessions_for(self._engine, settings.audit_key)
+        self._engine: Engine | None = None
+        if session_factory is None:
+            self._engine = make_engine(settings.database_url)
+            session_factory = sessions_for(self._engine, settings.audit_key)
+        self._sessions = session_factory
 
     def run_once(self, stop: threading.Event | None = None) -> bool:
         """Claim one run and work on it until it ends; ``False`` if none was waiting.

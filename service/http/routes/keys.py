@@ -51,6 +51,6 @@ def revoke(key_id: Annotated[str, Path(max_length=32)], caller: Admin,
 
 def key_out(key: KeyInfo) -> KeyOut:
     """The public view of a key."""
-    return KeyOut(id=key.id, name=key.name, role=key.role,  # type: ignore[arg-type]  # a stored role, one of ROLES
+    return KeyOut(id=key.id, name=key.name, role=key.role,
                   created_at=key.created_at, created_by=key.created_by,
                   revoked_at=key.revoked_at, revoked_by=key.revoked_by, scope=key.scope)

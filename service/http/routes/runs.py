@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from datetime import UTC, datetime
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, cast
 
 from fastapi import APIRouter, Depends, Header, Query, Request, Response
 
@@ -21,6 +21,7 @@ from service.http.schemas.runs import (
     RunOut,
     RunPage,
     RunSeriesOut,
+    RunStatus,
     TimingsOut,
 )
 from service.http.tables import FormatParam, chosen_format, csv_openapi, csv_response, link_headers
@@ -119,7 +120,8 @@ def run_out(view: RunView) -> RunOut:
     run, versions, labels = view.run, view.versions, view.labels
     url = run_url(run.id)
     return RunOut(
-        id=run.id, url=url, status=run.status, requested_by=run.requested_by,  # type: ignore[arg-type]  # a stored status, one of the Literal
+        id=run.id, url=url, status=cast(RunStatus, run.status),  # as stored; validated
+        requested_by=run.requested_by,
         idempotency_key=run.idempotency_key.split(":", 1)[1] if run.idempotency_key else None,
         plan_id=run.plan_id, seed=run.seed, attempts=run.attempts,
         failure_reason=run.failure_reason, cancel_requested_by=view.cancel_requested_by,

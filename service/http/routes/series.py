@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, cast
 from urllib.parse import quote
 
 from fastapi import APIRouter, Depends, Query, Request, Response
@@ -23,6 +23,7 @@ from service.http.schemas.series import (
     SeriesPage,
     SeriesWriteOut,
     UploadOut,
+    VersionChange,
     VersionDataOut,
     VersionOut,
 )
@@ -176,6 +177,7 @@ def _series_out(info: stored_series.SeriesInfo) -> SeriesOut:
 
 def _version_out(version: stored_series.VersionInfo) -> VersionOut:
     return VersionOut(number=version.number, fingerprint=version.fingerprint,
-                      change=version.change, n_obs=version.n_obs,
+                      change=cast(VersionChange, version.change),  # as stored; validated
+                      n_obs=version.n_obs,
                       first_period=version.first_period, last_period=version.last_period,
                       created_at=version.created_at, created_by=version.created_by)

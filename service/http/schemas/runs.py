@@ -3,14 +3,18 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from backtest.models import FAMILIES
 from service.http.schemas.common import SeriesKey, Strict, Tags
 
-Family = Literal[tuple(sorted(FAMILIES))]  # type: ignore[valid-type]  # from a runtime tuple: values and docs never drift
+if TYPE_CHECKING:  # the checker cannot read a Literal made from a runtime tuple
+    Family = str
+else:  # from a runtime tuple: values and docs never drift
+    Family = Literal[tuple(sorted(FAMILIES))]
+RunStatus = Literal["queued", "running", "succeeded", "failed", "cancelled"]
 PLAN_EXAMPLE = {"horizon": 6, "max_origins": 12, "levels": [80, 95], "rank_by": "mase"}
 
 
@@ -97,7 +101,7 @@ class RunOut(BaseModel):
 
     id: int
     url: str
-    status: Literal["queued", "running", "succeeded", "failed", "cancelled"]
+    status: RunStatus
     requested_by: str
     idempotency_key: str | None
     plan_id: str

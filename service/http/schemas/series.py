@@ -15,6 +15,8 @@ from service.limits import (
     UNIT_PATTERN,
 )
 
+VersionChange = Literal["initial", "append", "revision"]
+
 
 class ObservationIn(Strict):
     """One observation: a period label (e.g. ``2024-03``) and its value."""
@@ -50,7 +52,7 @@ class VersionOut(BaseModel):
 
     number: int
     fingerprint: str = Field(description="SHA-256 of the canonical series")
-    change: Literal["initial", "append", "revision"]
+    change: VersionChange
     n_obs: int
     first_period: str
     last_period: str

@@ -5,6 +5,7 @@ with the binomial range a calibrated interval would fall in, and the h = 1 misse
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 from matplotlib.axes import Axes
@@ -78,7 +79,7 @@ def calibration_chart(result: SeriesResult, candidate_id: str) -> Figure:
     return fig
 
 
-def _draw_coverage(ax: Axes, level_report: dict, look: Look, dodge: float) -> None:
+def _draw_coverage(ax: Axes, level_report: dict[str, Any], look: Look, dodge: float) -> None:
     """Observed coverage shifted by ``dodge`` along the horizon, so that levels with the
     same coverage (often 100 %) stay visible side by side."""
     level, nominal = level_report["level"], level_report["nominal_coverage"]

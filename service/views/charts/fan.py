@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -41,7 +41,7 @@ def history_window(horizon: int, season_length: int) -> int:
     return max(HISTORY_PER_STEP * horizon, season_length, 2)
 
 
-def recent_history(periods: Sequence[str], values: Sequence[float], origin: str,
+def recent_history(periods: Sequence[str], values: Iterable[float], origin: str,
                    shown: int) -> tuple[list[str], list[float]]:
     """The last ``shown`` periods up to and including ``origin`` (0: all of them), with the
     observations after it, which :func:`fan_chart` leaves to the actuals."""

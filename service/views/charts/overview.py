@@ -8,7 +8,7 @@ import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
-from backtest.results import SeriesResult
+from backtest.results import RankRow, SeriesResult
 from service.views.charts.style import (
     add_legend,
     candidate_looks,
@@ -51,7 +51,7 @@ CONTENDERS = 3
 STRETCH = 1.5
 
 
-def _clip_outliers(ax: Axes, ranked: list, lines: dict[str, np.ndarray], benchmark_id: str,
+def _clip_outliers(ax: Axes, ranked: list[RankRow], lines: dict[str, np.ndarray], benchmark_id: str,
                    horizons: np.ndarray, colors: dict[str, str]) -> None:
     """Scale the value axis to the contenders; mark lines that leave it at the top edge
     and name them with their largest value."""

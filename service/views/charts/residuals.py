@@ -8,6 +8,7 @@ instance from :func:`service.views.report.residuals.full_fit_residuals`) to get 
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import TypedDict
 
 import numpy as np
 from matplotlib.artist import Artist
@@ -32,9 +33,22 @@ from service.views.charts.style import (
     styled,
 )
 
-_INSIDE = {"facecolor": BLUE}
-_OUTSIDE = {"facecolor": VERMILLION, "hatch": "////", "edgecolor": BLACK}
-_BOUND = {"color": BLACK, "linestyle": (0, (4, 2)), "linewidth": 0.9}
+
+class _BarLook(TypedDict, total=False):
+    facecolor: str
+    hatch: str
+    edgecolor: str
+
+
+class _LineLook(TypedDict):
+    color: str
+    linestyle: tuple[float, tuple[float, float]]
+    linewidth: float
+
+
+_INSIDE: _BarLook = {"facecolor": BLUE}
+_OUTSIDE: _BarLook = {"facecolor": VERMILLION, "hatch": "////", "edgecolor": BLACK}
+_BOUND: _LineLook = {"color": BLACK, "linestyle": (0, (4, 2)), "linewidth": 0.9}
 
 
 def _legend_handles() -> list[Artist]:
@@ -45,12 +59,13 @@ def _legend_handles() -> list[Artist]:
 
 def normal_quantiles(n: int) -> np.ndarray:
     """Expected standard-normal order statistics by Blom's (1958) plotting positions."""
-    return stats.norm.ppf((np.arange(1, n + 1) - 0.375) / (n + 0.25))
+    quantiles: np.ndarray = stats.norm.ppf((np.arange(1, n + 1) - 0.375) / (n + 0.25))
+    return quantiles
 
 
 @styled
 def residual_chart(result: SeriesResult, candidate_id: str, *,
-                   residuals: Sequence[float] | None = None,
+                   residuals: Sequence[float] | np.ndarray | None = None,
                    periods: Sequence[str] | None = None,
                    residual_unit: str = "model scale") -> Figure:
     """ACF and PACF panels from the stored diagnostics; with ``residuals`` (and their

@@ -11,7 +11,7 @@ from __future__ import annotations
 import functools
 import math
 import textwrap
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from typing import Any, ParamSpec
 
@@ -19,6 +19,7 @@ import matplotlib
 from matplotlib.artist import Artist
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
+from matplotlib.typing import RcKeyType
 
 BLACK = "#000000"
 ORANGE = "#E69F00"
@@ -34,7 +35,7 @@ WIDTH_IN = 6.7
 #: Characters of the bold 10.5-point title that fit across WIDTH_IN.
 _TITLE_CHARACTERS = 76
 
-RC: dict[str, Any] = {
+RC: dict[RcKeyType, Any] = {
     "font.family": "sans-serif",
     "font.size": 9,
     "axes.titlesize": 9,
@@ -158,7 +159,7 @@ def place_legend(fig: Figure, handles: Sequence[Artist], columns: int = 4) -> No
 _MONTH_STRIDES = (1, 2, 3, 6, 12, 24, 60, 120)
 
 
-def label_periods(ax: Axes, labels: Sequence[str], positions: Sequence[float], *,
+def label_periods(ax: Axes, labels: Sequence[str], positions: Iterable[float], *,
                   max_ticks: int = 8) -> None:
     """Tick a time axis at regular calendar positions (every month, quarter, January,
     second January ...), the finest stride that gives at most ``max_ticks`` ticks.
@@ -168,8 +169,8 @@ def label_periods(ax: Axes, labels: Sequence[str], positions: Sequence[float], *
     ``YYYY-MM-DD`` (ISO weeks) are thinned to every n-th instead.
     """
     labels, positions = list(labels), list(positions)
-    months = [_month_index(label) for label in labels]
-    if labels and None not in months:
+    months = [month for label in labels if (month := _month_index(label)) is not None]
+    if labels and len(months) == len(labels):
         for stride in _MONTH_STRIDES:
             ticks = [i for i, month in enumerate(months)
                      if (month % stride == 0 if i == 0 else

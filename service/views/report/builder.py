@@ -42,9 +42,9 @@ def render_run_report(result: BacktestResult, run_meta: Mapping[str, Any],
     one-line-per-series table of all of them and details only those in ``result``.
     """
     values = dict(series_values or {})
-    for fingerprint, series in values.items():
-        if series.fingerprint() != fingerprint:
-            raise ValueError(f"series {series.key!r} is keyed by fingerprint "
+    for fingerprint, given in values.items():
+        if given.fingerprint() != fingerprint:
+            raise ValueError(f"series {given.key!r} is keyed by fingerprint "
                              f"{fingerprint[:12]}..., but its data has another fingerprint")
     charts = ChartEmbedder()
     run = shown(run_meta.get("run_id"))

@@ -3,6 +3,9 @@ pooled coverage, and a calibration chart per charted candidate."""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from typing import Any
+
 from backtest.results import SeriesResult
 from service.views.charts import calibration_chart
 from service.views.report.embed import ChartEmbedder
@@ -50,7 +53,8 @@ def calibration_section(sr: SeriesResult, charts: ChartEmbedder,
     return join(parts)
 
 
-def _row(label: str, level: int, first: dict | None, pooled: dict) -> tuple:
+def _row(label: str, level: int, first: Mapping[str, Any] | None,
+         pooled: Mapping[str, Any]) -> tuple[str, ...]:
     if first is None:
         return (label, f"{level} %", MISSING, MISSING, MISSING, MISSING, MISSING,
                 share(pooled.get("coverage")))

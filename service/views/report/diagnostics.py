@@ -4,6 +4,7 @@ residual tests, roots), stability across the re-estimating folds, and their char
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import Any
 
 from backtest.parameter_names import readable, seasonal_period
 from backtest.results import CandidateInfo, SeriesResult
@@ -95,7 +96,7 @@ def _residual_chart(sr: SeriesResult, c: CandidateInfo, charts: ChartEmbedder,
                                 + extra)
 
 
-def _estimation(d: dict) -> Html:
+def _estimation(d: Mapping[str, Any]) -> Html:
     estimation = d.get("estimation") or {}
     covariance = (d.get("covariance") or {}).get("description")
     text = f"Estimation: {estimation.get('method', MISSING)}"
@@ -112,7 +113,7 @@ def _estimation(d: dict) -> Html:
     return element("p", text + ".")
 
 
-def _coefficients(d: dict, period: int | None) -> Html:
+def _coefficients(d: Mapping[str, Any], period: int | None) -> Html:
     rows = [(parameter_cell(r["name"], period), general(r.get("estimate")),
              general(r.get("std_error")), fixed(r.get("z"), 2), p_value(r.get("p_value")),
              r.get("note") or "")
@@ -123,7 +124,7 @@ def _coefficients(d: dict, period: int | None) -> Html:
                  numeric=(1, 2, 3, 4))
 
 
-def _residual_tests(d: dict) -> Html:
+def _residual_tests(d: Mapping[str, Any]) -> Html:
     residuals = d.get("residuals") or {}
     rows = []
     for test in residuals.get("ljung_box") or ():
@@ -162,7 +163,7 @@ def _reading(p: float | None, finding: str) -> str:
     return f"rejects: {finding}" if p < ALPHA else "does not reject"
 
 
-def _roots(d: dict) -> Html:
+def _roots(d: Mapping[str, Any]) -> Html:
     roots = d.get("roots")
     if not roots:
         return Html("")
@@ -181,7 +182,7 @@ def _roots(d: dict) -> Html:
     return element("p", "; ".join(notes) + ".", cls=cls)
 
 
-def _stability(stability: dict | None, period: int | None) -> Html:
+def _stability(stability: Mapping[str, Any] | None, period: int | None) -> Html:
     if not stability:
         return Html("")
     if "error" in stability:

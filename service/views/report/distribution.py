@@ -3,7 +3,10 @@ was, beside its point accuracy in the ranking."""
 
 from __future__ import annotations
 
-from backtest.results import SeriesResult
+from collections.abc import Mapping
+from typing import Any
+
+from backtest.results import Score, SeriesResult
 from backtest.score_registry import DISTRIBUTION_METRICS
 from service.views.report.html import Html, element, join, table
 from service.views.report.numbers import MISSING, fixed
@@ -33,12 +36,13 @@ def distribution_section(sr: SeriesResult) -> Html:
     ])
 
 
-def _value(pooled: dict, candidate_id: str, metric: str) -> float | None:
+def _value(pooled: Mapping[tuple[str, str], Score], candidate_id: str,
+           metric: str) -> float | None:
     score = pooled.get((candidate_id, metric))
     return None if score is None else score.value
 
 
-def _intervals(spec: dict) -> str:
+def _intervals(spec: Mapping[str, Any]) -> str:
     option = spec.get("intervals")
     if not option:
         return "the model's"

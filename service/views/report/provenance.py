@@ -37,7 +37,8 @@ def shown(value: Any) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if hasattr(value, "isoformat"):
-        return value.isoformat(sep=" ", timespec="seconds")
+        stamp: str = value.isoformat(sep=" ", timespec="seconds")
+        return stamp
     if isinstance(value, Mapping | list | tuple):
         return json.dumps(value, sort_keys=True, separators=(", ", ": "))
     return str(value)

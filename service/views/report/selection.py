@@ -11,8 +11,9 @@ CHARTED_TOP = 3
 
 def charted_candidates(sr: SeriesResult) -> frozenset[str]:
     """Ids of the :data:`CHARTED_TOP` best-ranked candidates and of the benchmark."""
-    ranked = sorted((r for r in sr.ranking if r.rank is not None), key=lambda r: r.rank)
-    return frozenset([sr.benchmark_id, *(r.candidate_id for r in ranked[:CHARTED_TOP])])
+    ranked = sorted(((r.rank, r.candidate_id) for r in sr.ranking if r.rank is not None),
+                    key=lambda ranked_id: ranked_id[0])
+    return frozenset([sr.benchmark_id, *(cid for _, cid in ranked[:CHARTED_TOP])])
 
 
 def charted_note(sr: SeriesResult) -> str:
