@@ -19,7 +19,7 @@ with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
 same likelihood); forecasts and results still come from the statsmodels model at those
 estimates. The parameters then carry ``estimator`` (1 fast, 0 the fast estimator failed
-and the reference estimated the fold, with a :class:`~.fast_arima.EstimatorFallback`
+and the reference estimated the fold, with a :class:`~.fast_fallback.EstimatorFallback`
 warning giving the reason).
 """
 
@@ -47,7 +47,8 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
-from backtest.models.fast_arima import ESTIMATOR_KEY, fast_fit
+from backtest.models.fast_arima import fast_fit
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,

@@ -72,8 +72,8 @@ from backtest.models.base import (
     take_fields,
 )
 from backtest.models.differencing import STRONG_SEASONALITY, choose_differencing, difference
-from backtest.models.fast_arima import ESTIMATOR_KEY
 from backtest.models.fast_arima_trial import run_fast_trial
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.stepwise import STARTING_ORDERS, ArmaOrders, SearchBounds, stepwise_search
 from backtest.transforms import Transform, parse_transform
 
