@@ -169,7 +169,8 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
     loading = np.zeros(r)
     loading[0] = 1.0
     loading[1:ma.shape[0] + 1] = ma
-    cov = stationary_cov(phi, loading)
+    cov = stationary_cov(phi, loading)  # only its upper triangle is kept up to date
+    first_row = np.zeros(r)
     a_w = np.zeros(r)
     a_x = np.zeros(r)
     gain = np.zeros(r)
@@ -185,7 +186,8 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
             if not f > 0.0:
                 return np.nan, np.nan, np.nan, np.nan
             for i in range(r):
-                gain[i] = cov[i, 0] / f
+                first_row[i] = cov[0, i]
+                gain[i] = first_row[i] / f
         v_w = w[t] - a_w[0]
         v_x = x[t] - a_x[0]
         sum_log_f += np.log(f)
@@ -203,23 +205,28 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
         if steady:
             continue
         # P_{t|t} = P - P e1 e1' P / F has a zero first row, so
-        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R'.
+        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R',
+        # filled row by row (row i reads row i + 1, not yet overwritten, and the first row
+        # as it was before the step).
         change = 0.0
-        for i in range(r):
-            for j in range(i, r):
-                value = loading[i] * loading[j]
-                if i + 1 < r and j + 1 < r:
-                    value += cov[i + 1, j + 1] - cov[i + 1, 0] * cov[j + 1, 0] / f
+        for i in range(r - 1):
+            row_gain = first_row[i + 1]
+            for j in range(i, r - 1):
+                value = (loading[i] * loading[j] + cov[i + 1, j + 1]
+                         - row_gain * gain[j + 1])
                 change = max(change, abs(value - cov[i, j]))
                 cov[i, j] = value
-        for i in range(r):
-            for j in range(i):
-                cov[i, j] = cov[j, i]
+            value = loading[i] * loading[r - 1]
+            change = max(change, abs(value - cov[i, r - 1]))
+            cov[i, r - 1] = value
+        value = loading[r - 1] * loading[r - 1]
+        change = max(change, abs(value - cov[r - 1, r - 1]))
+        cov[r - 1, r - 1] = value
         steady = change < STEADY_TOLERANCE * max(1.0, abs(cov[0, 0]))
         if steady:
             f = cov[0, 0]
             for i in range(r):
-                gain[i] = cov[i, 0] / f
+                gain[i] = cov[0, i] / f
     return sum_log_f, s_ww, s_wx, s_xx
 
 
@@ -250,12 +257,12 @@ def objective(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int, big
     grad = np.zeros(x.shape[0])
     if not np.isfinite(value):
         return 1e300, grad
+    probe = x.copy()
     for i in range(x.shape[0]):
-        up = x.copy()
-        up[i] += step
-        down = x.copy()
-        down[i] -= step
-        f_up = -profile_loglike(up, w, reg, p, q, big_p, big_q, s)[0] / n
-        f_down = -profile_loglike(down, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i] + step
+        f_up = -profile_loglike(probe, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i] - step
+        f_down = -profile_loglike(probe, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i]
         grad[i] = (f_up - f_down) / (2.0 * step)
     return value, grad
