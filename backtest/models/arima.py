@@ -14,7 +14,9 @@ A fit otherwise follows statsmodels' optimiser path exactly but keeps only the f
 output (no smoother, no default covariance): the estimates are the same, the results still give
 residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
 forecast from the estimation origin is read off that filter output. A stretch of origins
-with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
+with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`), the
+compiled copy of statsmodels' filter (:mod:`.compiled_filter`) at the statsmodels model's
+matrices.
 
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
 same likelihood); forecasts and results still come from the statsmodels model at those
@@ -25,6 +27,8 @@ warning giving the reason).
 
 from __future__ import annotations
 
+import functools
+import threading
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar, Literal, cast
@@ -47,12 +51,12 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
+from backtest.models.compiled_filter import predicted_states
 from backtest.models.fast_arima import fast_fit
 from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
-    filter_states,
     propagate,
     states_at,
 )
@@ -206,10 +210,24 @@ class ArimaSpec(ModelSpec):
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
                          ends: Sequence[int], horizon: int, levels: tuple[int, ...],
                          seeds: Sequence[int]) -> list[Forecast]:
-        """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``."""
-        model = self.model(y, season_length)
-        states = filter_states(model, vector(model, params), ends)
-        return self._from_states(model, params, states, ends, horizon, levels)
+        """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``:
+        statsmodels' filter (:mod:`.compiled_filter`) with the statsmodels model's
+        matrices and initialisation at ``params``, taken from a model of ``spec`` on
+        placeholder data (they depend on the parameters only), so that no model is built
+        on ``y``."""
+        system, initial_mean, initial_cov = _system_at(self, season_length, params)
+        y = np.asarray(y, dtype=float)
+        at = np.asarray(ends, dtype=np.int64)
+        order = np.argsort(at, kind="stable")
+        means, covs = predicted_states(y, self._intercepts(params, np.arange(len(y))),
+                                       system.design, system.obs_var, system.transition,
+                                       system.state_intercept, system.disturbance_cov,
+                                       initial_mean, initial_cov, at[order])
+        states = OriginStates(np.empty_like(means), np.empty_like(covs))
+        states.mean[order], states.cov[order] = means, covs
+        times = at[:, None] + np.arange(horizon)
+        mean, var = propagate(system, states, self._intercepts(params, times))
+        return forecasts_by_origin(mean, np.sqrt(var), levels)
 
     def _from_states(self, model: ARIMA, params: Params, states: OriginStates,
                      ends: Sequence[int], horizon: int, levels: tuple[int, ...]
@@ -227,6 +245,40 @@ class ArimaSpec(ModelSpec):
         if self.deterministic == "drift":
             return params["drift"] * (times + 1.0)
         return np.zeros(times.shape)
+
+
+#: Guards the placeholder models of :func:`_system_at` (updated in place) across threads.
+_PLACEHOLDER_LOCK = threading.Lock()
+
+
+@functools.lru_cache(maxsize=64)
+def _placeholder(spec: ArimaSpec, season_length: int) -> ARIMA:
+    """The statsmodels model of ``spec`` on zeros (its state-space matrices and
+    initialisation depend on the parameters alone, not on the data)."""
+    return spec.model(np.zeros(spec.min_train(season_length)), season_length)
+
+
+def _system_at(spec: ArimaSpec, season_length: int, params: Params
+               ) -> tuple[LinearSystem, np.ndarray, np.ndarray]:
+    """The statsmodels model's matrices at ``params`` and its initial state mean and
+    covariance (the differencing states approximately diffuse, the ARMA states at their
+    stationary covariance).
+
+    Raises
+    ------
+    ValueError
+        If the initialisation has an exact diffuse part (statsmodels' ARIMA has none).
+    """
+    with _PLACEHOLDER_LOCK:
+        model = _placeholder(spec, season_length)
+        model.update(vector(model, params), transformed=True)
+        system = LinearSystem.of(model)
+        initial_mean, diffuse, initial_cov = model.ssm.initialization(model=model.ssm)
+        system = LinearSystem(system.design.copy(), system.obs_var, system.transition.copy(),
+                              system.state_intercept.copy(), system.disturbance_cov.copy())
+    if np.any(diffuse):
+        raise ValueError("the compiled filter does not handle an exact diffuse initialisation")
+    return system, np.array(initial_mean, dtype=float), np.array(initial_cov, dtype=float)
 
 
 def _scale_powers(model: ARIMA) -> np.ndarray:

@@ -124,7 +124,7 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
         a[h, h] += 1.0
         for k in range(1, n_ar + 1):
             a[h, abs(h - k)] -= phi[k - 1]
-    solved = np.linalg.solve(a, rhs[:m].copy())
+    solved = _solve(a, rhs[:m].copy())
     for h in range(m):
         gamma[h] = solved[h]
     for h in range(m, r + 1):
@@ -152,6 +152,33 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
             cov[i, j] = value
             cov[j, i] = value
     return cov
+
+
+@njit
+def _solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a^-1 b`` by Gaussian elimination with partial pivoting, in place (the systems are
+    small: a LAPACK call costs more than the arithmetic)."""
+    m = b.shape[0]
+    for k in range(m):
+        pivot = k
+        for i in range(k + 1, m):
+            if abs(a[i, k]) > abs(a[pivot, k]):
+                pivot = i
+        if pivot != k:
+            for j in range(k, m):
+                a[k, j], a[pivot, j] = a[pivot, j], a[k, j]
+            b[k], b[pivot] = b[pivot], b[k]
+        for i in range(k + 1, m):
+            factor = a[i, k] / a[k, k]
+            for j in range(k, m):
+                a[i, j] -= factor * a[k, j]
+            b[i] -= factor * b[k]
+    for k in range(m - 1, -1, -1):
+        total = b[k]
+        for j in range(k + 1, m):
+            total -= a[k, j] * b[j]
+        b[k] = total / a[k, k]
+    return b
 
 
 @njit

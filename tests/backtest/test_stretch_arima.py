@@ -78,6 +78,19 @@ def test_stretch_equals_statsmodels_per_origin(spec, log_air):
         _assert_same(ours, _statsmodels_forecast(spec, log_air[:end], params))
 
 
+@pytest.mark.parametrize("spec", SPECS[:3], ids=lambda s: s.label(12))
+def test_missing_values_and_origins_out_of_order_equal_statsmodels(spec, log_air):
+    """statsmodels' filter skips the update at a missing observation, and so must the
+    compiled one; origins may come in any order."""
+    params = _estimate(spec, log_air[:96])
+    y = log_air.copy()
+    y[[20, 50, 51, 90]] = np.nan
+    ends = [144, 60, 100, 52]
+    stretch = spec.forecast_stretch(y, 12, params, ends, HORIZON, LEVELS, [0] * 4)
+    for end, ours in zip(ends, stretch):
+        _assert_same(ours, _statsmodels_forecast(spec, y[:end], params))
+
+
 def _recording(fit):
     """``fit()`` with the warnings it emits, as (result, [(category, message)])."""
     with warnings.catch_warnings(record=True) as caught:
