@@ -12,11 +12,10 @@ the estimate is mapped back exactly (constant and drift divided by the factor, t
 by its square) and the results, likelihood and forecasts are computed on the original data.
 A fit otherwise follows statsmodels' optimiser path exactly but keeps only the filter
 output (no smoother, no default covariance): the estimates are the same, the results still give
-residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
-forecast from the estimation origin is read off that filter output. A stretch of origins
-with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`), the
-compiled copy of statsmodels' filter (:mod:`.compiled_filter`) at the statsmodels model's
-matrices.
+residuals, likelihood and, on request, covariances (``cov_params_approx``, ...). Forecasts,
+from the estimation origin or from a stretch of later origins with fixed parameters, come
+from one filter pass (:mod:`.kalman_stretch`) of the compiled copy of statsmodels' filter
+(:mod:`.compiled_filter`) at the statsmodels model's matrices.
 
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
 same likelihood); forecasts and results still come from the statsmodels model at those
@@ -58,7 +57,6 @@ from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
     propagate,
-    states_at,
 )
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
@@ -196,16 +194,13 @@ class ArimaSpec(ModelSpec):
                      levels: tuple[int, ...], seed: int, *,
                      start_params: Params | None = None, estimator: Estimator = "reference",
                      keep_raw: bool = True) -> tuple[Fit, Forecast]:
-        """Estimate on ``y``, then forecast from the estimation's own filter output (or,
-        without one, from a filter pass at the estimates)."""
+        """Estimate on ``y``, then forecast by :meth:`forecast_stretch` at the estimates,
+        whether or not the fit keeps statsmodels' results (so the lean and the full
+        assessment give the same forecasts to the last digit)."""
         fit = self.fit(y, season_length, start_params=start_params, estimator=estimator,
                        keep_raw=keep_raw)
-        if fit.raw is None:
-            return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
-                                              levels, [seed])[0]
-        states = states_at(fit.raw.filter_results, [len(y)])
-        return fit, self._from_states(fit.raw.model, fit.params, states, [len(y)], horizon,
-                                      levels)[0]
+        return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
+                                          levels, [seed])[0]
 
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
                          ends: Sequence[int], horizon: int, levels: tuple[int, ...],
@@ -227,14 +222,6 @@ class ArimaSpec(ModelSpec):
         states.mean[order], states.cov[order] = means, covs
         times = at[:, None] + np.arange(horizon)
         mean, var = propagate(system, states, self._intercepts(params, times))
-        return forecasts_by_origin(mean, np.sqrt(var), levels)
-
-    def _from_states(self, model: ARIMA, params: Params, states: OriginStates,
-                     ends: Sequence[int], horizon: int, levels: tuple[int, ...]
-                     ) -> list[Forecast]:
-        model.update(vector(model, params), transformed=True)
-        times = np.asarray(ends)[:, None] + np.arange(horizon)
-        mean, var = propagate(LinearSystem.of(model), states, self._intercepts(params, times))
         return forecasts_by_origin(mean, np.sqrt(var), levels)
 
     def _intercepts(self, params: Params, times: np.ndarray) -> np.ndarray:
