@@ -13,12 +13,12 @@ Two kinds of limit live here:
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 
 from backtest.cost import RunCost
 from backtest.errors import SeriesTooLongError, TooManySeriesError
-from service.errors import FieldError, LimitExceededError
+from service.errors import FieldError, InvalidInputError, LimitExceededError
 from service.settings import Settings
 
 MAX_ID = 2**31 - 1
@@ -44,6 +44,21 @@ MAX_RUNS_PAGE = 100
 """Runs per page of the run list."""
 MAX_DOSSIER_ITEMS = 1000
 """Forecasts and audit events a dossier shows at most."""
+
+
+def check_level_values(levels: Sequence[int], pointer: str) -> None:
+    """Refuse interval levels outside whole percentages from :data:`MIN_LEVEL` to
+    :data:`MAX_LEVEL`, or given twice (an issued forecast, from the CLI and the API alike)."""
+    outside = [level for level in levels if not MIN_LEVEL <= level <= MAX_LEVEL]
+    if outside:
+        raise InvalidInputError(
+            f"interval levels are whole percentages from {MIN_LEVEL} to {MAX_LEVEL}; got "
+            f"{outside[0]}",
+            errors=[FieldError("body", f"{pointer}/levels", "level out of range")])
+    if len(set(levels)) != len(levels):
+        raise InvalidInputError(
+            "interval levels repeat a value",
+            errors=[FieldError("body", f"{pointer}/levels", "repeated level")])
 
 
 def check_horizon_and_levels(horizon: int, levels: int, settings: Settings,

@@ -18,7 +18,7 @@ from backtest.ledger import issue_forecast
 from backtest.results import FoldResult
 from backtest.series import Series
 from service.errors import FieldError, InvalidInputError
-from service.limits import check_horizon_and_levels
+from service.limits import check_horizon_and_levels, check_level_values
 from service.settings import Settings
 from service.usecases.backtest_lookup import latest_backtest
 from service.usecases.transactions import write
@@ -50,7 +50,8 @@ class _Inputs:
 def issue(sessions: sessionmaker[Session], request: IssueRequest, settings: Settings, *,
           actor: str) -> tuple[IssuedRecord, bool]:
     """The ledger record of the forecast, and whether this call created it; the horizon and
-    levels are held to the settings' limits first, as for a run's plan."""
+    levels are checked first (their values, then the settings' limits, as for a run's plan)."""
+    check_level_values(request.levels, "")
     check_horizon_and_levels(request.horizon, len(request.levels), settings, "")
     with sessions.begin() as session:
         inputs = _inputs(session, request)

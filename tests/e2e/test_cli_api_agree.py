@@ -237,3 +237,18 @@ def test_the_answers_agree(both: Both):
     again = both.client.post("/v1/forecasts", json={"series_key": KEY, "horizon": 4})
     assert again.status_code == 200  # identical inputs: the forecast the CLI issued
     assert again.json()["id"] == int(ledger[0]["forecast_id"])
+
+
+@ON_SQLITE
+@pytest.mark.parametrize(("levels", "words"), [
+    ([150], "interval levels are whole percentages from 1 to 99; got 150"),
+    ([80, 0], "interval levels are whole percentages from 1 to 99; got 0"),
+    ([80, 80], "interval levels repeat a value")])
+def test_issued_forecast_levels_out_of_range_are_refused_alike(both: Both, levels, words):
+    said = _cli_error(both.cli("forecast", "issue", KEY, "--horizon", "4",
+                               "--levels", ",".join(map(str, levels))))
+    problem = _problem(both.client.post("/v1/forecasts", json={
+        "series_key": KEY, "horizon": 4, "levels": levels}))
+    assert said == problem["detail"] == words
+    assert problem["code"] == "invalid_input"
+    assert [e["pointer"] for e in problem["errors"]] == ["/levels"]

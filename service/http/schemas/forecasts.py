@@ -5,7 +5,7 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from pydantic import BaseModel, Field, field_validator
+from pydantic import BaseModel, Field
 
 from service.http.schemas.champions import CANDIDATE_ID
 from service.http.schemas.common import Page, SeriesKey, Strict
@@ -23,18 +23,11 @@ class ForecastIn(Strict):
                                      description="default: the series' current champion")
     horizon: int = Field(ge=1, le=MAX_ID, examples=[6],
                          description="steps ahead; at most FOLDLINE_MAX_HORIZON")
-    levels: list[int] = Field([80, 95], min_length=1, description="central interval levels "
-                              "in %; at most FOLDLINE_MAX_LEVELS of them")
+    levels: list[int] = Field([80, 95], min_length=1, description="central interval levels: "
+                              f"whole percentages from {MIN_LEVEL} to {MAX_LEVEL}, none "
+                              "repeated, at most FOLDLINE_MAX_LEVELS of them")
     seed: int = Field(0, ge=0, le=MAX_ID, description="seeds any simulated intervals")
 
-    @field_validator("levels")
-    @classmethod
-    def _distinct_percentages(cls, levels: list[int]) -> list[int]:
-        if any(not MIN_LEVEL <= level <= MAX_LEVEL for level in levels):
-            raise ValueError(f"levels are whole percentages from {MIN_LEVEL} to {MAX_LEVEL}")
-        if len(set(levels)) != len(levels):
-            raise ValueError("levels repeat a value")
-        return sorted(levels)
 
 
 class StepOut(Row):
