@@ -33,7 +33,9 @@ estimator (``--estimator``) end to end in a fresh SQLite store: the
 series versions are saved, one run queued, and the service's job worker claims it,
 computes it and stores each series' results in its own transaction, printing wall time,
 folds per second, peak resident memory of the process and its workers, and the time
-extrapolated to 1,000 series. Theta is left out of the mix: statsmodels estimates it with
+extrapolated to 1,000 series, and the CPU the job worker's own process spends per series in
+each of its stages (the engine's per-series assessment and the store's writing; the pool
+workers fit the models). Theta is left out of the mix: statsmodels estimates it with
 two state-space fits per origin, and as a closed-form family it re-estimates at all 36.
 
 Part "summary" times what the full assessment adds to a fast run at cadence 1, per fold
@@ -442,6 +444,61 @@ STORE_CANDIDATES = [
 STORE_ORIGINS = 36
 
 
+#: The job worker's per-series stages, timed in this process: (label, module, function).
+#: Indented labels are parts of the stage above them.
+MAIN_STAGES = (
+    ("assess one series (engine)", "backtest.engine", "_series_result"),
+    ("  scores (score_candidate)", "backtest.engine", "score_candidate"),
+    ("  scores on common ground", "backtest.engine", "on_common_ground"),
+    ("  evidence (DM, MCS, calibration)", "backtest.engine", "series_evidence"),
+    ("  ranking", "backtest.engine", "rank_candidates"),
+    ("  evidence to JSON", "backtest.engine", "to_jsonable"),
+    ("store one series (storage)", "storage.runs.queue", "write_series_result"),
+    ("  rows (unit_rows)", "storage.results.store", "unit_rows"),
+    ("  inserts", "storage.results.store", "insert_rows"),
+    ("  audit digest (unit_digest)", "storage.results.store", "unit_digest"),
+)
+
+
+class StageClock:
+    """CPU seconds of the calling thread spent in each of :data:`MAIN_STAGES`, measured
+    by wrapping those functions for the duration of the block (a bench-only patch)."""
+
+    def __init__(self) -> None:
+        self.seconds = dict.fromkeys((label for label, _, _ in MAIN_STAGES), 0.0)
+        self._saved: list[tuple[object, str, Callable]] = []
+
+    def __enter__(self) -> StageClock:
+        for label, module_name, name in MAIN_STAGES:
+            module = importlib.import_module(module_name)
+            original = getattr(module, name)
+            self._saved.append((module, name, original))
+            setattr(module, name, self._timed(label, original))
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        for module, name, original in reversed(self._saved):
+            setattr(module, name, original)
+
+    def _timed(self, label: str, fn: Callable) -> Callable:
+        def timed(*args, **kwargs):
+            started = time.thread_time()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                self.seconds[label] += time.thread_time() - started
+        return timed
+
+    def report(self, n_series: int, own: float) -> None:
+        top = sum(t for label, t in self.seconds.items() if not label.startswith(" "))
+        print("  job worker's process, CPU ms per series by stage (thread CPU time):")
+        for label, seconds in self.seconds.items():
+            print(f"    {label:<36} {seconds / n_series * 1e3:8.1f}")
+        print(f"    {'other (pool traffic, progress, ...)':<36} "
+              f"{(own - top) / n_series * 1e3:8.1f}")
+        print(f"    {'whole process':<36} {own / n_series * 1e3:8.1f}  (target <= 350)")
+
+
 class PeakMemory:
     """Peak of the summed resident memory of this process and its children, sampled."""
 
@@ -511,8 +568,9 @@ def storage_part(args: argparse.Namespace) -> None:
         worker = Worker(Settings(database_url=url, worker_jobs=args.jobs,
                                  prerender_reports=False), sessions, "bench")
         clock = Clock.now()
-        if not worker.run_once():
-            raise SystemExit("the worker found no run")
+        with StageClock() as stages:
+            if not worker.run_once():
+                raise SystemExit("the worker found no run")
         computed = time.perf_counter() - queued
         cpu = _cpu_used(clock, Clock.now())
         with sessions.begin() as session:
@@ -531,6 +589,7 @@ def storage_part(args: argparse.Namespace) -> None:
     print(f"  worker's run in CPU seconds: this process {own:.1f}, pool "
           f"{' + '.join(f'{t:.1f}' for t in sorted(pool, reverse=True))}; estimate for an "
           f"idle {os.cpu_count()}-core machine {idle:.1f} s")
+    stages.report(len(series), own)
     print(f"  peak resident memory, this process and its workers together: "
           f"{memory.peak / 2**20:.0f} MiB")
     print(f"  per 1,000 series: wall {wall * scale / 60:.1f} min, idle-machine estimate "
