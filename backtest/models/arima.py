@@ -174,7 +174,8 @@ class ArimaSpec(ModelSpec):
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         """The fit with its model parameters only (without the ``estimator`` record)."""
-        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw)
+        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw,
+                         fit.converged)
 
     def results_at(self, y: np.ndarray, season_length: int, params: Params) -> Any:
         """statsmodels' results of a filter pass over ``y`` at ``params`` (no estimation)."""

@@ -214,7 +214,7 @@ class ArimaSearchSpec(ModelSpec):
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         spec, estimates = self.chosen(fit.params)
-        return spec, Fit(estimates, fit.raw)
+        return spec, Fit(estimates, fit.raw, fit.converged)
 
     def chosen(self, params: Params) -> tuple[ArimaSpec, Params]:
         """The ARIMA model a fit chose (with this transform) and its estimates alone.

@@ -189,6 +189,26 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
     Returns ``sum log F_t``, ``sum v_w^2 / F``, ``sum v_w v_x / F`` and ``sum v_x^2 / F``
     (``x`` of zeros gives zero regression sums). Non-finite output marks a failure.
     """
+    return filter_errors(w, x, ar, ma, np.empty(0))
+
+
+@njit
+def one_step_errors(w: np.ndarray, ar: np.ndarray, ma: np.ndarray) -> np.ndarray:
+    """The filter's one-step prediction errors ``v_t`` of ``w`` (the same at any
+    innovation variance); NaN throughout where the filter fails."""
+    errors = np.empty(w.shape[0])
+    sums = filter_errors(w, np.zeros_like(w), ar, ma, errors)
+    if not np.isfinite(sums[0]):
+        errors[:] = np.nan
+    return errors
+
+
+@njit
+def filter_errors(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray,
+                  errors: np.ndarray) -> tuple[float, float, float, float]:
+    """:func:`filter_sums`, also writing each one-step error of ``w`` to ``errors`` when
+    that has ``w``'s length (an empty array: sums only)."""
+    keep = errors.shape[0] == w.shape[0]
     n = w.shape[0]
     r = max(ar.shape[0], ma.shape[0] + 1)
     phi = np.zeros(r)
@@ -217,6 +237,8 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
                 gain[i] = first_row[i] / f
         v_w = w[t] - a_w[0]
         v_x = x[t] - a_x[0]
+        if keep:
+            errors[t] = v_w
         sum_log_f += np.log(f)
         s_ww += v_w * v_w / f
         s_wx += v_w * v_x / f
