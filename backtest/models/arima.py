@@ -57,6 +57,7 @@ from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
     propagate,
+    states_at,
 )
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
@@ -210,17 +211,26 @@ class ArimaSpec(ModelSpec):
         statsmodels' filter (:mod:`.compiled_filter`) with the statsmodels model's
         matrices and initialisation at ``params``, taken from a model of ``spec`` on
         placeholder data (they depend on the parameters only), so that no model is built
-        on ``y``."""
-        system, initial_mean, initial_cov = _system_at(self, season_length, params)
+        on ``y``. Data of extreme scale (:meth:`rescaling` not 1) are filtered by
+        statsmodels itself: there the 1e6 start variance of the differencing states
+        dwarfs the data's, the covariances carry rounding noise of the data's own size,
+        and only statsmodels' arithmetic gives statsmodels' forecasts."""
         y = np.asarray(y, dtype=float)
         at = np.asarray(ends, dtype=np.int64)
-        order = np.argsort(at, kind="stable")
-        means, covs = predicted_states(y, self._intercepts(params, np.arange(len(y))),
-                                       system.design, system.obs_var, system.transition,
-                                       system.state_intercept, system.disturbance_cov,
-                                       initial_mean, initial_cov, at[order])
-        states = OriginStates(np.empty_like(means), np.empty_like(covs))
-        states.mean[order], states.cov[order] = means, covs
+        if self.rescaling(y, season_length) != 1.0:
+            model = self.model(y, season_length)
+            model.update(vector(model, params), transformed=True)
+            system = LinearSystem.of(model)
+            states = states_at(model.ssm.filter(), ends)
+        else:
+            system, initial_mean, initial_cov = _system_at(self, season_length, params)
+            order = np.argsort(at, kind="stable")
+            means, covs = predicted_states(y, self._intercepts(params, np.arange(len(y))),
+                                           system.design, system.obs_var, system.transition,
+                                           system.state_intercept, system.disturbance_cov,
+                                           initial_mean, initial_cov, at[order])
+            states = OriginStates(np.empty_like(means), np.empty_like(covs))
+            states.mean[order], states.cov[order] = means, covs
         times = at[:, None] + np.arange(horizon)
         mean, var = propagate(system, states, self._intercepts(params, times))
         return forecasts_by_origin(mean, np.sqrt(var), levels)
