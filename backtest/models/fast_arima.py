@@ -87,7 +87,7 @@ class FastFit:
 
 
 @dataclass(frozen=True)
-class _Problem:
+class DifferencedProblem:
     """The differenced data and regressor, with the orders, as the kernel takes them."""
 
     w: np.ndarray
@@ -96,7 +96,7 @@ class _Problem:
     has_mean: bool
 
     @classmethod
-    def of(cls, spec: ArimaSpec, y: np.ndarray, season_length: int) -> _Problem:
+    def of(cls, spec: ArimaSpec, y: np.ndarray, season_length: int) -> DifferencedProblem:
         p, d, q = spec.order
         big_p, big_d, big_q = spec.seasonal or (0, 0, 0)
         s = spec.season_period(season_length) if spec.seasonal else 1
@@ -130,7 +130,7 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
         If the likelihood is not finite at the start or at the optimum.
     """
     factor = spec.rescaling(y, season_length)
-    problem = _Problem.of(spec, np.asarray(y, dtype=float) * factor, season_length)
+    problem = DifferencedProblem.of(spec, np.asarray(y, dtype=float) * factor, season_length)
     p, q, big_p, big_q, s = problem.orders
     k = p + q + big_p + big_q
     if k == 0:
@@ -163,9 +163,9 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
 def fast_loglike(spec: ArimaSpec, y: np.ndarray, season_length: int, params: Params) -> float:
     """The exact log-likelihood at given parameters (named as the arima family names them,
     ``sigma2`` and any ``constant``/``drift`` included), nothing concentrated out."""
-    problem = _Problem.of(spec, y, season_length)
+    problem = DifferencedProblem.of(spec, y, season_length)
     p, q, big_p, big_q, s = problem.orders
-    names = _coefficient_names(spec, season_length)
+    names = coefficient_names(spec, season_length)
     coefficients = [np.array([params[n] for n in group], dtype=float) for group in names]
     phi, theta, big_phi, big_theta = coefficients
     ar, ma = kernel.multiply(phi, theta, big_phi, big_theta, s)
@@ -188,7 +188,7 @@ def warm_up() -> float:
     return time.perf_counter() - began
 
 
-def _coefficient_names(spec: ArimaSpec, season_length: int) -> tuple[list[str], ...]:
+def coefficient_names(spec: ArimaSpec, season_length: int) -> tuple[list[str], ...]:
     """statsmodels' names of the AR, MA, seasonal AR and seasonal MA coefficients."""
     p, _, q = spec.order
     big_p, _, big_q = spec.seasonal or (0, 0, 0)
@@ -208,7 +208,7 @@ def _named(spec: ArimaSpec, x: np.ndarray, beta: float, sigma2: float,
     out: Params = {}
     if spec.deterministic != "none":
         out[spec.deterministic] = float(beta)
-    for names, group in zip(_coefficient_names(spec, season_length), values):
+    for names, group in zip(coefficient_names(spec, season_length), values):
         out.update({name: float(v) for name, v in zip(names, group)})
     out["sigma2"] = float(sigma2)
     return out
@@ -218,7 +218,7 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
     """Unconstrained coordinates of a previous estimate (coefficients pulled just inside
     the unit circle when on it)."""
     parts = []
-    for sign, names in zip((1, -1, 1, -1), _coefficient_names(spec, season_length)):
+    for sign, names in zip((1, -1, 1, -1), coefficient_names(spec, season_length)):
         if names:
             values = sign * np.array([params[n] for n in names], dtype=float)
             parts.append(unconstrain_stationary_univariate(0.999 * values))
@@ -226,7 +226,7 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
     return result
 
 
-def _cold_starts(problem: _Problem) -> list[np.ndarray]:
+def _cold_starts(problem: DifferencedProblem) -> list[np.ndarray]:
     """Start values: zero and the Hannan-Rissanen estimates (when admissible). A model with
     both autoregressive and moving-average terms, whose likelihood often has more than one
     mode, is optimised from both; otherwise from the one with the higher likelihood."""
@@ -240,7 +240,7 @@ def _cold_starts(problem: _Problem) -> list[np.ndarray]:
     return [guess if problem.loglike(guess)[0] > problem.loglike(zero)[0] else zero]
 
 
-def _hannan_rissanen(problem: _Problem) -> np.ndarray | None:
+def _hannan_rissanen(problem: DifferencedProblem) -> np.ndarray | None:
     """Non-seasonal and seasonal ARMA coefficients by two least-squares regressions
     (the seasonal part on lags that are multiples of s), ``None`` if inadmissible."""
     p, q, big_p, big_q, s = problem.orders

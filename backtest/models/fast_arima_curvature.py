@@ -31,7 +31,7 @@ import numpy as np
 from backtest.models import fast_arima_kernel as kernel
 from backtest.models.base import Params
 from backtest.models.compiled import njit
-from backtest.models.fast_arima import _coefficient_names, _Problem
+from backtest.models.fast_arima import DifferencedProblem, coefficient_names
 
 if TYPE_CHECKING:
     from backtest.models.arima import ArimaSpec
@@ -92,9 +92,9 @@ def hessian(spec: ArimaSpec, y: np.ndarray, season_length: int, params: Params
             ) -> tuple[list[str], np.ndarray]:
     """statsmodels' parameter names and the Hessian of the exact log-likelihood in them, at
     ``params`` (NaN where the filter is not defined around the estimates)."""
-    problem = _Problem.of(spec, y, season_length)
+    problem = DifferencedProblem.of(spec, y, season_length)
     p, q, big_p, big_q, s = problem.orders
-    arma = [name for group in _coefficient_names(spec, season_length) for name in group]
+    arma = [name for group in coefficient_names(spec, season_length) for name in group]
     a = np.array([params[n] for n in arma], dtype=float)
     beta = params.get(spec.deterministic, 0.0)
     sigma2 = params["sigma2"]
@@ -130,10 +130,10 @@ def one_step_errors(spec: ArimaSpec, y: np.ndarray, season_length: int, params: 
                     ) -> np.ndarray:
     """The filter's one-step prediction errors of the differenced series less its mean term
     (``n - d - D*s`` values; NaN where the filter fails)."""
-    problem = _Problem.of(spec, y, season_length)
+    problem = DifferencedProblem.of(spec, y, season_length)
     p, q, big_p, big_q, s = problem.orders
     phi, theta, big_phi, big_theta = (np.array([params[n] for n in group], dtype=float)
-                                      for group in _coefficient_names(spec, season_length))
+                                      for group in coefficient_names(spec, season_length))
     ar, ma = kernel.multiply(phi, theta, big_phi, big_theta, s)
     u = problem.w - params.get(spec.deterministic, 0.0) * problem.reg
     result: np.ndarray = kernel.one_step_errors(np.ascontiguousarray(u), ar, ma)
