@@ -21,7 +21,7 @@ from backtest.evidence_types import Report
 from backtest.folds import Origin
 from backtest.models.base import Estimator
 from backtest.models.combination import CombinationSpec
-from backtest.models.fast_arima import ESTIMATOR_KEY
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.plan import Plan
 from backtest.results import FoldResult
 from backtest.runner import run_candidate

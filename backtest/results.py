@@ -165,12 +165,24 @@ def jsonable_dict(result: Any) -> dict[str, Any]:
     return out
 
 
+#: Types :func:`to_jsonable` returns unchanged, checked by exact type first (the cheap,
+#: common case: most of a result's values are these).
+_PLAIN = frozenset({str, int, bool, type(None)})
+
+
 def to_jsonable(value: Any) -> Any:
     """Recursively turn tuples into lists, int dict keys into strings, NaN/inf into None."""
+    if type(value) in _PLAIN:
+        return value
     if isinstance(value, float):
         return value if math.isfinite(value) else None
     if isinstance(value, dict):
-        return {str(k): to_jsonable(v) for k, v in value.items()}
+        return {str(k): v if _unchanged(v) else to_jsonable(v) for k, v in value.items()}
     if isinstance(value, list | tuple):
-        return [to_jsonable(v) for v in value]
+        return [v if _unchanged(v) else to_jsonable(v) for v in value]
     return value
+
+
+def _unchanged(value: Any) -> bool:
+    """Whether :func:`to_jsonable` returns ``value`` itself, for the cheap common cases."""
+    return type(value) in _PLAIN or (type(value) is float and math.isfinite(value))

@@ -14,7 +14,9 @@ carries only what its own origin raised. With the plan's
 ``warm_start``, a re-estimation of a ``warm_startable`` family starts its optimiser from
 the previous estimation's parameters. With ``assessment: "lean"`` a re-estimated fold
 gets no fit summary, and a ``raw_optional`` family builds no results object for it. With
-``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator. A
+``estimator: "fast"`` a ``fast_estimable`` family estimates with its compiled estimator and
+builds no results object either: the fold summary of its estimate comes from the compiled
+likelihood (:mod:`backtest.assessment.compiled_fit`). A
 candidate that asks for empirical intervals gets them last, from its own folds
 (:mod:`backtest.recalibration`). A combination runs each member over the origins (as a
 candidate of its own: the same seeds, so the same folds) and combines them per origin
@@ -177,10 +179,12 @@ def _estimated_fold(ctx: _Context, origin: Origin, previous: Fit | None = None
     window = ctx.known(origin.end)[origin.start:]
     warm = plan.warm_start and spec.warm_startable and previous is not None
     options: dict[str, Any] = {"start_params": previous.params} if warm and previous else {}
-    if plan.assessment == "lean" and spec.raw_optional:
-        options["keep_raw"] = False
-    if plan.estimator == "fast" and spec.fast_estimable:
+    fast = plan.estimator == "fast" and spec.fast_estimable
+    if fast:
         options["estimator"] = "fast"
+    # a fast fit's summary comes from the compiled likelihood, not from a results object
+    if spec.raw_optional and (plan.assessment == "lean" or fast):
+        options["keep_raw"] = False
 
     def fit_forecast() -> tuple[Fit, Forecast]:
         fit, forecast = spec.fit_forecast(window, m, plan.horizon, plan.levels,

@@ -65,22 +65,42 @@ def score_candidate(candidate_id: str, folds: Sequence[FoldResult], horizon: int
         crps_note = NO_LEVELS
     for level, losses in pinball_by_level(done, levels).items():
         arrays[f"pinball{level}"] = losses
+    shape = arrays["actual"].shape
+    full = {name: np.broadcast_to(a, shape) for name, a in arrays.items()}
+    squared = np.where(full["observed"], (full["actual"] - full["point"])**2, np.nan)
+    # Each horizon is a row of folds; pooled, one row of every fold and horizon. Row-wise
+    # numpy reductions add a row's values in the order a one-row call does, so the
+    # figures are those of scoring each horizon alone.
+    by_horizon = _Rows({name: np.ascontiguousarray(a.T) for name, a in full.items()},
+                       np.ascontiguousarray(squared.T), arrays["scale_sq"][:, 0], pooled=False)
+    pooled = _Rows({name: a.reshape(1, -1) for name, a in full.items()}, squared,
+                   arrays["scale_sq"][:, 0], pooled=True)
     out = []
-    for h in columns:
-        cols = slice(None) if h is None else slice(h - 1, h)
-        observed = arrays["observed"][:, cols]
-        points = {name: np.broadcast_to(a, arrays["actual"].shape)[:, cols][observed]
-                  for name, a in arrays.items() if name != "observed"}
-        left = int(observed.size - observed.sum())
-        unfilled = f"{left} filled period(s) left out: not observed" if left else None
-        squared = np.where(observed, (arrays["actual"][:, cols] - arrays["point"][:, cols])**2,
-                           np.nan)
-        out.extend(_point_scores(candidate_id, h, points, unfilled, squared,
-                                 arrays["scale_sq"][:, 0]))
-        out.extend(_distribution_scores(candidate_id, h, points, levels, crps_note, unfilled))
-        for level in levels:
-            out.extend(_level_scores(candidate_id, h, points, level, unfilled))
+    for rows, labels in ((by_horizon, columns[:-1]), (pooled, [None])):
+        parts = [_point_scores(candidate_id, labels, rows),
+                 _distribution_scores(candidate_id, labels, rows, levels, crps_note),
+                 *(_level_scores(candidate_id, labels, rows, level) for level in levels)]
+        for i in range(len(labels)):
+            for part in parts:
+                out.extend(part[i])
     return out
+
+
+class _Rows:
+    """A candidate's points as rows (a horizon's folds, or every point pooled): each
+    array rows x points, ``kept`` the observed points, ``squared`` the squared errors and
+    ``scale_sq`` the folds' RMSSE scales for the per-fold mean RMSSE."""
+
+    def __init__(self, arrays: dict[str, np.ndarray], squared: np.ndarray,
+                 scale_sq: np.ndarray, *, pooled: bool) -> None:
+        self.a = arrays
+        self.kept = arrays["observed"]
+        self.size = self.kept.sum(axis=1)
+        self.squared, self.scale_sq, self.pooled = squared, scale_sq, pooled
+        left = self.kept.shape[1] - self.size
+        self.unfilled = [f"{n} filled period(s) left out: not observed" if n else None
+                         for n in left.tolist()]
+        self.errors = arrays["actual"] - arrays["point"]
 
 
 def _names(levels: Sequence[int]) -> list[tuple[str, int | None]]:
@@ -108,128 +128,189 @@ def _joined(*notes: str | None) -> str | None:
     return "; ".join(n for n in notes if n) or None
 
 
-def _scaled_mean(values: np.ndarray, scale: np.ndarray, undefined_when: str
-                 ) -> tuple[float | None, int, str | None]:
-    """Mean of ``values / scale`` over the points with a positive scale; the note counts the
-    points left out for an undefined scale (``undefined_when`` says when) and for a zero
-    one."""
-    scale = np.broadcast_to(scale, values.shape)
-    ok = np.isfinite(scale) & (scale > 0) & np.isfinite(values)
-    undefined = int((~np.isfinite(scale)).sum())
-    zero = int((np.isfinite(scale) & (scale <= 0)).sum())
-    reasons = [text for count, text in (
-        (undefined, f"{undefined} with an undefined training scale ({undefined_when})"),
-        (zero, f"{zero} with a zero training scale")) if count]
-    if not ok.any():
-        return None, 0, "undefined: no point has a positive training scale: " + "; ".join(
-            reasons)
-    note = (f"{int(values.size - ok.sum())} of {values.size} point(s) left out: "
-            + "; ".join(reasons)) if reasons else None
-    return float(np.mean(values[ok] / scale[ok])), int(ok.sum()), note
+def _row_means(values: np.ndarray, kept: np.ndarray) -> list[float | None]:
+    """Per row, the mean of its ``kept`` values as a float (``None`` if none is kept):
+    whole rows in one call, partial rows one by one, each as ``np.mean`` of that row's
+    kept values alone would give it."""
+    out: list[float | None] = [None] * len(values)
+    whole = kept.all(axis=1)
+    if whole.any():
+        for i, mean in zip(np.flatnonzero(whole).tolist(), values[whole].mean(axis=1).tolist()):
+            out[i] = mean
+    for i in np.flatnonzero(~whole & kept.any(axis=1)).tolist():
+        out[i] = float(np.mean(values[i][kept[i]]))
+    return out
 
 
-def _fold_mean_rmsse(squared: np.ndarray, scale_sq: np.ndarray
-                     ) -> tuple[float | None, int, str | None]:
-    """Mean over folds of each fold's RMSSE, sqrt(mean over its observed horizons of
-    e^2 / scale), the per-series figure of the M5 competition averaged over origins;
-    ``squared`` is NaN where a target period was not observed."""
-    seen = np.isfinite(squared).any(axis=1)
-    ok = np.isfinite(scale_sq) & (scale_sq > 0) & seen
-    if not ok.any():
-        return None, 0, "undefined: no fold has a positive training scale (window shorter " \
-                        "than 2, or a constant window)"
-    per_fold = np.sqrt(np.nanmean(squared[ok] / scale_sq[ok, None], axis=1))
-    left_out = int((~ok & seen).sum())
-    note = (f"{left_out} of {int(seen.sum())} fold(s) left out: undefined or zero training "
-            "scale" if left_out else None)
-    return float(np.mean(per_fold)), int(ok.sum()), note
+def _scaled_means(values: np.ndarray, scale: np.ndarray, kept: np.ndarray,
+                  undefined_when: str) -> list[tuple[float | None, int, str | None]]:
+    """Per row, the mean of ``values / scale`` over the kept points with a positive scale;
+    the note counts the points left out for an undefined scale (``undefined_when`` says
+    when) and for a zero one."""
+    finite = np.isfinite(scale)
+    ok = kept & finite & (scale > 0) & np.isfinite(values)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        means = _row_means(values / scale, ok)
+    undefined = (kept & ~finite).sum(axis=1).tolist()
+    zero = (kept & finite & (scale <= 0)).sum(axis=1).tolist()
+    counts, sizes = ok.sum(axis=1).tolist(), kept.sum(axis=1).tolist()
+    out: list[tuple[float | None, int, str | None]] = []
+    for mean, count, size, bad, nil in zip(means, counts, sizes, undefined, zero):
+        reasons = [text for n, text in (
+            (bad, f"{bad} with an undefined training scale ({undefined_when})"),
+            (nil, f"{nil} with a zero training scale")) if n]
+        if not count:
+            out.append((None, 0, "undefined: no point has a positive training scale: "
+                        + "; ".join(reasons)))
+            continue
+        note = (f"{size - count} of {size} point(s) left out: " + "; ".join(reasons)
+                if reasons else None)
+        out.append((mean, count, note))
+    return out
 
 
-def _point_scores(cid: str, h: int | None, a: dict[str, np.ndarray], unfilled: str | None,
-                  fold_squared: np.ndarray, fold_scale_sq: np.ndarray) -> list[Score]:
-    actual, point = a["actual"], a["point"]
-    errors = actual - point
-    n = errors.size
-    if not n:
-        return [Score(cid, h, name, None, None, 0, _joined(unfilled, "undefined: no observed "
-                                                                    "actual"))
-                for name in POINT_METRICS]
-    mase, n_mase, note_mase = _scaled_mean(np.abs(errors), a["scale"], _SHORT_SEASONAL)
-    msse, n_rmsse, note_rmsse = _scaled_mean(errors**2, a["scale_sq"], "window shorter than 2")
-    fold_rmsse, n_folds, note_folds = _fold_mean_rmsse(fold_squared, fold_scale_sq)
-    terms = metrics.smape_terms(actual, point)
-    defined = np.isfinite(terms)
-    smape = float(np.mean(terms[defined])) if defined.any() else None
-    smape_note = None
-    if not defined.all():
-        smape_note = (f"{int((~defined).sum())} point(s) with actual = forecast = 0 left out"
-                      if defined.any() else "undefined: every actual and forecast is 0")
-    return [
-        Score(cid, h, "mase", None, mase, n_mase, _joined(unfilled, note_mase)),
-        Score(cid, h, "rmsse", None, None if msse is None else float(np.sqrt(msse)), n_rmsse,
-              _joined(unfilled, note_rmsse)),
-        Score(cid, h, "rmsse_fold_mean", None, fold_rmsse, n_folds,
-              _joined(unfilled, note_folds)),
-        Score(cid, h, "smape", None, smape, int(defined.sum()), _joined(unfilled, smape_note)),
-        Score(cid, h, "mae", None, float(np.mean(np.abs(errors))), n, unfilled),
-        Score(cid, h, "rmse", None, float(np.sqrt(np.mean(errors**2))), n, unfilled),
-        Score(cid, h, "me", None, float(np.mean(errors)), n, unfilled),
-    ]
+def _fold_mean_rmsse(rows: _Rows) -> list[tuple[float | None, int, str | None]]:
+    """Per row, the mean over folds of each fold's RMSSE, sqrt(mean over its observed
+    horizons of e^2 / scale), the per-series figure of the M5 competition averaged over
+    origins; ``squared`` is NaN where a target period was not observed. At one horizon a
+    fold's RMSSE is |e| / sqrt(scale)."""
+    squared, scale_sq = rows.squared, rows.scale_sq
+    if rows.pooled:
+        seen = np.isfinite(squared).any(axis=1)
+        ok = np.isfinite(scale_sq) & (scale_sq > 0) & seen
+        per_fold = np.full(len(scale_sq), np.nan)
+        if ok.any():
+            per_fold[ok] = np.sqrt(np.nanmean(squared[ok] / scale_sq[ok, None], axis=1))
+        seen, ok, per_fold = seen[None], ok[None], per_fold[None]
+    else:
+        seen = np.isfinite(squared)
+        ok = np.isfinite(scale_sq) & (scale_sq > 0) & seen
+        with np.errstate(divide="ignore", invalid="ignore"):
+            per_fold = np.sqrt(squared / scale_sq)
+    out: list[tuple[float | None, int, str | None]] = []
+    means = _row_means(per_fold, ok)
+    for mean, count, left_out, folds in zip(means, ok.sum(axis=1).tolist(),
+                                            (~ok & seen).sum(axis=1).tolist(),
+                                            seen.sum(axis=1).tolist()):
+        if not count:
+            out.append((None, 0, "undefined: no fold has a positive training scale (window "
+                                 "shorter than 2, or a constant window)"))
+            continue
+        note = (f"{left_out} of {folds} fold(s) left out: undefined or zero training "
+                "scale" if left_out else None)
+        out.append((mean, count, note))
+    return out
 
 
-def _distribution_scores(cid: str, h: int | None, a: dict[str, np.ndarray],
-                         levels: Sequence[int], crps_note: str | None,
-                         unfilled: str | None) -> list[Score]:
+def _empty(cid: str, h: int | None, names: Sequence[str], level: int | None,
+           unfilled: str | None) -> list[Score]:
+    return [Score(cid, h, name, level, None, 0, _joined(unfilled, "undefined: no observed "
+                                                                  "actual"))
+            for name in names]
+
+
+def _point_scores(cid: str, labels: Sequence[int | None], rows: _Rows) -> list[list[Score]]:
+    a, kept, errors = rows.a, rows.kept, rows.errors
+    mase = _scaled_means(np.abs(errors), a["scale"], kept, _SHORT_SEASONAL)
+    msse = _scaled_means(errors**2, a["scale_sq"], kept, "window shorter than 2")
+    fold_rmsse = _fold_mean_rmsse(rows)
+    terms = metrics.smape_terms(a["actual"], a["point"])
+    defined = kept & np.isfinite(terms)
+    smape = _row_means(terms, defined)
+    smape_counts, undefined = defined.sum(axis=1).tolist(), (kept & ~defined).sum(axis=1)
+    mae = _row_means(np.abs(errors), kept)
+    rmse = [None if ms is None else float(np.sqrt(ms)) for ms in _row_means(errors**2, kept)]
+    me = _row_means(errors, kept)
+    out = []
+    for i, (h, n, unfilled) in enumerate(zip(labels, rows.size.tolist(), rows.unfilled)):
+        if not n:
+            out.append(_empty(cid, h, POINT_METRICS, None, unfilled))
+            continue
+        smape_note = None
+        if undefined[i]:
+            smape_note = (f"{int(undefined[i])} point(s) with actual = forecast = 0 left out"
+                          if smape_counts[i] else "undefined: every actual and forecast is 0")
+        msse_value, n_rmsse, note_rmsse = msse[i]
+        out.append([
+            Score(cid, h, "mase", None, mase[i][0], mase[i][1], _joined(unfilled, mase[i][2])),
+            Score(cid, h, "rmsse", None, None if msse_value is None
+                  else float(np.sqrt(msse_value)), n_rmsse, _joined(unfilled, note_rmsse)),
+            Score(cid, h, "rmsse_fold_mean", None, fold_rmsse[i][0], fold_rmsse[i][1],
+                  _joined(unfilled, fold_rmsse[i][2])),
+            Score(cid, h, "smape", None, smape[i], smape_counts[i],
+                  _joined(unfilled, smape_note)),
+            Score(cid, h, "mae", None, mae[i], n, unfilled),
+            Score(cid, h, "rmse", None, rmse[i], n, unfilled),
+            Score(cid, h, "me", None, me[i], n, unfilled),
+        ])
+    return out
+
+
+def _distribution_scores(cid: str, labels: Sequence[int | None], rows: _Rows,
+                         levels: Sequence[int], crps_note: str | None) -> list[list[Score]]:
+    a, kept = rows.a, rows.kept
     crps = a["crps"]
-    if not crps.size:
-        return [Score(cid, h, name, None, None, 0, _joined(unfilled, "undefined: no observed "
-                                                                    "actual"))
-                for name in DISTRIBUTION_METRICS]
-    defined = np.isfinite(crps)
-    note = None
-    if not defined.all():
-        note = (f"{int((~defined).sum())} point(s) left out: {crps_note}" if defined.any()
-                else crps_note)
-    if not levels:
-        return [Score(cid, h, "crps", None, None, 0, _joined(unfilled, NO_LEVELS)),
-                *(Score(cid, h, name, None, None, 0, _joined(unfilled, NO_LEVELS))
-                  for name in ("pinball", "scaled_pinball"))]
-    pinball = np.mean([a[f"pinball{level}"] for level in levels], axis=0)
-    finite = np.isfinite(pinball)
-    pinball_note = None if finite.all() else "undefined: an interval bound is infinite"
-    scaled, n_scaled, scaled_note = _scaled_mean(pinball, a["scale"], _SHORT_SEASONAL)
-    if not finite.all():
-        scaled, scaled_note = None, pinball_note
-    return [
-        Score(cid, h, "crps", None, float(np.mean(crps[defined])) if defined.any() else None,
-              int(defined.sum()), _joined(unfilled, note)),
-        Score(cid, h, "pinball", None, float(np.mean(pinball)) if finite.all() else None,
-              pinball.size, _joined(unfilled, pinball_note)),
-        Score(cid, h, "scaled_pinball", None, scaled, n_scaled, _joined(unfilled, scaled_note)),
-    ]
+    defined = kept & np.isfinite(crps)
+    crps_means, crps_counts = _row_means(crps, defined), defined.sum(axis=1).tolist()
+    undefined = (kept & ~defined).sum(axis=1).tolist()
+    if levels:
+        pinball = np.mean([a[f"pinball{level}"] for level in levels], axis=0)
+        finite = (~kept | np.isfinite(pinball)).all(axis=1).tolist()
+        pinball_means = _row_means(pinball, kept)
+        scaled = _scaled_means(pinball, a["scale"], kept, _SHORT_SEASONAL)
+    out = []
+    for i, (h, n, unfilled) in enumerate(zip(labels, rows.size.tolist(), rows.unfilled)):
+        if not n:
+            out.append(_empty(cid, h, DISTRIBUTION_METRICS, None, unfilled))
+            continue
+        note = None
+        if undefined[i]:
+            note = (f"{undefined[i]} point(s) left out: {crps_note}" if crps_counts[i]
+                    else crps_note)
+        if not levels:
+            out.append([Score(cid, h, "crps", None, None, 0, _joined(unfilled, NO_LEVELS)),
+                        *(Score(cid, h, name, None, None, 0, _joined(unfilled, NO_LEVELS))
+                          for name in ("pinball", "scaled_pinball"))])
+            continue
+        pinball_note = None if finite[i] else "undefined: an interval bound is infinite"
+        scaled_value, n_scaled, scaled_note = scaled[i]
+        if not finite[i]:
+            scaled_value, scaled_note = None, pinball_note
+        out.append([
+            Score(cid, h, "crps", None, crps_means[i], crps_counts[i], _joined(unfilled, note)),
+            Score(cid, h, "pinball", None, pinball_means[i] if finite[i] else None, n,
+                  _joined(unfilled, pinball_note)),
+            Score(cid, h, "scaled_pinball", None, scaled_value, n_scaled,
+                  _joined(unfilled, scaled_note)),
+        ])
+    return out
 
 
-def _level_scores(cid: str, h: int | None, a: dict[str, np.ndarray], level: int,
-                  unfilled: str | None) -> list[Score]:
-    actual = a["actual"]
-    lower, upper = a[f"lower{level}"], a[f"upper{level}"]
-    if not actual.size:
-        return [Score(cid, h, name, level, None, 0, _joined(unfilled, "undefined: no observed "
-                                                                     "actual"))
-                for name in LEVEL_METRICS]
-    coverage = float(np.mean(metrics.hits(lower, upper, actual)))
+def _level_scores(cid: str, labels: Sequence[int | None], rows: _Rows,
+                  level: int) -> list[list[Score]]:
+    a, kept = rows.a, rows.kept
+    actual, lower, upper = a["actual"], a[f"lower{level}"], a[f"upper{level}"]
+    coverage = _row_means(metrics.hits(lower, upper, actual), kept)
     scores = metrics.interval_score(lower, upper, actual, level)
-    finite = np.isfinite(scores)
-    winkler = float(np.mean(scores)) if finite.all() else None
-    winkler_note = None if finite.all() else "undefined: an interval bound is infinite"
-    msis, n_msis, msis_note = _scaled_mean(scores, a["scale"], _SHORT_SEASONAL)
-    if not finite.all():
-        msis, msis_note = None, winkler_note
-    pinball = a[f"pinball{level}"]
-    return [
-        Score(cid, h, "coverage", level, coverage, actual.size, unfilled),
-        Score(cid, h, "winkler", level, winkler, actual.size, _joined(unfilled, winkler_note)),
-        Score(cid, h, "msis", level, msis, n_msis, _joined(unfilled, msis_note)),
-        Score(cid, h, "pinball", level, float(np.mean(pinball)) if finite.all() else None,
-              pinball.size, _joined(unfilled, winkler_note)),
-    ]
+    finite = (~kept | np.isfinite(scores)).all(axis=1).tolist()
+    winkler = _row_means(scores, kept)
+    msis = _scaled_means(scores, a["scale"], kept, _SHORT_SEASONAL)
+    pinball = _row_means(a[f"pinball{level}"], kept)
+    out = []
+    for i, (h, n, unfilled) in enumerate(zip(labels, rows.size.tolist(), rows.unfilled)):
+        if not n:
+            out.append(_empty(cid, h, LEVEL_METRICS, level, unfilled))
+            continue
+        winkler_note = None if finite[i] else "undefined: an interval bound is infinite"
+        msis_value, n_msis, msis_note = msis[i]
+        if not finite[i]:
+            msis_value, msis_note = None, winkler_note
+        out.append([
+            Score(cid, h, "coverage", level, coverage[i], n, unfilled),
+            Score(cid, h, "winkler", level, winkler[i] if finite[i] else None, n,
+                  _joined(unfilled, winkler_note)),
+            Score(cid, h, "msis", level, msis_value, n_msis, _joined(unfilled, msis_note)),
+            Score(cid, h, "pinball", level, pinball[i] if finite[i] else None, n,
+                  _joined(unfilled, winkler_note)),
+        ])
+    return out

@@ -33,12 +33,19 @@ estimator (``--estimator``) end to end in a fresh SQLite store: the
 series versions are saved, one run queued, and the service's job worker claims it,
 computes it and stores each series' results in its own transaction, printing wall time,
 folds per second, peak resident memory of the process and its workers, and the time
-extrapolated to 1,000 series. Theta is left out of the mix: statsmodels estimates it with
+extrapolated to 1,000 series, and the CPU the job worker's own process spends per series in
+each of its stages (the engine's per-series assessment and the store's writing; the pool
+workers fit the models). Theta is left out of the mix: statsmodels estimates it with
 two state-space fits per origin, and as a closed-form family it re-estimates at all 36.
+
+Part "summary" times what the full assessment adds to a fast run at cadence 1, per fold
+and per series, with the per-fold summary computed from statsmodels' results object and
+from the compiled likelihood side by side (:func:`summary_part`).
 
     python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
     python bench/engine_bench.py --part storage [--series 100] [--store-assessment lean]
         [--refit 1] [--estimator fast]
+    python bench/engine_bench.py --part summary [--series 3]
 
 Not a test: timings depend on the machine and its load.
 """
@@ -46,6 +53,7 @@ Not a test: timings depend on the machine and its load.
 from __future__ import annotations
 
 import argparse
+import gc
 import importlib
 import os
 import resource
@@ -436,6 +444,61 @@ STORE_CANDIDATES = [
 STORE_ORIGINS = 36
 
 
+#: The job worker's per-series stages, timed in this process: (label, module, function).
+#: Indented labels are parts of the stage above them.
+MAIN_STAGES = (
+    ("assess one series (engine)", "backtest.engine", "_series_result"),
+    ("  scores (score_candidate)", "backtest.engine", "score_candidate"),
+    ("  scores on common ground", "backtest.engine", "on_common_ground"),
+    ("  evidence (DM, MCS, calibration)", "backtest.engine", "series_evidence"),
+    ("  ranking", "backtest.engine", "rank_candidates"),
+    ("  evidence to JSON", "backtest.engine", "to_jsonable"),
+    ("store one series (storage)", "storage.runs.queue", "write_series_result"),
+    ("  rows (unit_rows)", "storage.results.store", "unit_rows"),
+    ("  inserts", "storage.results.store", "insert_rows"),
+    ("  audit digest (unit_digest)", "storage.results.store", "unit_digest"),
+)
+
+
+class StageClock:
+    """CPU seconds of the calling thread spent in each of :data:`MAIN_STAGES`, measured
+    by wrapping those functions for the duration of the block (a bench-only patch)."""
+
+    def __init__(self) -> None:
+        self.seconds = dict.fromkeys((label for label, _, _ in MAIN_STAGES), 0.0)
+        self._saved: list[tuple[object, str, Callable]] = []
+
+    def __enter__(self) -> StageClock:
+        for label, module_name, name in MAIN_STAGES:
+            module = importlib.import_module(module_name)
+            original = getattr(module, name)
+            self._saved.append((module, name, original))
+            setattr(module, name, self._timed(label, original))
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        for module, name, original in reversed(self._saved):
+            setattr(module, name, original)
+
+    def _timed(self, label: str, fn: Callable) -> Callable:
+        def timed(*args, **kwargs):
+            started = time.thread_time()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                self.seconds[label] += time.thread_time() - started
+        return timed
+
+    def report(self, n_series: int, own: float) -> None:
+        top = sum(t for label, t in self.seconds.items() if not label.startswith(" "))
+        print("  job worker's process, CPU ms per series by stage (thread CPU time):")
+        for label, seconds in self.seconds.items():
+            print(f"    {label:<36} {seconds / n_series * 1e3:8.1f}")
+        print(f"    {'other (pool traffic, progress, ...)':<36} "
+              f"{(own - top) / n_series * 1e3:8.1f}")
+        print(f"    {'whole process':<36} {own / n_series * 1e3:8.1f}  (target <= 350)")
+
+
 class PeakMemory:
     """Peak of the summed resident memory of this process and its children, sampled."""
 
@@ -505,8 +568,9 @@ def storage_part(args: argparse.Namespace) -> None:
         worker = Worker(Settings(database_url=url, worker_jobs=args.jobs,
                                  prerender_reports=False), sessions, "bench")
         clock = Clock.now()
-        if not worker.run_once():
-            raise SystemExit("the worker found no run")
+        with StageClock() as stages:
+            if not worker.run_once():
+                raise SystemExit("the worker found no run")
         computed = time.perf_counter() - queued
         cpu = _cpu_used(clock, Clock.now())
         with sessions.begin() as session:
@@ -525,6 +589,7 @@ def storage_part(args: argparse.Namespace) -> None:
     print(f"  worker's run in CPU seconds: this process {own:.1f}, pool "
           f"{' + '.join(f'{t:.1f}' for t in sorted(pool, reverse=True))}; estimate for an "
           f"idle {os.cpu_count()}-core machine {idle:.1f} s")
+    stages.report(len(series), own)
     print(f"  peak resident memory, this process and its workers together: "
           f"{memory.peak / 2**20:.0f} MiB")
     print(f"  per 1,000 series: wall {wall * scale / 60:.1f} min, idle-machine estimate "
@@ -533,8 +598,70 @@ def storage_part(args: argparse.Namespace) -> None:
           + " (target: under 15 min, under 2 GiB)")
 
 
+def summary_part(args: argparse.Namespace) -> None:
+    """What the plan's full assessment adds per series under the fast estimator: the four
+    model candidates of part storage x 36 origins at cadence 1 on generated series, each
+    fold two ways, interleaved (order alternating per fold), timed in CPU seconds:
+    statsmodels' path (the fit with statsmodels' results object, then the summary's
+    complex-step Hessian and Kalman residuals on it; for ETS the results object computes
+    the Hessian as it is built) and the compiled path (the lean fit, without a results
+    object, then the summary from the compiled likelihood). Full minus lean is the
+    statsmodels fit minus the lean fit plus its summary, and the compiled summary alone."""
+    series = panel(args.series or 3)
+    specs = [c.spec for c in parse_candidates(STORE_CANDIDATES[4:])]
+    ways = ("statsmodels", "compiled")
+    fit_s = dict.fromkeys(ways, 0.0)
+    summary_s = {(f, w): 0.0 for f in ("arima", "ets") for w in ways}
+    folds = dict.fromkeys(("arima", "ets"), 0)
+
+    def run(way: str, spec, window: np.ndarray, m: int) -> None:
+        gc.collect()  # each way's garbage is collected outside the timings
+        started = time.process_time()
+        fit, _ = _quiet(lambda: spec.fit_forecast(window, m, HORIZON, LEVELS, 0,
+                                                  estimator="fast",
+                                                  keep_raw=way == "statsmodels"))
+        fitted = time.process_time()
+        _quiet(lambda: fold_fit_summary(*spec.assessed(fit), window, m))
+        fit_s[way] += fitted - started
+        summary_s[spec.family, way] += time.process_time() - fitted
+
+    for s in series:
+        n = len(s)
+        for spec in specs:
+            z = spec.transform.forward(np.asarray(s.values, dtype=float))
+            for i, end in enumerate(range(n - HORIZON - STORE_ORIGINS + 1, n - HORIZON + 1)):
+                for way in ways[i % 2:] + ways[:i % 2]:
+                    run(way, spec, z[:end], s.season_length)
+                folds[spec.family] += 1
+    total = sum(folds.values())
+    summary = {w: sum(summary_s[f, w] for f in folds) for w in ways}
+    extra = {"statsmodels": fit_s["statsmodels"] - fit_s["compiled"] + summary["statsmodels"],
+             "compiled": summary["compiled"]}
+    print(f"\nper-fold fit summary under the fast estimator: {len(series)} generated series x "
+          f"{len(specs)} candidates (ETS(A,A,A), ETS(A,Ad,N), 2 seasonal ARIMA on logs) x "
+          f"{STORE_ORIGINS} origins, cadence 1 ({total} folds), interleaved, CPU; load "
+          f"average {_load()}")
+    print(f"  {'':46} {'statsmodels':>11} {'compiled':>9} {'ratio':>6}")
+    rows = {"summary alone, ms per fold": {w: summary[w] / total * 1e3 for w in ways},
+            **{f"  {family.upper()} folds": {w: summary_s[family, w] / count * 1e3
+                                             for w in ways}
+               for family, count in folds.items()},
+            "results object in the fit, ms per fold": {
+                "statsmodels": (fit_s["statsmodels"] - fit_s["compiled"]) / total * 1e3,
+                "compiled": 0.0},
+            "full minus lean, ms per fold": {w: extra[w] / total * 1e3 for w in ways},
+            "full minus lean, CPU s per series": {w: extra[w] / len(series) for w in ways}}
+    for label, values in rows.items():
+        a, b = values["statsmodels"], values["compiled"]
+        ratio = f"{a / b:6.1f}" if b > 0 else f"{'-':>6}"
+        print(f"  {label:<46} {a:11.2f} {b:9.2f} {ratio}")
+    print(f"  lean (fast fit and forecast): {fit_s['compiled'] / len(series):.2f} CPU s per "
+          "series; target for full minus lean: at most 0.8 s per series")
+
+
 PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part,
-                                                          "storage": storage_part}
+                                                          "storage": storage_part,
+                                                          "summary": summary_part}
 
 
 def main() -> None:
@@ -542,7 +669,8 @@ def main() -> None:
     parser.add_argument("--part", choices=sorted(PARTS), default="engine")
     parser.add_argument("--jobs", type=int, default=2, help="engine worker processes")
     parser.add_argument("--series", type=int,
-                        help="generated series (default: 20 in part engine, 1,000 in storage)")
+                        help="generated series (default: 20 in part engine, 1,000 in "
+                             "storage, 3 in summary)")
     parser.add_argument("--max-origins", type=int, default=24, help="panel origins per series")
     parser.add_argument("--assessment", default="full,lean",
                         help="plan assessments to time the engine with, comma-separated")

@@ -6,8 +6,14 @@ Parts (all by default; ``--part`` picks one, repeated several):
   empty numba cache (compiling) and again with the cache filled (loading).
 - ``fit``: one estimation of each model on log Series G (Box & Jenkins 1976, from
   ``tests/data``): the airline model ARIMA(0,1,1)×(0,1,1) and ARIMA(1,0,0)×(0,1,1), season 12,
-  with drift (the engine bench's panel models), fast and reference interleaved, with the
-  log-likelihood of each.
+  with drift (the engine bench's panel models), fast and reference interleaved, median CPU
+  milliseconds per fit and their ratio, with the log-likelihood of each.
+- ``series``: the worker's CPU per series of the lean profile: one generated monthly
+  series (``engine_bench.panel``) with the engine bench's four model candidates
+  (``STORE_CANDIDATES``: ETS(A,A,A), ETS(A,Ad,N), the airline model and
+  ARIMA(1,0,0)×(0,1,1) with drift, both on logs, with the plan's benchmark), 36 origins,
+  refit cadence 1, ``assessment: "lean"``, one process; the smallest of ``--repeats`` runs,
+  in total and for the ARIMA and the ETS candidates alone.
 - ``search``: the order search of one fold (``arima_search`` defaults) on log Series G at
   a few training-window ends, CPU seconds per fold under each estimator.
 - ``search-validation``: both searches on the validation cases
@@ -25,7 +31,7 @@ Parts (all by default; ``--part`` picks one, repeated several):
   series, and the reference model's own with its approximate-diffuse start), the largest
   parameter difference and the largest relative difference of 12-step point forecasts.
 
-    python bench/fast_arima_bench.py [--part fit [--part search ...]] [--repeats 5]
+    python bench/fast_arima_bench.py [--part fit [--part series ...]] [--repeats 5]
         [--origins 16] [--panel-series 20] [--panel-origins 24] [--validation ci|full]
 
 Not a test: timings depend on the machine and its load (printed first).
@@ -96,17 +102,45 @@ def part_fit(repeats: int) -> None:
     for name, spec in MODELS.items():
         fast_times, reference_times = [], []
         for _ in range(repeats):
-            began = time.perf_counter()
+            began = time.process_time()
             fast = fast_estimate(spec, y, 12)
-            fast_times.append(time.perf_counter() - began)
-            began = time.perf_counter()
+            fast_times.append(time.process_time() - began)
+            began = time.process_time()
             reference = _quiet(lambda spec=spec: spec.reference_fit(y, 12))
-            reference_times.append(time.perf_counter() - began)
+            reference_times.append(time.process_time() - began)
         fast_s, reference_s = np.median(fast_times), np.median(reference_times)
         gap = exact_loglike(spec, y, fast.params) - exact_loglike(spec, y, reference.params)
-        print(f"  {name:32s} fast {fast_s * 1e3:7.1f} ms  reference {reference_s * 1e3:7.1f} ms"
-              f"  ratio {reference_s / fast_s:5.1f}x  loglik fast {fast.llf:.7f} "
+        print(f"  {name:32s} CPU per fit: fast {fast_s * 1e3:7.2f} ms ({fast.evaluations} "
+              f"evaluations)  reference {reference_s * 1e3:7.1f} ms  ratio "
+              f"{reference_s / fast_s:5.1f}x  loglik fast {fast.llf:.7f} "
               f"(fast - reference {gap:+.2e})")
+
+
+def part_series(repeats: int) -> None:
+    """The lean profile's worker CPU per series (see the module docstring)."""
+    from engine_bench import LEVELS, STORE_CANDIDATES, STORE_ORIGINS, panel
+
+    from backtest.models.fast_ets import warm_up as warm_up_ets
+
+    warm_up_ets()
+    series = panel(1)
+    candidates = parse_candidates(STORE_CANDIDATES)
+    models = [c for c in candidates if c.spec.family in ("arima", "ets")]
+    plan = parse_plan({"horizon": 12, "max_origins": STORE_ORIGINS, "refit": 1,
+                       "levels": list(LEVELS), "assessment": "lean", "estimator": "fast"})
+    _quiet(lambda: run_backtest(series, models, plan))  # first calls out of the timing
+    for label, chosen in (("4 model candidates", models),
+                          ("ARIMA candidates", [c for c in models if c.spec.family == "arima"]),
+                          ("ETS candidates", [c for c in models if c.spec.family == "ets"])):
+        seconds = []
+        for _ in range(repeats):
+            began = time.process_time()
+            _quiet(lambda chosen=chosen: run_backtest(series, chosen, plan))
+            seconds.append(time.process_time() - began)
+        print(f"  {label:18s} CPU per series {min(seconds):5.2f} s (median "
+              f"{np.median(seconds):5.2f} s of {repeats}; {STORE_ORIGINS} origins, refit 1, "
+              f"lean; load {os.getloadavg()[0]:.1f})")
+    print("  target: the 4 model candidates at most 1.5 s per series")
 
 
 def part_search(folds: int) -> None:
@@ -343,8 +377,9 @@ def part_corpus(per_spec: int) -> None:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--part", action="append",
-                        choices=("compile", "fit", "search", "search-validation", "engine",
-                                 "corpus", "panel", "split"), help="repeat for several")
+                        choices=("compile", "fit", "series", "search", "search-validation",
+                                 "engine", "corpus", "panel", "split"),
+                        help="repeat for several")
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--search-folds", type=int, default=6)
     parser.add_argument("--validation", choices=("ci", "full"), default="full",
@@ -359,6 +394,7 @@ def main() -> None:
           f"{os.getloadavg()[2]:.2f} on {os.cpu_count()} cores; one BLAS thread")
     print(f"warm-up in this process: {warm_up():.2f} s")
     parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
+             "series": lambda: part_series(args.repeats),
              "search": lambda: part_search(args.search_folds),
              "search-validation": lambda: part_search_validation(args.validation),
              "engine": lambda: part_engine(args.engine_origins),

@@ -43,8 +43,8 @@ from threadpoolctl import threadpool_limits  # noqa: E402
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from backtest.models.fast_arima import FastEstimationError  # noqa: E402
 from backtest.models.fast_ets import fast_estimate, warm_up  # noqa: E402
+from backtest.models.fast_fallback import FastEstimationError  # noqa: E402
 from tests.backtest.fast_ets_corpus import _ets, corpus, origins, reference_loglike  # noqa: E402
 
 SERIES_G = ROOT / "tests" / "data" / "series_g.csv"

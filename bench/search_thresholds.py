@@ -50,8 +50,9 @@ from backtest.models.arima import ArimaSpec
 from backtest.models.arima_search import ArimaSearchSpec, OrderLimits
 from backtest.models.arima_trial import MAX_INVERSE_ROOT, largest_inverse_root
 from backtest.models.differencing import STRONG_SEASONALITY, seasonal_strength
-from backtest.models.fast_arima import FastEstimationError, fast_estimate
+from backtest.models.fast_arima import fast_estimate
 from backtest.models.fast_arima_trial import information_criterion
+from backtest.models.fast_fallback import FastEstimationError
 
 SEED = 20261203
 PERIOD = 12

@@ -18,11 +18,12 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from itertools import combinations
-from typing import Any, Literal
+from typing import Any, Literal, TypeVar
 
 import numpy as np
 import pandas as pd
 from arch.bootstrap import MCS
+from scipy import special
 
 from backtest.assessment._numbers import number, vector
 from backtest.assessment._tails import norm_sf, t_cdf, t_sf
@@ -30,6 +31,7 @@ from backtest.assessment._tails import norm_sf, t_cdf, t_sf
 Loss = Literal["squared", "absolute"]
 LOSSES: tuple[Loss, ...] = ("squared", "absolute")
 _LOSS_FUNCTIONS = {"squared": np.square, "absolute": np.abs}
+T = TypeVar("T")
 #: Long-run variances at most this fraction of mean(d^2) count as zero (constant d).
 _DEGENERATE = 1e-12
 
@@ -64,46 +66,90 @@ def diebold_mariano(e1: object, e2: object, horizon: int, loss: Loss = "squared"
     if loss not in _LOSS_FUNCTIONS:
         raise ValueError(f"loss must be one of {', '.join(LOSSES)}, got {loss!r}")
     d = _LOSS_FUNCTIONS[loss](a) - _LOSS_FUNCTIONS[loss](b)
-    out: dict[str, Any] = {"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
-           "variance": None, "kernel": None, "dm": None, "p_value_normal": None,
-           "hln": None, "df": len(d) - 1, "p_value": None, "p_value_first_better": None,
-           "reason": None}
-    if len(d) <= h:
-        out["reason"] = f"needs more than h = {h} paired errors, got {len(d)}"
-        return out
-    out["mean_difference"] = number(d.mean())
-    out.update(_statistics(d, h))
+    return _tests([(d, h, loss)])[0]
+
+
+def _tests(differentials: Sequence[tuple[np.ndarray, int, Loss]]) -> list[dict[str, Any]]:
+    """:func:`diebold_mariano` of many loss differentials ``(d, h, loss)``, in order.
+
+    Tests of the same h and length T are computed together, one row per test, with each
+    row's arithmetic (sums, BLAS dot products, special functions) that of a single test,
+    so the figures do not depend on how the tests are batched."""
+    out: list[dict[str, Any]] = []
+    batches: dict[tuple[int, int], list[int]] = {}
+    for i, (d, h, loss) in enumerate(differentials):
+        out.append({"horizon": h, "loss": loss, "n": len(d), "mean_difference": None,
+                    "variance": None, "kernel": None, "dm": None, "p_value_normal": None,
+                    "hln": None, "df": len(d) - 1, "p_value": None,
+                    "p_value_first_better": None, "reason": None})
+        if len(d) <= h:
+            out[i]["reason"] = f"needs more than h = {h} paired errors, got {len(d)}"
+        else:
+            batches.setdefault((h, len(d)), []).append(i)
+    for (h, _), rows in batches.items():
+        found = _statistics(np.array([differentials[i][0] for i in rows]), h)
+        for i, statistics in zip(rows, found):
+            out[i].update(statistics)
     return out
 
 
 def _autocovariances(d: np.ndarray, lags: int) -> np.ndarray:
-    centred = d - d.mean()
-    n = len(d)
-    return np.array([centred[k:] @ centred[: n - k] / n for k in range(lags + 1)])
+    """Per row of ``d`` (tests x T), the autocovariances at lags 0..``lags``: tests x lags+1.
+
+    Each is a matmul of one row's vectors, numpy's path for a single ``x @ y``."""
+    n = d.shape[1]
+    centred = d - d.mean(axis=1)[:, None]
+    gamma = np.empty((len(d), lags + 1))
+    for k in range(lags + 1):
+        gamma[:, k] = (centred[:, None, k:] @ centred[:, : n - k, None])[:, 0, 0] / n
+    return gamma
 
 
-def _statistics(d: np.ndarray, h: int) -> dict[str, Any]:
-    n = len(d)
+def _statistics(d: np.ndarray, h: int) -> list[dict[str, Any]]:
+    """The DM and HLN statistics of each row of ``d`` (tests x T, T > h)."""
+    n = d.shape[1]
+    means = d.mean(axis=1)
     gamma = _autocovariances(d, h - 1)
-    variance, kernel = gamma[0] + 2.0 * gamma[1:].sum(), "rectangular"
-    floor = _DEGENERATE * float(np.mean(d**2))
-    if variance <= floor:
-        weights = 1.0 - np.arange(1, h) / h
-        variance, kernel = gamma[0] + 2.0 * (weights @ gamma[1:]), "bartlett"
-    if variance <= floor:
-        return {"variance": number(variance), "kernel": kernel,
-                "reason": "the loss differential is constant: no variance"}
-    dm = d.mean() / math.sqrt(variance / n)
-    out = {"variance": number(variance), "kernel": kernel, "dm": number(dm),
-           "p_value_normal": number(2.0 * norm_sf(abs(dm)))}
+    variance = gamma[:, 0] + 2.0 * np.ascontiguousarray(gamma[:, 1:]).sum(axis=1)
+    floor = _DEGENERATE * np.mean(d**2, axis=1)
+    kernel = np.where(variance <= floor, "bartlett", "rectangular")
+    weights = 1.0 - np.arange(1, h) / h
+    for i in np.flatnonzero(variance <= floor).tolist():
+        variance[i] = gamma[i, 0] + 2.0 * (weights @ np.ascontiguousarray(gamma[i, 1:]))
     factor = (n + 1 - 2 * h + h * (h - 1) / n) / n
-    if factor <= 0:
-        out["reason"] = f"HLN correction undefined for T = {n}, h = {h}"
-        return out
-    hln = dm * math.sqrt(factor)
-    out.update(hln=number(hln), p_value=number(2.0 * t_sf(abs(hln), n - 1)),
-               p_value_first_better=number(t_cdf(hln, n - 1)))
+    defined = variance > floor
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dm = means / np.sqrt(np.where(defined, variance, np.nan) / n)
+        hln = dm * math.sqrt(max(factor, 0.0))
+    tails = _tails_of(dm, hln, n - 1)
+    out = []
+    for i in range(len(d)):
+        row: dict[str, Any] = {"mean_difference": number(means[i]),
+                               "variance": number(variance[i]), "kernel": str(kernel[i])}
+        if not defined[i]:
+            row["reason"] = "the loss differential is constant: no variance"
+            out.append(row)
+            continue
+        row.update(dm=number(dm[i]), p_value_normal=number(2.0 * tails[0][i]))
+        if factor <= 0:
+            row["reason"] = f"HLN correction undefined for T = {n}, h = {h}"
+        else:
+            row.update(hln=number(hln[i]), p_value=number(2.0 * tails[1][i]),
+                       p_value_first_better=number(tails[2][i]))
+        out.append(row)
     return out
+
+
+def _tails_of(dm: np.ndarray, hln: np.ndarray, df: int) -> tuple[np.ndarray, ...]:
+    """P(Z > |dm|), P(T > |hln|) and P(T <= hln) per test: the special functions of
+    :mod:`backtest.assessment._tails` on arrays, its scalar forms where not finite."""
+    normal, upper, lower = (special.ndtr(-np.abs(dm)), special.stdtr(df, -np.abs(hln)),
+                            special.stdtr(df, hln))
+    for i in np.flatnonzero(~(np.isfinite(dm) & np.isfinite(hln))).tolist():
+        if not np.isnan(dm[i]):
+            normal[i] = norm_sf(abs(dm[i]))
+            upper[i], lower[i] = t_sf(abs(hln[i]), df), t_cdf(hln[i], df)
+    return normal, upper, lower
 
 
 def compare_to_benchmark(errors: Mapping[str, np.ndarray], benchmark: str, *,
@@ -121,15 +167,12 @@ def compare_to_benchmark(errors: Mapping[str, np.ndarray], benchmark: str, *,
     matrices = _matrices(errors)
     if benchmark not in matrices:
         raise ValueError(f"benchmark {benchmark!r} is not among the errors' models")
-    rows = []
-    for name in matrices:
-        if name != benchmark:
-            for row in _pair_rows(matrices[name], matrices[benchmark], losses, alpha,
-                                  origin_step):
-                rows.append({"model": name, **row,
-                             "verdict": _verdict(row["test"], alpha, "better", "worse")})
+    names = [n for n in matrices if n != benchmark]
+    rows = [{"model": name, **row, "verdict": _verdict(row["test"], alpha, "better", "worse")}
+            for name, row in _pair_rows([(matrices[n], matrices[benchmark]) for n in names],
+                                        names, losses, origin_step)]
     return {"benchmark": benchmark, "alpha": alpha, "origin_step": origin_step, "rows": rows,
-            "summary": _summary(rows, [n for n in matrices if n != benchmark], losses)}
+            "summary": _summary(rows, names, losses)}
 
 
 def pairwise(errors: Mapping[str, np.ndarray], *, losses: Sequence[Loss] = LOSSES,
@@ -141,11 +184,11 @@ def pairwise(errors: Mapping[str, np.ndarray], *, losses: Sequence[Loss] = LOSSE
     joint statement about many models use :func:`model_confidence_set`.
     """
     matrices = _matrices(errors)
-    rows = []
-    for first, second in combinations(matrices, 2):
-        for row in _pair_rows(matrices[first], matrices[second], losses, alpha, origin_step):
-            verdict = _verdict(row["test"], alpha, "first_better", "second_better")
-            rows.append({"first": first, "second": second, **row, "verdict": verdict})
+    pairs = list(combinations(matrices, 2))
+    rows = [{"first": first, "second": second, **row,
+             "verdict": _verdict(row["test"], alpha, "first_better", "second_better")}
+            for (first, second), row in _pair_rows(
+                [(matrices[a], matrices[b]) for a, b in pairs], pairs, losses, origin_step)]
     return {"alpha": alpha, "origin_step": origin_step, "rows": rows}
 
 
@@ -158,18 +201,27 @@ def _matrices(errors: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
     return matrices
 
 
-def _pair_rows(first: np.ndarray, second: np.ndarray, losses: Sequence[Loss], alpha: float,
-               origin_step: int) -> list[dict[str, Any]]:
+def _pair_rows(pairs: Sequence[tuple[np.ndarray, np.ndarray]], tags: Sequence[T],
+               losses: Sequence[Loss], origin_step: int) -> list[tuple[T, dict[str, Any]]]:
+    """Per pair of error matrices (with its tag), horizon and loss, the tag and a row
+    holding the DM test on the folds where both have an error; all tests computed
+    together (:func:`_tests`)."""
     if int(origin_step) < 1:
         raise ValueError(f"origin_step must be a positive integer, got {origin_step!r}")
-    rows = []
-    for h in range(1, first.shape[1] + 1):
-        both = np.isfinite(first[:, h - 1]) & np.isfinite(second[:, h - 1])
-        dm_horizon = math.ceil(h / int(origin_step))
-        for loss in losses:
-            test = diebold_mariano(first[both, h - 1], second[both, h - 1], dm_horizon, loss)
-            rows.append({"horizon": h, "loss": loss, "test": test})
-    return rows
+    heads, differentials = [], []
+    for (first, second), tag in zip(pairs, tags):
+        both = np.isfinite(first) & np.isfinite(second)
+        with np.errstate(invalid="ignore"):
+            by_loss = {loss: (_LOSS_FUNCTIONS[loss](first) - _LOSS_FUNCTIONS[loss](second)).T
+                       for loss in losses}
+        for h in range(1, first.shape[1] + 1):
+            for loss in losses:
+                heads.append((tag, h, loss))
+                differentials.append((by_loss[loss][h - 1][both[:, h - 1]],
+                                      math.ceil(h / int(origin_step)), loss))
+    tests = _tests(differentials)
+    return [(tag, {"horizon": h, "loss": loss, "test": test})
+            for (tag, h, loss), test in zip(heads, tests)]
 
 
 def _verdict(test: dict[str, Any], alpha: float, better: str, worse: str) -> str | None:

@@ -65,6 +65,7 @@ from typing import Any, Literal
 import numpy as np
 from numpy.polynomial import polynomial
 
+from backtest.assessment import compiled_fit
 from backtest.assessment._numbers import number
 from backtest.assessment._tails import norm_sf
 from backtest.assessment.insample import InSample, one_step_errors
@@ -78,6 +79,7 @@ from backtest.assessment.residual_tests import (
 from backtest.captured_warnings import capturing_warnings, distinct_warning_lines
 from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
+from backtest.models.ets import EtsSpec
 
 Covariance = Literal["approx", "opg"]
 NEAR_UNIT_MODULUS = 1.01
@@ -126,29 +128,44 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
     """Compact per-fold report: coefficient estimates, s.e. and p-values, convergence, and
     the Ljung-Box p-value at the first default lag.
 
+    An arima or ets fit without statsmodels' results object (the fast estimator's) gets
+    them from the compiled likelihood (:mod:`~backtest.assessment.compiled_fit`; the
+    ``approx`` covariance only), its convergence from the fit's optimiser verdict.
+
     Returns
     -------
     dict
         ``converged`` (bool or None), ``params`` (name -> estimate, std_error, p_value),
-        ``ljung_box`` (lag, p_value, reason) and ``warnings`` raised while computing it.
+        ``ljung_box`` (lag, p_value, reason, source: what the errors are),
+        ``covariance`` (estimator, description; ``None`` without standard errors) and
+        ``warnings`` raised while computing it.
     """
     with capturing_warnings() as caught:
-        rows, _, _ = coefficient_table(spec, fit, covariance, season_length)
-        lag = default_lags(season_length)[0]
-        errors = one_step_errors(spec, fit, y, season_length)
-        test = _first_ljung_box(errors, lag)
-        converged = _estimation(spec, fit)["converged"]
+        if compiled_fit.compiles(spec, fit) and covariance == "approx":
+            assert isinstance(spec, ArimaSpec | EtsSpec)  # what compiles() accepts
+            variances, fixed = compiled_fit.variances(spec, fit, y, season_length)
+            rows = _rows(spec, fit, season_length, variances, None, fixed)
+            section: dict[str, Any] | None = {"estimator": covariance,
+                                              "description": compiled_fit.DESCRIPTION}
+            errors = compiled_fit.one_step_errors(spec, fit, y, season_length)
+            converged = fit.converged
+        else:
+            rows, section, _ = coefficient_table(spec, fit, covariance, season_length)
+            errors = one_step_errors(spec, fit, y, season_length)
+            converged = _estimation(spec, fit)["converged"]
+        test = _first_ljung_box(errors, default_lags(season_length)[0])
     params = {row["name"]: {k: row[k] for k in ("estimate", "std_error", "p_value")}
               for row in rows}
     return {"converged": converged, "params": params, "ljung_box": test,
-            "warnings": list(distinct_warning_lines(caught))}
+            "covariance": section, "warnings": list(distinct_warning_lines(caught))}
 
 
 def _first_ljung_box(errors: InSample, lag: int) -> dict[str, Any]:
     if errors.errors is None:
-        return {"lag": lag, "p_value": None, "reason": errors.note}
+        return {"lag": lag, "p_value": None, "reason": errors.note, "source": errors.note}
     row = ljung_box(errors.errors, [lag], errors.model_df)[0]
-    return {"lag": lag, "p_value": row["p_value"], "reason": row["reason"]}
+    return {"lag": lag, "p_value": row["p_value"], "reason": row["reason"],
+            "source": errors.note}
 
 
 def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
@@ -181,15 +198,22 @@ def coefficient_table(spec: ModelSpec, fit: Fit, covariance: Covariance, season_
                       ) -> tuple[list[dict[str, Any]], dict[str, Any] | None, str | None]:
     """Rows of name, estimate, std_error, z, p_value, note; the covariance used; and the
     reason when there are no standard errors."""
-    names = list(fit.params)
-    estimates = np.array([fit.params[n] for n in names], dtype=float)
-    variances, reason = _coefficient_variances(spec, fit, covariance, len(names))
-    bounds = estimates_at_bounds(spec, fit, season_length)
-    rows = [_coefficient_row(name, est, var, reason, bounds.get(name))
-            for name, est, var in zip(names, estimates, variances, strict=True)]
+    variances, reason = _coefficient_variances(spec, fit, covariance, len(fit.params))
+    rows = _rows(spec, fit, season_length, variances, reason)
     section = None if reason else {"estimator": covariance,
                                    "description": _COVARIANCE_TEXT[covariance]}
     return rows, section, reason
+
+
+def _rows(spec: ModelSpec, fit: Fit, season_length: int, variances: np.ndarray,
+          reason: str | None, fixed: dict[str, str] | None = None) -> list[dict[str, Any]]:
+    """The coefficient rows from the variances; ``fixed`` maps parameters that were not
+    estimated to the note they get instead of a standard error."""
+    bounds = estimates_at_bounds(spec, fit, season_length)
+    fixed = fixed or {}
+    return [_coefficient_row(name, float(estimate), variance, reason or fixed.get(name),
+                             bounds.get(name))
+            for (name, estimate), variance in zip(fit.params.items(), variances, strict=True)]
 
 
 def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[str, str]:

@@ -34,7 +34,7 @@ from backtest.models.benchmarks import BenchmarkSpec
 from backtest.models.ets import EtsSpec
 from backtest.models.theta import ThetaSpec
 
-_ETS_DYNAMICS = ("smoothing_level", "smoothing_trend", "smoothing_seasonal", "damping_trend")
+ETS_DYNAMICS = ("smoothing_level", "smoothing_trend", "smoothing_seasonal", "damping_trend")
 
 
 @dataclass(frozen=True)
@@ -85,7 +85,7 @@ def _arima(spec: ArimaSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSa
 def _ets(spec: EtsSpec, fit: Fit, y: np.ndarray, season_length: int) -> InSample:
     fixed = set(getattr(fit.raw, "fixed_params", None) or ())
     model_df = len([name for name in fit.raw.model.param_names
-                    if name in _ETS_DYNAMICS and name not in fixed])
+                    if name in ETS_DYNAMICS and name not in fixed])
     kind = "relative" if spec.error == "multiplicative" else "additive"
     return InSample(np.asarray(fit.raw.resid, dtype=float), model_df,
                     f"ETS innovations ({kind} errors)")

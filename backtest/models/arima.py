@@ -12,19 +12,22 @@ the estimate is mapped back exactly (constant and drift divided by the factor, t
 by its square) and the results, likelihood and forecasts are computed on the original data.
 A fit otherwise follows statsmodels' optimiser path exactly but keeps only the filter
 output (no smoother, no default covariance): the estimates are the same, the results still give
-residuals, likelihood and, on request, covariances (``cov_params_approx``, ...), and the
-forecast from the estimation origin is read off that filter output. A stretch of origins
-with fixed parameters is forecast from one filter pass (:mod:`.kalman_stretch`).
+residuals, likelihood and, on request, covariances (``cov_params_approx``, ...). Forecasts,
+from the estimation origin or from a stretch of later origins with fixed parameters, come
+from one filter pass (:mod:`.kalman_stretch`) of the compiled copy of statsmodels' filter
+(:mod:`.compiled_filter`) at the statsmodels model's matrices.
 
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
 same likelihood); forecasts and results still come from the statsmodels model at those
 estimates. The parameters then carry ``estimator`` (1 fast, 0 the fast estimator failed
-and the reference estimated the fold, with a :class:`~.fast_arima.EstimatorFallback`
+and the reference estimated the fold, with a :class:`~.fast_fallback.EstimatorFallback`
 warning giving the reason).
 """
 
 from __future__ import annotations
 
+import functools
+import threading
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar, Literal, cast
@@ -47,11 +50,12 @@ from backtest.models.base import (
     small_int,
     take_fields,
 )
-from backtest.models.fast_arima import ESTIMATOR_KEY, fast_fit
+from backtest.models.compiled_filter import predicted_states
+from backtest.models.fast_arima import fast_fit
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.kalman_stretch import (
     LinearSystem,
     OriginStates,
-    filter_states,
     propagate,
     states_at,
 )
@@ -171,7 +175,8 @@ class ArimaSpec(ModelSpec):
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         """The fit with its model parameters only (without the ``estimator`` record)."""
-        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw)
+        return self, Fit({k: v for k, v in fit.params.items() if k != ESTIMATOR_KEY}, fit.raw,
+                         fit.converged)
 
     def results_at(self, y: np.ndarray, season_length: int, params: Params) -> Any:
         """statsmodels' results of a filter pass over ``y`` at ``params`` (no estimation)."""
@@ -191,31 +196,43 @@ class ArimaSpec(ModelSpec):
                      levels: tuple[int, ...], seed: int, *,
                      start_params: Params | None = None, estimator: Estimator = "reference",
                      keep_raw: bool = True) -> tuple[Fit, Forecast]:
-        """Estimate on ``y``, then forecast from the estimation's own filter output (or,
-        without one, from a filter pass at the estimates)."""
+        """Estimate on ``y``, then forecast by :meth:`forecast_stretch` at the estimates,
+        whether or not the fit keeps statsmodels' results (so the lean and the full
+        assessment give the same forecasts to the last digit)."""
         fit = self.fit(y, season_length, start_params=start_params, estimator=estimator,
                        keep_raw=keep_raw)
-        if fit.raw is None:
-            return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
-                                              levels, [seed])[0]
-        states = states_at(fit.raw.filter_results, [len(y)])
-        return fit, self._from_states(fit.raw.model, fit.params, states, [len(y)], horizon,
-                                      levels)[0]
+        return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
+                                          levels, [seed])[0]
 
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
                          ends: Sequence[int], horizon: int, levels: tuple[int, ...],
                          seeds: Sequence[int]) -> list[Forecast]:
-        """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``."""
-        model = self.model(y, season_length)
-        states = filter_states(model, vector(model, params), ends)
-        return self._from_states(model, params, states, ends, horizon, levels)
-
-    def _from_states(self, model: ARIMA, params: Params, states: OriginStates,
-                     ends: Sequence[int], horizon: int, levels: tuple[int, ...]
-                     ) -> list[Forecast]:
-        model.update(vector(model, params), transformed=True)
-        times = np.asarray(ends)[:, None] + np.arange(horizon)
-        mean, var = propagate(LinearSystem.of(model), states, self._intercepts(params, times))
+        """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``:
+        statsmodels' filter (:mod:`.compiled_filter`) with the statsmodels model's
+        matrices and initialisation at ``params``, taken from a model of ``spec`` on
+        placeholder data (they depend on the parameters only), so that no model is built
+        on ``y``. Data of extreme scale (:meth:`rescaling` not 1) are filtered by
+        statsmodels itself: there the 1e6 start variance of the differencing states
+        dwarfs the data's, the covariances carry rounding noise of the data's own size,
+        and only statsmodels' arithmetic gives statsmodels' forecasts."""
+        y = np.asarray(y, dtype=float)
+        at = np.asarray(ends, dtype=np.int64)
+        if self.rescaling(y, season_length) != 1.0:
+            model = self.model(y, season_length)
+            model.update(vector(model, params), transformed=True)
+            system = LinearSystem.of(model)
+            states = states_at(model.ssm.filter(), ends)
+        else:
+            system, initial_mean, initial_cov = _system_at(self, season_length, params)
+            order = np.argsort(at, kind="stable")
+            means, covs = predicted_states(y, self._intercepts(params, np.arange(len(y))),
+                                           system.design, system.obs_var, system.transition,
+                                           system.state_intercept, system.disturbance_cov,
+                                           initial_mean, initial_cov, at[order])
+            states = OriginStates(np.empty_like(means), np.empty_like(covs))
+            states.mean[order], states.cov[order] = means, covs
+        times = at[:, None] + np.arange(horizon)
+        mean, var = propagate(system, states, self._intercepts(params, times))
         return forecasts_by_origin(mean, np.sqrt(var), levels)
 
     def _intercepts(self, params: Params, times: np.ndarray) -> np.ndarray:
@@ -226,6 +243,40 @@ class ArimaSpec(ModelSpec):
         if self.deterministic == "drift":
             return params["drift"] * (times + 1.0)
         return np.zeros(times.shape)
+
+
+#: Guards the placeholder models of :func:`_system_at` (updated in place) across threads.
+_PLACEHOLDER_LOCK = threading.Lock()
+
+
+@functools.lru_cache(maxsize=64)
+def _placeholder(spec: ArimaSpec, season_length: int) -> ARIMA:
+    """The statsmodels model of ``spec`` on zeros (its state-space matrices and
+    initialisation depend on the parameters alone, not on the data)."""
+    return spec.model(np.zeros(spec.min_train(season_length)), season_length)
+
+
+def _system_at(spec: ArimaSpec, season_length: int, params: Params
+               ) -> tuple[LinearSystem, np.ndarray, np.ndarray]:
+    """The statsmodels model's matrices at ``params`` and its initial state mean and
+    covariance (the differencing states approximately diffuse, the ARMA states at their
+    stationary covariance).
+
+    Raises
+    ------
+    ValueError
+        If the initialisation has an exact diffuse part (statsmodels' ARIMA has none).
+    """
+    with _PLACEHOLDER_LOCK:
+        model = _placeholder(spec, season_length)
+        model.update(vector(model, params), transformed=True)
+        system = LinearSystem.of(model)
+        initial_mean, diffuse, initial_cov = model.ssm.initialization(model=model.ssm)
+        system = LinearSystem(system.design.copy(), system.obs_var, system.transition.copy(),
+                              system.state_intercept.copy(), system.disturbance_cov.copy())
+    if np.any(diffuse):
+        raise ValueError("the compiled filter does not handle an exact diffuse initialisation")
+    return system, np.array(initial_mean, dtype=float), np.array(initial_cov, dtype=float)
 
 
 def _scale_powers(model: ARIMA) -> np.ndarray:

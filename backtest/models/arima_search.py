@@ -72,8 +72,8 @@ from backtest.models.base import (
     take_fields,
 )
 from backtest.models.differencing import STRONG_SEASONALITY, choose_differencing, difference
-from backtest.models.fast_arima import ESTIMATOR_KEY
 from backtest.models.fast_arima_trial import run_fast_trial
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.stepwise import STARTING_ORDERS, ArmaOrders, SearchBounds, stepwise_search
 from backtest.transforms import Transform, parse_transform
 
@@ -214,7 +214,7 @@ class ArimaSearchSpec(ModelSpec):
 
     def assessed(self, fit: Fit) -> tuple[ArimaSpec, Fit]:
         spec, estimates = self.chosen(fit.params)
-        return spec, Fit(estimates, fit.raw)
+        return spec, Fit(estimates, fit.raw, fit.converged)
 
     def chosen(self, params: Params) -> tuple[ArimaSpec, Params]:
         """The ARIMA model a fit chose (with this transform) and its estimates alone.

@@ -4,8 +4,8 @@ Compiled functions are cached by numba (``cache=True``) under ``NUMBA_CACHE_DIR`
 that is not set it defaults to ``foldline/numba`` in the user's cache directory
 (``$XDG_CACHE_HOME``, else ``~/.cache``), so a read-only installation still keeps its
 machine code between processes. The first process compiles (a few seconds), later ones
-load the cache; the ``warm_up`` functions of :mod:`.fast_arima` and :mod:`.fast_ets` do
-it at worker start.
+load the cache; :func:`backtest.warm_up.warm_up` does it at worker start for every
+compiled function the engine uses.
 """
 
 from __future__ import annotations

@@ -13,7 +13,7 @@ covariance, for every origin.
 same likelihood, bounds and start values); forecasts and results still come from the
 statsmodels model at those estimates. The parameters then carry ``estimator`` (1 fast,
 0 the fast estimator failed and the reference estimated the fold, with a
-:class:`~.fast_arima.EstimatorFallback` warning giving the reason).
+:class:`~.fast_fallback.EstimatorFallback` warning giving the reason).
 """
 
 from __future__ import annotations
@@ -47,8 +47,8 @@ from backtest.models.ets_stretch import (
     relative_variance,
     simulated_bounds,
 )
-from backtest.models.fast_arima import ESTIMATOR_KEY
 from backtest.models.fast_ets import fast_fit
+from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
 

@@ -7,8 +7,9 @@ seasonally D times leaves a stationary ARMA around ``beta`` times the difference
 regressor, whose exact likelihood (:mod:`.fast_arima_kernel`) is the reference path's
 likelihood with its differenced states diffuse (over ``n - d - D s`` observations, the
 reference's effective sample). ``beta`` and the innovation variance are concentrated out,
-so L-BFGS-B (scipy) searches only the ARMA coefficients, in the unconstrained coordinates
-of Monahan's map, as the reference does. The start is the previous estimate when given,
+so L-BFGS-B (scipy's routine, driven without its per-evaluation wrapper by
+:mod:`.lbfgsb_driver`) searches only the ARMA coefficients, in the unconstrained
+coordinates of Monahan's map, as the reference does. The start is the previous estimate when given,
 else zero and a Hannan-Rissanen regression (Hannan & Rissanen 1982: a long
 autoregression's residuals as regressors of the moving-average terms): both for models
 mixing AR and MA terms, whose likelihood is often multimodal, else the better of the two.
@@ -35,39 +36,39 @@ from __future__ import annotations
 
 import math
 import time
-import warnings
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
-from scipy.optimize import minimize
 from statsmodels.tsa.statespace.tools import unconstrain_stationary_univariate
 
 from backtest.models import fast_arima_kernel as kernel
 from backtest.models.base import Fit, Params
 from backtest.models.differencing import difference
+from backtest.models.fast_fallback import FastEstimationError, fast_or_reference
+from backtest.models.lbfgsb_driver import Minimum, minimize_bounded
 
 if TYPE_CHECKING:
     from backtest.models.arima import ArimaSpec
 
-#: The parameter that records how a fold was estimated: 1 fast, 0 reference after a failure.
-ESTIMATOR_KEY = "estimator"
 #: L-BFGS-B iterations allowed per fit.
 MAX_ITERATIONS = 200
 #: Central-difference step in the unconstrained coordinates.
 GRADIENT_STEP = 1e-6
-_OPTIONS = {"maxiter": MAX_ITERATIONS, "ftol": 1e-13, "gtol": 1e-8}
+#: Stopping rule (scipy's meaning): relative reduction of the objective, projected gradient.
+FTOL, GTOL = 1e-13, 1e-8
 #: The order search's stopping rule: the objective is the log-likelihood per observation,
 #: so the criterion of a stopped fit is within about 1e-8 of the strict stop's; the strict
 #: rule's last iterations buy nothing a comparison of criteria can see, and its line search
 #: sometimes fails there (a fallback to the reference estimator).
-SEARCH_OPTIONS = {"maxiter": MAX_ITERATIONS, "ftol": 1e-11, "gtol": 1e-7}
+SEARCH_FTOL, SEARCH_GTOL = 1e-11, 1e-7
+#: Largest projected gradient (of minus the log-likelihood per observation, in the
+#: unconstrained coordinates) accepted when the line search stops without a verdict:
+#: statsmodels' own stopping threshold (scipy's ``pgtol`` default), which the reference
+#: estimate meets.
+ACCEPTED_GRADIENT = 1e-5
 #: Unconstrained values beyond this put a coefficient within 1e-8 of the unit circle.
 _BOUND = 1e4
-
-
-class FastEstimationError(RuntimeError):
-    """The fast estimator did not reach a usable optimum (the caller falls back)."""
 
 
 @dataclass(frozen=True)
@@ -86,7 +87,7 @@ class FastFit:
 
 
 @dataclass(frozen=True)
-class _Problem:
+class DifferencedProblem:
     """The differenced data and regressor, with the orders, as the kernel takes them."""
 
     w: np.ndarray
@@ -95,7 +96,7 @@ class _Problem:
     has_mean: bool
 
     @classmethod
-    def of(cls, spec: ArimaSpec, y: np.ndarray, season_length: int) -> _Problem:
+    def of(cls, spec: ArimaSpec, y: np.ndarray, season_length: int) -> DifferencedProblem:
         p, d, q = spec.order
         big_p, big_d, big_q = spec.seasonal or (0, 0, 0)
         s = spec.season_period(season_length) if spec.seasonal else 1
@@ -117,9 +118,6 @@ class _Problem:
     def loglike(self, x: np.ndarray) -> tuple[float, float, float]:
         return kernel.profile_loglike(x, self.w, self.reg, *self.orders)
 
-    def objective(self, x: np.ndarray) -> tuple[float, np.ndarray]:
-        return kernel.objective(x, self.w, self.reg, *self.orders, GRADIENT_STEP)
-
 
 def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
                   start_params: Params | None = None, *, screening: bool = False) -> FastFit:
@@ -132,7 +130,7 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
         If the likelihood is not finite at the start or at the optimum.
     """
     factor = spec.rescaling(y, season_length)
-    problem = _Problem.of(spec, np.asarray(y, dtype=float) * factor, season_length)
+    problem = DifferencedProblem.of(spec, np.asarray(y, dtype=float) * factor, season_length)
     p, q, big_p, big_q, s = problem.orders
     k = p + q + big_p + big_q
     if k == 0:
@@ -143,14 +141,16 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
         starts = [x0 for x0 in starts if math.isfinite(problem.loglike(x0)[0])]
         if not starts:
             raise FastEstimationError("the log-likelihood is not finite at the start values")
-        results = [minimize(problem.objective, x0, jac=True, method="L-BFGS-B",
-                            bounds=[(-_BOUND, _BOUND)] * k,
-                            options=SEARCH_OPTIONS if screening else _OPTIONS)
+        ftol, gtol = (SEARCH_FTOL, SEARCH_GTOL) if screening else (FTOL, GTOL)
+        bounds = np.full(k, _BOUND)
+        results = [minimize_bounded(kernel.objective, x0, -bounds, bounds,
+                                    (problem.w, problem.reg, *problem.orders, GRADIENT_STEP),
+                                    ftol=ftol, gtol=gtol, max_iterations=MAX_ITERATIONS)
                    for x0 in starts]
         best = min(results, key=lambda r: r.fun)
-        x, converged = best.x, bool(best.success)
-        iterations = sum(int(r.nit) for r in results)
-        evaluations = sum(int(r.nfev) for r in results)
+        x, converged = best.x, _accepted(best, _BOUND)
+        iterations = sum(r.iterations for r in results)
+        evaluations = sum(r.evaluations for r in results)
     llf, beta, sigma2 = problem.loglike(x)
     if not (math.isfinite(llf) and sigma2 > 0):
         raise FastEstimationError("the log-likelihood is not finite at the optimum")
@@ -163,9 +163,9 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
 def fast_loglike(spec: ArimaSpec, y: np.ndarray, season_length: int, params: Params) -> float:
     """The exact log-likelihood at given parameters (named as the arima family names them,
     ``sigma2`` and any ``constant``/``drift`` included), nothing concentrated out."""
-    problem = _Problem.of(spec, y, season_length)
+    problem = DifferencedProblem.of(spec, y, season_length)
     p, q, big_p, big_q, s = problem.orders
-    names = _coefficient_names(spec, season_length)
+    names = coefficient_names(spec, season_length)
     coefficients = [np.array([params[n] for n in group], dtype=float) for group in names]
     phi, theta, big_phi, big_theta = coefficients
     ar, ma = kernel.multiply(phi, theta, big_phi, big_theta, s)
@@ -188,7 +188,7 @@ def warm_up() -> float:
     return time.perf_counter() - began
 
 
-def _coefficient_names(spec: ArimaSpec, season_length: int) -> tuple[list[str], ...]:
+def coefficient_names(spec: ArimaSpec, season_length: int) -> tuple[list[str], ...]:
     """statsmodels' names of the AR, MA, seasonal AR and seasonal MA coefficients."""
     p, _, q = spec.order
     big_p, _, big_q = spec.seasonal or (0, 0, 0)
@@ -208,7 +208,7 @@ def _named(spec: ArimaSpec, x: np.ndarray, beta: float, sigma2: float,
     out: Params = {}
     if spec.deterministic != "none":
         out[spec.deterministic] = float(beta)
-    for names, group in zip(_coefficient_names(spec, season_length), values):
+    for names, group in zip(coefficient_names(spec, season_length), values):
         out.update({name: float(v) for name, v in zip(names, group)})
     out["sigma2"] = float(sigma2)
     return out
@@ -218,7 +218,7 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
     """Unconstrained coordinates of a previous estimate (coefficients pulled just inside
     the unit circle when on it)."""
     parts = []
-    for sign, names in zip((1, -1, 1, -1), _coefficient_names(spec, season_length)):
+    for sign, names in zip((1, -1, 1, -1), coefficient_names(spec, season_length)):
         if names:
             values = sign * np.array([params[n] for n in names], dtype=float)
             parts.append(unconstrain_stationary_univariate(0.999 * values))
@@ -226,7 +226,7 @@ def _warm_start(spec: ArimaSpec, params: Params, season_length: int) -> np.ndarr
     return result
 
 
-def _cold_starts(problem: _Problem) -> list[np.ndarray]:
+def _cold_starts(problem: DifferencedProblem) -> list[np.ndarray]:
     """Start values: zero and the Hannan-Rissanen estimates (when admissible). A model with
     both autoregressive and moving-average terms, whose likelihood often has more than one
     mode, is optimised from both; otherwise from the one with the higher likelihood."""
@@ -240,7 +240,7 @@ def _cold_starts(problem: _Problem) -> list[np.ndarray]:
     return [guess if problem.loglike(guess)[0] > problem.loglike(zero)[0] else zero]
 
 
-def _hannan_rissanen(problem: _Problem) -> np.ndarray | None:
+def _hannan_rissanen(problem: DifferencedProblem) -> np.ndarray | None:
     """Non-seasonal and seasonal ARMA coefficients by two least-squares regressions
     (the seasonal part on lags that are multiples of s), ``None`` if inadmissible."""
     p, q, big_p, big_q, s = problem.orders
@@ -273,32 +273,26 @@ def _hannan_rissanen(problem: _Problem) -> np.ndarray | None:
     return x
 
 
-class EstimatorFallback(UserWarning):
-    """The fast estimator failed on a fold and the reference estimator took over."""
+def _accepted(result: Minimum, bound: float) -> bool:
+    """Converged, or the line search stopped where the projected gradient is below
+    :data:`ACCEPTED_GRADIENT` (the finite-difference gradient's noise near the optimum)."""
+    if result.converged:
+        return True
+    projected = np.clip(result.x - result.jac, -bound, bound) - result.x
+    return bool(result.line_search_failed and np.all(np.isfinite(projected))
+                and np.max(np.abs(projected), initial=0.0) < ACCEPTED_GRADIENT)
 
 
 def fast_fit(spec: ArimaSpec, y: np.ndarray, season_length: int,
              start_params: Params | None, keep_raw: bool) -> Fit:
     """The fast estimate as a :class:`Fit` marked ``estimator = 1`` (converged, with its
     rescaling factor); if it fails or does not converge, a warning with the reason and the
-    reference fit marked ``estimator = 0``, with the reference's own verdict and factor.
+    reference fit marked ``estimator = 0`` (:func:`~.fast_fallback.fast_or_reference`).
 
     With ``keep_raw`` the fit carries statsmodels' results of a filter pass at the
     estimates, with the optimiser's report as ``mle_retvals``.
     """
-    try:
-        estimate = fast_estimate(spec, y, season_length, start_params)
-        if not estimate.converged:
-            raise FastEstimationError(f"L-BFGS-B stopped after {estimate.iterations} "
-                                      "iterations without converging")
-    except (FastEstimationError, ValueError, np.linalg.LinAlgError) as exc:
-        warnings.warn(f"fast estimator failed ({exc}); the reference estimator was used",
-                      EstimatorFallback, stacklevel=2)
-        fit = spec.reference_fit(y, season_length, start_params=start_params)
-        return Fit({**fit.params, ESTIMATOR_KEY: 0.0}, fit.raw, fit.converged, fit.rescaled_by)
-    raw = None
-    if keep_raw:
-        raw = spec.results_at(y, season_length, estimate.params)
-        raw.mle_retvals = {"converged": True, "iterations": estimate.iterations,
-                           "fcalls": estimate.evaluations, "warnflag": 0}
-    return Fit({**estimate.params, ESTIMATOR_KEY: 1.0}, raw, True, estimate.rescaled_by)
+    return fast_or_reference(
+        spec, y, season_length, start_params,
+        lambda: fast_estimate(spec, y, season_length, start_params),
+        (lambda e: spec.results_at(y, season_length, e.params)) if keep_raw else None)

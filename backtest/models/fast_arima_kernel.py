@@ -124,7 +124,7 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
         a[h, h] += 1.0
         for k in range(1, n_ar + 1):
             a[h, abs(h - k)] -= phi[k - 1]
-    solved = np.linalg.solve(a, rhs[:m].copy())
+    solved = _solve(a, rhs[:m].copy())
     for h in range(m):
         gamma[h] = solved[h]
     for h in range(m, r + 1):
@@ -155,6 +155,33 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
 
 
 @njit
+def _solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a^-1 b`` by Gaussian elimination with partial pivoting, in place (the systems are
+    small: a LAPACK call costs more than the arithmetic)."""
+    m = b.shape[0]
+    for k in range(m):
+        pivot = k
+        for i in range(k + 1, m):
+            if abs(a[i, k]) > abs(a[pivot, k]):
+                pivot = i
+        if pivot != k:
+            for j in range(k, m):
+                a[k, j], a[pivot, j] = a[pivot, j], a[k, j]
+            b[k], b[pivot] = b[pivot], b[k]
+        for i in range(k + 1, m):
+            factor = a[i, k] / a[k, k]
+            for j in range(k, m):
+                a[i, j] -= factor * a[k, j]
+            b[i] -= factor * b[k]
+    for k in range(m - 1, -1, -1):
+        total = b[k]
+        for j in range(k + 1, m):
+            total -= a[k, j] * b[j]
+        b[k] = total / a[k, k]
+    return b
+
+
+@njit
 def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
                 ) -> tuple[float, float, float, float]:
     """Kalman filter of ``w`` and of the regressor ``x`` at unit variance.
@@ -162,6 +189,26 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
     Returns ``sum log F_t``, ``sum v_w^2 / F``, ``sum v_w v_x / F`` and ``sum v_x^2 / F``
     (``x`` of zeros gives zero regression sums). Non-finite output marks a failure.
     """
+    return filter_errors(w, x, ar, ma, np.empty(0))
+
+
+@njit
+def one_step_errors(w: np.ndarray, ar: np.ndarray, ma: np.ndarray) -> np.ndarray:
+    """The filter's one-step prediction errors ``v_t`` of ``w`` (the same at any
+    innovation variance); NaN throughout where the filter fails."""
+    errors = np.empty(w.shape[0])
+    sums = filter_errors(w, np.zeros_like(w), ar, ma, errors)
+    if not np.isfinite(sums[0]):
+        errors[:] = np.nan
+    return errors
+
+
+@njit
+def filter_errors(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray,
+                  errors: np.ndarray) -> tuple[float, float, float, float]:
+    """:func:`filter_sums`, also writing each one-step error of ``w`` to ``errors`` when
+    that has ``w``'s length (an empty array: sums only)."""
+    keep = errors.shape[0] == w.shape[0]
     n = w.shape[0]
     r = max(ar.shape[0], ma.shape[0] + 1)
     phi = np.zeros(r)
@@ -169,7 +216,8 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
     loading = np.zeros(r)
     loading[0] = 1.0
     loading[1:ma.shape[0] + 1] = ma
-    cov = stationary_cov(phi, loading)
+    cov = stationary_cov(phi, loading)  # only its upper triangle is kept up to date
+    first_row = np.zeros(r)
     a_w = np.zeros(r)
     a_x = np.zeros(r)
     gain = np.zeros(r)
@@ -185,9 +233,12 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
             if not f > 0.0:
                 return np.nan, np.nan, np.nan, np.nan
             for i in range(r):
-                gain[i] = cov[i, 0] / f
+                first_row[i] = cov[0, i]
+                gain[i] = first_row[i] / f
         v_w = w[t] - a_w[0]
         v_x = x[t] - a_x[0]
+        if keep:
+            errors[t] = v_w
         sum_log_f += np.log(f)
         s_ww += v_w * v_w / f
         s_wx += v_w * v_x / f
@@ -203,23 +254,28 @@ def filter_sums(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray
         if steady:
             continue
         # P_{t|t} = P - P e1 e1' P / F has a zero first row, so
-        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R'.
+        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R',
+        # filled row by row (row i reads row i + 1, not yet overwritten, and the first row
+        # as it was before the step).
         change = 0.0
-        for i in range(r):
-            for j in range(i, r):
-                value = loading[i] * loading[j]
-                if i + 1 < r and j + 1 < r:
-                    value += cov[i + 1, j + 1] - cov[i + 1, 0] * cov[j + 1, 0] / f
+        for i in range(r - 1):
+            row_gain = first_row[i + 1]
+            for j in range(i, r - 1):
+                value = (loading[i] * loading[j] + cov[i + 1, j + 1]
+                         - row_gain * gain[j + 1])
                 change = max(change, abs(value - cov[i, j]))
                 cov[i, j] = value
-        for i in range(r):
-            for j in range(i):
-                cov[i, j] = cov[j, i]
+            value = loading[i] * loading[r - 1]
+            change = max(change, abs(value - cov[i, r - 1]))
+            cov[i, r - 1] = value
+        value = loading[r - 1] * loading[r - 1]
+        change = max(change, abs(value - cov[r - 1, r - 1]))
+        cov[r - 1, r - 1] = value
         steady = change < STEADY_TOLERANCE * max(1.0, abs(cov[0, 0]))
         if steady:
             f = cov[0, 0]
             for i in range(r):
-                gain[i] = cov[i, 0] / f
+                gain[i] = cov[0, i] / f
     return sum_log_f, s_ww, s_wx, s_xx
 
 
@@ -250,12 +306,12 @@ def objective(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int, big
     grad = np.zeros(x.shape[0])
     if not np.isfinite(value):
         return 1e300, grad
+    probe = x.copy()
     for i in range(x.shape[0]):
-        up = x.copy()
-        up[i] += step
-        down = x.copy()
-        down[i] -= step
-        f_up = -profile_loglike(up, w, reg, p, q, big_p, big_q, s)[0] / n
-        f_down = -profile_loglike(down, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i] + step
+        f_up = -profile_loglike(probe, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i] - step
+        f_down = -profile_loglike(probe, w, reg, p, q, big_p, big_q, s)[0] / n
+        probe[i] = x[i]
         grad[i] = (f_up - f_down) / (2.0 * step)
     return value, grad

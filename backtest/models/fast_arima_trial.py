@@ -1,7 +1,7 @@
 """One order of an ARIMA search fitted by the fast estimator, judged like the reference.
 
 The optimiser stops at the search's precision (the criterion within about 1e-8 of a
-strict stop's; :data:`~.fast_arima.SEARCH_OPTIONS`), still far tighter than the
+strict stop's; :data:`~.fast_arima.SEARCH_FTOL`), still far tighter than the
 reference's own stopping rule.
 
 The verdicts are those of :mod:`.arima_trial`: rejected when the estimate fails, when the
@@ -28,12 +28,12 @@ from backtest.models.arima_trial import (
     run_trial,
 )
 from backtest.models.base import Params
-from backtest.models.fast_arima import (
+from backtest.models.fast_arima import FastFit, fast_estimate
+from backtest.models.fast_fallback import (
     ESTIMATOR_KEY,
-    EstimatorFallback,
-    FastEstimationError,
-    FastFit,
-    fast_estimate,
+    FALLBACK_ERRORS,
+    converged_or_raise,
+    warn_fallback,
 )
 
 
@@ -44,11 +44,8 @@ def run_fast_trial(spec: ArimaSpec, y: np.ndarray, season_length: int,
     if spec.min_train(season_length) > len(y):
         return Trial(spec, "too_short", math.inf, None, ())
     try:
-        estimate = fast_estimate(spec, y, season_length, screening=True)
-        if not estimate.converged:
-            raise FastEstimationError(f"L-BFGS-B stopped after {estimate.iterations} "
-                                      "iterations without converging")
-    except (FastEstimationError, ValueError, np.linalg.LinAlgError) as exc:
+        estimate = converged_or_raise(fast_estimate(spec, y, season_length, screening=True))
+    except FALLBACK_ERRORS as exc:
         return _fallback(spec, y, season_length, criterion, root_limit, exc)
     value = information_criterion(estimate, criterion)
     if not math.isfinite(value):
@@ -85,8 +82,7 @@ def _fallback(spec: ArimaSpec, y: np.ndarray, season_length: int, criterion: Cri
               root_limit: float, exc: Exception) -> Trial:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        warnings.warn(f"fast estimator failed ({exc}); the reference estimator was used",
-                      EstimatorFallback, stacklevel=2)
+        warn_fallback(exc)
     trial = run_trial(spec, y, season_length, criterion, root_limit)
     return Trial(trial.spec, trial.verdict, trial.score, trial.results,
                  (*caught, *trial.caught))

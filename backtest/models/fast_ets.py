@@ -23,13 +23,13 @@ import math
 import time
 import warnings
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from backtest.models import fast_ets_kernel as kernel
 from backtest.models.base import Fit, Params
-from backtest.models.fast_arima import ESTIMATOR_KEY, EstimatorFallback, FastEstimationError
+from backtest.models.fast_fallback import FastEstimationError, fast_or_reference
 from backtest.models.lbfgsb_driver import Minimum, minimize_bounded
 
 if TYPE_CHECKING:
@@ -66,6 +66,11 @@ class FastEtsFit:
     converged: bool
     iterations: int
     evaluations: int
+
+    @property
+    def rescaled_by(self) -> float:
+        """The ets estimator works on the data as they are."""
+        return 1.0
 
 
 @dataclass(frozen=True)
@@ -307,28 +312,19 @@ def fast_loglike(spec: EtsSpec, y: np.ndarray, season_length: int, params: Param
 def fast_fit(spec: EtsSpec, y: np.ndarray, season_length: int,
              start_params: Params | None, keep_raw: bool) -> Fit:
     """The fast estimate as a :class:`Fit` marked ``estimator = 1``; if it fails or does
-    not converge, a warning with the reason and the reference fit marked ``estimator = 0``.
+    not converge, a warning with the reason and the reference fit marked ``estimator = 0``
+    (:func:`~.fast_fallback.fast_or_reference`).
 
     With ``keep_raw`` the fit carries statsmodels' results of a smoothing pass at the
     estimates, with the optimiser's report as ``mle_retvals``.
     """
-    try:
-        estimate = fast_estimate(spec, y, season_length, start_params)
-        if not estimate.converged:
-            raise FastEstimationError(f"L-BFGS-B stopped after {estimate.iterations} "
-                                      "iterations without converging")
-    except (FastEstimationError, ValueError, np.linalg.LinAlgError) as exc:
-        warnings.warn(f"fast estimator failed ({exc}); the reference estimator was used",
-                      EstimatorFallback, stacklevel=2)
-        fit = spec.reference_fit(y, season_length, start_params=start_params)
-        return Fit({**fit.params, ESTIMATOR_KEY: 0.0}, fit.raw, fit.converged)
-    raw = None
-    if keep_raw:
+    def smoothed(estimate: FastEtsFit) -> Any:
         model = spec.model(y, season_length)
-        raw = model.smooth(np.array([estimate.params[n] for n in model.param_names]))
-        raw.mle_retvals = {"converged": True, "iterations": estimate.iterations,
-                           "fcalls": estimate.evaluations, "warnflag": 0}
-    return Fit({**estimate.params, ESTIMATOR_KEY: 1.0}, raw, True)
+        return model.smooth(np.array([estimate.params[n] for n in model.param_names]))
+
+    return fast_or_reference(spec, y, season_length, start_params,
+                             lambda: fast_estimate(spec, y, season_length, start_params),
+                             smoothed if keep_raw else None)
 
 
 def warm_up() -> float:

@@ -185,3 +185,47 @@ def objective(x: np.ndarray, theta: np.ndarray, y: np.ndarray, m: int,
     for j in range(free.shape[0]):
         gradient[j] = -gradient[j] / n
     return -value / n, gradient
+
+
+@njit
+def one_step_errors(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_error: bool,
+                    multiplicative_season: bool) -> np.ndarray:
+    """The one-step errors of the recursions at the internal vector ``theta``:
+    ``y - yhat``, or ``(y - yhat) / yhat`` for a multiplicative error (statsmodels'
+    ``resid``); NaN throughout where the recursions break down."""
+    alpha, beta, gamma, phi = theta[ALPHA], theta[BETA_STAR], theta[GAMMA_STAR], theta[PHI]
+    ring = np.empty(m)
+    for i in range(m):
+        ring[i] = theta[SEASONS + m - 1 - i]
+    level, trend = theta[LEVEL], theta[TREND]
+    n = y.shape[0]
+    errors = np.full(n, math.nan)
+    for t in range(n):
+        r = t % m
+        old = ring[r]
+        yt = y[t]
+        base = level + phi * trend
+        if multiplicative_season:
+            if old == 0.0:
+                return np.full(n, math.nan)
+            yhat = base * old
+            new_level = alpha * (yt / old) + (1 - alpha) * base
+        else:
+            yhat = base + old
+            new_level = alpha * (yt - old) + (1 - alpha) * base
+        new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
+        if multiplicative_season:
+            if new_level == 0.0:
+                return np.full(n, math.nan)
+            new_season = gamma * yt / new_level + (1 - gamma) * old
+        else:
+            new_season = gamma * (yt - new_level) + (1 - gamma) * old
+        if multiplicative_error:
+            if yhat == 0.0:
+                return np.full(n, math.nan)
+            errors[t] = (yt - yhat) / yhat
+        else:
+            errors[t] = yt - yhat
+        level, trend = new_level, new_trend
+        ring[r] = new_season
+    return errors

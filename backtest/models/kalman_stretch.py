@@ -10,9 +10,10 @@ with. From there the h-step forecasts follow from the system matrices alone
     var_j  = g_j P_e g_j' + sum_(i<j) g_i R Q R' g_i' + H
 
 for ``j = 1..horizon``, all origins at once. The filter is the model's default
-(conventional, statsmodels' initialisation, every output stored): the memory-saving
-filters drop the predicted covariances, and the Chandrasekhar recursions do not handle the
-(approximate) diffuse initialisation of ARIMA models.
+(conventional, statsmodels' initialisation, every output stored; or its compiled copy,
+:mod:`.compiled_filter`): the memory-saving filters drop the predicted covariances, and
+the Chandrasekhar recursions do not handle the (approximate) diffuse initialisation of
+ARIMA models.
 
 References
 ----------
@@ -76,16 +77,6 @@ class LinearSystem:
         for j in range(1, horizon):
             rows[j] = rows[j - 1] @ self.transition
         return rows
-
-
-def filter_states(model: MLEModel, params: np.ndarray, ends: Sequence[int]) -> OriginStates:
-    """Filter ``model``'s data once with ``params``; the predicted states at ``ends``.
-
-    ``ends[i]`` counts observations: the state predicted for time ``ends[i]`` from
-    observations ``0..ends[i]-1``.
-    """
-    model.update(params, transformed=True)
-    return states_at(model.ssm.filter(), ends)
 
 
 def states_at(filtered: FilterResults, ends: Sequence[int]) -> OriginStates:

@@ -19,7 +19,7 @@ import threading
 from sqlalchemy import Engine
 from sqlalchemy.orm import Session, sessionmaker
 
-from backtest.models import fast_arima, fast_ets
+from backtest.warm_up import warm_up
 from service.settings import Settings
 from service.usecases.score_outcomes import score_due_outcomes
 from service.views.report.prerender import prerender_report
@@ -96,7 +96,7 @@ class Worker:
         log.info("worker %s stopped", self.id)
 
     def _warm_up(self) -> None:
-        seconds = fast_arima.warm_up() + fast_ets.warm_up()
+        seconds = warm_up()
         log.info("worker %s: compiled estimators ready in %.2f s", self.id, seconds)
 
     def close(self) -> None:

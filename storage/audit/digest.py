@@ -45,17 +45,25 @@ def table_digest(table: Table, rows: Iterable[Row],
     names = list(columns or table.columns.keys())
     key = itemgetter(*(names.index(column.name) for column in table.primary_key))
     ordered = sorted(map(_tuple_maker(table, names), rows), key=key)
-    added = {i: table.columns[n].info[ADDED_LATER] for i, n in enumerate(names)
-             if ADDED_LATER in table.columns[n].info}
+    added = [(i, table.columns[n].info[ADDED_LATER]) for i, n in enumerate(names)
+             if ADDED_LATER in table.columns[n].info]
     if added:
-        ordered = [tuple(v for i, v in enumerate(row) if i not in added or v != added[i])
-                   for row in ordered]
+        ordered = [_without_defaults(row, added) for row in ordered]
     return sha256_text(f"{table.name}\n{ordered!r}")
 
 
 def combine(digests: Iterable[str]) -> str:
     """One digest for several parts, in the given order."""
     return sha256_text("\n".join(digests))
+
+
+def _without_defaults(row: tuple[Any, ...], added: list[tuple[int, Any]]) -> tuple[Any, ...]:
+    """``row`` without the values of columns added later that still hold the default they
+    were added with, so that older digests still verify; checks only those columns."""
+    drop = [i for i, default in added if row[i] == default]
+    if not drop:
+        return row
+    return tuple(v for i, v in enumerate(row) if i not in drop)
 
 
 def _tuple_maker(table: Table, names: list[str]) -> Callable[[Row], tuple[Any, ...]]:
@@ -93,11 +101,17 @@ def _json_text(value: Any) -> str:
     return json.dumps(_numbers_as_floats(value), sort_keys=True, separators=(",", ":"))
 
 
+#: Leaf types returned as they are (checked by exact type first: the common, cheap case).
+_KEPT = frozenset({float, str, bool, type(None)})
+
+
 def _numbers_as_floats(value: Any) -> Any:
+    if type(value) in _KEPT:
+        return value
     if isinstance(value, dict):
-        return {k: _numbers_as_floats(v) for k, v in value.items()}
+        return {k: v if type(v) in _KEPT else _numbers_as_floats(v) for k, v in value.items()}
     if isinstance(value, list):
-        return [_numbers_as_floats(v) for v in value]
+        return [v if type(v) in _KEPT else _numbers_as_floats(v) for v in value]
     if isinstance(value, int) and not isinstance(value, bool):
         return float(value)
     return value

@@ -87,15 +87,22 @@ def _add_fold(rows: Rows, key: dict[str, Any], fold: FoldResult, position: int) 
         "scale_sq": _number(fold.scale_sq), "converged": fold.converged})
     rows[WARNINGS].extend({**key, "position": i, "message": message}
                           for i, message in enumerate(fold.warnings))
-    for h, period in enumerate(fold.periods, start=1):
-        rows[FORECASTS].append({
-            **key, "horizon": h, "origin": fold.origin, "period": period,
-            "actual": _number(fold.actuals[h - 1]),
-            "point": None if fold.point is None else _number(fold.point[h - 1])})
-        rows[BOUNDS].extend({**key, "horizon": h, "level": int(level),
-                             "lower": _number(lower[h - 1]),
-                             "upper": _number(fold.upper[level][h - 1])}
-                            for level, lower in fold.lower.items())
+    # The bulk of a unit's rows: built with literal keys and no call per value.
+    run_id, version = key["run_id"], key["series_version_id"]
+    cid, number, origin = fold.candidate_id, fold.fold, fold.origin
+    actuals = _numbers(fold.actuals)
+    points = [None] * len(actuals) if fold.point is None else _numbers(fold.point)
+    bounds = [(int(level), _numbers(lower), _numbers(fold.upper[level]))
+              for level, lower in fold.lower.items()]
+    rows[FORECASTS].extend(
+        {"run_id": run_id, "series_version_id": version, "candidate_id": cid, "fold": number,
+         "horizon": h, "origin": origin, "period": period, "actual": actual, "point": point}
+        for h, period, actual, point in zip(range(1, len(actuals) + 1), fold.periods, actuals,
+                                            points))
+    rows[BOUNDS].extend(
+        {"run_id": run_id, "series_version_id": version, "candidate_id": cid, "fold": number,
+         "horizon": h + 1, "level": level, "lower": lower[h], "upper": upper[h]}
+        for h in range(len(actuals)) for level, lower, upper in bounds)
 
 
 def _score_row(score: Score) -> dict[str, Any]:
@@ -176,6 +183,11 @@ def _grouped(rows: Sequence[Row], order: str) -> dict[tuple[str, int], list[Row]
 
 def _number(value: float | None) -> float | None:
     return None if value is None or math.isnan(value) else float(value)
+
+
+def _numbers(values: Sequence[float]) -> list[float | None]:
+    """:func:`_number` of each value (``v != v`` is NaN's test, inlined)."""
+    return [None if v is None or v != v else float(v) for v in values]
 
 
 def _float(value: float | None) -> float:

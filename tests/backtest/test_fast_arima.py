@@ -17,8 +17,9 @@ from backtest.folds import plan_origins
 from backtest.models import fast_arima_kernel as kernel
 from backtest.models.arima import ArimaSpec
 from backtest.models.arima_search import ArimaSearchSpec
-from backtest.models.fast_arima import EstimatorFallback, fast_estimate, fast_fit, fast_loglike
+from backtest.models.fast_arima import fast_estimate, fast_fit, fast_loglike
 from backtest.models.fast_arima_trial import information_criterion
+from backtest.models.fast_fallback import EstimatorFallback
 from backtest.plan import parse_plan
 from backtest.runner import run_candidate
 from backtest.series import make_series

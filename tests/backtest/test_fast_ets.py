@@ -16,8 +16,8 @@ from backtest.candidates import parse_candidate
 from backtest.folds import plan_origins
 from backtest.models import fast_ets_kernel as kernel
 from backtest.models.ets import EtsSpec
-from backtest.models.fast_arima import EstimatorFallback
 from backtest.models.fast_ets import EtsClass, fast_estimate, fast_fit, fast_loglike, start_values
+from backtest.models.fast_fallback import EstimatorFallback
 from backtest.plan import parse_plan
 from backtest.runner import run_candidate
 from backtest.series import make_series

@@ -15,6 +15,7 @@ import json
 import numpy as np
 import pytest
 import statsmodels.api as sm
+from scipy import stats
 
 from backtest.assessment.comparison import (
     compare_to_benchmark,
@@ -153,6 +154,67 @@ def test_pairwise_covers_every_pair():
     good_bench = [row for row in out["rows"] if row["first"] == "good"
                   and row["second"] == "bench"]
     assert {row["verdict"] for row in good_bench} == {"first_better"}
+
+
+def _one_test(e1, e2, h, loss):
+    """The DM/HLN statistics of one pair by the formulas in the module docstring, with
+    numpy on that pair's vectors alone (gamma_k as a dot product, divisor T) and scipy
+    1.17.1's distributions: the per-pair computation the batched tests must reproduce."""
+    g = np.square if loss == "squared" else np.abs
+    d = g(e1) - g(e2)
+    n = len(d)
+    centred = d - d.mean()
+    gamma = np.array([centred[k:] @ centred[: n - k] / n for k in range(h)])
+    variance = gamma[0] + 2.0 * gamma[1:].sum()
+    if variance <= 1e-12 * float(np.mean(d**2)):
+        variance = gamma[0] + 2.0 * ((1.0 - np.arange(1, h) / h) @ gamma[1:])
+    dm = d.mean() / np.sqrt(variance / n)
+    hln = dm * np.sqrt((n + 1 - 2 * h + h * (h - 1) / n) / n)
+    return {"mean_difference": float(d.mean()), "variance": float(variance), "dm": float(dm),
+            "hln": float(hln), "p_value_normal": 2.0 * stats.norm.sf(abs(dm)),
+            "p_value": 2.0 * stats.t.sf(abs(hln), n - 1),
+            "p_value_first_better": stats.t.cdf(hln, n - 1)}
+
+
+def test_tests_computed_together_equal_each_pair_computed_alone():
+    # Every pair's tests are computed in batches across pairs, horizons and losses; each
+    # figure must be the one its own pair gives, to the last bit for the arithmetic (the
+    # stored evidence and its audit digests depend on it), whatever the missing folds.
+    rng = np.random.default_rng(18)
+    errors = {f"m{j}": rng.normal(scale=1 + j, size=(30, 6)) for j in range(4)}
+    errors["m1"][[3, 17], 2] = np.nan
+    errors["m2"][9] = np.nan
+    checked = 0
+    for row in pairwise(errors)["rows"]:
+        column = row["horizon"] - 1
+        a, b = errors[row["first"]][:, column], errors[row["second"]][:, column]
+        both = np.isfinite(a) & np.isfinite(b)
+        expected = _one_test(a[both], b[both], row["horizon"], row["loss"])
+        test = row["test"]
+        assert test["n"] == both.sum()
+        for key in ("mean_difference", "variance", "dm", "hln"):
+            assert test[key] == expected[key], (row["first"], row["second"], key)
+        for key in ("p_value_normal", "p_value", "p_value_first_better"):
+            assert test[key] == pytest.approx(expected[key], rel=1e-12, abs=1e-300)
+        checked += 1
+    assert checked == 6 * 6 * 2  # pairs x horizons x losses
+    kernels = {row["test"]["kernel"] for row in pairwise(errors)["rows"]}
+    assert kernels == {"rectangular", "bartlett"}  # both variance rules were exercised
+
+
+def test_tests_computed_together_match_statsmodels_hac():
+    # statsmodels 0.15.0, as in the single-pair HAC test above, on rows of a batch.
+    rng = np.random.default_rng(5)
+    errors = {"a": rng.normal(size=(24, 3)), "b": 1.3 * rng.normal(size=(24, 3))}
+    for row in pairwise(errors, losses=("squared",))["rows"]:
+        if row["test"]["kernel"] != "rectangular":
+            continue
+        h = row["horizon"]
+        d = np.square(errors["a"][:, h - 1]) - np.square(errors["b"][:, h - 1])
+        ols = sm.OLS(d, np.ones_like(d)).fit(
+            cov_type="HAC", cov_kwds={"kernel": "uniform", "maxlags": h - 1,
+                                      "use_correction": False})
+        assert row["test"]["dm"] == pytest.approx(ols.tvalues[0], rel=1e-10)
 
 
 def _mcs_losses():
