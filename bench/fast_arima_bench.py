@@ -209,6 +209,11 @@ def _hand_fold(hand, z: np.ndarray) -> tuple[np.ndarray, float]:
     return _quiet(lambda: hand.forecast(results, z)), float(results.llf)
 
 
+#: statsmodels' L-BFGS-B options for a fit run to a strict stop (its default: pgtol 1e-5,
+#: factr 1e7). statsmodels adds keys to the dict it is given, so each fit gets a copy.
+STRICT_STOP = {"pgtol": 1e-10, "factr": 10.0, "maxiter": 2000}
+
+
 def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
     """Engine at refit cadence 1 against the hand loop on the generated panel (20 series x
     3 candidates): the hand loop fits statsmodels at every origin in this process; the
@@ -268,6 +273,7 @@ def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
         for f in sr.folds:
             params[sr.series["key"], f.candidate_id].append(f.params)
     agree, better, total, worst_agreeing, worst_any, same_params = 0, 0, 0, 0.0, 0.0, 0.0
+    worst_strict = 0.0
     for s in series:
         values = np.log(np.asarray(s.values, float))
         for cid, spec, model_of in zip(arima_ids, (c.spec for c in candidates[:2]), HAND):
@@ -288,6 +294,11 @@ def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
                 if abs(gap) <= 1e-6:
                     agree += 1
                     worst_agreeing = max(worst_agreeing, rel)
+                    strict = _quiet(lambda model_of=model_of, z=values[:end]: model_of.build(
+                        z).fit(method_kwargs=dict(STRICT_STOP)))
+                    refitted = model_of.forecast(strict, values[:end])
+                    worst_strict = max(worst_strict, float(np.max(
+                        np.abs(ours[s.key, cid][k] - refitted) / np.abs(refitted))))
     ets = float(np.max([np.max(np.abs(ours[s.key, ids[2]] - hand[s.key, ids[2]])
                                 / np.abs(hand[s.key, ids[2]])) for s in series]))
     print(f"  ARIMA folds (fast engine against the hand loop's statsmodels fits), {total} in "
@@ -297,6 +308,11 @@ def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
           f"{worst_any:.1e}); the hand loop's statsmodels forecast at the engine's own "
           f"estimates differs by at most {same_params:.1e} relative; ETS folds: {ets:.1e} "
           "relative")
+    print(f"  statsmodels' default fit stops at a projected gradient of 1e-5, so two optima "
+          f"within 1e-6 in log-likelihood can still differ in the fourth digit of a "
+          f"coefficient; those {agree} folds re-fitted by statsmodels to a strict stop "
+          f"(pgtol 1e-10, factr 10): forecasts and bounds within {worst_strict:.1e} relative "
+          "of the engine's (target 1e-6)")
 
 
 def part_split(jobs: int) -> None:
