@@ -2,8 +2,9 @@
 
 Parts (all by default; ``--part`` picks one, repeated several):
 
-- ``compile``: the first-call cost of the compiled likelihood, in a fresh process with an
-  empty numba cache (compiling) and again with the cache filled (loading).
+- ``compile``: the first-call cost in a fresh process with an empty numba cache
+  (compiling) and again with the cache filled (loading): of the fast ARIMA likelihood, and
+  of everything the worker warms at start (``backtest.warm_up``).
 - ``fit``: one estimation of each model on log Series G (Box & Jenkins 1976, from
   ``tests/data``): the airline model ARIMA(0,1,1)×(0,1,1) and ARIMA(1,0,0)×(0,1,1), season 12,
   with drift (the engine bench's panel models), fast and reference interleaved, median CPU
@@ -44,9 +45,7 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads its BLAS
 
 import argparse  # noqa: E402
-import subprocess  # noqa: E402
 import sys  # noqa: E402
-import tempfile  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
 from pathlib import Path  # noqa: E402
@@ -58,6 +57,8 @@ from threadpoolctl import threadpool_limits  # noqa: E402
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "bench"))
+
+from first_call import print_first_call_cost  # noqa: E402
 
 from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.engine import run_backtest  # noqa: E402
@@ -85,16 +86,10 @@ def _quiet(call):
 
 
 def part_compile() -> None:
-    code = ("import time; t = time.perf_counter(); "
-            "from backtest.models.fast_arima import warm_up; s = warm_up(); "
-            "print(f'{time.perf_counter() - t:.2f} {s:.2f}')")
-    with tempfile.TemporaryDirectory() as cache:
-        env = {**os.environ, "NUMBA_CACHE_DIR": cache}
-        for what in ("empty cache (compiles)", "filled cache (loads)"):
-            out = subprocess.run([sys.executable, "-c", code], env=env, cwd=ROOT, check=True,
-                                 capture_output=True, text=True).stdout.split()
-            print(f"  first call, {what:24s}: import + warm-up {float(out[0]):6.2f} s, "
-                  f"warm-up {float(out[1]):6.2f} s")
+    """The fast ARIMA likelihood alone, then everything the worker warms at start
+    (:mod:`backtest.warm_up`: both estimators, fold summaries, forecasts)."""
+    print_first_call_cost("backtest.models.fast_arima")
+    print_first_call_cost("backtest.warm_up")
 
 
 def part_fit(repeats: int) -> None:

@@ -29,9 +29,7 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads its BLAS
 
 import argparse  # noqa: E402
-import subprocess  # noqa: E402
 import sys  # noqa: E402
-import tempfile  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
 from pathlib import Path  # noqa: E402
@@ -42,6 +40,8 @@ from threadpoolctl import threadpool_limits  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+
+from first_call import print_first_call_cost  # noqa: E402
 
 from backtest.models.fast_ets import fast_estimate, warm_up  # noqa: E402
 from backtest.models.fast_fallback import FastEstimationError  # noqa: E402
@@ -60,16 +60,7 @@ def _quiet(call):
 
 
 def part_compile() -> None:
-    code = ("import time; t = time.perf_counter(); "
-            "from backtest.models.fast_ets import warm_up; s = warm_up(); "
-            "print(f'{time.perf_counter() - t:.2f} {s:.2f}')")
-    with tempfile.TemporaryDirectory() as cache:
-        env = {**os.environ, "NUMBA_CACHE_DIR": cache}
-        for what in ("empty cache (compiles)", "filled cache (loads)"):
-            out = subprocess.run([sys.executable, "-c", code], env=env, cwd=ROOT, check=True,
-                                 capture_output=True, text=True).stdout.split()
-            print(f"  first call, {what:24s}: import + warm-up {float(out[0]):6.2f} s, "
-                  f"warm-up {float(out[1]):6.2f} s")
+    print_first_call_cost("backtest.models.fast_ets")
 
 
 def _timed(call) -> tuple[object, float, float]:
