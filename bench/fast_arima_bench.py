@@ -15,6 +15,14 @@ Parts (all by default; ``--part`` picks one, repeated several):
   ARIMA(1,0,0)×(0,1,1) with drift, both on logs, with the plan's benchmark), 36 origins,
   refit cadence 1, ``assessment: "lean"``, one process; the smallest of ``--repeats`` runs,
   in total and for the ARIMA and the ETS candidates alone.
+- ``system``: CPU per fold of the forecasts at a fold's estimates (``forecast_stretch``
+  from one origin, as every fold calls it at refit cadence 1) of both ``fit`` models on
+  the series of ``series`` (120 monthly observations, on logs) at the fast estimates of
+  its last 36 training windows: the state-space system filled in from the parameters
+  (``backtest.models.arima_system``) against the former route, the system read back from
+  a cached statsmodels model updated to the parameters
+  (``tests/backtest/statsmodels_system.py``), interleaved, the smallest of ``--repeats``
+  passes over the folds; with the largest difference of the two routes' forecasts.
 - ``search``: the order search of one fold (``arima_search`` defaults) on log Series G at
   a few training-window ends, CPU seconds per fold under each estimator.
 - ``search-validation``: both searches on the validation cases
@@ -60,6 +68,7 @@ sys.path.insert(0, str(ROOT / "bench"))
 
 from first_call import print_first_call_cost  # noqa: E402
 
+import backtest.models.arima as arima_module  # noqa: E402
 from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.engine import run_backtest  # noqa: E402
 from backtest.models.arima import RENAMED_PARAMETERS, ArimaSpec, vector  # noqa: E402
@@ -69,6 +78,7 @@ from backtest.plan import parse_plan  # noqa: E402
 from backtest.series import make_series  # noqa: E402
 from tests.backtest.fast_arima_corpus import corpus, exact_loglike, origins  # noqa: E402
 from tests.backtest.search_validation import cases, compare  # noqa: E402
+from tests.backtest.statsmodels_system import statsmodels_system  # noqa: E402
 
 SERIES_G = ROOT / "tests" / "data" / "series_g.csv"
 MODELS = {"airline": ArimaSpec((0, 1, 1), (0, 1, 1), 12),
@@ -136,6 +146,49 @@ def part_series(repeats: int) -> None:
               f"{np.median(seconds):5.2f} s of {repeats}; {STORE_ORIGINS} origins, refit 1, "
               f"lean; load {os.getloadavg()[0]:.1f})")
     print("  target: the 4 model candidates at most 1.5 s per series")
+
+
+def part_system(repeats: int) -> None:
+    """CPU per fold of the forecasts at the fold's estimates under each system route (see
+    the module docstring)."""
+    from engine_bench import LEVELS, STORE_ORIGINS, panel
+
+    y = np.log(panel(1)[0].values)
+    ends = range(len(y) - STORE_ORIGINS + 1, len(y) + 1)
+    direct = arima_module._system_at
+
+    def one_pass(spec: ArimaSpec, folds: list[tuple[int, dict[str, float]]], route) -> float:
+        arima_module._system_at = route
+        try:
+            began = time.process_time()
+            for end, params in folds:
+                spec.forecast_stretch(y[:end], 12, params, [end], 12, LEVELS, [0])
+            return (time.process_time() - began) / len(folds)
+        finally:
+            arima_module._system_at = direct
+
+    for name, spec in MODELS.items():
+        folds = [(end, _quiet(lambda end=end, spec=spec: spec.fit(
+            y[:end], 12, estimator="fast", keep_raw=False).params)) for end in ends]
+        seconds: dict[str, list[float]] = {"direct": [], "statsmodels": []}
+        for _ in range(repeats):
+            seconds["statsmodels"].append(one_pass(spec, folds, statsmodels_system))
+            seconds["direct"].append(one_pass(spec, folds, direct))
+        gap = 0.0
+        for end, params in folds:
+            (ours,) = spec.forecast_stretch(y[:end], 12, params, [end], 12, LEVELS, [0])
+            arima_module._system_at = statsmodels_system
+            try:
+                (former,) = spec.forecast_stretch(y[:end], 12, params, [end], 12, LEVELS, [0])
+            finally:
+                arima_module._system_at = direct
+            gap = max(gap, float(np.max(np.abs(ours.mean - former.mean))),
+                      *(float(np.max(np.abs(ours.upper[level] - former.upper[level])))
+                        for level in LEVELS))
+        before, after = min(seconds["statsmodels"]), min(seconds["direct"])
+        print(f"  {name:40s} CPU per fold: statsmodels system {before * 1e3:6.3f} ms  "
+              f"filled in {after * 1e3:6.3f} ms  ratio {before / after:4.1f}x  "
+              f"({len(folds)} folds; largest forecast difference {gap:.1e} on the log scale)")
 
 
 def part_search(folds: int) -> None:
@@ -402,8 +455,8 @@ def part_corpus(per_spec: int) -> None:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--part", action="append",
-                        choices=("compile", "fit", "series", "search", "search-validation",
-                                 "engine", "corpus", "panel", "split"),
+                        choices=("compile", "fit", "series", "system", "search",
+                                 "search-validation", "engine", "corpus", "panel", "split"),
                         help="repeat for several")
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--search-folds", type=int, default=6)
@@ -420,6 +473,7 @@ def main() -> None:
     print(f"warm-up in this process: {warm_up():.2f} s")
     parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
              "series": lambda: part_series(args.repeats),
+             "system": lambda: part_system(args.repeats),
              "search": lambda: part_search(args.search_folds),
              "search-validation": lambda: part_search_validation(args.validation),
              "engine": lambda: part_engine(args.engine_origins),

@@ -15,7 +15,8 @@ output (no smoother, no default covariance): the estimates are the same, the res
 residuals, likelihood and, on request, covariances (``cov_params_approx``, ...). Forecasts,
 from the estimation origin or from a stretch of later origins with fixed parameters, come
 from one filter pass (:mod:`.kalman_stretch`) of the compiled copy of statsmodels' filter
-(:mod:`.compiled_filter`) at the statsmodels model's matrices.
+(:mod:`.compiled_filter`) at the statsmodels model's matrices (filled in from the
+parameters by :mod:`.arima_system`).
 
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_arima`,
 same likelihood); forecasts and results still come from the statsmodels model at those
@@ -27,7 +28,6 @@ warning giving the reason).
 from __future__ import annotations
 
 import functools
-import threading
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar, Literal, cast
@@ -38,6 +38,7 @@ from statsmodels.tsa.statespace.kalman_filter import MEMORY_NO_SMOOTHING
 
 from backtest.errors import CandidateError
 from backtest.labels import arima_label
+from backtest.models.arima_system import ArimaLayout
 from backtest.models.base import (
     Estimator,
     Fit,
@@ -209,12 +210,12 @@ class ArimaSpec(ModelSpec):
                          seeds: Sequence[int]) -> list[Forecast]:
         """Forecasts from every origin in ``ends`` with one Kalman filter pass over ``y``:
         statsmodels' filter (:mod:`.compiled_filter`) with the statsmodels model's
-        matrices and initialisation at ``params``, taken from a model of ``spec`` on
-        placeholder data (they depend on the parameters only), so that no model is built
-        on ``y``. Data of extreme scale (:meth:`rescaling` not 1) are filtered by
-        statsmodels itself: there the 1e6 start variance of the differencing states
-        dwarfs the data's, the covariances carry rounding noise of the data's own size,
-        and only statsmodels' arithmetic gives statsmodels' forecasts."""
+        matrices and initialisation at ``params``, filled in from the parameters
+        (:mod:`.arima_system`), so that no model is built on ``y``. Data of extreme scale
+        (:meth:`rescaling` not 1) are filtered by statsmodels itself: there the 1e6 start
+        variance of the differencing states dwarfs the data's, the covariances carry
+        rounding noise of the data's own size, and only statsmodels' arithmetic gives
+        statsmodels' forecasts."""
         y = np.asarray(y, dtype=float)
         at = np.asarray(ends, dtype=np.int64)
         if self.rescaling(y, season_length) != 1.0:
@@ -245,38 +246,19 @@ class ArimaSpec(ModelSpec):
         return np.zeros(times.shape)
 
 
-#: Guards the placeholder models of :func:`_system_at` (updated in place) across threads.
-_PLACEHOLDER_LOCK = threading.Lock()
-
-
 @functools.lru_cache(maxsize=64)
-def _placeholder(spec: ArimaSpec, season_length: int) -> ARIMA:
-    """The statsmodels model of ``spec`` on zeros (its state-space matrices and
-    initialisation depend on the parameters alone, not on the data)."""
-    return spec.model(np.zeros(spec.min_train(season_length)), season_length)
+def _layout(spec: ArimaSpec, season_length: int) -> ArimaLayout:
+    """The parameter-free part of the statsmodels model of ``spec``, read from a model on
+    zeros (its matrices do not depend on the data)."""
+    return ArimaLayout.of(spec.model(np.zeros(spec.min_train(season_length)), season_length))
 
 
 def _system_at(spec: ArimaSpec, season_length: int, params: Params
                ) -> tuple[LinearSystem, np.ndarray, np.ndarray]:
     """The statsmodels model's matrices at ``params`` and its initial state mean and
     covariance (the differencing states approximately diffuse, the ARMA states at their
-    stationary covariance).
-
-    Raises
-    ------
-    ValueError
-        If the initialisation has an exact diffuse part (statsmodels' ARIMA has none).
-    """
-    with _PLACEHOLDER_LOCK:
-        model = _placeholder(spec, season_length)
-        model.update(vector(model, params), transformed=True)
-        system = LinearSystem.of(model)
-        initial_mean, diffuse, initial_cov = model.ssm.initialization(model=model.ssm)
-        system = LinearSystem(system.design.copy(), system.obs_var, system.transition.copy(),
-                              system.state_intercept.copy(), system.disturbance_cov.copy())
-    if np.any(diffuse):
-        raise ValueError("the compiled filter does not handle an exact diffuse initialisation")
-    return system, np.array(initial_mean, dtype=float), np.array(initial_cov, dtype=float)
+    stationary covariance), filled in from the parameters (:mod:`.arima_system`)."""
+    return _layout(spec, season_length).system_at(params)
 
 
 def _scale_powers(model: ARIMA) -> np.ndarray:
