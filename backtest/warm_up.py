@@ -2,9 +2,10 @@
 
 A small backtest of one seasonal ARIMA (with drift) and one ETS candidate, under the fast
 estimator and the full assessment, calls every compiled function the engine uses: the
-likelihoods and their gradients, the curvature and one-step errors of the fold summaries
-and the kept-parameter filter of the forecasts. numba compiles them, or loads them from
-its disk cache (:mod:`backtest.models.compiled`), now rather than inside the first run.
+likelihoods and their gradients, the curvature and one-step errors of the fold summaries,
+the kept-parameter ARIMA filter and the ETS smoothing pass of the forecasts. numba
+compiles them, or loads them from its disk cache (:mod:`backtest.models.compiled`), now
+rather than inside the first run.
 """
 
 from __future__ import annotations

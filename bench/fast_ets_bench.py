@@ -17,6 +17,15 @@ Parts (all by default; ``--part`` picks one):
   estimate, statsmodels' log-likelihood at each, the largest smoothing-parameter
   difference and the largest relative difference of 12-step point forecasts.
 
+- ``forecast``: CPU per fold of the forecasts from one estimation origin (a rolling-origin
+  backtest at refit cadence 1: 36 origins on the first 120 values of Series G, horizon 12,
+  levels 80 and 95), for the panel classes and one simulated class (MAM): the compiled
+  smoothing pass (``forecast_stretch``, what the engine runs) against statsmodels' pass
+  (``ETSModel`` built and ``smooth`` run per fold, the route before it), the same
+  forecasts built from each; then whole folds (fast estimate + forecasts) both ways.
+  Blocks of the 36 origins alternate between the two routes; medians over ``--repeats``
+  blocks.
+
     python bench/fast_ets_bench.py [--part fit] [--repeats 5] [--origins 12]
 
 Not a test: timings depend on the machine and its load (printed first).
@@ -100,6 +109,51 @@ def part_fit(repeats: int) -> None:
           f"{min(ratios.values()):.1f}x, median {np.median(list(ratios.values())):.1f}x")
 
 
+def _statsmodels_pass_forecast(spec, y, params, horizon, levels, seed):
+    """The forecasts from statsmodels' smoothing pass: a model built, ``smooth`` run, its
+    states put in the compiled pass's layout (level, trend, season)."""
+    model = spec.model(y, 12)
+    fitted, states = model.smooth(np.array([params[n] for n in model.param_names]),
+                                  return_raw=True)
+    layout = np.column_stack([states[c].to_numpy(float) if c in states else np.zeros(len(y))
+                              for c in ("level", "trend", "seasonal")])
+    return spec.forecasts_from_pass(y, 12, params, fitted.to_numpy(float), layout, [len(y)],
+                                    horizon, levels, [seed])[0]
+
+
+def _compiled_pass_forecast(spec, y, params, horizon, levels, seed):
+    """The forecasts as the engine makes them (the compiled smoothing pass)."""
+    return spec.forecast_stretch(y, 12, params, [len(y)], horizon, levels, [seed])[0]
+
+
+def part_forecast(repeats: int) -> None:
+    """CPU per fold, the compiled pass against statsmodels' pass, blocks interleaved."""
+    g = pd.read_csv(SERIES_G).iloc[:, 1].to_numpy(float)[:120]
+    ends, horizon, levels = range(84, 120), 12, (80, 95)
+    routes = {"compiled": _compiled_pass_forecast, "statsmodels": _statsmodels_pass_forecast}
+    for code in (*PANEL, "MAM"):
+        spec = _ets(code)
+        params = {end: fast_estimate(spec, g[:end], 12).params for end in ends}
+
+        def block(route, estimate: bool, spec=spec, params=params):
+            for end in ends:
+                p = fast_estimate(spec, g[:end], 12).params if estimate else params[end]
+                route(spec, g[:end], p, horizon, levels, end)
+
+        cpu: dict[tuple[str, bool], list[float]] = {}
+        for _ in range(repeats):
+            for estimate in (False, True):
+                for name, route in routes.items():
+                    seconds = _timed(lambda r=route, e=estimate: block(r, e))[1]
+                    cpu.setdefault((name, estimate), []).append(seconds / len(ends))
+        ms = {key: float(np.median(v)) * 1e3 for key, v in cpu.items()}
+        for estimate, what in ((False, "forecast"), (True, "whole fold")):
+            new, old = ms[("compiled", estimate)], ms[("statsmodels", estimate)]
+            print(f"  {spec.label(12):17s} {what:10s} CPU per fold: statsmodels pass "
+                  f"{old:6.3f} ms, compiled pass {new:6.3f} ms: {old / new:5.1f}x, "
+                  f"{old - new:6.3f} ms saved")
+
+
 def part_corpus(per_spec: int) -> None:
     rows, failures = [], []
     for item in corpus("full"):
@@ -153,7 +207,7 @@ def part_corpus(per_spec: int) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--part", choices=("compile", "fit", "corpus"))
+    parser.add_argument("--part", choices=("compile", "fit", "forecast", "corpus"))
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--origins", type=int, default=12, help="corpus origins per model")
     args = parser.parse_args()
@@ -161,6 +215,7 @@ def main() -> None:
           f"{os.getloadavg()[2]:.2f} on {os.cpu_count()} cores; one BLAS thread")
     print(f"warm-up in this process: {warm_up():.2f} s")
     parts = {"compile": part_compile, "fit": lambda: part_fit(args.repeats),
+             "forecast": lambda: part_forecast(args.repeats),
              "corpus": lambda: part_corpus(args.origins)}
     with threadpool_limits(limits=1):
         for name, run in parts.items():

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from typing import Any, ClassVar, Literal
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 from backtest.errors import CandidateError
 from backtest.transforms import Transform
@@ -170,10 +170,12 @@ def back_transform(transform: Transform, forecast: Forecast) -> Forecast:
 
 
 def normal_bounds(mean: np.ndarray, sd: np.ndarray, levels: tuple[int, ...]) -> Forecast:
-    """Gaussian central intervals ``mean +/- z * sd`` for each level."""
+    """Gaussian central intervals ``mean +/- z * sd`` for each level (``z`` from
+    ``scipy.special.ndtri``, the function ``scipy.stats.norm.ppf`` evaluates, without its
+    argument checking, which cost more than the rest of a forecast)."""
     lower, upper = {}, {}
     for level in levels:
-        z = stats.norm.ppf(0.5 + level / 200.0)
+        z = special.ndtri(0.5 + level / 200.0)
         lower[level], upper[level] = mean - z * sd, mean + z * sd
     return Forecast(mean, lower, upper)
 

@@ -5,15 +5,16 @@ additive-error models) and otherwise simulated sample paths; the simulation is s
 from the plan's seed and the fold, so results are reproducible.
 
 Forecasts from an estimation origin, and from a stretch of origins with fixed parameters,
-come from one smoothing pass (:mod:`.ets_stretch`) and equal statsmodels' per-origin
-predictions; statsmodels' own route builds a results object, with its numerical
-covariance, for every origin.
+come from one compiled smoothing pass (:func:`.fast_ets_kernel.smoothing_pass`, the
+operations of statsmodels' smoother) and the recursions of :mod:`.ets_stretch`, and equal
+statsmodels' per-origin predictions; statsmodels' own route builds a model and a results
+object, with its numerical covariance, for every origin.
 
 ``estimator="fast"`` estimates with the compiled estimator instead (:mod:`.fast_ets`, the
-same likelihood, bounds and start values); forecasts and results still come from the
-statsmodels model at those estimates. The parameters then carry ``estimator`` (1 fast,
-0 the fast estimator failed and the reference estimated the fold, with a
-:class:`~.fast_fallback.EstimatorFallback` warning giving the reason).
+same likelihood, bounds and start values); the forecasts come from the same pass at those
+estimates, and the results object (when kept) from the statsmodels model. The parameters
+then carry ``estimator`` (1 fast, 0 the fast estimator failed and the reference estimated
+the fold, with a :class:`~.fast_fallback.EstimatorFallback` warning giving the reason).
 """
 
 from __future__ import annotations
@@ -30,6 +31,7 @@ from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 
 from backtest.errors import CandidateError
 from backtest.labels import ets_label
+from backtest.models import fast_ets_kernel as kernel
 from backtest.models.base import (
     Estimator,
     Fit,
@@ -47,7 +49,7 @@ from backtest.models.ets_stretch import (
     relative_variance,
     simulated_bounds,
 )
-from backtest.models.fast_ets import fast_fit
+from backtest.models.fast_ets import EtsClass, fast_fit
 from backtest.models.fast_fallback import ESTIMATOR_KEY
 from backtest.models.origin_bounds import forecasts_by_origin
 from backtest.transforms import Transform, parse_transform
@@ -161,54 +163,60 @@ class EtsSpec(ModelSpec):
                      levels: tuple[int, ...], seed: int, *, start_params: Params | None = None,
                      estimator: Estimator = "reference", keep_raw: bool = True
                      ) -> tuple[Fit, Forecast]:
-        """Estimate on ``y``, then forecast from the estimation's own smoothing pass.
+        """Estimate on ``y``, then forecast from a smoothing pass at the estimates.
 
         Without ``keep_raw`` statsmodels returns the estimates alone and does not build its
         results object, whose construction computes the numerical covariance (about a
-        third of a fit); the smoothing pass is then run on its own. Estimates and forecasts
-        are the same either way. Under the fast estimator the smoothing pass runs at its
-        estimates.
+        third of a fit). Estimates and forecasts are the same either way.
         """
         if estimator == "fast":
             fit = fast_fit(self, y, season_length, start_params, keep_raw)
-            if fit.raw is not None:
-                fitted, states = fit.raw.fittedvalues, fit.raw.states
-            else:
-                model = self.model(y, season_length)
-                fitted, states = model.smooth(_vector(model, fit.params), return_raw=True)
         elif keep_raw:
             fit = self.fit(y, season_length, start_params=start_params)
-            fitted, states = fit.raw.fittedvalues, fit.raw.states
         else:
-            model = self.model(y, season_length)
-            start = None if start_params is None else _vector(model, start_params)
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always")
-                vector = model.fit(start_params=start, disp=False, return_params=True)
-            for w in caught:  # passed on to the caller, who records them
-                warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-            # statsmodels warns exactly when its optimiser reports no convergence
-            converged = not any(issubclass(w.category, ConvergenceWarning) for w in caught)
-            fit = Fit(dict(zip(model.param_names, map(float, vector))), None, converged)
-            fitted, states = model.smooth(vector, return_raw=True)
-        return fit, self._from_pass(y, season_length, fit.params, fitted.to_numpy(float),
-                                    states, [len(y)], horizon, levels, [seed])[0]
+            fit = self._estimates_only(y, season_length, start_params)
+        return fit, self.forecast_stretch(y, season_length, fit.params, [len(y)], horizon,
+                                          levels, [seed])[0]
+
+    def _estimates_only(self, y: np.ndarray, season_length: int,
+                        start_params: Params | None) -> Fit:
+        """The reference estimates without statsmodels' results object."""
+        model = self.model(y, season_length)
+        start = None if start_params is None else _vector(model, start_params)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            vector = model.fit(start_params=start, disp=False, return_params=True)
+        for w in caught:  # passed on to the caller, who records them
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        # statsmodels warns exactly when its optimiser reports no convergence
+        converged = not any(issubclass(w.category, ConvergenceWarning) for w in caught)
+        return Fit(dict(zip(model.param_names, map(float, vector))), None, converged)
 
     def forecast_stretch(self, y: np.ndarray, season_length: int, params: Params,
                          ends: Sequence[int], horizon: int, levels: tuple[int, ...],
                          seeds: Sequence[int]) -> list[Forecast]:
         """Forecasts from every origin in ``ends`` with one smoothing pass over ``y``."""
-        model = self.model(y, season_length)
-        fitted, states = model.smooth(_vector(model, params), return_raw=True)
-        return self._from_pass(y, season_length, params, fitted.to_numpy(float), states, ends,
-                               horizon, levels, seeds)
+        fitted, states = self.smoothing_pass(y, season_length, params)
+        return self.forecasts_from_pass(y, season_length, params, fitted, states, ends,
+                                        horizon, levels, seeds)
 
-    def _from_pass(self, y: np.ndarray, season_length: int, params: Params,
-                   fitted: np.ndarray, states: pd.DataFrame, ends: Sequence[int], horizon: int,
-                   levels: tuple[int, ...], seeds: Sequence[int]) -> list[Forecast]:
+    def smoothing_pass(self, y: np.ndarray, season_length: int, params: Params
+                       ) -> tuple[np.ndarray, np.ndarray]:
+        """The one-step predictions and the states (level, trend, season) after each
+        observation at ``params``, compiled (:func:`~.fast_ets_kernel.smoothing_pass`)."""
+        form = EtsClass.of(self, season_length)
+        return kernel.smoothing_pass(form.internal(params), np.ascontiguousarray(y, dtype=float),
+                                     form.m, form.season == "mul")
+
+    def forecasts_from_pass(self, y: np.ndarray, season_length: int, params: Params,
+                            fitted: np.ndarray, states: np.ndarray, ends: Sequence[int],
+                            horizon: int, levels: tuple[int, ...], seeds: Sequence[int]
+                            ) -> list[Forecast]:
+        """Forecasts from every origin in ``ends`` out of a smoothing pass over ``y`` at
+        ``params`` (``fitted`` and ``states`` as :meth:`smoothing_pass` gives them)."""
         form = self._form(params, season_length)
-        initial = [params[f"initial_seasonal.{i}"] for i in reversed(range(form.period))
-                   if self.season != "none"]
+        initial = ([params[f"initial_seasonal.{i}"] for i in reversed(range(form.period))]
+                   if self.season != "none" else [0.0])
         at = origin_states(form, np.asarray(y, dtype=float), fitted, states, np.array(initial),
                            ends)
         mean = point_forecasts(form, at, horizon)

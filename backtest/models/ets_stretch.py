@@ -29,7 +29,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 #: Origins simulated together; bounds the memory of the simulated paths.
 _BLOCK = 32
@@ -65,7 +64,7 @@ class OriginStates:
     scale: np.ndarray
 
 
-def origin_states(form: EtsForm, y: np.ndarray, fitted: np.ndarray, states: pd.DataFrame,
+def origin_states(form: EtsForm, y: np.ndarray, fitted: np.ndarray, states: np.ndarray,
                   initial_seasons: np.ndarray, ends: Sequence[int]) -> OriginStates:
     """States and scales at ``ends`` from one smoothing pass.
 
@@ -73,22 +72,19 @@ def origin_states(form: EtsForm, y: np.ndarray, fitted: np.ndarray, states: pd.D
     ----------
     form : the model.
     y, fitted : observations and one-step predictions of the pass.
-    states : statsmodels' states after each observation (columns ``level`` and, where the
-        model has them, ``trend`` and ``seasonal``).
-    initial_seasons : seasonal states before the first observation, oldest first (empty
-        without a season).
+    states : the states after each observation, shape ``(len(y), 3)``: level, trend and
+        the new seasonal state, 0 for a component the class lacks
+        (:func:`~.fast_ets_kernel.smoothing_pass`).
+    initial_seasons : the ``form.period`` seasonal states before the first observation,
+        oldest first (``[0]`` without a season).
     ends : origins as numbers of observations.
     """
     at = np.asarray(ends, dtype=int)
     errors = (y - fitted) / fitted if form.multiplicative_error else y - fitted
     scale = np.cumsum(errors**2)[at - 1] / at
-    level = states["level"].to_numpy(float)[at - 1]
-    trend = states["trend"].to_numpy(float)[at - 1] if "trend" in states else np.zeros(len(at))
-    if "seasonal" not in states:
-        return OriginStates(level, trend, np.zeros((len(at), 1)), scale)
-    history = np.concatenate([initial_seasons, states["seasonal"].to_numpy(float)])
+    history = np.concatenate([initial_seasons, states[:, 2]])
     seasons = history[at[:, None] + np.arange(form.period)]
-    return OriginStates(level, trend, seasons, scale)
+    return OriginStates(states[at - 1, 0], states[at - 1, 1], seasons, scale)
 
 
 def point_forecasts(form: EtsForm, states: OriginStates, horizon: int) -> np.ndarray:

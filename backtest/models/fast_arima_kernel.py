@@ -6,11 +6,11 @@ Its exact likelihood is computed by a Kalman filter over Harvey's state (dimensi
 ``r = max(p, q + 1)``, transition with the AR coefficients in the first column and ones
 above the diagonal, disturbance loading ``(1, theta_1, ..., theta_{r-1})``), started
 from the stationary covariance (Durbin & Koopman 2012, section 3.4; Harvey 1989,
-section 3.4). The observation carries no noise, so after each update the first row of
-the state covariance is zero and the prediction step is a shift plus ``R R'``. Once the
-covariance stops changing the filter continues with the steady gain. With the filter
-run at unit variance, ``beta`` (GLS) and the innovation variance are concentrated out
-(Harvey 1989, section 3.4.2): the profile log-likelihood is
+section 3.4); its covariance is carried by the Chandrasekhar recursions (O(r) per
+step, see :func:`filter_errors`). Once the covariance stops changing the filter
+continues with the steady gain. With the filter run at unit variance, ``beta`` (GLS) and
+the innovation variance are concentrated out (Harvey 1989, section 3.4.2): the profile
+log-likelihood is
 
     -n/2 (log 2 pi + 1 + log sigma2_hat) - 1/2 sum log F_t.
 
@@ -25,8 +25,13 @@ Durbin, J. and Koopman, S. J. (2012). *Time Series Analysis by State Space Metho
 2nd ed., Oxford University Press.
 Harvey, A. C. (1989). *Forecasting, Structural Time Series Models and the Kalman Filter*.
 Cambridge University Press.
+Herbst, E. (2015). Using the "Chandrasekhar recursions" for likelihood evaluation of DSGE
+models. *Computational Economics* 45(4).
 Monahan, J. F. (1984). A note on enforcing stationarity in autoregressive-moving average
 models. *Biometrika* 71(2), 403-404.
+Morf, M., Sidhu, G. S. and Kailath, T. (1974). Some new algorithms for recursive
+estimation in constant, linear, discrete-time systems. *IEEE Transactions on Automatic
+Control* 19(4), 315-323.
 """
 
 from __future__ import annotations
@@ -95,10 +100,31 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
     """Stationary covariance of Harvey's state at unit innovation variance.
 
     ``phi`` and ``loading`` (``(1, theta_1, ...)``) have the state's length ``r``. The
-    first row comes from the autocovariances and the psi weights; the rest from the
-    element-wise Lyapunov equation ``P_ij = phi_i phi_j g0 + R_i R_j + phi_i P_1,j+1 +
-    phi_j P_1,i+1 + P_i+1,j+1`` filled from the bottom right corner.
+    first row is :func:`stationary_first_row`; the rest comes from the element-wise
+    Lyapunov equation ``P_ij = phi_i phi_j g0 + R_i R_j + phi_i P_1,j+1 + phi_j P_1,i+1 +
+    P_i+1,j+1`` filled from the bottom right corner.
     """
+    r = phi.shape[0]
+    cov = np.zeros((r, r))
+    first = stationary_first_row(phi, loading)
+    cov[0, :] = first
+    cov[:, 0] = first
+    for i in range(r - 1, 0, -1):
+        for j in range(r - 1, i - 1, -1):
+            value = phi[i] * phi[j] * first[0] + loading[i] * loading[j]
+            value += phi[i] * (cov[0, j + 1] if j + 1 < r else 0.0)
+            value += phi[j] * (cov[0, i + 1] if i + 1 < r else 0.0)
+            value += cov[i + 1, j + 1] if j + 1 < r else 0.0
+            cov[i, j] = value
+            cov[j, i] = value
+    return cov
+
+
+@njit
+def stationary_first_row(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
+    """The first row of the stationary state covariance (``E[y_t alpha_t]``), from the
+    autocovariances ``g`` and the psi weights: ``P_1,i = sum_{m>=i} phi_m g(m-i+1) +
+    sum_{m>=i-1} theta_m psi_{m-i+1}``, ``P_1,1 = g(0)``."""
     r = phi.shape[0]
     n_ar = 0
     for k in range(r):
@@ -132,26 +158,16 @@ def stationary_cov(phi: np.ndarray, loading: np.ndarray) -> np.ndarray:
         for k in range(1, n_ar + 1):
             value += phi[k - 1] * gamma[h - k]
         gamma[h] = value
-    cov = np.zeros((r, r))
-    # first row: E[y_t alpha_{t,i}] = sum_{m>=i} phi_m g(m-i+1) + sum_{m>=i-1} theta_m psi_{m-i+1}
-    cov[0, 0] = gamma[0]
+    first = np.zeros(r)
+    first[0] = gamma[0]
     for i in range(1, r):
         total = 0.0
         for k in range(i, r):
             total += phi[k] * gamma[k - i + 1]
         for k in range(i, r):
             total += loading[k] * psi[k - i]
-        cov[0, i] = total
-        cov[i, 0] = total
-    for i in range(r - 1, 0, -1):
-        for j in range(r - 1, i - 1, -1):
-            value = phi[i] * phi[j] * gamma[0] + loading[i] * loading[j]
-            value += phi[i] * (cov[0, j + 1] if j + 1 < r else 0.0)
-            value += phi[j] * (cov[0, i + 1] if i + 1 < r else 0.0)
-            value += cov[i + 1, j + 1] if j + 1 < r else 0.0
-            cov[i, j] = value
-            cov[j, i] = value
-    return cov
+        first[i] = total
+    return first
 
 
 @njit
@@ -207,7 +223,19 @@ def one_step_errors(w: np.ndarray, ar: np.ndarray, ma: np.ndarray) -> np.ndarray
 def filter_errors(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray,
                   errors: np.ndarray) -> tuple[float, float, float, float]:
     """:func:`filter_sums`, also writing each one-step error of ``w`` to ``errors`` when
-    that has ``w``'s length (an empty array: sums only)."""
+    that has ``w``'s length (an empty array: sums only).
+
+    The covariance is carried by the Chandrasekhar recursions (Morf, Sidhu & Kailath
+    1974; in the form Herbst 2015 gives them) rather than the Riccati equation: from
+    the stationary start the covariance changes by a rank-one term ``m_t d_t d_t'``, so
+    with ``F_t`` the prediction-error variance and ``K_t = T P_t e1 / F_t`` the gain,
+
+        F_{t+1} = F_t + m_t d_t1^2,   K_{t+1} = (K_t F_t + m_t d_t1 T d_t) / F_{t+1},
+        m_{t+1} = m_t F_{t+1} / F_t,  d_{t+1} = T d_t - K_{t+1} d_t1,
+
+    from ``d_1 = K_1``, ``m_1 = -F_1``: O(r) work per step instead of O(r^2). Only the
+    first row of the stationary covariance is needed (:func:`stationary_first_row`).
+    """
     keep = errors.shape[0] == w.shape[0]
     n = w.shape[0]
     r = max(ar.shape[0], ma.shape[0] + 1)
@@ -216,25 +244,25 @@ def filter_errors(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray,
     loading = np.zeros(r)
     loading[0] = 1.0
     loading[1:ma.shape[0] + 1] = ma
-    cov = stationary_cov(phi, loading)  # only its upper triangle is kept up to date
-    first_row = np.zeros(r)
+    first = stationary_first_row(phi, loading)
+    f = first[0]
+    if not f > 0.0:
+        return np.nan, np.nan, np.nan, np.nan
+    gain = np.zeros(r)  # K_t = T P_t e1 / F_t: (T v)_i = phi_i v_0 + v_{i+1}
+    for i in range(r - 1):
+        gain[i] = (phi[i] * first[0] + first[i + 1]) / f
+    gain[r - 1] = phi[r - 1] * first[0] / f
+    lead = gain.copy()  # d_t
+    scale = -f  # m_t
+    shifted = np.zeros(r)  # T d_t
     a_w = np.zeros(r)
     a_x = np.zeros(r)
-    gain = np.zeros(r)
     sum_log_f = 0.0
     s_ww = 0.0
     s_wx = 0.0
     s_xx = 0.0
     steady = False
-    f = 1.0
     for t in range(n):
-        if not steady:
-            f = cov[0, 0]
-            if not f > 0.0:
-                return np.nan, np.nan, np.nan, np.nan
-            for i in range(r):
-                first_row[i] = cov[0, i]
-                gain[i] = first_row[i] / f
         v_w = w[t] - a_w[0]
         v_x = x[t] - a_x[0]
         if keep:
@@ -243,39 +271,34 @@ def filter_errors(w: np.ndarray, x: np.ndarray, ar: np.ndarray, ma: np.ndarray,
         s_ww += v_w * v_w / f
         s_wx += v_w * v_x / f
         s_xx += v_x * v_x / f
-        # update then predict: a_{t+1,i} = phi_i a_{t|t,0} + a_{t|t,i+1}
-        first_w = a_w[0] + gain[0] * v_w
-        first_x = a_x[0] + gain[0] * v_x
+        # a_{t+1} = T a_t + K_t v_t
+        first_w = a_w[0]
+        first_x = a_x[0]
         for i in range(r - 1):
-            a_w[i] = phi[i] * first_w + a_w[i + 1] + gain[i + 1] * v_w
-            a_x[i] = phi[i] * first_x + a_x[i + 1] + gain[i + 1] * v_x
-        a_w[r - 1] = phi[r - 1] * first_w
-        a_x[r - 1] = phi[r - 1] * first_x
+            a_w[i] = phi[i] * first_w + a_w[i + 1] + gain[i] * v_w
+            a_x[i] = phi[i] * first_x + a_x[i + 1] + gain[i] * v_x
+        a_w[r - 1] = phi[r - 1] * first_w + gain[r - 1] * v_w
+        a_x[r - 1] = phi[r - 1] * first_x + gain[r - 1] * v_x
         if steady:
             continue
-        # P_{t|t} = P - P e1 e1' P / F has a zero first row, so
-        # P_{t+1} = T P_{t|t} T' + R R' is the lower-right block shifted up plus R R',
-        # filled row by row (row i reads row i + 1, not yet overwritten, and the first row
-        # as it was before the step).
+        # the covariance's change P_{t+1} - P_t = m_t d_t d_t'
         change = 0.0
+        for i in range(r):
+            change = max(change, lead[i] * lead[i])
+        change *= abs(scale)
+        head = lead[0]
+        f_next = f + scale * head * head
+        if not f_next > 0.0:
+            return np.nan, np.nan, np.nan, np.nan
         for i in range(r - 1):
-            row_gain = first_row[i + 1]
-            for j in range(i, r - 1):
-                value = (loading[i] * loading[j] + cov[i + 1, j + 1]
-                         - row_gain * gain[j + 1])
-                change = max(change, abs(value - cov[i, j]))
-                cov[i, j] = value
-            value = loading[i] * loading[r - 1]
-            change = max(change, abs(value - cov[i, r - 1]))
-            cov[i, r - 1] = value
-        value = loading[r - 1] * loading[r - 1]
-        change = max(change, abs(value - cov[r - 1, r - 1]))
-        cov[r - 1, r - 1] = value
-        steady = change < STEADY_TOLERANCE * max(1.0, abs(cov[0, 0]))
-        if steady:
-            f = cov[0, 0]
-            for i in range(r):
-                gain[i] = cov[0, i] / f
+            shifted[i] = phi[i] * head + lead[i + 1]
+        shifted[r - 1] = phi[r - 1] * head
+        for i in range(r):
+            gain[i] = (gain[i] * f + shifted[i] * scale * head) / f_next
+            lead[i] = shifted[i] - gain[i] * head
+        scale *= f_next / f
+        f = f_next
+        steady = change < STEADY_TOLERANCE * max(1.0, abs(f))
     return sum_log_f, s_ww, s_wx, s_xx
 
 

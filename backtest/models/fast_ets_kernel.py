@@ -1,4 +1,5 @@
-"""Compiled exact log-likelihood of the ETS classes, with its exact gradient.
+"""Compiled exact log-likelihood of the ETS classes, with its exact gradient, and the
+smoothing pass the forecasts start from.
 
 The recursions are statsmodels' ``ETSModel`` smoother (the error-correction form of
 Hyndman et al. 2008, ch. 2, with an additive or damped trend and an additive or
@@ -188,18 +189,23 @@ def objective(x: np.ndarray, theta: np.ndarray, y: np.ndarray, m: int,
 
 
 @njit
-def one_step_errors(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_error: bool,
-                    multiplicative_season: bool) -> np.ndarray:
-    """The one-step errors of the recursions at the internal vector ``theta``:
-    ``y - yhat``, or ``(y - yhat) / yhat`` for a multiplicative error (statsmodels'
-    ``resid``); NaN throughout where the recursions break down."""
+def smoothing_pass(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_season: bool
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """The one-step predictions and the states after each observation at the internal
+    vector ``theta``, as statsmodels' ``ETSModel.smooth`` returns them: ``states[t]`` holds
+    the level, the trend and the new seasonal state after ``y[t]`` (0 for a component the
+    class lacks). The operations and their order are statsmodels' smoother's, so the two
+    agree to rounding. Everything is NaN where the recursions break down (a division by a
+    zero season or level in a multiplicative season; statsmodels' values are then not
+    finite either)."""
     alpha, beta, gamma, phi = theta[ALPHA], theta[BETA_STAR], theta[GAMMA_STAR], theta[PHI]
     ring = np.empty(m)
     for i in range(m):
         ring[i] = theta[SEASONS + m - 1 - i]
     level, trend = theta[LEVEL], theta[TREND]
     n = y.shape[0]
-    errors = np.full(n, math.nan)
+    fitted = np.empty(n)
+    states = np.empty((n, 3))
     for t in range(n):
         r = t % m
         old = ring[r]
@@ -207,25 +213,36 @@ def one_step_errors(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_err
         base = level + phi * trend
         if multiplicative_season:
             if old == 0.0:
-                return np.full(n, math.nan)
-            yhat = base * old
+                return np.full(n, math.nan), np.full((n, 3), math.nan)
+            fitted[t] = base * old
             new_level = alpha * (yt / old) + (1 - alpha) * base
         else:
-            yhat = base + old
+            fitted[t] = base + old
             new_level = alpha * (yt - old) + (1 - alpha) * base
         new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
         if multiplicative_season:
             if new_level == 0.0:
-                return np.full(n, math.nan)
-            new_season = gamma * yt / new_level + (1 - gamma) * old
+                return np.full(n, math.nan), np.full((n, 3), math.nan)
+            new_season = gamma * (yt / new_level) + (1 - gamma) * old
         else:
             new_season = gamma * (yt - new_level) + (1 - gamma) * old
-        if multiplicative_error:
-            if yhat == 0.0:
-                return np.full(n, math.nan)
-            errors[t] = (yt - yhat) / yhat
-        else:
-            errors[t] = yt - yhat
+        states[t, 0], states[t, 1], states[t, 2] = new_level, new_trend, new_season
         level, trend = new_level, new_trend
         ring[r] = new_season
-    return errors
+    return fitted, states
+
+
+@njit
+def one_step_errors(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_error: bool,
+                    multiplicative_season: bool) -> np.ndarray:
+    """The one-step errors of the recursions at the internal vector ``theta``:
+    ``y - yhat``, or ``(y - yhat) / yhat`` for a multiplicative error (statsmodels'
+    ``resid``); NaN throughout where the recursions break down."""
+    fitted, _ = smoothing_pass(theta, y, m, multiplicative_season)
+    errors: np.ndarray = y - fitted
+    if not multiplicative_error:
+        return errors
+    if np.any(fitted == 0.0):
+        return np.full(y.shape[0], math.nan)
+    relative: np.ndarray = errors / fitted
+    return relative

@@ -6,8 +6,9 @@ import warnings
 
 import numpy as np
 import pytest
-from scipy.linalg import solve_discrete_lyapunov
+from scipy.linalg import cho_factor, cho_solve, solve_discrete_lyapunov, toeplitz
 from statsmodels.datasets import co2
+from statsmodels.tsa.arima_process import arma_acovf
 from statsmodels.tsa.statespace.tools import constrain_stationary_univariate
 
 from backtest.candidates import parse_candidate, parse_candidates
@@ -47,6 +48,22 @@ def test_stationary_covariance_solves_the_lyapunov_equation(ar, ma):
     transition[:, 0], transition[:-1, 1:] = phi, np.eye(r - 1)
     expected = solve_discrete_lyapunov(transition, np.outer(loading, loading))
     assert np.allclose(kernel.stationary_cov(phi, loading), expected, rtol=1e-10, atol=1e-12)
+
+
+@pytest.mark.parametrize(("ar", "ma"), [
+    ([0.5, -0.3], [0.4]), ([], [-0.4] + [0.0] * 10 + [-0.55, 0.22]),
+    ([0.9] + [0.0] * 10 + [0.5, -0.45], [0.3, 0.1]), ([0.97], [-0.9])])
+def test_the_filter_sums_are_the_exact_gaussian_ones(ar, ma):
+    # reference: the exact likelihood's two terms from the whole covariance matrix of the
+    # series, Sigma = Toeplitz(autocovariances) (statsmodels 0.15 arma_acovf), by a
+    # Cholesky factorisation (scipy 1.17): log det Sigma and w' Sigma^-1 w
+    w = np.random.default_rng(11).normal(size=90)
+    sum_log_f, s_ww, _, _ = kernel.filter_sums(w, np.zeros_like(w), np.array(ar, dtype=float),
+                                               np.array(ma, dtype=float))
+    factor = cho_factor(toeplitz(arma_acovf(np.r_[1.0, -np.array(ar)], np.r_[1.0, ma],
+                                            nobs=len(w))), lower=True)
+    assert sum_log_f == pytest.approx(2 * np.sum(np.log(np.diag(factor[0]))), rel=1e-10)
+    assert s_ww == pytest.approx(w @ cho_solve(factor, w), rel=1e-10)
 
 
 @pytest.fixture(scope="module")

@@ -97,8 +97,8 @@ def test_scale_is_rebuilt_per_origin(passengers):
 
 
 def test_plain_arrays_are_given_the_index_prediction_needs(passengers):
-    """statsmodels' ETS prediction fails on an endog without a pandas index; the spec adds
-    one, so plain arrays work and give the indexed reference."""
+    """statsmodels' ETS prediction fails on an endog without a pandas index; the spec's
+    forecasts work on plain arrays and give the indexed reference."""
     spec = EtsSpec("additive", "damped", "none")
     y = np.asarray(passengers[:60])
     params = _estimate(spec, y)

@@ -36,5 +36,6 @@ def test_a_second_warm_up_compiles_nothing_new_and_every_kernel_is_ready():
     assert _compiled_signatures() == after_first
     for function in (compiled_filter.predicted_states, fast_arima_kernel.objective,
                      fast_arima_kernel.one_step_errors, fast_arima_curvature.arma_differences,
-                     fast_ets_kernel.objective, fast_ets_kernel.one_step_errors):
+                     fast_ets_kernel.objective, fast_ets_kernel.one_step_errors,
+                     fast_ets_kernel.smoothing_pass):
         assert function.signatures, function.__name__
