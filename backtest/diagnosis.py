@@ -82,7 +82,10 @@ def _estimates(fold: FoldResult) -> dict[str, Any] | None:
 def full_series_diagnostics(series: Series, candidate: Candidate,
                             estimator: Estimator = "reference") -> Report:
     """Fit the candidate to every observation and report coefficients and residual tests;
-    ``estimator`` as in the plan (for ``fast_estimable`` families).
+    ``estimator`` as in the plan (for ``fast_estimable`` families). A fast fit is made
+    without statsmodels' results object and reported from the compiled likelihood (a fit
+    that fell back to the reference estimator keeps its results object and is reported
+    from it).
 
     This describes the model as it would be used today; it is not a forecast evaluation,
     so using all the data involves no look-ahead.
@@ -90,6 +93,8 @@ def full_series_diagnostics(series: Series, candidate: Candidate,
     spec, m = candidate.spec, series.season_length
     z = spec.transform.forward(np.asarray(series.values, dtype=float))
     options: dict[str, Any] = {"estimator": estimator} if spec.fast_estimable else {}
+    if estimator == "fast" and spec.fast_estimable and spec.raw_optional:
+        options["keep_raw"] = False
     with capturing_warnings() as caught:
         try:
             fit = spec.fit(z, m, **options)

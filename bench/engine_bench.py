@@ -40,7 +40,8 @@ two state-space fits per origin, and as a closed-form family it re-estimates at 
 
 Part "summary" times what the full assessment adds to a fast run at cadence 1, per fold
 and per series, with the per-fold summary computed from statsmodels' results object and
-from the compiled likelihood side by side (:func:`summary_part`).
+from the compiled likelihood side by side (:func:`summary_part`), then the full-series
+diagnostics per (series, candidate) the same two ways (:func:`diagnostics_rows`).
 
     python bench/engine_bench.py [--jobs 2] [--series 20] [--max-origins 24]
     python bench/engine_bench.py --part storage [--series 100] [--store-assessment lean]
@@ -77,7 +78,7 @@ from threadpoolctl import threadpool_limits
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from backtest.assessment import fold_fit_summary  # noqa: E402
+from backtest.assessment import fit_report, fold_fit_summary  # noqa: E402
 from backtest.candidates import parse_candidates  # noqa: E402
 from backtest.diagnosis import full_series_diagnostics  # noqa: E402
 from backtest.engine import run_backtest  # noqa: E402
@@ -657,6 +658,49 @@ def summary_part(args: argparse.Namespace) -> None:
         print(f"  {label:<46} {a:11.2f} {b:9.2f} {ratio}")
     print(f"  lean (fast fit and forecast): {fit_s['compiled'] / len(series):.2f} CPU s per "
           "series; target for full minus lean: at most 0.8 s per series")
+    diagnostics_rows(series)
+
+
+def _diagnostics_from_results(series: Series, candidate) -> dict:
+    """The full-series report from statsmodels' results object (as the worker made it
+    before the compiled report): the fast fit keeping that object, the report from it."""
+    spec = candidate.spec
+    z = spec.transform.forward(np.asarray(series.values, dtype=float))
+    fit = spec.fit(z, series.season_length, estimator="fast")
+    return fit_report(*spec.assessed(fit), z, series.season_length)
+
+
+def diagnostics_rows(series: list[Series]) -> None:
+    """CPU per full-series diagnostics call under the fast estimator, per candidate:
+    statsmodels' path (fit with results object, report from it) against
+    :func:`~backtest.diagnosis.full_series_diagnostics` (fit without it, report from the
+    compiled likelihood), interleaved with the order alternating per call."""
+    candidates = parse_candidates(STORE_CANDIDATES[4:])
+    ways = {"statsmodels": _diagnostics_from_results,
+            "compiled": lambda s, c: full_series_diagnostics(s, c, "fast")}
+    seconds = {(c.spec.label(12), w): 0.0 for c in candidates for w in ways}
+    calls = 0
+    for i, s in enumerate(series * 3):
+        for candidate in candidates:
+            for way in list(ways)[i % 2:] + list(ways)[:i % 2]:
+                gc.collect()
+                started = time.process_time()
+                _quiet(ways[way], s, candidate)
+                seconds[candidate.spec.label(12), way] += time.process_time() - started
+        calls += 1
+    print(f"\nfull-series diagnostics under the fast estimator, CPU ms per call ({calls} calls "
+          f"per candidate: {len(series)} series x 3, interleaved); load average {_load()}")
+    print(f"  {'':46} {'statsmodels':>11} {'compiled':>9} {'ratio':>6}")
+    totals = dict.fromkeys(ways, 0.0)
+    for candidate in candidates:
+        label = candidate.spec.label(12)
+        per_call = {w: seconds[label, w] / calls for w in ways}
+        for w in ways:
+            totals[w] += per_call[w]
+        a, b = per_call["statsmodels"] * 1e3, per_call["compiled"] * 1e3
+        print(f"  {label:<46} {a:11.1f} {b:9.1f} {a / b:6.1f}")
+    a, b = totals["statsmodels"], totals["compiled"]
+    print(f"  {'the four, CPU s per series':<46} {a:11.3f} {b:9.3f} {a / b:6.1f}")
 
 
 PARTS: dict[str, Callable[[argparse.Namespace], None]] = {"engine": engine_part,

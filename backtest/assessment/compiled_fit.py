@@ -1,12 +1,15 @@
-"""A fold's standard errors and one-step errors from the compiled likelihoods.
+"""A fast fit's standard errors, one-step errors and log-likelihood from the compiled
+likelihoods.
 
 A fit of the arima or ets family made by the fast estimator carries no statsmodels
 results object (building one, and statsmodels' complex-step Hessian on it, cost more than
-the estimate itself). Its fold summary takes the same quantities from the compiled
-likelihood the estimate maximised, at the estimates, in statsmodels' parameters and
-order: the covariance is minus the (pseudo-)inverse of a numerical Hessian
+the estimate itself). Its fold summary and full-series report take the same quantities
+from the compiled likelihood the estimate maximised, at the estimates, in statsmodels'
+parameters and order: the covariance is minus the (pseudo-)inverse of a numerical Hessian
 (:mod:`~backtest.models.fast_arima_curvature`, :mod:`~backtest.models.fast_ets_curvature`),
-the one-step errors are the compiled filter's. The inverse is taken after scaling the
+the one-step errors are the compiled filter's, the log-likelihood the compiled one (for
+ARIMA the exact likelihood of the differenced series, where statsmodels' ARIMA starts the
+differenced states approximately diffuse: ~1e-6 apart). The inverse is taken after scaling the
 Hessian to a unit diagonal, so that a variance of 1e-8 next to coefficients of order 1
 does not fall under the pseudo-inverse's cut-off (statsmodels inverts unscaled).
 """
@@ -21,7 +24,7 @@ from backtest.assessment.insample import (
     arima_burn_in,
     arima_model_df,
 )
-from backtest.models import fast_arima_curvature, fast_ets_curvature
+from backtest.models import fast_arima, fast_arima_curvature, fast_ets, fast_ets_curvature
 from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
 from backtest.models.ets import EtsSpec
@@ -36,8 +39,8 @@ _RCOND = 1e-15
 
 
 def compiles(spec: ModelSpec, fit: Fit) -> bool:
-    """Whether the fold summary of ``fit`` comes from the compiled likelihood: an arima or
-    ets fit without statsmodels' results object."""
+    """Whether the fold summary and report of ``fit`` come from the compiled likelihood: an
+    arima or ets fit without statsmodels' results object."""
     return fit.raw is None and isinstance(spec, ArimaSpec | EtsSpec)
 
 
@@ -73,6 +76,20 @@ def one_step_errors(spec: ArimaSpec | EtsSpec, fit: Fit, y: np.ndarray,
     if not np.all(np.isfinite(errors)):
         return InSample(None, out.model_df, f"{out.note}: contain NaN or infinite values")
     return out
+
+
+def likelihood(spec: ArimaSpec | EtsSpec, fit: Fit, y: np.ndarray, season_length: int
+               ) -> tuple[float, int, int]:
+    """The log-likelihood at the estimates, with the number of parameters K and of
+    effective observations N as statsmodels' results count them (``df_model``,
+    ``nobs_effective``): ARIMA K every parameter including sigma2, N = n - d - D*m; ETS K
+    every parameter plus the innovation variance it concentrates out, N = n."""
+    y = np.asarray(y, dtype=float)
+    if isinstance(spec, ArimaSpec):
+        return (fast_arima.fast_loglike(spec, y, season_length, fit.params), len(fit.params),
+                len(y) - arima_burn_in(spec, season_length))
+    return (fast_ets.fast_loglike(spec, y, season_length, fit.params), len(fit.params) + 1,
+            len(y))
 
 
 def _negative_inverse(hessian: np.ndarray) -> np.ndarray:

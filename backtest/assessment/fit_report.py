@@ -41,13 +41,20 @@ residuals after the d + D*m burn-in for ARIMA), Ljung-Box at ``default_lags`` wi
 model_df = p + q + P + Q, ARCH LM with as many lags as the first default lag, and the
 ACF/PACF up to the last default lag.
 
+A fast fit (an arima or ets fit without statsmodels' results object) is assessed from the
+compiled likelihood (:mod:`~backtest.assessment.compiled_fit`; the ``approx`` covariance
+only): covariance, one-step errors and log-likelihood are the compiled ones, the criteria
+follow statsmodels' definitions from that log-likelihood, convergence is the fit's
+optimiser verdict; the covariance description, the residuals' source, the criteria's
+convention and the estimation's reason say so.
+
 Roots (ARIMA): the roots of each lag polynomial, regular in B and seasonal in B^m, with
-modulus. A root is "on or inside" the unit circle when its modulus in B is at most
-1 + 1e-6, and "near unit" when it is below 1.01 (a common-practice threshold for
-rejecting such fits in stepwise order searches [2]_; recalled, not checked against the
-source). For a seasonal root z in B^m the modulus in B is
-|z|^(1/m), so a seasonal coefficient of 0.9 (|z| = 1.11, 1.11^(1/12) = 1.0088) is near
-unit.
+modulus, from the estimates (statsmodels' ``polynomial_*`` convention). A root is "on or
+inside" the unit circle when its modulus in B is at most 1 + 1e-6, and "near unit" when it
+is below 1.01 (a common-practice threshold for rejecting such fits in stepwise order
+searches [2]_; recalled, not checked against the source). For a seasonal root z in B^m
+the modulus in B is |z|^(1/m), so a seasonal coefficient of 0.9 (|z| = 1.11,
+1.11^(1/12) = 1.0088) is near unit.
 
 References
 ----------
@@ -59,7 +66,8 @@ References
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any, Literal
 
 import numpy as np
@@ -80,6 +88,7 @@ from backtest.captured_warnings import capturing_warnings, distinct_warning_line
 from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit, ModelSpec
 from backtest.models.ets import EtsSpec
+from backtest.models.fast_arima import coefficient_names
 
 Covariance = Literal["approx", "opg"]
 NEAR_UNIT_MODULUS = 1.01
@@ -93,6 +102,11 @@ _COVARIANCE_TEXT = {
     "approx": "inverse numerical (complex-step) Hessian of the log-likelihood",
     "opg": "outer product of the score vectors (gradients)",
 }
+_CONVENTION = ("statsmodels: K includes the innovation variance; "
+               "AICc = AIC + 2K(K+1)/(N-K-1), N effective observations")
+_COMPILED_LOGLIK = ("; log-likelihood of the compiled exact likelihood at the estimates (ARIMA: "
+                    "of the differenced series, where statsmodels starts the differences "
+                    "approximately diffuse)")
 
 
 def fit_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int, *,
@@ -141,23 +155,42 @@ def fold_fit_summary(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: in
         ``warnings`` raised while computing it.
     """
     with capturing_warnings() as caught:
-        if compiled_fit.compiles(spec, fit) and covariance == "approx":
-            assert isinstance(spec, ArimaSpec | EtsSpec)  # what compiles() accepts
-            variances, fixed = compiled_fit.variances(spec, fit, y, season_length)
-            rows = _rows(spec, fit, season_length, variances, None, fixed)
-            section: dict[str, Any] | None = {"estimator": covariance,
-                                              "description": compiled_fit.DESCRIPTION}
-            errors = compiled_fit.one_step_errors(spec, fit, y, season_length)
-            converged = fit.converged
-        else:
-            rows, section, _ = coefficient_table(spec, fit, covariance, season_length)
-            errors = one_step_errors(spec, fit, y, season_length)
-            converged = _estimation(spec, fit)["converged"]
-        test = _first_ljung_box(errors, default_lags(season_length)[0])
+        basis = _basis(spec, fit, y, season_length, covariance)
+        test = _first_ljung_box(basis.errors, default_lags(season_length)[0])
     params = {row["name"]: {k: row[k] for k in ("estimate", "std_error", "p_value")}
-              for row in rows}
-    return {"converged": converged, "params": params, "ljung_box": test,
-            "covariance": section, "warnings": list(distinct_warning_lines(caught))}
+              for row in basis.rows}
+    return {"converged": basis.estimation["converged"], "params": params, "ljung_box": test,
+            "covariance": basis.covariance, "warnings": list(distinct_warning_lines(caught))}
+
+
+@dataclass(frozen=True)
+class _Basis:
+    """What both reports build on: coefficient rows, the covariance used (or the reason
+    there is none), the one-step errors, the estimation record, and whether these come
+    from the compiled likelihood."""
+
+    rows: list[dict[str, Any]]
+    covariance: dict[str, Any] | None
+    covariance_reason: str | None
+    errors: InSample
+    estimation: dict[str, Any]
+    compiled: bool
+
+
+def _basis(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
+           covariance: Covariance) -> _Basis:
+    """From the compiled likelihood for a fast fit under the ``approx`` covariance, else
+    from statsmodels' results object (or the family's own numbers)."""
+    if compiled_fit.compiles(spec, fit) and covariance == "approx":
+        assert isinstance(spec, ArimaSpec | EtsSpec)  # what compiles() accepts
+        variances, fixed = compiled_fit.variances(spec, fit, y, season_length)
+        return _Basis(_rows(spec, fit, season_length, variances, None, fixed),
+                      {"estimator": covariance, "description": compiled_fit.DESCRIPTION},
+                      None, compiled_fit.one_step_errors(spec, fit, y, season_length),
+                      _verdict(fit), True)
+    rows, section, reason = coefficient_table(spec, fit, covariance, season_length)
+    return _Basis(rows, section, reason, one_step_errors(spec, fit, y, season_length),
+                  _estimation(spec, fit), False)
 
 
 def _first_ljung_box(errors: InSample, lag: int) -> dict[str, Any]:
@@ -171,26 +204,26 @@ def _first_ljung_box(errors: InSample, lag: int) -> dict[str, Any]:
 def _full_report(spec: ModelSpec, fit: Fit, y: np.ndarray, season_length: int,
                  covariance: Covariance) -> dict[str, Any]:
     unavailable: dict[str, str] = {}
-    rows, cov_section, cov_reason = coefficient_table(spec, fit, covariance,
-                                                     season_length)
-    if cov_reason:
-        unavailable["covariance"] = cov_reason
-    criteria = _criteria(spec, fit, unavailable)
-    errors = one_step_errors(spec, fit, y, season_length)
-    residuals = residual_section(errors, season_length)
-    if residuals is None:
-        unavailable["residuals"] = errors.note
-    roots = None
-    if spec.family != "arima" or not isinstance(spec, ArimaSpec) or fit.raw is None:
-        unavailable["roots"] = "lag-polynomial roots need a fitted ARIMA model"
-    elif not _finite_polynomials(fit.raw):
-        unavailable["roots"] = "lag polynomials have NaN or infinite coefficients"
+    basis = _basis(spec, fit, y, season_length, covariance)
+    if basis.covariance_reason:
+        unavailable["covariance"] = basis.covariance_reason
+    criteria: dict[str, Any] | None
+    if basis.compiled:
+        assert isinstance(spec, ArimaSpec | EtsSpec)  # what compiles() accepts
+        criteria = _information_criteria(*compiled_fit.likelihood(spec, fit, y, season_length),
+                                         _CONVENTION + _COMPILED_LOGLIK)
     else:
-        roots = arima_roots(fit.raw, spec.season_period(season_length))
+        criteria = _criteria(spec, fit, unavailable)
+    residuals = residual_section(basis.errors, season_length)
+    if residuals is None:
+        unavailable["residuals"] = basis.errors.note
+    roots, roots_reason = _estimated_roots(spec, fit, season_length)
+    if roots_reason:
+        unavailable["roots"] = roots_reason
     return {"family": spec.family, "label": spec.label(season_length),
-            "estimation": _estimation(spec, fit), "covariance": cov_section,
-            "coefficients": rows, "information_criteria": criteria,
-            "innovation_variance": _innovation_variance(spec, fit, errors),
+            "estimation": basis.estimation, "covariance": basis.covariance,
+            "coefficients": basis.rows, "information_criteria": criteria,
+            "innovation_variance": _innovation_variance(spec, fit, basis.errors),
             "residuals": residuals, "roots": roots, "unavailable": unavailable}
 
 
@@ -231,15 +264,25 @@ def estimates_at_bounds(spec: ModelSpec, fit: Fit, season_length: int) -> dict[s
         if estimate is not None and min(estimate - low, high - estimate) < _BOUND_DISTANCE:
             out[name] = ("at or near the bound of statsmodels' default parameter range "
                          f"[{low}, {high}]")
-    if (isinstance(spec, ArimaSpec) and spec.family == "arima" and fit.raw is not None
-            and _finite_polynomials(fit.raw)):
-        roots = arima_roots(fit.raw, spec.season_period(season_length))
+    roots, _ = _estimated_roots(spec, fit, season_length)
+    if roots is not None:
         for name in fit.params:
             modulus = _smallest_modulus(roots, name)
             if modulus is not None and modulus < NEAR_UNIT_MODULUS:
                 out[name] = ("at or near the stationarity/invertibility bound: its lag "
                              f"polynomial has a root of modulus {modulus:.4f}")
     return out
+
+
+def _estimated_roots(spec: ModelSpec, fit: Fit, season_length: int
+                     ) -> tuple[dict[str, Any] | None, str | None]:
+    """The ARIMA lag-polynomial roots at the estimates, or the reason there are none."""
+    if spec.family != "arima" or not isinstance(spec, ArimaSpec):
+        return None, "lag-polynomial roots need a fitted ARIMA model"
+    polynomials = lag_polynomials(spec, fit.params, season_length)
+    if not _finite_polynomials(polynomials):
+        return None, "lag polynomials have NaN or infinite coefficients"
+    return arima_roots(polynomials, spec.season_period(season_length)), None
 
 
 def _smallest_modulus(roots: dict[str, Any], name: str) -> float | None:
@@ -312,6 +355,13 @@ def _estimation(spec: ModelSpec, fit: Fit) -> dict[str, Any]:
             "warnflag": None, "reason": "no iterative optimizer status for this estimate"}
 
 
+def _verdict(fit: Fit) -> dict[str, Any]:
+    """The estimation record of a fast fit: its optimiser's verdict, without counts."""
+    return {"method": "maximum likelihood", "converged": fit.converged, "iterations": None,
+            "function_calls": None, "warnflag": None,
+            "reason": "the fast estimator's verdict (its iteration counts are not kept)"}
+
+
 def _count(value: Any) -> int | None:
     return None if value is None else int(value)
 
@@ -326,9 +376,18 @@ def _criteria(spec: ModelSpec, fit: Fit, unavailable: dict[str, str]) -> dict[st
     raw = fit.raw
     return {"loglik": number(raw.llf), "aic": number(raw.aic), "aicc": number(raw.aicc),
             "bic": number(raw.bic), "n_parameters": int(raw.df_model),
-            "nobs_effective": int(raw.nobs_effective),
-            "convention": "statsmodels: K includes the innovation variance; "
-                          "AICc = AIC + 2K(K+1)/(N-K-1), N effective observations"}
+            "nobs_effective": int(raw.nobs_effective), "convention": _CONVENTION}
+
+
+def _information_criteria(loglik: float, k: int, n: int, convention: str) -> dict[str, Any]:
+    """AIC = -2 l + 2K, AICc = AIC + 2K(K+1)/(N-K-1) (none when N - K - 1 <= 0) and
+    BIC = -2 l + K log N, as statsmodels defines them (``statsmodels.tools.eval_measures``)
+    for its state-space and ETS results."""
+    aic = -2.0 * loglik + 2.0 * k
+    aicc = aic + 2.0 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else None
+    return {"loglik": number(loglik), "aic": number(aic), "aicc": number(aicc),
+            "bic": number(-2.0 * loglik + k * np.log(n)), "n_parameters": k,
+            "nobs_effective": n, "convention": convention}
 
 
 def _innovation_variance(spec: ModelSpec, fit: Fit, errors: InSample) -> dict[str, Any]:
@@ -354,11 +413,41 @@ def residual_section(errors: InSample, season_length: int) -> dict[str, Any] | N
             "arch_lm": arch_lm(e, lags[0]), "acf": acf_report(e, lags[-1])}
 
 
+@dataclass(frozen=True)
+class LagPolynomials:
+    """An ARIMA model's lag polynomials as statsmodels' results hold them: coefficients in
+    increasing powers of B, AR with the - sign and MA with the + sign, the seasonal ones in
+    B with zeros between the seasonal lags."""
+
+    polynomial_ar: np.ndarray
+    polynomial_ma: np.ndarray
+    polynomial_seasonal_ar: np.ndarray
+    polynomial_seasonal_ma: np.ndarray
+
+
+def lag_polynomials(spec: ArimaSpec, params: Mapping[str, float], season_length: int
+                    ) -> LagPolynomials:
+    """The lag polynomials of ``spec`` at the estimates ``params`` (statsmodels' names)."""
+    period = spec.season_period(season_length) if spec.seasonal else 1
+
+    def polynomial(names: list[str], sign: float, step: int) -> np.ndarray:
+        coefficients = np.zeros(len(names) * step + 1)
+        coefficients[0] = 1.0
+        coefficients[step::step] = [sign * params[name] for name in names]
+        return coefficients
+
+    ar, ma, seasonal_ar, seasonal_ma = coefficient_names(spec, season_length)
+    return LagPolynomials(polynomial(ar, -1.0, 1), polynomial(ma, 1.0, 1),
+                          polynomial(seasonal_ar, -1.0, period),
+                          polynomial(seasonal_ma, 1.0, period))
+
+
 def arima_roots(raw: Any, period: int) -> dict[str, Any]:
     """Roots of the regular (in B) and seasonal (in B^m) AR and MA polynomials.
 
-    ``raw`` is statsmodels' ARIMA results; its ``polynomial_*`` attributes hold
-    coefficients in increasing powers of B (MA with statsmodels' + sign).
+    ``raw`` holds ``polynomial_*`` attributes as statsmodels' ARIMA results do
+    (:class:`LagPolynomials`): coefficients in increasing powers of B (MA with
+    statsmodels' + sign).
     """
     out: dict[str, Any] = {"near_unit_modulus": NEAR_UNIT_MODULUS, "unit_tolerance": UNIT_TOLERANCE}
     for part in ("ar", "ma"):

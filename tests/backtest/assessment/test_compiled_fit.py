@@ -26,12 +26,8 @@ Tolerances, by the difference method of each side:
 
 from __future__ import annotations
 
-import contextlib
-import warnings
-
 import numpy as np
 import pytest
-from statsmodels.tools.numdiff import approx_hess3
 from statsmodels.tsa.arima.model import ARIMA
 from statsmodels.tsa.statespace.sarimax import SARIMAX
 
@@ -44,47 +40,29 @@ from backtest.models.arima import ArimaSpec
 from backtest.models.base import Fit
 from backtest.models.ets import EtsSpec
 from backtest.plan import parse_plan
-
-EXACT = 1e-6
-MULTIPLICATIVE = 1e-4
-
-
-def _generated_arma(n: int, phi: float, theta: float, mean: float, seed: int) -> np.ndarray:
-    """An invented ARMA(1,1) path around ``mean`` (deterministic)."""
-    e = np.random.default_rng(seed).normal(size=n + 50)
-    x = np.zeros(n + 50)
-    for t in range(1, n + 50):
-        x[t] = phi * x[t - 1] + e[t] + theta * e[t - 1]
-    return mean + x[50:]
-
-
-def _fast(spec, y, m=12):
-    """The fast estimate without statsmodels' results, as the fold summary gets it."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        fit = spec.fit(y, m, estimator="fast", keep_raw=False)
-    assert fit.raw is None and fit.params["estimator"] == 1.0
-    return spec.assessed(fit)[1]
-
-
-def _sqrt(variances):
-    """Standard errors, NaN where a variance is not positive (at a bound)."""
-    variances = np.asarray(variances, dtype=float)
-    return np.where(variances > 0, np.sqrt(np.abs(variances)), np.nan)
+from tests.backtest.assessment.compiled_references import (
+    EXACT,
+    MULTIPLICATIVE,
+    ets_fixed_season,
+    ets_real_differences,
+    fast,
+    generated_arma,
+    square_roots,
+)
 
 
 def _compiled_se(spec, fit, y, m=12):
     variances, _ = compiled_fit.variances(spec, fit, y, m)
-    return dict(zip(fit.params, _sqrt(variances)))
+    return dict(zip(fit.params, square_roots(variances)))
 
 
 def _reference_se(results, names):
-    return dict(zip(names, _sqrt(np.diag(results.cov_params_approx))))
+    return dict(zip(names, square_roots(np.diag(results.cov_params_approx))))
 
 
 def test_airline_standard_errors_are_statsmodels_on_the_differenced_data(log_air):
     spec = ArimaSpec((0, 1, 1), (0, 1, 1), 12)
-    fit = _fast(spec, log_air)
+    fit = fast(spec, log_air)
     ours = _compiled_se(spec, fit, log_air)
     params = [fit.params[n] for n in ("ma.L1", "ma.S.L12", "sigma2")]
     exact = SARIMAX(log_air, order=(0, 1, 1), seasonal_order=(0, 1, 1, 12),
@@ -100,24 +78,24 @@ def test_airline_standard_errors_are_statsmodels_on_the_differenced_data(log_air
 @pytest.mark.parametrize(("seed", "phi", "theta", "mean"),
                          [(3, 0.6, 0.3, 10.0), (11, -0.4, 0.5, -2.0), (29, 0.85, -0.2, 50.0)])
 def test_arma_with_a_constant_is_statsmodels_exactly(seed, phi, theta, mean):
-    y = _generated_arma(160, phi, theta, mean, seed)
+    y = generated_arma(160, phi, theta, mean, seed)
     spec = ArimaSpec((1, 0, 1), None, None, "constant")
-    fit = _fast(spec, y)
+    fit = fast(spec, y)
     ours = _compiled_se(spec, fit, y)
     reference = ARIMA(y, order=(1, 0, 1), trend="c").filter(
         [fit.params[n] for n in ("constant", "ar.L1", "ma.L1", "sigma2")])
-    for name, value in zip(fit.params, _sqrt(np.diag(reference.cov_params_approx))):
+    for name, value in zip(fit.params, square_roots(np.diag(reference.cov_params_approx))):
         assert ours[name] == pytest.approx(value, rel=EXACT), name
 
 
 def test_drift_is_the_mean_of_the_differences_in_statsmodels():
-    y = np.cumsum(_generated_arma(150, 0.5, 0.4, 0.3, 5))
+    y = np.cumsum(generated_arma(150, 0.5, 0.4, 0.3, 5))
     spec = ArimaSpec((1, 1, 1), None, None, "drift")
-    fit = _fast(spec, y)
+    fit = fast(spec, y)
     ours = _compiled_se(spec, fit, y)
     reference = ARIMA(np.diff(y), order=(1, 0, 1), trend="c").filter(
         [fit.params[n] for n in ("drift", "ar.L1", "ma.L1", "sigma2")])
-    for name, value in zip(fit.params, _sqrt(np.diag(reference.cov_params_approx))):
+    for name, value in zip(fit.params, square_roots(np.diag(reference.cov_params_approx))):
         assert ours[name] == pytest.approx(value, rel=EXACT), name
 
 
@@ -128,7 +106,7 @@ def test_drift_is_the_mean_of_the_differences_in_statsmodels():
 def test_ljung_box_p_values_are_the_reference_paths(series_g, spec):
     y = series_g.iloc[:, 1].to_numpy(float)
     y = np.log(y) if spec.family == "arima" else y
-    fit = _fast(spec, y[:96])
+    fit = fast(spec, y[:96])
     raw = (spec.results_at(y[:96], 12, fit.params) if spec.family == "arima"
            else spec.model(y[:96], 12).smooth([fit.params[n] for n in fit.params]))
     ours = fold_fit_summary(spec, fit, y[:96], 12)["ljung_box"]
@@ -138,27 +116,17 @@ def test_ljung_box_p_values_are_the_reference_paths(series_g, spec):
     assert "compiled" in ours["source"] and "compiled" not in reference["source"]
 
 
-def _ets_reference(spec, y, params, names):
-    """statsmodels' covariance with the last seasonal state fixed, as its optimiser has it."""
-    model = spec.model(y, 12)
-    vector = [params[n] for n in model.param_names]
-    fixed = {n: params[n] for n in model.param_names if n not in names}
-    with model.fix_params(fixed) if fixed else contextlib.nullcontext():
-        results = model.smooth(vector)
-    return dict(zip(model.param_names, _sqrt(np.diag(results.cov_params_approx))))
-
-
 @pytest.mark.parametrize(("spec", "window"), [
     (EtsSpec(), slice(0, 72)), (EtsSpec(trend="damped"), slice(24, 96)),
     (EtsSpec(trend="additive", season="additive"), slice(0, 96)),
     (EtsSpec(trend="damped", season="additive"), slice(36, 144))])
 def test_additive_error_ets_standard_errors_are_statsmodels(log_air, spec, window):
     y = log_air[window]
-    fit = _fast(spec, y)
+    fit = fast(spec, y)
     ours = _compiled_se(spec, fit, y)
     variances, fixed = compiled_fit.variances(spec, fit, y, 12)
     names = [n for n in fit.params if n not in fixed]
-    reference = _ets_reference(spec, y, fit.params, names)
+    reference = ets_fixed_season(spec, y, fit.params, names)
     compared = 0
     for name in names:
         if np.isfinite(reference[name]):  # statsmodels' variance is negative at a bound
@@ -175,30 +143,20 @@ def test_additive_error_ets_standard_errors_are_statsmodels(log_air, spec, windo
     EtsSpec(error="multiplicative", trend="additive", season="multiplicative")])
 def test_multiplicative_error_ets_hessian_is_statsmodels_likelihoods(series_g, spec):
     y = series_g.iloc[:72, 1].to_numpy(float)
-    fit = _fast(spec, y)
+    fit = fast(spec, y)
     ours = _compiled_se(spec, fit, y)
-    model = spec.model(y, 12)
     variances, fixed = compiled_fit.variances(spec, fit, y, 12)
     names = [n for n in fit.params if n not in fixed]
-    x = np.array([fit.params[n] for n in names])
-    full = np.array([fit.params[n] for n in model.param_names])
-
-    def loglike(v):
-        return model.loglike(np.concatenate([v, full[len(v):]]))
-
-    step = 5e-4 * np.maximum(np.abs(x), 0.1)
-    hessian = (4 * approx_hess3(x, loglike, epsilon=step / 2)
-               - approx_hess3(x, loglike, epsilon=step)) / 3
-    reference = _sqrt(np.diag(-np.linalg.pinv(hessian, rcond=1e-15)))
-    finite = np.isfinite(reference)
-    assert finite.sum() >= 2
-    for name, value in zip(np.array(names)[finite], reference[finite]):
-        assert ours[name] == pytest.approx(value, rel=MULTIPLICATIVE), name
+    reference = ets_real_differences(spec, y, fit.params, names)
+    finite = [name for name in names if np.isfinite(reference[name])]
+    assert len(finite) >= 2
+    for name in finite:
+        assert ours[name] == pytest.approx(reference[name], rel=MULTIPLICATIVE), name
 
 
 def test_summary_has_the_reference_structure_and_says_how(log_air):
     spec = ArimaSpec((1, 1, 0), (0, 1, 1), 12)
-    fit = _fast(spec, log_air[:84])
+    fit = fast(spec, log_air[:84])
     ours = fold_fit_summary(spec, fit, log_air[:84], 12)
     reference = fold_fit_summary(spec, Fit(fit.params, spec.results_at(log_air[:84], 12,
                                                                        fit.params)),
