@@ -16,15 +16,18 @@ has ``beta* = 0``, ``phi = 1``, ``b_0 = 0``, one without season ``m = 1``, ``gam
     -n/2 (log(2 pi SSE / n) + 1) - [multiplicative error] sum log |yhat_t|,
 
 SSE the sum of squared errors ``y - yhat`` (additive) or ``(y - yhat) / yhat``
-(multiplicative). Its gradient with respect to the parameters in ``free`` comes from
-propagating the derivatives of the states through the recursions alongside them
-(forward mode), at the cost of a few likelihood passes whatever the number of parameters.
+(multiplicative). Its gradient with respect to the parameters in ``free`` comes from one
+backward pass of the states' adjoints through the recursions (reverse mode, Griewank &
+Walther 2008, ch. 3), at the cost of about two likelihood passes whatever the number of
+parameters.
 
 The seasonal states are kept in a ring of ``m`` slots (slot ``t mod m`` holds the state of
 ``m`` steps before ``t``), so a step costs the same for every period.
 
 References
 ----------
+Griewank, A. and Walther, A. (2008). *Evaluating Derivatives: Principles and Techniques of
+Algorithmic Differentiation*, 2nd ed. SIAM.
 Hyndman, R. J., Koehler, A. B., Ord, J. K. and Snyder, R. D. (2008). *Forecasting with
 Exponential Smoothing: The State Space Approach*. Springer.
 Ord, J. K., Koehler, A. B. and Snyder, R. D. (1997). Estimation and prediction for a class
@@ -52,110 +55,114 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
     lists the smoothing parameters (indices below :data:`LEVEL`) before the initial
     states. Returns NaN where the recursions break down: a division by a zero season,
     level or prediction in a multiplicative class (statsmodels' likelihood is then not
-    finite either), a zero or non-finite error sum."""
-    k = free.shape[0]
+    finite either), a zero or non-finite error sum.
+
+    The forward pass keeps each step's local derivatives; the backward pass carries the
+    adjoints of the states (level, trend, the ring of seasons) from the last step to the
+    first, collecting the smoothing parameters' explicit partial derivatives on the way
+    and ending with the initial states' (reverse mode: one pass whatever the number of
+    parameters)."""
     alpha, beta, gamma, phi = theta[ALPHA], theta[BETA_STAR], theta[GAMMA_STAR], theta[PHI]
-    dl = np.zeros(k)
-    db = np.zeros(k)
+    n = y.shape[0]
     ring = np.empty(m)
-    dring = np.zeros((m, k))
     for i in range(m):
         ring[i] = theta[SEASONS + m - 1 - i]
-    smoothing = 0  # the free smoothing parameters come first
-    for j in range(k):
-        f = free[j]
-        if f < LEVEL:
-            smoothing = j + 1
-        elif f == LEVEL:
-            dl[j] = 1.0
-        elif f == TREND:
-            db[j] = 1.0
-        else:
-            dring[m - 1 - (f - SEASONS), j] = 1.0
+    # per step: d yhat / d base, d yhat / d old season, d level / d old season,
+    # d season / d new level, d objective / d yhat (filled in once SSE is known), and the
+    # explicit partials of the new level (alpha), trend (beta*), season (gamma*), and the
+    # previous trend (phi's)
+    y_base = np.empty(n)
+    y_old = np.empty(n)
+    level_old = np.empty(n)
+    season_level = np.empty(n)
+    sse_yhat = np.empty(n)
+    log_yhat = np.empty(n)
+    by_alpha = np.empty(n)
+    by_beta = np.empty(n)
+    by_gamma = np.empty(n)
+    trends = np.empty(n)
     level, trend = theta[LEVEL], theta[TREND]
-    n = y.shape[0]
     sse, sum_log = 0.0, 0.0
-    d_sse = np.zeros(k)
-    d_log = np.zeros(k)
     for t in range(n):
         r = t % m
         old = ring[r]
         yt = y[t]
         base = level + phi * trend
-        # each derivative below is linear in those of the previous states, with these
-        # coefficients: d_yhat = y_base d_base + y_old d_old, d_level = level_old d_old +
-        # (1 - alpha) d_base, d_season = season_level d_level + (1 - gamma) d_old
+        trends[t] = trend
         if multiplicative_season and old == 0.0:
             return _broken(gradient)
         if multiplicative_season:
             yhat = base * old
             new_level = alpha * (yt / old) + (1 - alpha) * base
-            y_base, y_old, level_old = old, base, -alpha * yt / (old * old)
+            y_base[t], y_old[t], level_old[t] = old, base, -alpha * yt / (old * old)
+            by_alpha[t] = yt / old - base
         else:
             yhat = base + old
             new_level = alpha * (yt - old) + (1 - alpha) * base
-            y_base, y_old, level_old = 1.0, 1.0, -alpha
+            y_base[t], y_old[t], level_old[t] = 1.0, 1.0, -alpha
+            by_alpha[t] = yt - old - base
         new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
+        by_beta[t] = new_level - level - phi * trend
         if multiplicative_season and new_level == 0.0:
             return _broken(gradient)
         if multiplicative_season:
             new_season = gamma * yt / new_level + (1 - gamma) * old
-            season_level = -gamma * yt / (new_level * new_level)
+            season_level[t] = -gamma * yt / (new_level * new_level)
+            by_gamma[t] = yt / new_level - old
         else:
             new_season = gamma * (yt - new_level) + (1 - gamma) * old
-            season_level = -gamma
+            season_level[t] = -gamma
+            by_gamma[t] = yt - new_level - old
         if multiplicative_error and yhat == 0.0:
             return _broken(gradient)
         if multiplicative_error:
             e = (yt - yhat) / yhat
             sum_log += math.log(abs(yhat))
-            sse_yhat = -2.0 * e * yt / (yhat * yhat)
-            log_yhat = 1.0 / yhat
+            sse_yhat[t] = -2.0 * e * yt / (yhat * yhat)
+            log_yhat[t] = 1.0 / yhat
         else:
             e = yt - yhat
-            sse_yhat = -2.0 * e
-            log_yhat = 0.0
+            sse_yhat[t] = -2.0 * e
+            log_yhat[t] = 0.0
         sse += e * e
-        for j in range(smoothing):  # with the explicit partial derivatives
-            f = free[j]
-            d_old = dring[r, j]
-            d_base = dl[j] + phi * db[j]
-            if f == PHI:
-                d_base += trend
-            d_yhat = y_base * d_base + y_old * d_old
-            d_level = level_old * d_old + (1 - alpha) * d_base
-            if f == ALPHA:
-                d_level += (yt / old if multiplicative_season else yt - old) - base
-            d_trend = beta * (d_level - dl[j]) + (1 - beta) * phi * db[j]
-            if f == PHI:
-                d_trend += (1 - beta) * trend
-            elif f == BETA_STAR:
-                d_trend += new_level - level - phi * trend
-            d_season = season_level * d_level + (1 - gamma) * d_old
-            if f == GAMMA_STAR:
-                d_season += (yt / new_level if multiplicative_season
-                             else yt - new_level) - old
-            d_sse[j] += sse_yhat * d_yhat
-            d_log[j] += log_yhat * d_yhat
-            dl[j] = d_level
-            db[j] = d_trend
-            dring[r, j] = d_season
-        for j in range(smoothing, k):  # initial states: propagation only
-            d_old = dring[r, j]
-            d_base = dl[j] + phi * db[j]
-            d_yhat = y_base * d_base + y_old * d_old
-            d_level = level_old * d_old + (1 - alpha) * d_base
-            db[j] = beta * (d_level - dl[j]) + (1 - beta) * phi * db[j]
-            dl[j] = d_level
-            dring[r, j] = season_level * d_level + (1 - gamma) * d_old
-            d_sse[j] += sse_yhat * d_yhat
-            d_log[j] += log_yhat * d_yhat
         level, trend = new_level, new_trend
         ring[r] = new_season
     if not (sse > 0.0 and math.isfinite(sse) and math.isfinite(sum_log)):
         return _broken(gradient)
-    for j in range(k):
-        gradient[j] = -0.5 * n * d_sse[j] / sse - d_log[j]
+    weight = -0.5 * n / sse
+    adj_level, adj_trend = 0.0, 0.0
+    adj_ring = np.zeros(m)
+    g_alpha, g_beta, g_gamma, g_phi = 0.0, 0.0, 0.0, 0.0
+    for t in range(n - 1, -1, -1):
+        r = t % m
+        adj_yhat = weight * sse_yhat[t] - log_yhat[t]
+        adj_season = adj_ring[r]  # of the season this step wrote
+        adj_new_level = adj_level + beta * adj_trend + season_level[t] * adj_season
+        g_alpha += adj_new_level * by_alpha[t]
+        g_beta += adj_trend * by_beta[t]
+        g_gamma += adj_season * by_gamma[t]
+        adj_base = (1 - alpha) * adj_new_level + y_base[t] * adj_yhat
+        g_phi += (adj_base + (1 - beta) * adj_trend) * trends[t]
+        adj_ring[r] = level_old[t] * adj_new_level + (1 - gamma) * adj_season \
+            + y_old[t] * adj_yhat
+        adj_level, adj_trend = (adj_base - beta * adj_trend,
+                                phi * adj_base + (1 - beta) * phi * adj_trend)
+    for j in range(free.shape[0]):
+        f = free[j]
+        if f == ALPHA:
+            gradient[j] = g_alpha
+        elif f == BETA_STAR:
+            gradient[j] = g_beta
+        elif f == GAMMA_STAR:
+            gradient[j] = g_gamma
+        elif f == PHI:
+            gradient[j] = g_phi
+        elif f == LEVEL:
+            gradient[j] = adj_level
+        elif f == TREND:
+            gradient[j] = adj_trend
+        else:
+            gradient[j] = adj_ring[m - 1 - (f - SEASONS)]
     return float(-0.5 * n * (math.log(2 * math.pi * sse / n) + 1) - sum_log)
 
 
