@@ -6,24 +6,19 @@ External check: statsmodels 0.15.0, ``ETSModel(...).smooth(params, return_raw=Tr
 on invented deterministic data at parameters away from statsmodels' start values.
 """
 
-import itertools
 
 import numpy as np
 import pandas as pd
 import pytest
-from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 
 from backtest.models.ets import EtsSpec
+from tests.backtest.ets_classes import SPECS, statsmodels_model
 
 PASS_TOLERANCE = 1e-10
 FORECAST_TOLERANCE = 1e-9
 PERIOD = 12
 HORIZON = 12
 LEVELS = (80, 95)
-SPECS = [EtsSpec(e, t, s) for e, t, s in itertools.product(
-    ("additive", "multiplicative"), ("none", "additive", "damped"),
-    ("none", "additive", "multiplicative"))]
-_SHORT = {"none": None, "additive": "add", "multiplicative": "mul"}
 
 
 def _invented_series(n: int = 120) -> np.ndarray:
@@ -49,17 +44,9 @@ def _params(spec: EtsSpec) -> dict[str, float]:
     return params
 
 
-def _statsmodels_model(spec: EtsSpec, y: np.ndarray) -> ETSModel:
-    seasonal = _SHORT[spec.season]
-    return ETSModel(pd.Series(y, index=pd.RangeIndex(len(y))), error=_SHORT[spec.error],
-                    trend=_SHORT["additive" if spec.trend == "damped" else spec.trend],
-                    damped_trend=spec.trend == "damped", seasonal=seasonal,
-                    seasonal_periods=PERIOD if seasonal else None)
-
-
 def _statsmodels_pass(spec: EtsSpec, y: np.ndarray, params: dict[str, float]
                       ) -> tuple[np.ndarray, pd.DataFrame]:
-    model = _statsmodels_model(spec, y)
+    model = statsmodels_model(spec, y, PERIOD)
     fitted, states = model.smooth(np.array([params[n] for n in model.param_names]),
                                   return_raw=True)
     return fitted.to_numpy(float), states

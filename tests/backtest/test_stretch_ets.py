@@ -5,35 +5,22 @@ The reference is statsmodels' ETSModel on ``y[:t]`` with the same parameters:
 and 1000 simulated paths from ``default_rng(seed)`` for the others. Tolerance 1e-8.
 """
 
-import itertools
 import warnings
 
 import numpy as np
-import pandas as pd
 import pytest
 from statsmodels.tsa.exponential_smoothing.ets import ETSModel
 
 from backtest.models.ets import EtsSpec
+from tests.backtest.ets_classes import SPECS, statsmodels_model
 
 TOLERANCE = 1e-8
 HORIZON = 12
 LEVELS = (80, 95)
-SPECS = [EtsSpec(e, t, s) for e, t, s in itertools.product(
-    ("additive", "multiplicative"), ("none", "additive", "damped"),
-    ("none", "additive", "multiplicative"))]
-_SHORT = {"none": None, "additive": "add", "multiplicative": "mul"}
-
-
-def _statsmodels_model(spec, y):
-    seasonal = _SHORT[spec.season]
-    return ETSModel(pd.Series(y, index=pd.RangeIndex(len(y))), error=_SHORT[spec.error],
-                    trend=_SHORT["additive" if spec.trend == "damped" else spec.trend],
-                    damped_trend=spec.trend == "damped", seasonal=seasonal,
-                    seasonal_periods=12 if seasonal else None)
 
 
 def _statsmodels_prediction(spec, y, params, seed):
-    model = _statsmodels_model(spec, y)
+    model = statsmodels_model(spec, y, 12)
     smoothed = model.smooth([params[n] for n in model.param_names])
     return smoothed.get_prediction(start=len(y), end=len(y) + HORIZON - 1,
                                    simulate_repetitions=1000, rng=np.random.default_rng(seed))
@@ -72,7 +59,7 @@ def test_stretch_equals_statsmodels_per_origin(spec, passengers):
 def test_estimation_equals_a_plain_statsmodels_fit(spec, passengers):
     y = passengers[:96]
     fit, forecast = spec.fit_forecast(y, 12, HORIZON, LEVELS, 3)
-    hand = _statsmodels_model(spec, y).fit(disp=False)
+    hand = statsmodels_model(spec, y, 12).fit(disp=False)
     np.testing.assert_array_equal(list(fit.params.values()), hand.params)
     prediction = hand.get_prediction(start=96, end=96 + HORIZON - 1,
                                      simulate_repetitions=1000, rng=np.random.default_rng(3))
