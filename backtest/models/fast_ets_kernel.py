@@ -147,22 +147,13 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
             + y_old[t] * adj_yhat
         adj_level, adj_trend = (adj_base - beta * adj_trend,
                                 phi * adj_base + (1 - beta) * phi * adj_trend)
+    by_index = np.empty(SEASONS + m)  # the derivative by each entry of theta
+    by_index[ALPHA], by_index[BETA_STAR], by_index[GAMMA_STAR] = g_alpha, g_beta, g_gamma
+    by_index[PHI], by_index[LEVEL], by_index[TREND] = g_phi, adj_level, adj_trend
+    for i in range(m):
+        by_index[SEASONS + m - 1 - i] = adj_ring[i]
     for j in range(free.shape[0]):
-        f = free[j]
-        if f == ALPHA:
-            gradient[j] = g_alpha
-        elif f == BETA_STAR:
-            gradient[j] = g_beta
-        elif f == GAMMA_STAR:
-            gradient[j] = g_gamma
-        elif f == PHI:
-            gradient[j] = g_phi
-        elif f == LEVEL:
-            gradient[j] = adj_level
-        elif f == TREND:
-            gradient[j] = adj_trend
-        else:
-            gradient[j] = adj_ring[m - 1 - (f - SEASONS)]
+        gradient[j] = by_index[free[j]]
     return float(-0.5 * n * (math.log(2 * math.pi * sse / n) + 1) - sum_log)
 
 
