@@ -71,20 +71,16 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
     # d season / d new level, d objective / d yhat (filled in once SSE is known), and the
     # explicit partials of the new level (alpha), trend (beta*), season (gamma*), and the
     # previous trend (phi's)
-    y_base = np.empty(n)
-    y_old = np.empty(n)
-    level_old = np.empty(n)
-    season_level = np.empty(n)
-    sse_yhat = np.empty(n)
-    log_yhat = np.empty(n)
-    by_alpha = np.empty(n)
-    by_beta = np.empty(n)
-    by_gamma = np.empty(n)
-    trends = np.empty(n)
+    steps = np.empty((10, n))  # one allocation for the ten records
+    y_base, y_old, level_old, season_level, sse_yhat = steps[0], steps[1], steps[2], \
+        steps[3], steps[4]
+    log_yhat, by_alpha, by_beta, by_gamma, trends = steps[5], steps[6], steps[7], \
+        steps[8], steps[9]
     level, trend = theta[LEVEL], theta[TREND]
     sse, sum_log = 0.0, 0.0
+    r = -1  # the ring slot t mod m, kept without a division
     for t in range(n):
-        r = t % m
+        r = 0 if r == m - 1 else r + 1
         old = ring[r]
         yt = y[t]
         base = level + phi * trend
@@ -133,8 +129,9 @@ def loglike_gradient(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_er
     adj_level, adj_trend = 0.0, 0.0
     adj_ring = np.zeros(m)
     g_alpha, g_beta, g_gamma, g_phi = 0.0, 0.0, 0.0, 0.0
+    r = n % m  # one past the slot of the last step
     for t in range(n - 1, -1, -1):
-        r = t % m
+        r = m - 1 if r == 0 else r - 1
         adj_yhat = weight * sse_yhat[t] - log_yhat[t]
         adj_season = adj_ring[r]  # of the season this step wrote
         adj_new_level = adj_level + beta * adj_trend + season_level[t] * adj_season
