@@ -46,7 +46,7 @@ from backtest.models import fast_arima_kernel as kernel
 from backtest.models.base import Fit, Params
 from backtest.models.differencing import difference
 from backtest.models.fast_fallback import FastEstimationError, fast_or_reference
-from backtest.models.lbfgsb_driver import Minimum, minimize_bounded
+from backtest.models.lbfgsb_driver import Box, Minimum, minimize_bounded
 
 if TYPE_CHECKING:
     from backtest.models.arima import ArimaSpec
@@ -142,8 +142,8 @@ def fast_estimate(spec: ArimaSpec, y: np.ndarray, season_length: int,
         if not starts:
             raise FastEstimationError("the log-likelihood is not finite at the start values")
         ftol, gtol = (SEARCH_FTOL, SEARCH_GTOL) if screening else (FTOL, GTOL)
-        bounds = np.full(k, _BOUND)
-        results = [minimize_bounded(kernel.objective, x0, -bounds, bounds,
+        box = Box.of(np.full(k, -_BOUND), np.full(k, _BOUND))
+        results = [minimize_bounded(kernel.objective, x0, box,
                                     (problem.w, problem.reg, *problem.orders, GRADIENT_STEP),
                                     ftol=ftol, gtol=gtol, max_iterations=MAX_ITERATIONS)
                    for x0 in starts]
@@ -181,7 +181,7 @@ def warm_up() -> float:
     """Compile (or load from the disk cache) the kernel; returns the seconds it took."""
     began = time.perf_counter()
     w = np.sin(np.arange(30.0))
-    kernel.objective(np.zeros(2), w, np.ones(30), 1, 0, 1, 0, 4, GRADIENT_STEP)
+    kernel.objective(np.zeros(2), np.zeros(2), w, np.ones(30), 1, 0, 1, 0, 4, GRADIENT_STEP)
     kernel.profile_loglike(np.zeros(2), w, np.zeros(30), 0, 1, 0, 1, 4)
     kernel.multiply(np.zeros(1), np.zeros(1), np.zeros(1), np.zeros(1), 4)
     kernel.filter_sums(w, np.zeros(30), np.zeros(1), np.zeros(1))

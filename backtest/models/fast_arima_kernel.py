@@ -320,15 +320,15 @@ def profile_loglike(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: in
 
 
 @njit
-def objective(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int, big_p: int,
-              big_q: int, s: int, step: float) -> tuple[float, np.ndarray]:
-    """Minus the profile log-likelihood per observation and its central-difference
-    gradient (step ``step`` in every unconstrained coordinate)."""
+def objective(x: np.ndarray, gradient: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int,
+              q: int, big_p: int, big_q: int, s: int, step: float) -> float:
+    """Minus the profile log-likelihood per observation; its central-difference gradient
+    (step ``step`` in every unconstrained coordinate) is written to ``gradient``."""
     n = w.shape[0]
     value = -profile_loglike(x, w, reg, p, q, big_p, big_q, s)[0] / n
-    grad = np.zeros(x.shape[0])
     if not np.isfinite(value):
-        return 1e300, grad
+        gradient[:] = 0.0
+        return 1e300
     probe = x.copy()
     for i in range(x.shape[0]):
         probe[i] = x[i] + step
@@ -336,5 +336,5 @@ def objective(x: np.ndarray, w: np.ndarray, reg: np.ndarray, p: int, q: int, big
         probe[i] = x[i] - step
         f_down = -profile_loglike(probe, w, reg, p, q, big_p, big_q, s)[0] / n
         probe[i] = x[i]
-        grad[i] = (f_up - f_down) / (2.0 * step)
-    return value, grad
+        gradient[i] = (f_up - f_down) / (2.0 * step)
+    return float(value)

@@ -163,24 +163,25 @@ def _broken(gradient: np.ndarray) -> float:
 
 
 @njit
-def objective(x: np.ndarray, theta: np.ndarray, y: np.ndarray, m: int,
+def objective(x: np.ndarray, gradient: np.ndarray, theta: np.ndarray, y: np.ndarray, m: int,
               multiplicative_error: bool, multiplicative_season: bool, free: np.ndarray
-              ) -> tuple[float, np.ndarray]:
-    """Minus the log-likelihood per observation (statsmodels' objective) and its gradient,
-    at ``theta`` with ``theta[free] = x``; a breakdown gives a large finite value and
-    a zero gradient, which the line search backs away from."""
-    full = theta.copy()
+              ) -> float:
+    """Minus the log-likelihood per observation (statsmodels' objective) at ``theta`` with
+    ``theta[free] = x`` (written into ``theta``); its gradient is written to ``gradient``.
+    A breakdown gives a large finite value and a zero gradient, which the line search
+    backs away from."""
     for j in range(free.shape[0]):
-        full[free[j]] = x[j]
-    gradient = np.empty(free.shape[0])
-    value = loglike_gradient(full, y, m, multiplicative_error, multiplicative_season, free,
+        theta[free[j]] = x[j]
+    value = loglike_gradient(theta, y, m, multiplicative_error, multiplicative_season, free,
                              gradient)
     n = y.shape[0]
     if not math.isfinite(value):
-        return 1e10, np.zeros(free.shape[0])
+        for j in range(free.shape[0]):
+            gradient[j] = 0.0
+        return 1e10
     for j in range(free.shape[0]):
         gradient[j] = -gradient[j] / n
-    return -value / n, gradient
+    return float(-value / n)
 
 
 @njit

@@ -24,6 +24,7 @@ LINE_SEARCH_STEPS = 20
 #: ``task`` codes of the routine: evaluate f and g, a new iterate, converged, stopped, failed.
 _EVALUATE, _NEW_ITERATE, _CONVERGED, _STOP, _ABNORMAL = 3, 1, 4, 5, 8
 _ITERATION_LIMIT = 504
+_EPSILON = float(np.finfo(float).eps)
 
 
 @dataclass(frozen=True)
@@ -39,35 +40,53 @@ class Minimum:
     evaluations: int
 
 
-def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarray,
-                     lower: np.ndarray, upper: np.ndarray, args: tuple[Any, ...], *, ftol: float,
-                     gtol: float, max_iterations: int, corrections: int = 10) -> Minimum:
-    """Minimise ``fun(x, *args) -> (value, gradient)`` (a float and a float64 array) over
-    ``lower <= x <= upper`` (infinite bounds allowed), with scipy's ``ftol``, ``gtol`` and
-    ``maxcor`` (``corrections``, the stored correction pairs) meaning."""
-    n = len(x0)
-    finite_low, finite_up = np.isfinite(lower), np.isfinite(upper)
-    low = np.where(finite_low, lower, 0.0)
-    up = np.where(finite_up, upper, 0.0)
-    kinds = np.where(finite_low & finite_up, 2, np.where(finite_low, 1,
-                                                         np.where(finite_up, 3, 0)))
-    kinds = kinds.astype(np.int32)
-    x = np.clip(np.asarray(x0, dtype=float), lower, upper)
+@dataclass(frozen=True)
+class Box:
+    """Bounds ``lower <= x <= upper`` (infinite bounds allowed), also in the routine's
+    encoding: finite values (0 where infinite) and a kind per coordinate (0 none, 1 lower
+    only, 2 both, 3 upper only). Built once, used by every search over the same bounds."""
+
+    lower: np.ndarray
+    upper: np.ndarray
+    low: np.ndarray
+    up: np.ndarray
+    kinds: np.ndarray
+
+    @classmethod
+    def of(cls, lower: np.ndarray, upper: np.ndarray) -> Box:
+        lower, upper = np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
+        finite_low, finite_up = np.isfinite(lower), np.isfinite(upper)
+        kinds = finite_low + 3 * finite_up - 2 * (finite_low & finite_up)
+        return cls(lower, upper, np.where(finite_low, lower, 0.0),
+                   np.where(finite_up, upper, 0.0), kinds.astype(np.int32))
+
+
+def minimize_bounded(fun: Callable[..., float], x0: np.ndarray, box: Box,
+                     args: tuple[Any, ...], *, ftol: float, gtol: float, max_iterations: int,
+                     corrections: int = 10) -> Minimum:
+    """Minimise ``fun(x, gradient, *args) -> value`` (a float, with the gradient written
+    into the float64 array ``gradient``) over ``box`` from ``x0`` (moved into the box), with
+    scipy's ``ftol``, ``gtol`` and ``maxcor`` (``corrections``, the stored correction
+    pairs) meaning."""
+    n, m = len(x0), corrections
+    x = np.minimum(np.maximum(np.asarray(x0, dtype=float), box.lower), box.upper)
     f, g = 0.0, np.zeros(n)
-    m = corrections
-    work = np.zeros(2 * m * n + 5 * n + 11 * m * m + 8 * m)
-    iwork = np.zeros(3 * n, dtype=np.int32)
-    task, ln_task = np.zeros(2, dtype=np.int32), np.zeros(2, dtype=np.int32)
-    lsave, isave, dsave = (np.zeros(4, dtype=np.int32), np.zeros(44, dtype=np.int32),
-                           np.zeros(29))
-    factr = ftol / np.finfo(float).eps
+    # the routine's workspace: work, dsave (floats); iwork, task, ln_task, lsave, isave
+    floats = np.zeros(2 * m * n + 5 * n + 11 * m * m + 8 * m + 29)
+    work, dsave = floats[:-29], floats[-29:]
+    ints = np.zeros(3 * n + 52, dtype=np.int32)
+    iwork, task, ln_task, lsave, isave = (ints[:3 * n], ints[3 * n:3 * n + 2],
+                                          ints[3 * n + 2:3 * n + 4], ints[3 * n + 4:3 * n + 8],
+                                          ints[3 * n + 8:])
+    factr = ftol / _EPSILON
+    setulb, low, up, kinds = _lbfgsb.setulb, box.low, box.up, box.kinds
     iterations = evaluations = 0
     while True:
-        _lbfgsb.setulb(m, x, low, up, kinds, f, g, factr, gtol, work, iwork, task, lsave,
-                       isave, dsave, LINE_SEARCH_STEPS, ln_task)
-        code = task[0]
+        setulb(m, x, low, up, kinds, f, g, factr, gtol, work, iwork, task, lsave, isave,
+               dsave, LINE_SEARCH_STEPS, ln_task)
+        code = task.item(0)
         if code == _EVALUATE:
-            f, g = fun(x, *args)
+            f = fun(x, g, *args)
             evaluations += 1
         elif code == _NEW_ITERATE:
             iterations += 1
@@ -75,5 +94,5 @@ def minimize_bounded(fun: Callable[..., tuple[float, np.ndarray]], x0: np.ndarra
                 task[0], task[1] = _STOP, _ITERATION_LIMIT
         else:
             break
-    return Minimum(x.copy(), float(f), g.copy(), bool(task[0] == _CONVERGED),
-                   bool(task[0] == _ABNORMAL), iterations, evaluations)
+    return Minimum(x.copy(), float(f), g.copy(), code == _CONVERGED, code == _ABNORMAL,
+                   iterations, evaluations)
