@@ -100,6 +100,11 @@ PANEL = [AIRLINE,
          {"family": "ets", "error": "additive", "trend": "additive", "season": "additive"}]
 
 
+#: statsmodels' L-BFGS-B options for a fit run to a strict stop (its default: pgtol 1e-5,
+#: factr 1e7). statsmodels adds keys to the dict it is given, so each fit gets a copy.
+STRICT_STOP = {"pgtol": 1e-10, "factr": 10.0, "maxiter": 2000}
+
+
 @dataclass(frozen=True)
 class HandModel:
     """How the hand loop fits, filters and forecasts one candidate with statsmodels."""
@@ -107,9 +112,12 @@ class HandModel:
     build: Callable[[np.ndarray], object]
     log: bool
 
-    def fit(self, z: np.ndarray):
+    def fit(self, z: np.ndarray, strict: bool = False):
+        """statsmodels' fit with its defaults, or run to :data:`STRICT_STOP`."""
         model = self.build(z)
-        return model.fit(disp=False) if isinstance(model, ETSModel) else model.fit()
+        if isinstance(model, ETSModel):
+            return model.fit(disp=False, **(dict(STRICT_STOP) if strict else {}))
+        return model.fit(method_kwargs=dict(STRICT_STOP)) if strict else model.fit()
 
     def forecast(self, results, z: np.ndarray, params=None) -> np.ndarray:
         """Rows: mean, then lower and upper per level, on the original scale."""

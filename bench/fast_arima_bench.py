@@ -257,20 +257,14 @@ def _hand_fold(hand, z: np.ndarray) -> tuple[np.ndarray, float]:
     return _quiet(lambda: hand.forecast(results, z)), float(results.llf)
 
 
-#: statsmodels' L-BFGS-B options for a fit run to a strict stop (its default: pgtol 1e-5,
-#: factr 1e7). statsmodels adds keys to the dict it is given, so each fit gets a copy.
-STRICT_STOP = {"pgtol": 1e-10, "factr": 10.0, "maxiter": 2000}
-
-
 def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
     """Engine at refit cadence 1 against the hand loop on the generated panel (20 series x
     3 candidates): the hand loop fits statsmodels at every origin in this process; the
     engine runs under each estimator (``assessment: "lean"``, ``jobs`` workers), on all
-    three candidates and on the two ARIMA candidates alone (the families the fast
-    estimator covers; ETS(A,A,A) estimates with statsmodels under both). Ratios are of
+    three candidates and on the two ARIMA candidates alone. Ratios are of
     CPU estimates for an idle machine (this process plus the busiest worker), as in
     ``engine_bench.py``; wall clock beside them."""
-    from engine_bench import HAND, LEVELS, PANEL, Clock, _warm_pool, engine_forecasts, panel
+    from engine_bench import HAND, LEVELS, PANEL, Clock, _warm_pool, panel
 
     series = panel(n_series)
     candidates = parse_candidates(PANEL)
@@ -314,69 +308,85 @@ def part_panel(n_series: int, max_origins: int, jobs: int) -> None:
                   f"{wall:7.1f} s; ratio to the hand loop {hand_s / cpu:5.1f}x (CPU), "
                   f"{hand_wall * hand_s / hand_all / wall:5.1f}x (wall); load "
                   f"{os.getloadavg()[0]:.1f}")
-    ours = engine_forecasts(measured["all 3 candidates", "fast"], ids)
-    params = {(sr.series["key"], f.candidate_id): [] for sr in
-              measured["all 3 candidates", "fast"].series for f in sr.folds}
-    for sr in measured["all 3 candidates", "fast"].series:
+    _panel_agreement(series, candidates, measured["all 3 candidates", "fast"], ends, hand,
+                     hand_llf)
+
+
+def _panel_agreement(series, candidates, result, ends, hand, hand_llf) -> None:
+    """The engine's folds (fast estimator) against the hand loop's statsmodels fits, per
+    family: where both optima agree to 1e-6 in statsmodels' own log-likelihood, how far
+    the forecasts and bounds differ; those folds re-fitted by statsmodels to a strict stop
+    (``engine_bench.STRICT_STOP``), against the engine and against statsmodels' own default fit."""
+    from engine_bench import HAND, engine_forecasts
+
+    ids = [c.id for c in candidates]
+    ours = engine_forecasts(result, ids)
+    params = {(sr.series["key"], f.candidate_id): [] for sr in result.series for f in sr.folds}
+    for sr in result.series:
         for f in sr.folds:
             params[sr.series["key"], f.candidate_id].append(f.params)
-    agree, better, total, worst_agreeing, worst_any, same_params = 0, 0, 0, 0.0, 0.0, 0.0
-    worst_strict, higher_theirs, higher_exact, strict_converged, params_apart = 0.0, 0, 0, 0, 0.0
-    for s in series:
-        values = np.log(np.asarray(s.values, float))
-        for cid, spec, model_of in zip(arima_ids, (c.spec for c in candidates[:2]), HAND):
-            for k, end in enumerate(ends):
-                model = spec.model(values[:end], 12)
-                estimate = vector(model, params[s.key, cid][k])
-                llf = _quiet(lambda model=model, estimate=estimate: model.loglike(estimate))
-                at_estimate = _quiet(lambda model_of=model_of, z=values[:end],
-                                     estimate=estimate: model_of.forecast(None, z, estimate))
-                same_params = max(same_params, float(np.max(
-                    np.abs(ours[s.key, cid][k] - at_estimate) / np.abs(at_estimate))))
-                gap = llf - hand_llf[s.key, cid][k]
-                rel = float(np.max(np.abs(ours[s.key, cid][k] - hand[s.key, cid][k])
-                                   / np.abs(hand[s.key, cid][k])))
-                total += 1
-                better += gap >= -1e-6
-                worst_any = max(worst_any, rel)
-                if abs(gap) <= 1e-6:
-                    agree += 1
-                    worst_agreeing = max(worst_agreeing, rel)
-                    strict = _quiet(lambda model_of=model_of, z=values[:end]: model_of.build(
-                        z).fit(method_kwargs=dict(STRICT_STOP)))
-                    refitted = model_of.forecast(strict, values[:end])
-                    worst_strict = max(worst_strict, float(np.max(
-                        np.abs(ours[s.key, cid][k] - refitted) / np.abs(refitted))))
-                    # the two optima on both likelihoods: statsmodels' own and the exact
-                    # one the fast estimator maximises
-                    theirs = {RENAMED_PARAMETERS.get(n, n): float(v) for n, v in
-                              zip(strict.model.param_names, strict.params)}
-                    mine = params[s.key, cid][k]
-                    higher_theirs += llf >= float(strict.llf)
-                    higher_exact += (fast_loglike(spec, values[:end], 12, mine)
-                                     >= fast_loglike(spec, values[:end], 12, theirs))
-                    strict_converged += bool(strict.mle_retvals.get("converged"))
-                    params_apart = max(params_apart, max(abs(mine[n] - theirs[n])
-                                                         for n in theirs if n != "sigma2"))
-    ets = float(np.max([np.max(np.abs(ours[s.key, ids[2]] - hand[s.key, ids[2]])
-                                / np.abs(hand[s.key, ids[2]])) for s in series]))
-    print(f"  ARIMA folds (fast engine against the hand loop's statsmodels fits), {total} in "
-          f"all: log-likelihood (statsmodels' own, at each estimate) at least the hand "
-          f"loop's - 1e-6 in {better}; within 1e-6 of it in {agree}, whose forecasts and "
-          f"bounds differ by at most {worst_agreeing:.1e} relative (all folds: "
-          f"{worst_any:.1e}); the hand loop's statsmodels forecast at the engine's own "
-          f"estimates differs by at most {same_params:.1e} relative; ETS folds: {ets:.1e} "
-          "relative")
-    print(f"  statsmodels' default fit stops at a projected gradient of 1e-5, so two optima "
-          f"within 1e-6 in log-likelihood can still differ in the fourth digit of a "
-          f"coefficient; those {agree} folds re-fitted by statsmodels to a strict stop "
-          f"(pgtol 1e-10, factr 10): forecasts and bounds within {worst_strict:.1e} relative "
-          "of the engine's (target 1e-6)")
-    print(f"  of those {agree} strict re-fits {strict_converged} report convergence; the "
-          f"engine's optimum is the higher on statsmodels' own likelihood in {higher_theirs} "
-          f"and on the exact likelihood in {higher_exact}, coefficients up to "
-          f"{params_apart:.1e} apart: where the engine's optimum is the higher, what is left "
-          "is how far short of the maximum statsmodels' optimiser stops")
+
+    def relative(a: np.ndarray, b: np.ndarray) -> float:
+        return float(np.max(np.abs(a - b) / np.abs(b)))
+
+    for family in ("arima", "ets"):
+        rows = []
+        for s in series:
+            raw = np.asarray(s.values, float)
+            for candidate, hand_model in zip(candidates, HAND):
+                spec = candidate.spec
+                if spec.family != family:
+                    continue
+                z = np.log(raw) if hand_model.log else raw
+                for k, end in enumerate(ends):
+                    model = spec.model(z[:end], 12)
+                    mine = params[s.key, candidate.id][k]
+                    estimate = (vector(model, mine) if family == "arima" else
+                                np.array([mine[n] for n in model.param_names]))
+                    llf = _quiet(lambda model=model, estimate=estimate: model.loglike(estimate))
+                    row = {"gap": llf - hand_llf[s.key, candidate.id][k],
+                           "apart": relative(ours[s.key, candidate.id][k],
+                                             hand[s.key, candidate.id][k])}
+                    if abs(row["gap"]) <= 1e-6:
+                        strict = _quiet(lambda h=hand_model, z=z[:end]: h.fit(z, strict=True))
+                        refitted = hand_model.forecast(strict, z[:end])
+                        row.update(
+                            strict_apart=relative(ours[s.key, candidate.id][k], refitted),
+                            default_apart=relative(hand[s.key, candidate.id][k], refitted),
+                            strict_gap=llf - float(strict.llf),
+                            converged=bool(strict.mle_retvals.get("converged")))
+                        if family == "arima":
+                            theirs = {RENAMED_PARAMETERS.get(n, n): float(v) for n, v in
+                                      zip(strict.model.param_names, strict.params)}
+                            row["higher_exact"] = (fast_loglike(spec, z[:end], 12, mine)
+                                                   >= fast_loglike(spec, z[:end], 12, theirs))
+                    rows.append(row)
+        table = pd.DataFrame(rows)
+        agreeing = table[table["gap"].abs() <= 1e-6]
+        print(f"  {family.upper()} folds (fast engine against the hand loop's statsmodels "
+              f"fits): {len(table)}; statsmodels' own log-likelihood at the engine's "
+              f"estimate at least the hand loop's - 1e-6 in {int((table['gap'] >= -1e-6).sum())}"
+              f", within 1e-6 of it in {len(agreeing)}; forecasts and bounds apart by at "
+              f"most {table['apart'].max():.1e} relative (all folds), "
+              f"{agreeing['apart'].max():.1e} (agreeing folds, target 1e-6)")
+        if agreeing.empty:
+            continue
+        exact = (f", on the exact likelihood in {int(agreeing['higher_exact'].sum())}"
+                 if family == "arima" else "")
+        closest = agreeing[agreeing["strict_gap"].abs() <= 1e-9]
+        print(f"    the {len(agreeing)} agreeing folds re-fitted by statsmodels to a strict "
+              f"stop (pgtol 1e-10, factr 10; {int(agreeing['converged'].sum())} report "
+              f"convergence): the engine within {agreeing['strict_apart'].max():.1e} relative "
+              f"of them (median {agreeing['strict_apart'].median():.1e}); statsmodels' own "
+              f"default fit within {agreeing['default_apart'].max():.1e} (median "
+              f"{agreeing['default_apart'].median():.1e}); the engine's optimum the higher "
+              f"on statsmodels' likelihood in {int((agreeing['strict_gap'] >= 0).sum())}"
+              f"{exact}; engine minus strict re-fit log-likelihood from "
+              f"{agreeing['strict_gap'].min():+.1e} to {agreeing['strict_gap'].max():+.1e}")
+        if not closest.empty:
+            print(f"    the {len(closest)} of them whose optima agree to 1e-9: the engine within "
+                  f"{closest['strict_apart'].max():.1e} relative of the strict re-fit "
+                  f"(median {closest['strict_apart'].median():.1e})")
 
 
 def part_split(jobs: int) -> None:
