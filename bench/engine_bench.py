@@ -112,12 +112,15 @@ class HandModel:
     build: Callable[[np.ndarray], object]
     log: bool
 
-    def fit(self, z: np.ndarray, strict: bool = False):
-        """statsmodels' fit with its defaults, or run to :data:`STRICT_STOP`."""
+    def fit(self, z: np.ndarray, strict: bool = False, start: np.ndarray | None = None):
+        """statsmodels' fit with its defaults, or run to :data:`STRICT_STOP`; from its own
+        start values or from ``start``."""
         model = self.build(z)
         if isinstance(model, ETSModel):
-            return model.fit(disp=False, **(dict(STRICT_STOP) if strict else {}))
-        return model.fit(method_kwargs=dict(STRICT_STOP)) if strict else model.fit()
+            return model.fit(start_params=start, disp=False,
+                             **(dict(STRICT_STOP) if strict else {}))
+        options = {"method_kwargs": dict(STRICT_STOP)} if strict else {}
+        return model.fit(start_params=start, **options)
 
     def forecast(self, results, z: np.ndarray, params=None) -> np.ndarray:
         """Rows: mean, then lower and upper per level, on the original scale."""

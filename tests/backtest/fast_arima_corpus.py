@@ -172,9 +172,10 @@ def origins(item: CorpusSeries, spec: ArimaSpec, count: int) -> list[int]:
     return sorted({int(e) for e in np.linspace(first, n, count)})
 
 
-def exact_loglike(spec: ArimaSpec, y: np.ndarray, params: Params) -> float:
-    """statsmodels' exact likelihood of the differenced series (``SARIMAX`` with
-    ``simple_differencing=True``, the deterministic regressor differenced alike)."""
+def exact_model(spec: ArimaSpec, y: np.ndarray) -> SARIMAX:
+    """statsmodels' model of the differenced series, whose likelihood is the exact one
+    (``SARIMAX`` with ``simple_differencing=True``, the deterministic regressor differenced
+    alike); its first parameter is then the constant or drift."""
     n = len(y)
     exog = None
     if spec.deterministic == "drift":
@@ -182,9 +183,14 @@ def exact_loglike(spec: ArimaSpec, y: np.ndarray, params: Params) -> float:
     elif spec.deterministic == "constant":
         exog = np.ones(n)
     seasonal = (*spec.seasonal, spec.period) if spec.seasonal else (0, 0, 0, 0)
-    model = SARIMAX(y, exog=exog, order=spec.order, seasonal_order=seasonal,
-                    simple_differencing=True)
-    values = [params[spec.deterministic] if i == 0 and exog is not None else params[name]
+    return SARIMAX(y, exog=exog, order=spec.order, seasonal_order=seasonal,
+                   simple_differencing=True)
+
+
+def exact_loglike(spec: ArimaSpec, y: np.ndarray, params: Params) -> float:
+    """statsmodels' exact likelihood of the differenced series (:func:`exact_model`)."""
+    model = exact_model(spec, y)
+    values = [params[spec.deterministic] if i == 0 and model.k_exog else params[name]
               for i, name in enumerate(model.param_names)]
     with warnings.catch_warnings():
         # the differenced regressor is constant, which statsmodels remarks on
