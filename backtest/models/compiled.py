@@ -39,3 +39,10 @@ if not _config.CACHE_DIR:  # numba was imported before this module
 def njit(function: F) -> F:
     """Compile ``function`` in nopython mode, cached on disk."""
     return cast(F, numba.njit(cache=True, nogil=True)(function))  # a dispatcher calls alike
+
+
+def njit_ieee_division(function: F) -> F:
+    """:func:`njit` with IEEE division (numba's ``error_model="numpy"``): a division by zero
+    gives an infinity or NaN instead of raising, so a loop needs no test before each
+    division and can compile to vector instructions."""
+    return cast(F, numba.njit(cache=True, nogil=True, error_model="numpy")(function))

@@ -40,10 +40,13 @@ import math
 
 import numpy as np
 
-from backtest.models.compiled import njit
+from backtest.models.compiled import njit, njit_ieee_division
 
 #: Index of each smoothing parameter and initial state in the internal vector.
 ALPHA, BETA_STAR, GAMMA_STAR, PHI, LEVEL, TREND, SEASONS = 0, 1, 2, 3, 4, 5, 6
+#: The objective where the recursions break down: large and finite, so that the line
+#: search backs away.
+BROKEN = 1e10
 
 
 @njit
@@ -178,10 +181,32 @@ def objective(x: np.ndarray, gradient: np.ndarray, theta: np.ndarray, y: np.ndar
     if not math.isfinite(value):
         for j in range(free.shape[0]):
             gradient[j] = 0.0
-        return 1e10
+        return BROKEN
     for j in range(free.shape[0]):
         gradient[j] = -gradient[j] / n
     return float(-value / n)
+
+
+@njit_ieee_division
+def advance(level: float, trend: float, old: float, yt: float, alpha: float, beta: float,
+             gamma: float, phi: float, multiplicative_season: bool
+             ) -> tuple[float, float, float, float]:
+    """One step of the recursions in statsmodels' smoother's operations and order: the
+    prediction, and the new level, trend and season. A division by a zero season or
+    level (multiplicative season) gives an infinity or NaN; callers test for it."""
+    base = level + phi * trend
+    if multiplicative_season:
+        yhat = base * old
+        new_level = alpha * (yt / old) + (1 - alpha) * base
+    else:
+        yhat = base + old
+        new_level = alpha * (yt - old) + (1 - alpha) * base
+    new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
+    if multiplicative_season:
+        new_season = gamma * (yt / new_level) + (1 - gamma) * old
+    else:
+        new_season = gamma * (yt - new_level) + (1 - gamma) * old
+    return yhat, new_level, new_trend, new_season
 
 
 @njit
@@ -205,26 +230,11 @@ def smoothing_pass(theta: np.ndarray, y: np.ndarray, m: int, multiplicative_seas
     for t in range(n):
         r = t % m
         old = ring[r]
-        yt = y[t]
-        base = level + phi * trend
-        if multiplicative_season:
-            if old == 0.0:
-                return np.full(n, math.nan), np.full((n, 3), math.nan)
-            fitted[t] = base * old
-            new_level = alpha * (yt / old) + (1 - alpha) * base
-        else:
-            fitted[t] = base + old
-            new_level = alpha * (yt - old) + (1 - alpha) * base
-        new_trend = beta * (new_level - level) + (1 - beta) * phi * trend
-        if multiplicative_season:
-            if new_level == 0.0:
-                return np.full(n, math.nan), np.full((n, 3), math.nan)
-            new_season = gamma * (yt / new_level) + (1 - gamma) * old
-        else:
-            new_season = gamma * (yt - new_level) + (1 - gamma) * old
-        states[t, 0], states[t, 1], states[t, 2] = new_level, new_trend, new_season
-        level, trend = new_level, new_trend
-        ring[r] = new_season
+        fitted[t], level, trend, ring[r] = advance(level, trend, old, y[t], alpha, beta,
+                                                    gamma, phi, multiplicative_season)
+        if multiplicative_season and (old == 0.0 or level == 0.0):
+            return np.full(n, math.nan), np.full((n, 3), math.nan)
+        states[t, 0], states[t, 1], states[t, 2] = level, trend, ring[r]
     return fitted, states
 
 

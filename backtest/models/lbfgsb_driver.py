@@ -23,7 +23,7 @@ from scipy.optimize import _lbfgsb
 LINE_SEARCH_STEPS = 20
 #: ``task`` codes of the routine: evaluate f and g, a new iterate, converged, stopped, failed.
 _EVALUATE, _NEW_ITERATE, _CONVERGED, _STOP, _ABNORMAL = 3, 1, 4, 5, 8
-_ITERATION_LIMIT = 504
+_ITERATION_LIMIT, _EVALUATION_LIMIT = 504, 502
 _EPSILON = float(np.finfo(float).eps)
 
 
@@ -63,11 +63,13 @@ class Box:
 
 def minimize_bounded(fun: Callable[..., float], x0: np.ndarray, box: Box,
                      args: tuple[Any, ...], *, ftol: float, gtol: float, max_iterations: int,
-                     corrections: int = 10) -> Minimum:
+                     max_evaluations: int | None = None, corrections: int = 10) -> Minimum:
     """Minimise ``fun(x, gradient, *args) -> value`` (a float, with the gradient written
     into the float64 array ``gradient``) over ``box`` from ``x0`` (moved into the box), with
     scipy's ``ftol``, ``gtol`` and ``maxcor`` (``corrections``, the stored correction
-    pairs) meaning."""
+    pairs) meaning; stopped like scipy's ``minimize`` at the iteration that reaches
+    ``max_iterations`` or, failing that, at one that ends beyond ``max_evaluations``
+    calls of ``fun``."""
     n, m = len(x0), corrections
     x = np.minimum(np.maximum(np.asarray(x0, dtype=float), box.lower), box.upper)
     f, g = 0.0, np.zeros(n)
@@ -92,6 +94,8 @@ def minimize_bounded(fun: Callable[..., float], x0: np.ndarray, box: Box,
             iterations += 1
             if iterations >= max_iterations:
                 task[0], task[1] = _STOP, _ITERATION_LIMIT
+            elif max_evaluations is not None and evaluations > max_evaluations:
+                task[0], task[1] = _STOP, _EVALUATION_LIMIT
         else:
             break
     return Minimum(x.copy(), float(f), g.copy(), code == _CONVERGED, code == _ABNORMAL,

@@ -77,23 +77,22 @@ def test_gradient_equals_central_differences(g, code):
 
 
 @pytest.mark.parametrize(("code", "n"), [("AAA", 144), ("MAdM", 144), ("MNA", 30),
-                                         ("AAdN", 144), ("MNN", 8)])
-def test_start_values_are_statsmodels(g, code, n):
+                                         ("AAdN", 144), ("MNN", 8), ("ANM", 61)])
+def test_start_values_are_statsmodels_bit_for_bit(g, code, n):
     """The start values statsmodels' ETSModel optimises from (statsmodels 0.15:
-    ``ETSModel.start_params`` after building the model), with the heuristic and, on a
-    short window, the simple initial states."""
+    ``ETSModel.start_params`` after building the model), to the last bit, with the
+    heuristic and, on a short window, the simple initial states; and the two rules'
+    initial level, compared directly with statsmodels' functions."""
     spec = _ets(code)
     model = spec.model(g[:n], 12)
     ours = start_values(g[:n], EtsClass.of(spec, 12))
-    assert np.allclose([ours[k] for k in model.param_names], model.start_params,
-                       rtol=1e-10, atol=1e-10)
-    # and the two initial-state rules, compared directly
+    assert np.array_equal([ours[k] for k in model.param_names], model.start_params)
     trend, season = ("add" if spec.trend != "none" else None,
                      {"none": None, "additive": "add", "multiplicative": "mul"}[spec.season])
     rule = _initialization_heuristic if n >= 10 + 2 * (12 // 2) else _initialization_simple
     level, *_ = rule(g[:n], trend=trend, seasonal=season,
                      seasonal_periods=12 if season else 1)
-    assert ours["initial_level"] == pytest.approx(level, rel=1e-10)
+    assert ours["initial_level"] == level
 
 
 @pytest.fixture(scope="module")
@@ -103,7 +102,9 @@ def ci_corpus():
 
 def test_optimum_is_at_least_the_reference_optimum(ci_corpus):
     """Every fold of the CI corpus: the fast estimate's likelihood, evaluated by
-    statsmodels, is at least the reference estimate's minus LOGLIKE_TOLERANCE."""
+    statsmodels, is at least the reference estimate's minus LOGLIKE_TOLERANCE (the
+    estimator replays the reference's search, so it is at least the reference's to
+    rounding)."""
     folds = 0
     for item in ci_corpus:
         for spec in item.specs:

@@ -67,3 +67,16 @@ def test_the_iteration_limit_stops_the_search_unconverged():
                                gtol=1e-10, max_iterations=5)
     assert stopped.iterations == 5
     assert not stopped.converged and not stopped.line_search_failed
+
+
+def test_the_evaluation_limit_stops_like_scipys_maxfun():
+    """scipy stops at the first iteration that ends beyond ``maxfun`` evaluations."""
+    ours = minimize_bounded(in_place, START, Box.of(LOWER, UPPER), (), ftol=1e-13,
+                            gtol=1e-10, max_iterations=1000, max_evaluations=20)
+    theirs = minimize(rosenbrock, START, jac=True, method="L-BFGS-B",
+                      bounds=list(zip(LOWER, UPPER)),
+                      options={"ftol": 1e-13, "gtol": 1e-10, "maxiter": 1000, "maxfun": 20})
+    assert ours.evaluations == theirs.nfev > 20
+    assert ours.iterations == theirs.nit
+    np.testing.assert_array_equal(ours.x, theirs.x)
+    assert not ours.converged and not theirs.success

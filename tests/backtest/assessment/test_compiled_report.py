@@ -231,10 +231,10 @@ def test_full_series_diagnostics_under_fast_builds_no_results_object_and_keeps_e
 
 
 def test_a_fit_that_falls_back_is_reported_from_statsmodels_results():
-    # on this invented series the fast ETS(A,A,A) estimate does not converge (measured), so
+    # on this invented series the fast ETS(A,Ad,A) estimate does not converge (measured), so
     # the reference estimator fits it and its results object is kept
-    values = invented_monthly(N, 3)
-    candidate = parse_candidate({"family": "ets", "error": "additive", "trend": "additive",
+    values = invented_monthly(N, 6)
+    candidate = parse_candidate({"family": "ets", "error": "additive", "trend": "damped",
                                  "season": "additive"})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
