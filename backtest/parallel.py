@@ -9,7 +9,10 @@ the cores and a run gets much slower. A task is a whole unit of work (the engine
 series with one candidate, or a chunk of its origins when tasks are fewer than workers),
 so each worker process imports the code once and receives already-validated inputs.
 Results are yielded as tasks finish, while the pool goes on with the rest; the caller may
-work on them (score, store) meanwhile.
+work on them (score, store) meanwhile. The local pool runs at most
+:data:`AHEAD_PER_WORKER` tasks per worker ahead of the caller: when the caller is the
+slower side (a job worker storing every series' results), finished results would otherwise
+pile up in its memory (a quarter of a 1,000-series run's, about 0.7 GiB, measured).
 
 Pool processes never outlive the process that started them: each one, as it starts, runs
 a watchdog thread that ends it within :data:`WATCH_SECONDS` of being handed to another
@@ -22,16 +25,21 @@ processes from whichever thread submits work.)
 from __future__ import annotations
 
 import os
+import queue
 import threading
 import time
-from collections.abc import Callable, Generator, Iterable, Sequence
-from typing import Any, TypeVar, cast
+from collections.abc import Callable, Generator, Iterable, Iterator, Sequence
+from concurrent.futures import FIRST_COMPLETED, Future, wait
+from typing import Any, TypeVar
 
 from joblib import Parallel, delayed, parallel_config
+from joblib.externals.loky import get_reusable_executor
 from threadpoolctl import threadpool_limits
 
 T = TypeVar("T")
 WATCH_SECONDS = 0.5
+#: Tasks per worker submitted to the local pool and not yet taken by the caller, at most.
+AHEAD_PER_WORKER = 8
 
 
 def die_with_parent() -> None:
@@ -66,15 +74,52 @@ def iter_tasks(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], *, n_jobs
     Closing the generator early cancels the tasks not yet started; in the local pool it
     also ends the tasks running (their processes are killed and replaced when next needed).
     """
-    calls = (delayed(_single_threaded)(fn, i, t) for i, t in enumerate(tasks))
     if scheduler is not None:
-        return _on_cluster(scheduler, calls)
+        return _on_cluster(scheduler, (delayed(_single_threaded)(fn, i, t)
+                                       for i, t in enumerate(tasks)))
     if n_jobs == 1:
         return (_single_threaded(fn, i, t) for i, t in enumerate(tasks))
-    # joblib's unordered generator (a Python generator; joblib has no annotations)
-    return cast(Generator[tuple[int, T], None, None], Parallel(
-        n_jobs=n_jobs, backend="loky", return_as="generator_unordered",
-        initializer=die_with_parent)(calls))
+    return _in_local_pool(fn, tasks, n_jobs)
+
+
+def _in_local_pool(fn: Callable[..., T], tasks: Sequence[tuple[Any, ...]], n_jobs: int
+                   ) -> Generator[tuple[int, T], None, None]:
+    """The local pool (loky's reusable executor), :data:`AHEAD_PER_WORKER` tasks per worker
+    ahead of the caller at most. A task's error is raised here; then, or when the caller
+    closes the generator early, the workers are killed and the tasks not finished dropped."""
+    executor = get_reusable_executor(max_workers=n_jobs, initializer=die_with_parent)
+    queued: Iterator[tuple[int, tuple[Any, ...]]] = enumerate(tasks)
+    pending: set[Future[tuple[int, T]]] = set()
+
+    def submit_next() -> None:
+        item = next(queued, None)
+        if item is not None:
+            pending.add(executor.submit(_single_threaded, fn, *item))
+
+    for _ in range(AHEAD_PER_WORKER * n_jobs):
+        submit_next()
+    try:
+        while pending:
+            done, _ = wait(pending, return_when=FIRST_COMPLETED)
+            for future in done:
+                pending.remove(future)
+                submit_next()
+                yield future.result()
+    finally:
+        if pending:  # the executor fails the pending tasks' futures itself
+            _drop_queued_ids(executor)
+            executor.shutdown(kill_workers=True)
+
+
+def _drop_queued_ids(executor: Any) -> None:
+    """Empty the queue of task ids the executor has not yet handed to a worker. loky 3.6
+    (joblib 1.6), shut down with ``kill_workers``, fails the pending futures but leaves
+    their ids queued, and its manager thread then dies on them with a ``KeyError``."""
+    while True:
+        try:
+            executor._work_ids.get_nowait()
+        except queue.Empty:
+            return
 
 
 def _on_cluster(scheduler: str, calls: Iterable[Any]) -> Generator[tuple[int, Any], None, None]:

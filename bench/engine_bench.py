@@ -512,10 +512,12 @@ class StageClock:
 
 
 class PeakMemory:
-    """Peak of the summed resident memory of this process and its children, sampled."""
+    """Peak of the summed resident memory of this process and its children, sampled, and
+    each process's own peak (``by_process``: this process first)."""
 
     def __init__(self, every: float = 0.25) -> None:
         self.peak, self._every = 0, every
+        self.by_process: dict[int, int] = {}
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._sample, daemon=True)
 
@@ -533,9 +535,11 @@ class PeakMemory:
             total = 0
             for process in (me, *me.children(recursive=True)):
                 try:
-                    total += process.memory_info().rss
+                    rss = process.memory_info().rss
                 except psutil.NoSuchProcess:
                     continue
+                total += rss
+                self.by_process[process.pid] = max(self.by_process.get(process.pid, 0), rss)
             self.peak = max(self.peak, total)
 
 
@@ -602,8 +606,11 @@ def storage_part(args: argparse.Namespace) -> None:
           f"{' + '.join(f'{t:.1f}' for t in sorted(pool, reverse=True))}; estimate for an "
           f"idle {os.cpu_count()}-core machine {idle:.1f} s")
     stages.report(len(series), own)
+    each = [memory.by_process.pop(os.getpid(), 0),
+            *sorted(memory.by_process.values(), reverse=True)]
     print(f"  peak resident memory, this process and its workers together: "
-          f"{memory.peak / 2**20:.0f} MiB")
+          f"{memory.peak / 2**20:.0f} MiB (each process's own peak: this process "
+          f"{each[0] / 2**20:.0f}, workers {', '.join(f'{b / 2**20:.0f}' for b in each[1:])})")
     print(f"  per 1,000 series: wall {wall * scale / 60:.1f} min, idle-machine estimate "
           f"{(idle + wall - computed) * scale / 60:.1f} min"
           + ("" if scale == 1 else " (extrapolated, linear in series)")

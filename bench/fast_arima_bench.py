@@ -34,6 +34,13 @@ Parts (all by default; ``--part`` picks one, repeated several):
   (20 series x 3 candidates), under each estimator, with the forecast agreement.
 - ``engine``: ``run_backtest`` of the airline model on log Series G, re-estimating at
   every origin (``refit: 1``, ``assessment: "lean"``), under each estimator, one process.
+- ``kernels``: whether a fold's numbers survive a change of processor. The panel's two
+  ARIMA candidates (``--kernel-series`` series x ``--panel-origins`` origins) are fitted
+  by the hand loop (statsmodels' default fit) and by the fast estimator in two processes
+  that differ only in the BLAS kernel OpenBLAS runs (its choice for this processor, and
+  ``OPENBLAS_CORETYPE=Sandybridge``, the kernel an older processor gets); on the folds
+  where each estimator's two log-likelihoods agree to 1e-6, the largest relative
+  difference of its forecasts and bounds between the kernels.
 - ``corpus``: the validation corpus (``tests/backtest/fast_arima_corpus.py``, at least
   500 re-estimated folds over at least 20 series): per fold the fast and the reference
   estimate, their log-likelihoods by statsmodels (the exact likelihood of the differenced
@@ -42,6 +49,7 @@ Parts (all by default; ``--part`` picks one, repeated several):
 
     python bench/fast_arima_bench.py [--part fit [--part series ...]] [--repeats 5]
         [--origins 16] [--panel-series 20] [--panel-origins 24] [--validation ci|full]
+        [--kernel-series 10]
 
 Not a test: timings depend on the machine and its load (printed first).
 """
@@ -53,7 +61,9 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads its BLAS
 
 import argparse  # noqa: E402
+import subprocess  # noqa: E402
 import sys  # noqa: E402
+import tempfile  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
 from dataclasses import replace  # noqa: E402
@@ -61,7 +71,7 @@ from pathlib import Path  # noqa: E402
 
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
-from threadpoolctl import threadpool_limits  # noqa: E402
+from threadpoolctl import threadpool_info, threadpool_limits  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
@@ -474,6 +484,74 @@ def part_split(jobs: int) -> None:
               f"{os.getloadavg()[0]:.1f}")
 
 
+#: The OpenBLAS kernel the second process of part ``kernels`` runs.
+OTHER_KERNEL = "Sandybridge"
+
+
+def record_kernel_folds(path: str, n_series: int, max_origins: int) -> None:
+    """Part ``kernels``, one process: every ARIMA fold of the panel fitted by the hand loop
+    and by the fast estimator, saved to ``path`` (log-likelihoods by statsmodels' model,
+    forecast rows on the original scale) with the BLAS kernel that ran."""
+    from engine_bench import HAND, PANEL, panel
+
+    series = panel(n_series)
+    specs = [c.spec for c in parse_candidates(PANEL)[:2]]
+    ends = list(range(48, len(series[0]) - 12 + 1))[-max_origins:]
+    hand_llf, hand_rows, fast_llf, fast_rows = [], [], [], []
+    for s in series:
+        z_all = np.log(np.asarray(s.values, float))
+        for spec, hand in zip(specs, HAND[:2]):
+            for end in ends:
+                z = z_all[:end]
+                rows, llf = _hand_fold(hand, z)
+                hand_rows.append(rows)
+                hand_llf.append(llf)
+                model = spec.model(z, 12)
+                params = vector(model, fast_estimate(spec, z, 12).params)
+                fast_llf.append(float(_quiet(lambda model=model, params=params:
+                                             model.loglike(params))))
+                fast_rows.append(_quiet(lambda hand=hand, z=z, params=params:
+                                        hand.forecast(None, z, params)))
+    kernel = next((i.get("architecture") for i in threadpool_info()
+                   if i.get("internal_api") == "openblas"), "unknown")
+    np.savez(path, hand_llf=hand_llf, hand_rows=hand_rows, fast_llf=fast_llf,
+             fast_rows=fast_rows, kernel=kernel)
+
+
+def part_kernels(n_series: int, max_origins: int) -> None:
+    """Both estimators' folds computed under two BLAS kernels, in two processes at once
+    (:func:`record_kernel_folds`), compared."""
+    with tempfile.TemporaryDirectory() as folder:
+        paths = [str(Path(folder) / f"{i}.npz") for i in (0, 1)]
+        runs = []
+        for path, kernel in zip(paths, (None, OTHER_KERNEL)):
+            env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_CORETYPE"}
+            if kernel is not None:
+                env["OPENBLAS_CORETYPE"] = kernel
+            runs.append(subprocess.Popen(
+                [sys.executable, __file__, "--record-kernel-folds", path,
+                 "--kernel-series", str(n_series), "--panel-origins", str(max_origins)],
+                env=env))
+        if any(run.wait() != 0 for run in runs):
+            raise SystemExit("a kernel run failed")
+        first, second = (dict(np.load(path)) for path in paths)
+    print(f"  {len(first['hand_llf'])} ARIMA folds ({n_series} panel series x 2 candidates x "
+          f"{max_origins} origins), kernels {first['kernel']} and {second['kernel']}")
+    for name, label in (("hand", "statsmodels' default fit (the hand loop)"),
+                        ("fast", "the fast estimator")):
+        gap = np.abs(first[f"{name}_llf"] - second[f"{name}_llf"])
+        apart = np.max(np.abs(first[f"{name}_rows"] - second[f"{name}_rows"])
+                       / np.abs(second[f"{name}_rows"]), axis=(1, 2))
+        agreeing = gap <= 1e-6
+        same = int(np.sum(np.all(first[f"{name}_rows"] == second[f"{name}_rows"],
+                                 axis=(1, 2))))
+        print(f"  {label}: log-likelihoods apart by at most {gap.max():.1e}; within 1e-6 "
+              f"in {int(agreeing.sum())} folds, whose forecasts and bounds differ between "
+              f"the kernels by at most {apart[agreeing].max(initial=0.0):.1e} relative "
+              f"(median {np.median(apart[agreeing]) if agreeing.any() else 0.0:.1e}); "
+              f"identical bit for bit in {same}")
+
+
 def part_corpus(per_spec: int) -> None:
     rows = []
     for item in corpus("full"):
@@ -519,7 +597,8 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--part", action="append",
                         choices=("compile", "fit", "series", "system", "search",
-                                 "search-validation", "engine", "corpus", "panel", "split"),
+                                 "search-validation", "engine", "corpus", "panel", "split",
+                                 "kernels"),
                         help="repeat for several")
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--search-folds", type=int, default=6)
@@ -530,7 +609,15 @@ def main() -> None:
     parser.add_argument("--panel-series", type=int, default=20)
     parser.add_argument("--panel-origins", type=int, default=24)
     parser.add_argument("--jobs", type=int, default=2, help="engine workers (part panel)")
+    parser.add_argument("--kernel-series", type=int, default=10, help="panel series (part kernels)")
+    parser.add_argument("--record-kernel-folds", metavar="PATH",
+                        help="only record part kernels' folds to PATH (its child processes)")
     args = parser.parse_args()
+    if args.record_kernel_folds:
+        with threadpool_limits(limits=1):
+            record_kernel_folds(args.record_kernel_folds, args.kernel_series,
+                                args.panel_origins)
+        return
     print(f"load: {os.getloadavg()[0]:.2f} {os.getloadavg()[1]:.2f} "
           f"{os.getloadavg()[2]:.2f} on {os.cpu_count()} cores; one BLAS thread")
     print(f"warm-up in this process: {warm_up():.2f} s")
@@ -542,7 +629,8 @@ def main() -> None:
              "engine": lambda: part_engine(args.engine_origins),
              "corpus": lambda: part_corpus(args.origins),
              "panel": lambda: part_panel(args.panel_series, args.panel_origins, args.jobs),
-             "split": lambda: part_split(args.jobs)}
+             "split": lambda: part_split(args.jobs),
+             "kernels": lambda: part_kernels(args.kernel_series, args.panel_origins)}
     with threadpool_limits(limits=1):
         for name, run in parts.items():
             if args.part is None or name in args.part:

@@ -10,9 +10,10 @@ fast estimator takes the same path: the same start (:func:`.fast_ets.start_value
 same routine (:mod:`.lbfgsb_driver`), the same difference steps, and likelihood values
 equal to statsmodels' to the last bit. For the values: the smoother's operations in its
 order (:func:`.fast_ets_kernel.advance`), the squared errors summed in numpy's pairwise
-order, and numpy's own logarithm (vectorised on this machine's instruction set, it
-differs from the C library's in the last bit about once in ten thousand values, enough
-to turn a path). The point and its moved copies run as lanes of one pass over the data.
+order, and numpy's own logarithm (numpy picks a vectorised logarithm for the processor it
+runs on, which can differ from the C library's in the last bit: measured once in ten
+thousand values on the development machine, enough to turn a path). The point and its
+moved copies run as lanes of one pass over the data.
 """
 
 from __future__ import annotations
