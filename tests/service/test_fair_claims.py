@@ -34,6 +34,7 @@ from tests.service.worker_helpers import (
     some_series,
     wait_until,
     workers,
+    writing,
 )
 from tests.storage.builders import monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store
@@ -63,7 +64,7 @@ def sessions(store: str) -> Iterator[sessionmaker[Session]]:
 
 def _queue_as(sessions: sessionmaker[Session], requester: str, series: Sequence[Series],
               candidates: Sequence[Candidate] = FAST, plan: Plan = FAST_PLAN) -> int:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         versions = [save_series_version(session, s, actor=requester).version.id
                     for s in series]
         return queue_run(session, series_version_ids=versions, candidates=candidates,
@@ -72,7 +73,7 @@ def _queue_as(sessions: sessionmaker[Session], requester: str, series: Sequence[
 
 def _claim(sessions: sessionmaker[Session], owner: str,
            max_running: int | None = None) -> Claim | None:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         return claim_run(session, owner=owner, lease_seconds=30.0, max_running=max_running)
 
 
@@ -101,7 +102,7 @@ def test_a_key_running_its_limit_waits_and_resumes_when_one_ends(sessions):
 
     assert [_claim(sessions, "w", max_running=2).lease.run_id for _ in range(2)] == flood[:2]
     assert _claim(sessions, "w", max_running=2) is None
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         fail_run(session, flood[0], actor="w", reason="done for the test")
 
     assert _claim(sessions, "w", max_running=2).lease.run_id == flood[2]
@@ -115,7 +116,7 @@ def test_after_a_run_the_key_served_least_recently_goes_first(sessions):
     for _ in range(4):  # one worker: each run ends before the next claim
         claim = _claim(sessions, "w")
         order.append(claim.lease.run_id)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             fail_run(session, claim.lease.run_id, actor="w", reason="done for the test")
 
     # no key has a run running at any claim; the other key, never served, goes second
@@ -131,11 +132,11 @@ def test_one_key_s_flood_does_not_hold_back_another_key_s_run(store, sessions,
         wait_until(lambda: _status(sessions, flood[0]) != "queued", "the flood to start",
                    timeout=300, log=worker.log)
         other = _queue_as(sessions, OTHER, some_series(1, prefix="other"), SLOW, SLOW_PLAN)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             started_before = len(events(session, "run.started"))
         wait_until(lambda: _status(sessions, other) == "succeeded", "the other key's run",
                    timeout=600, log=worker.log)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             order = [int(e.subject.split("/")[1]) for e in events(session, "run.started")]
             still_waiting = [r for r in flood if get_run(session, r).status == "queued"]
     print(f"\nclaim order (flood {flood}, other {other}): {order}; flood runs started when "
@@ -156,13 +157,13 @@ def test_a_cancel_stops_a_long_single_series_run_within_seconds(store, sessions,
         wait_until(lambda: _folds_done(sessions, run_id) > 0, "a first task to finish",
                    timeout=400, log=worker.log)
         pool = _pool_processes(worker.process.pid)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             request_cancel(session, run_id, actor=OTHER)
         asked = time.monotonic()
         wait_until(lambda: _status(sessions, run_id) == "cancelled", "the cancel to act",
                    timeout=120, log=worker.log)
         latency = time.monotonic() - asked
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             run = get_run(session, run_id)
             stored = session.scalars(select(SeriesResultRecord.run_id)
                                      .where(SeriesResultRecord.run_id == run_id)).all()
@@ -205,10 +206,10 @@ def _wait_ready(worker: WorkerProcess) -> None:
 
 
 def _status(sessions: sessionmaker[Session], run_id: int) -> str:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         return session.scalar(select(Run.status).where(Run.id == run_id))
 
 
 def _folds_done(sessions: sessionmaker[Session], run_id: int) -> int:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         return session.scalar(select(Run.folds_done).where(Run.id == run_id)) or 0

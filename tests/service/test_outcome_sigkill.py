@@ -15,7 +15,7 @@ from backtest.series import Series, make_series
 from storage.audit import outcomes_subject, verify_audit_log
 from storage.ledger import current_outcomes, due_outcomes, get_issued
 from storage.series import load_series, save_series_version
-from tests.service.worker_helpers import ANALYST, events, sessions_on, wait_until, workers
+from tests.service.worker_helpers import ANALYST, events, sessions_on, wait_until, workers, writing
 from tests.storage.builders import issue_and_record, monthly_series
 from tests.storage.conftest import BACKENDS, migrated_store
 
@@ -45,18 +45,18 @@ def _issue_forecasts(session: Session) -> list[Series]:
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_killed_scorer_leaves_each_due_outcome_scored_exactly_once(backend, tmp_path: Path):
     with migrated_store(backend, tmp_path) as url, sessions_on(url) as sessions:
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             later = _issue_forecasts(session)
         total = SERIES * FORECASTS_PER_SERIES
         with workers(url, tmp_path / "first") as [first]:
             first.wait_ready()
-            with sessions.begin() as session:
+            with writing(sessions) as session:
                 versions = [save_series_version(session, s, actor=ANALYST).version.id
                             for s in later]
                 due = due_outcomes(session)
 
             def some_recorded() -> int:
-                with sessions.begin() as session:
+                with writing(sessions) as session:
                     return len(events(session, "outcomes.recorded"))
 
             wait_until(some_recorded, "a first outcome set", log=first.log)
@@ -66,11 +66,11 @@ def test_killed_scorer_leaves_each_due_outcome_scored_exactly_once(backend, tmp_
         with workers(url, tmp_path / "second", count=2) as pair:
 
             def nothing_due() -> bool:
-                with sessions.begin() as session:
+                with writing(sessions) as session:
                     return not due_outcomes(session)
 
             wait_until(nothing_due, "the restarted workers to score the rest", log=pair[0].log)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             written = events(session, "outcomes.recorded")
             stored = {f: current_outcomes(session, f) for f, _ in due}
             actuals = {v: load_series(session, v) for v in versions}

@@ -20,17 +20,18 @@ from tests.service.worker_helpers import (
     some_series,
     wait_until,
     workers,
+    writing,
 )
 from tests.storage.conftest import migrated_store
 
 
 def _status(sessions, run_id: int) -> str:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         return get_run(session, run_id).status
 
 
 def _done(sessions, run_id: int) -> list[int]:
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         return completed_units(session, run_id)
 
 
@@ -47,7 +48,7 @@ def test_idle_worker_computes_a_run_queued_later_and_stops_on_sigterm(tmp_path: 
 
         assert worker.wait() == 0
         assert "stopped" in worker.log.read_text()
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             assert load_run_result(session, run_id).series == direct.series
             assert verify_audit_log(session).ok
 
@@ -58,7 +59,7 @@ def test_a_cancel_is_honoured_between_units_and_sigterm_hands_the_next_run_back(
             workers(url, tmp_path) as [worker]:
         cancelled = queue(sessions, some_series(4), SLOW, SLOW_PLAN)
         wait_until(lambda: _done(sessions, cancelled), "a first unit", log=worker.log)
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             request_cancel(session, cancelled, actor="alice")
         wait_until(lambda: _status(sessions, cancelled) == "cancelled", "the cancel",
                    log=worker.log)
@@ -68,7 +69,7 @@ def test_a_cancel_is_honoured_between_units_and_sigterm_hands_the_next_run_back(
         worker.signal(signal.SIGTERM)
 
         assert worker.wait() == 0
-        with sessions.begin() as session:
+        with writing(sessions) as session:
             run = get_run(session, cancelled)
             [started] = events(session, "run.started", run_subject(cancelled))
             [finished] = events(session, "run.finished", run_subject(cancelled))

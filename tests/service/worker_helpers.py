@@ -23,7 +23,7 @@ from backtest.candidates import Candidate, parse_candidates
 from backtest.plan import Plan, parse_plan
 from backtest.series import Series
 from storage.audit import AuditEntry, entry_of
-from storage.db import AuditEvent, make_engine, session_factory
+from storage.db import AuditEvent, make_engine, session_factory, take_write_lock
 from storage.runs import queue_run
 from storage.series import save_series_version
 from tests.storage.builders import monthly_series
@@ -46,6 +46,16 @@ def some_series(count: int, prefix: str = "sales") -> list[Series]:
 
 
 @contextmanager
+def writing(sessions: sessionmaker[Session]) -> Iterator[Session]:
+    """A committed transaction that holds the store's write lock from its start, as the
+    service's write transactions do: beside running workers a SQLite transaction that
+    reads before it writes is otherwise refused at once if a worker commits in between."""
+    with sessions.begin() as session:
+        take_write_lock(session)
+        yield session
+
+
+@contextmanager
 def sessions_on(url: str) -> Iterator[sessionmaker[Session]]:
     """Sessions on the store at ``url``."""
     engine = make_engine(url)
@@ -58,7 +68,7 @@ def sessions_on(url: str) -> Iterator[sessionmaker[Session]]:
 def queue(sessions: sessionmaker[Session], series: Sequence[Series],
           candidates: Sequence[Candidate] = FAST, plan: Plan = FAST_PLAN) -> int:
     """Save ``series`` and queue a run on them; return its id."""
-    with sessions.begin() as session:
+    with writing(sessions) as session:
         versions = [save_series_version(session, s, actor=ANALYST).version.id for s in series]
         return queue_run(session, series_version_ids=versions, candidates=candidates,
                          plan=plan, actor=ANALYST).id
