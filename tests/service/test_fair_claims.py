@@ -132,11 +132,11 @@ def test_one_key_s_flood_does_not_hold_back_another_key_s_run(store, sessions,
         wait_until(lambda: _status(sessions, flood[0]) != "queued", "the flood to start",
                    timeout=300, log=worker.log)
         other = _queue_as(sessions, OTHER, some_series(1, prefix="other"), SLOW, SLOW_PLAN)
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             started_before = len(events(session, "run.started"))
         wait_until(lambda: _status(sessions, other) == "succeeded", "the other key's run",
                    timeout=600, log=worker.log)
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             order = [int(e.subject.split("/")[1]) for e in events(session, "run.started")]
             still_waiting = [r for r in flood if get_run(session, r).status == "queued"]
     print(f"\nclaim order (flood {flood}, other {other}): {order}; flood runs started when "
@@ -163,7 +163,7 @@ def test_a_cancel_stops_a_long_single_series_run_within_seconds(store, sessions,
         wait_until(lambda: _status(sessions, run_id) == "cancelled", "the cancel to act",
                    timeout=120, log=worker.log)
         latency = time.monotonic() - asked
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             run = get_run(session, run_id)
             stored = session.scalars(select(SeriesResultRecord.run_id)
                                      .where(SeriesResultRecord.run_id == run_id)).all()
@@ -206,10 +206,10 @@ def _wait_ready(worker: WorkerProcess) -> None:
 
 
 def _status(sessions: sessionmaker[Session], run_id: int) -> str:
-    with writing(sessions) as session:
+    with sessions.begin() as session:
         return session.scalar(select(Run.status).where(Run.id == run_id))
 
 
 def _folds_done(sessions: sessionmaker[Session], run_id: int) -> int:
-    with writing(sessions) as session:
+    with sessions.begin() as session:
         return session.scalar(select(Run.folds_done).where(Run.id == run_id)) or 0

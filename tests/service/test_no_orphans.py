@@ -20,7 +20,6 @@ from tests.service.worker_helpers import (
     some_series,
     wait_until,
     workers,
-    writing,
 )
 from tests.storage.conftest import migrated_store
 
@@ -63,7 +62,7 @@ def _run_to_the_end(url: str, log: Path) -> None:
         run_id = queue(sessions, some_series(2), FAST)
 
         def status() -> str:
-            with writing(sessions) as session:
+            with sessions.begin() as session:
                 return get_run(session, run_id).status
 
         wait_until(lambda: status() == "succeeded", "the run to finish", timeout=240, log=log)

@@ -56,7 +56,7 @@ def test_killed_scorer_leaves_each_due_outcome_scored_exactly_once(backend, tmp_
                 due = due_outcomes(session)
 
             def some_recorded() -> int:
-                with writing(sessions) as session:
+                with sessions.begin() as session:
                     return len(events(session, "outcomes.recorded"))
 
             wait_until(some_recorded, "a first outcome set", log=first.log)
@@ -66,11 +66,11 @@ def test_killed_scorer_leaves_each_due_outcome_scored_exactly_once(backend, tmp_
         with workers(url, tmp_path / "second", count=2) as pair:
 
             def nothing_due() -> bool:
-                with writing(sessions) as session:
+                with sessions.begin() as session:
                     return not due_outcomes(session)
 
             wait_until(nothing_due, "the restarted workers to score the rest", log=pair[0].log)
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             written = events(session, "outcomes.recorded")
             stored = {f: current_outcomes(session, f) for f, _ in due}
             actuals = {v: load_series(session, v) for v in versions}

@@ -18,7 +18,6 @@ from tests.service.worker_helpers import (
     some_series,
     wait_until,
     workers,
-    writing,
 )
 from tests.storage.conftest import migrated_store
 
@@ -35,13 +34,13 @@ def test_two_workers_never_process_the_same_unit_and_finish_every_run(tmp_path: 
                 for i in range(RUNS)]
 
         def statuses() -> list[str]:
-            with writing(sessions) as session:
+            with sessions.begin() as session:
                 return [get_run(session, run_id).status for run_id in runs]
 
         wait_until(lambda: statuses() == ["succeeded"] * RUNS, "every run to succeed",
                    log=pair[0].log)
 
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             infos = [get_run(session, run_id) for run_id in runs]
             claims = [events(session, "run.started", run_subject(r)) for r in runs]
             reclaims = [events(session, "run.reclaimed", run_subject(r)) for r in runs]

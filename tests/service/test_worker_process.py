@@ -26,12 +26,12 @@ from tests.storage.conftest import migrated_store
 
 
 def _status(sessions, run_id: int) -> str:
-    with writing(sessions) as session:
+    with sessions.begin() as session:
         return get_run(session, run_id).status
 
 
 def _done(sessions, run_id: int) -> list[int]:
-    with writing(sessions) as session:
+    with sessions.begin() as session:
         return completed_units(session, run_id)
 
 
@@ -48,7 +48,7 @@ def test_idle_worker_computes_a_run_queued_later_and_stops_on_sigterm(tmp_path: 
 
         assert worker.wait() == 0
         assert "stopped" in worker.log.read_text()
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             assert load_run_result(session, run_id).series == direct.series
             assert verify_audit_log(session).ok
 

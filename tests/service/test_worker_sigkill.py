@@ -22,7 +22,6 @@ from tests.service.worker_helpers import (
     some_series,
     wait_until,
     workers,
-    writing,
 )
 from tests.storage.conftest import BACKENDS, migrated_store
 
@@ -40,15 +39,15 @@ def test_killed_worker_run_is_finished_by_another_with_identical_results(backend
         run_id = queue(sessions, series, SLOW, SLOW_PLAN)
 
         def done() -> list[int]:
-            with writing(sessions) as session:
+            with sessions.begin() as session:
                 return completed_units(session, run_id)
 
         def status() -> str:
-            with writing(sessions) as session:
+            with sessions.begin() as session:
                 return get_run(session, run_id).status
 
         wait_until(done, "a first unit", log=pair[0].log)
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             [started] = events(session, "run.started", run_subject(run_id))
         holder, other = sorted(pair, key=lambda w: f":{w.process.pid}:" not in started.actor)
         holder.signal(signal.SIGKILL)
@@ -58,7 +57,7 @@ def test_killed_worker_run_is_finished_by_another_with_identical_results(backend
         wait_until(lambda: status() == "succeeded", "the other worker to finish the run",
                    log=other.log)
 
-        with writing(sessions) as session:
+        with sessions.begin() as session:
             run = get_run(session, run_id)
             stored = load_run_result(session, run_id)
             [reclaimed] = events(session, "run.reclaimed", run_subject(run_id))
